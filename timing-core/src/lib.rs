@@ -75,4 +75,4 @@ pub use error::{Error, Quantity};
 pub use real::Real;
 pub use tank::Tank;
 pub use timer::{DelayCommand, Ticks, Timer, WindowPosition};
-pub use transition::{Transition, TurnOn, Valley, ZvsWindow, F32_MAX_ANGLE_ERROR};
+pub use transition::{Transition, TurnOn, Valley, ZvsWindow, F32_MAX_RELATIVE_ERROR};
