@@ -1,1 +1,17 @@
-//! placeholder
+//! # host-tool
+//!
+//! The host side of zvs-timing: the `zvs-timing` command and the library
+//! behind it. All physics comes from `timing-core`; this crate parses
+//! engineers' numbers, builds reports, and talks to outside programs
+//! (ngspice) for cross-checks.
+//!
+//! **Caution:** resonant converters run at lethal voltages. See
+//! [`point::CAUTION`].
+
+#![deny(clippy::unwrap_used, clippy::expect_used, clippy::panic)]
+#![warn(missing_docs)]
+
+pub mod point;
+pub mod render;
+pub mod spice;
+pub mod units;

@@ -46,7 +46,10 @@ impl Topology {
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
 #[cfg_attr(
     feature = "serde",
-    serde(try_from = "crate::serde_types::CellParams<F>", bound(deserialize = "F: Real + serde::Deserialize<'de>"))
+    serde(
+        try_from = "crate::serde_types::CellParams<F>",
+        bound(deserialize = "F: Real + serde::Deserialize<'de>")
+    )
 )]
 pub struct CellPoint<F> {
     v: F,

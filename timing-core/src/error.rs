@@ -165,12 +165,26 @@ pub enum Error {
     },
 }
 
-fn write_value(f: &mut fmt::Formatter<'_>, v: f64) -> fmt::Result {
-    if v.is_nan() {
-        f.write_str("NaN")
-    } else {
-        write!(f, "{v:e}")
+/// A value as people read it: plain for 1e-3 <= |v| < 1e6 (and 0), else
+/// with an exponent.
+struct Value(f64);
+
+impl fmt::Display for Value {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        let v = self.0;
+        let a = libm::fabs(v);
+        if v.is_nan() {
+            f.write_str("NaN")
+        } else if v == 0.0 || (1e-3..1e6).contains(&a) || a.is_infinite() {
+            write!(f, "{v}")
+        } else {
+            write!(f, "{v:e}")
+        }
     }
+}
+
+fn write_value(f: &mut fmt::Formatter<'_>, v: f64) -> fmt::Result {
+    write!(f, "{}", Value(v))
 }
 
 impl fmt::Display for Error {
@@ -198,7 +212,7 @@ impl fmt::Display for Error {
                 min,
                 max,
             } => {
-                write!(f, "{quantity} must lie in [{min:e}, {max:e}], got ")?;
+                write!(f, "{quantity} must lie in [{}, {}], got ", Value(min), Value(max))?;
                 write_value(f, value)
             }
             Error::Overflow { quantity } => write!(
@@ -211,7 +225,8 @@ impl fmt::Display for Error {
             ),
             Error::DelayNegative { delay_s } => write!(
                 f,
-                "the gate driver's turn-on lead is longer than the time to the target: the delay would be {delay_s:e} s"
+                "the gate driver's turn-on lead is longer than the time to the target: the delay would be {} s",
+                Value(delay_s)
             ),
             Error::ZvsLost { normalized_load } => write!(
                 f,
@@ -219,7 +234,9 @@ impl fmt::Display for Error {
             ),
             Error::FrequencyTooHigh { fs_hz, max_hz } => write!(
                 f,
-                "switching frequency {fs_hz:e} Hz leaves no on-time; the resonant transition allows at most {max_hz:e} Hz"
+                "switching frequency {} Hz leaves no on-time; the resonant transition allows at most {} Hz",
+                Value(fs_hz),
+                Value(max_hz)
             ),
         }
     }

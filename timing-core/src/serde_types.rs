@@ -46,7 +46,12 @@ pub struct TimerParams<F> {
 impl<F: Real> TryFrom<TimerParams<F>> for Timer<F> {
     type Error = Error;
     fn try_from(p: TimerParams<F>) -> Result<Self, Error> {
-        Timer::new(p.clock_hz, p.counter_bits, p.turn_on_delay_s, p.turn_off_delay_s)
+        Timer::new(
+            p.clock_hz,
+            p.counter_bits,
+            p.turn_on_delay_s,
+            p.turn_off_delay_s,
+        )
     }
 }
 

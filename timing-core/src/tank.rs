@@ -21,7 +21,10 @@ use crate::Real;
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
 #[cfg_attr(
     feature = "serde",
-    serde(try_from = "crate::serde_types::TankParams<F>", bound(deserialize = "F: Real + serde::Deserialize<'de>"))
+    serde(
+        try_from = "crate::serde_types::TankParams<F>",
+        bound(deserialize = "F: Real + serde::Deserialize<'de>")
+    )
 )]
 pub struct Tank<F> {
     lr: F,

@@ -57,7 +57,10 @@ impl Ticks {
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
 #[cfg_attr(
     feature = "serde",
-    serde(try_from = "crate::serde_types::Scalar<F>", bound(deserialize = "F: Real + serde::Deserialize<'de>"))
+    serde(
+        try_from = "crate::serde_types::Scalar<F>",
+        bound(deserialize = "F: Real + serde::Deserialize<'de>")
+    )
 )]
 pub struct WindowPosition<F>(F);
 
@@ -113,7 +116,10 @@ impl<F: Real> WindowPosition<F> {
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
 #[cfg_attr(
     feature = "serde",
-    serde(try_from = "crate::serde_types::TimerParams<F>", bound(deserialize = "F: Real + serde::Deserialize<'de>"))
+    serde(
+        try_from = "crate::serde_types::TimerParams<F>",
+        bound(deserialize = "F: Real + serde::Deserialize<'de>")
+    )
 )]
 pub struct Timer<F> {
     clock_hz: F,
@@ -233,7 +239,12 @@ impl<F: Real> Timer<F> {
     /// holds gives its maximum), never wrapping. For per-cycle use where a
     /// clamped delay is the wanted behaviour.
     pub fn ticks_saturating(&self, seconds: F) -> Ticks {
-        Ticks((seconds * self.clock_hz).round().to_u32_saturating().min(self.max_ticks))
+        Ticks(
+            (seconds * self.clock_hz)
+                .round()
+                .to_u32_saturating()
+                .min(self.max_ticks),
+        )
     }
 
     /// The delay that turns the switch on at `position` in the ZVS window of

@@ -120,8 +120,7 @@ impl<F: Real> Transition<F> {
         let time = |angle: F| derived(Quantity::Interval, angle / w0);
         let charge_end_s = derived(Quantity::Interval, tank.cr_f() * v / i)?;
         let peak_s = charge_end_s + time(F::FRAC_PI_2)?;
-        let peak_switch_voltage_v =
-            derived(Quantity::CellVoltage, v * n::peak_voltage_ratio(j))?;
+        let peak_switch_voltage_v = derived(Quantity::CellVoltage, v * n::peak_voltage_ratio(j))?;
         let turn_on = if j >= F::ONE {
             let open_s = charge_end_s + time(n::ring_angle(j))?;
             // sqrt(J^2 - 1) is exactly 0 at J = 1: the window closes to a point.

@@ -160,7 +160,10 @@ fn bad_inputs_are_named() {
         (Tank::new(f64::NAN, 1e-9), Quantity::ResonantInductance),
         (Tank::new(1e-6, -1e-9), Quantity::ResonantCapacitance),
         (Tank::new(0.0, 1e-9), Quantity::ResonantInductance),
-        (Tank::new(1e-6, f64::INFINITY), Quantity::ResonantCapacitance),
+        (
+            Tank::new(1e-6, f64::INFINITY),
+            Quantity::ResonantCapacitance,
+        ),
         (Tank::new(1e-6, 1e-310), Quantity::ResonantCapacitance),
     ];
     for (r, q) in cases {
@@ -169,15 +172,45 @@ fn bad_inputs_are_named() {
         assert!(named, "{e:?} should name {q:?}");
         assert!(e.to_string().contains(q.describe()));
     }
-    assert!(matches!(Tank::new(1e308, 1e308), Err(Error::Overflow { .. })));
-    assert!(matches!(CellPoint::new(48.0, -1.0), Err(Error::NotPositive { quantity: Quantity::CellCurrent, .. })));
+    assert!(matches!(
+        Tank::new(1e308, 1e308),
+        Err(Error::Overflow { .. })
+    ));
+    assert!(matches!(
+        CellPoint::new(48.0, -1.0),
+        Err(Error::NotPositive {
+            quantity: Quantity::CellCurrent,
+            ..
+        })
+    ));
     assert!(matches!(
         CellPoint::from_converter(Topology::Boost, 48.0, 24.0, 1.0),
-        Err(Error::OutOfRange { quantity: Quantity::OutputVoltage, .. })
+        Err(Error::OutOfRange {
+            quantity: Quantity::OutputVoltage,
+            ..
+        })
     ));
-    assert!(matches!(Timer::new(170e6, 33, 0.0, 0.0), Err(Error::OutOfRange { quantity: Quantity::CounterBits, .. })));
-    assert!(matches!(Timer::new(170e6, 16, -1e-9, 0.0), Err(Error::Negative { quantity: Quantity::TurnOnDelay, .. })));
-    assert!(matches!(WindowPosition::new(1.5), Err(Error::OutOfRange { quantity: Quantity::WindowPosition, .. })));
+    assert!(matches!(
+        Timer::new(170e6, 33, 0.0, 0.0),
+        Err(Error::OutOfRange {
+            quantity: Quantity::CounterBits,
+            ..
+        })
+    ));
+    assert!(matches!(
+        Timer::new(170e6, 16, -1e-9, 0.0),
+        Err(Error::Negative {
+            quantity: Quantity::TurnOnDelay,
+            ..
+        })
+    ));
+    assert!(matches!(
+        WindowPosition::new(1.5),
+        Err(Error::OutOfRange {
+            quantity: Quantity::WindowPosition,
+            ..
+        })
+    ));
 }
 
 #[test]
@@ -186,8 +219,13 @@ fn delays_beyond_the_counter_are_refused_not_wrapped() {
     let tank = Tank::new(1e-3, 1e-6).unwrap();
     let t = transition(&tank, 48.0, current_for(&tank, 48.0, 2.0));
     let timer = Timer::new(170e6, 8, 0.0, 0.0).unwrap();
-    let e = timer.command(&t, WindowPosition::new(0.5).unwrap()).unwrap_err();
-    assert!(matches!(e, Error::TickOverflow { max_ticks: 255, .. }), "{e:?}");
+    let e = timer
+        .command(&t, WindowPosition::new(0.5).unwrap())
+        .unwrap_err();
+    assert!(
+        matches!(e, Error::TickOverflow { max_ticks: 255, .. }),
+        "{e:?}"
+    );
     // The saturating conversion for per-cycle use clamps instead.
     assert_eq!(timer.ticks_saturating(1.0).get(), 255);
     assert_eq!(timer.ticks_saturating(-1.0).get(), 0);
@@ -199,8 +237,14 @@ fn a_slow_driver_is_refused() {
     let tank = Tank::new(1e-6, 6.8e-9).unwrap();
     let t = transition(&tank, 48.0, 6.0); // window closes near 470 ns
     let timer = Timer::new(170e6, 16, 700e-9, 0.0).unwrap();
-    assert!(matches!(timer.command(&t, WindowPosition::EARLIEST), Err(Error::DelayNegative { .. })));
+    assert!(matches!(
+        timer.command(&t, WindowPosition::EARLIEST),
+        Err(Error::DelayNegative { .. })
+    ));
     // A turn-off delay as long as the turn-on delay cancels it.
     let timer = Timer::new(170e6, 16, 700e-9, 700e-9).unwrap();
-    assert!(timer.command(&t, WindowPosition::EARLIEST).unwrap().is_in_window());
+    assert!(timer
+        .command(&t, WindowPosition::EARLIEST)
+        .unwrap()
+        .is_in_window());
 }

@@ -1,0 +1,366 @@
+//! One operating point: the transition, the ZVS window or valley, the
+//! commanded delay and (buck) the regulating frequency, as a report for
+//! people and for scripts. All physics comes from timing-core.
+
+use serde::Serialize;
+use timing_core::{
+    CellPoint, Error as CoreError, Quantity, Tank, Timer, Topology, Transition, WindowPosition,
+};
+
+/// Derating applied to a given switch voltage rating when none is stated:
+/// use at most 80 % of the rated drain-source voltage (common practice, no source).
+pub const DEFAULT_DERATING: f64 = 0.8;
+
+/// Peak-to-cell voltage ratio above which the report warns about stress when
+/// no switch rating is given: 1 + J > 4, i.e. J > 3 (our choice: at that
+/// load the switch blocks four times the supply).
+pub const HIGH_STRESS_RATIO: f64 = 4.0;
+
+/// Safety notice carried by every report.
+pub const CAUTION: &str = "CAUTION: resonant converters run at lethal voltages and store energy. \
+These figures come from an ideal model: bring the board up at reduced voltage, check the switch \
+node with a scope before relying on them, and follow local electrical codes and licensed practice.";
+
+/// The timer and gate driver of a [`PointInput`].
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct TimerInput {
+    /// Timer clock, hertz.
+    pub clock_hz: f64,
+    /// Counter width, bits.
+    pub counter_bits: u8,
+    /// Gate-driver turn-on propagation delay, second.
+    pub turn_on_delay_s: f64,
+    /// Gate-driver turn-off propagation delay, second.
+    pub turn_off_delay_s: f64,
+}
+
+/// Everything the `point` command takes, in SI units.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PointInput {
+    /// Converter topology.
+    pub topology: Topology,
+    /// Resonant inductance, henry.
+    pub lr_h: f64,
+    /// Resonant capacitance, farad.
+    pub cr_f: f64,
+    /// Input voltage, volt.
+    pub vin_v: f64,
+    /// Output voltage, volt (needed for boost and buck-boost; for the buck it
+    /// asks for the regulating switching frequency).
+    pub vout_v: Option<f64>,
+    /// Output current, ampere.
+    pub io_a: f64,
+    /// Timer and driver, if a delay in ticks is wanted.
+    pub timer: Option<TimerInput>,
+    /// Aim point in the ZVS window, 0..=1.
+    pub position: f64,
+    /// Switching frequency for the buck conversion ratio, hertz.
+    pub fs_hz: Option<f64>,
+    /// Switch drain-source voltage rating, volt, for the stress warning.
+    pub vds_rating_v: Option<f64>,
+    /// Fraction of the rating allowed in use.
+    pub derating: f64,
+}
+
+/// A rejected input: which option and why, in one line.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[error("{option}: {message}")]
+pub struct InputError {
+    /// The command-line option (or design-file key) at fault, e.g. `--lr`.
+    pub option: &'static str,
+    /// What is wrong, naming the value.
+    pub message: String,
+}
+
+impl InputError {
+    /// An error on `option`.
+    pub fn new(option: &'static str, message: impl Into<String>) -> Self {
+        Self {
+            option,
+            message: message.into(),
+        }
+    }
+}
+
+/// The command-line option that sets `q` (for error messages).
+#[must_use]
+pub fn option_for(q: Quantity) -> &'static str {
+    match q {
+        Quantity::ResonantInductance => "--lr",
+        Quantity::ResonantCapacitance => "--cr",
+        Quantity::InputVoltage => "--vin",
+        Quantity::OutputVoltage => "--vout",
+        Quantity::OutputCurrent => "--io",
+        Quantity::TimerClock => "--timer-hz",
+        Quantity::CounterBits => "--counter-bits",
+        Quantity::TurnOnDelay => "--driver-delay",
+        Quantity::TurnOffDelay => "--driver-delay-off",
+        Quantity::WindowPosition => "--position",
+        Quantity::SwitchingFrequency => "--fs",
+        Quantity::ConversionRatio => "--vout",
+        Quantity::DelayTicks => "--timer-hz",
+        _ => "operating point",
+    }
+}
+
+fn quantity_of(e: &CoreError) -> Option<Quantity> {
+    match *e {
+        CoreError::NotFinite { quantity, .. }
+        | CoreError::NotPositive { quantity, .. }
+        | CoreError::Negative { quantity, .. }
+        | CoreError::Subnormal { quantity, .. }
+        | CoreError::OutOfRange { quantity, .. }
+        | CoreError::Overflow { quantity } => Some(quantity),
+        CoreError::TickOverflow { .. } => Some(Quantity::DelayTicks),
+        CoreError::DelayNegative { .. } => Some(Quantity::TurnOnDelay),
+        CoreError::FrequencyTooHigh { .. } => Some(Quantity::SwitchingFrequency),
+        _ => None,
+    }
+}
+
+impl From<CoreError> for InputError {
+    fn from(e: CoreError) -> Self {
+        let option = quantity_of(&e).map_or("operating point", option_for);
+        InputError::new(option, e.to_string())
+    }
+}
+
+/// The `point` report. Times are seconds from gate turn-off at the switch;
+/// fields that do not apply are `null` in JSON.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct PointReport {
+    /// `buck`, `boost` or `buck-boost`.
+    pub topology: &'static str,
+    /// Cell voltage V the switch blocks, volt.
+    pub cell_voltage_v: f64,
+    /// Cell current I the switch carries, ampere.
+    pub cell_current_a: f64,
+    /// Characteristic impedance Z0 = sqrt(Lr/Cr), ohm.
+    pub z0_ohm: f64,
+    /// Resonant frequency f0, hertz.
+    pub f0_hz: f64,
+    /// Whether ZVS is possible (J >= 1).
+    pub zvs: bool,
+    /// J = I*Z0/V.
+    pub normalized_load: f64,
+    /// Lightest cell current with ZVS at this cell voltage, V/Z0, ampere.
+    pub zvs_boundary_current_a: f64,
+    /// End of the linear charge (switch voltage reaches V), s.
+    pub charge_end_s: f64,
+    /// Time of the peak switch voltage, s.
+    pub peak_s: f64,
+    /// Peak switch voltage V*(1 + J), volt.
+    pub peak_switch_voltage_v: f64,
+    /// ZVS window opens (switch voltage at zero), s.
+    pub window_open_s: Option<f64>,
+    /// ZVS window closes (inductor current at zero), s.
+    pub window_close_s: Option<f64>,
+    /// Window width, s.
+    pub window_width_s: Option<f64>,
+    /// Valley of the switch voltage below the ZVS boundary, s.
+    pub valley_s: Option<f64>,
+    /// Switch voltage at the valley, volt.
+    pub valley_voltage_v: Option<f64>,
+    /// End of the current ramp (freewheel diode off), s.
+    pub current_ramp_end_s: f64,
+    /// Instant aimed at (position in the window, or the valley), s.
+    pub turn_on_target_s: f64,
+    /// Position in the window aimed at, 0..=1.
+    pub window_position: f64,
+    /// Commanded delay from the turn-off command, timer ticks.
+    pub delay_ticks: Option<u32>,
+    /// The same delay in seconds.
+    pub delay_s: Option<f64>,
+    /// When the switch turns on with that delay (after the driver), s.
+    pub commanded_turn_on_s: Option<f64>,
+    /// Whether that turn-on is inside the ZVS window.
+    pub in_window: Option<bool>,
+    /// Time from window open to the turn-on, s (negative: too early).
+    pub margin_after_open_s: Option<f64>,
+    /// Time from the turn-on to window close, s (negative: too late).
+    pub margin_before_close_s: Option<f64>,
+    /// One timer tick, s.
+    pub tick_s: Option<f64>,
+    /// Buck conversion ratio Vout/Vin at the switching frequency.
+    pub conversion_ratio: Option<f64>,
+    /// Switching frequency (given, or regulating to `--vout` for the buck), Hz.
+    pub switching_frequency_hz: Option<f64>,
+    /// On-interval at that frequency, s.
+    pub on_time_s: Option<f64>,
+    /// Highest switching frequency with a non-negative on-time, Hz.
+    pub max_switching_frequency_hz: f64,
+    /// Plain-language warnings.
+    pub warnings: Vec<String>,
+    /// Safety notice.
+    pub caution: &'static str,
+}
+
+/// Compute the report for `input`.
+///
+/// # Errors
+/// [`InputError`] naming the option whose value is invalid or that makes the
+/// point impossible (e.g. a delay beyond the timer counter).
+pub fn evaluate(input: &PointInput) -> Result<PointReport, InputError> {
+    let tank = Tank::new(input.lr_h, input.cr_f)?;
+    let vout = match (input.topology.needs_vout(), input.vout_v) {
+        (true, None) => {
+            return Err(InputError::new(
+                "--vout",
+                format!(
+                    "the {} cell needs the output voltage",
+                    input.topology.name()
+                ),
+            ))
+        }
+        (_, v) => v.unwrap_or(f64::NAN),
+    };
+    let cell = CellPoint::from_converter(input.topology, input.vin_v, vout, input.io_a)?;
+    let t = Transition::new(&tank, &cell)?;
+    let position = WindowPosition::new(input.position)?;
+    let window = t.window();
+    let valley = t.valley();
+    let target = t.turn_on_target_s(position);
+    let mut warnings = Vec::new();
+    let j = t.normalized_load();
+    let boundary_current = cell.v_volt() / tank.z0_ohm();
+    if let Some(v) = valley {
+        warnings.push(format!(
+            "ZVS is lost: J = {j:.3} < 1, the ring bottoms out at {:.1} V instead of 0 V. \
+             The delay aims at the valley (hard turn-on at reduced voltage). ZVS needs a cell current \
+             of at least {:.3} A here, or a larger Z0.",
+            v.valley_voltage_v, boundary_current
+        ));
+    }
+    let peak = t.peak_switch_voltage_v();
+    match input.vds_rating_v {
+        Some(rating) => {
+            if !(rating.is_finite() && rating > 0.0) {
+                return Err(InputError::new(
+                    "--vds-rating",
+                    format!("must be a positive voltage, got {rating}"),
+                ));
+            }
+            if !(input.derating > 0.0 && input.derating <= 1.0) {
+                return Err(InputError::new(
+                    "--derating",
+                    format!("must lie in (0, 1], got {}", input.derating),
+                ));
+            }
+            let allowed = rating * input.derating;
+            if peak > rating {
+                warnings.push(format!(
+                    "peak switch voltage {peak:.1} V exceeds the switch rating of {rating:.0} V: the MOSFET will avalanche"
+                ));
+            } else if peak > allowed {
+                warnings.push(format!(
+                    "peak switch voltage {peak:.1} V is above {:.0} % of the {rating:.0} V rating ({allowed:.1} V)",
+                    input.derating * 100.0
+                ));
+            }
+        }
+        None if peak > HIGH_STRESS_RATIO * cell.v_volt() => warnings.push(format!(
+            "high voltage stress: the switch peaks at {peak:.1} V, {:.1} times the cell voltage; \
+             check it against the MOSFET rating (--vds-rating)",
+            peak / cell.v_volt()
+        )),
+        None => {}
+    }
+
+    let mut report = PointReport {
+        topology: input.topology.name(),
+        cell_voltage_v: cell.v_volt(),
+        cell_current_a: cell.i_amp(),
+        z0_ohm: tank.z0_ohm(),
+        f0_hz: tank.f0_hz(),
+        zvs: t.is_zvs(),
+        normalized_load: j,
+        zvs_boundary_current_a: boundary_current,
+        charge_end_s: t.charge_end_s(),
+        peak_s: t.peak_s(),
+        peak_switch_voltage_v: peak,
+        window_open_s: window.map(|w| w.open_s),
+        window_close_s: window.map(|w| w.close_s),
+        window_width_s: window.map(|w| w.width_s()),
+        valley_s: valley.map(|v| v.valley_s),
+        valley_voltage_v: valley.map(|v| v.valley_voltage_v),
+        current_ramp_end_s: t.ramp_end_s(),
+        turn_on_target_s: target,
+        window_position: position.get(),
+        delay_ticks: None,
+        delay_s: None,
+        commanded_turn_on_s: None,
+        in_window: None,
+        margin_after_open_s: None,
+        margin_before_close_s: None,
+        tick_s: None,
+        conversion_ratio: None,
+        switching_frequency_hz: None,
+        on_time_s: None,
+        max_switching_frequency_hz: t.max_switching_frequency_hz(),
+        warnings,
+        caution: CAUTION,
+    };
+
+    if let Some(ti) = input.timer {
+        let timer = Timer::new(
+            ti.clock_hz,
+            ti.counter_bits,
+            ti.turn_on_delay_s,
+            ti.turn_off_delay_s,
+        )?;
+        let cmd = timer.command(&t, position)?;
+        let on = cmd.turn_on_s();
+        report.delay_ticks = Some(cmd.ticks().get());
+        report.delay_s = Some(f64::from(cmd.ticks().get()) / timer.clock_hz());
+        report.commanded_turn_on_s = Some(on);
+        report.tick_s = Some(1.0 / timer.clock_hz());
+        if let Some(w) = window {
+            report.in_window = Some(cmd.is_in_window());
+            report.margin_after_open_s = Some(on - w.open_s);
+            report.margin_before_close_s = Some(w.close_s - on);
+            if !cmd.is_in_window() {
+                report.warnings.push(format!(
+                    "no timer tick lands in the ZVS window: it is {:.2} ns wide and one tick is {:.2} ns; \
+                     use a faster (high-resolution) timer or aim at the valley",
+                    w.width_s() * 1e9,
+                    1e9 / timer.clock_hz()
+                ));
+            } else if w.width_s() < 3.0 / timer.clock_hz() {
+                report.warnings.push(format!(
+                    "the ZVS window is only {:.1} ticks wide: jitter or a small error in Lr, Cr or the \
+                     sensed current moves the turn-on out of it",
+                    w.width_s() * timer.clock_hz()
+                ));
+            }
+        }
+    }
+
+    let regulation = match (input.topology, input.fs_hz, input.vout_v) {
+        (Topology::Buck, Some(fs), _) => Some(t.buck_regulation_at(fs)?),
+        (Topology::Buck, None, Some(vout)) => Some(
+            t.buck_regulation_for_ratio(vout / input.vin_v)
+                .map_err(|e| {
+                    InputError::new(
+                        "--vout",
+                        format!(
+                            "{e}; Vout = {vout} V is out of reach at Vin = {} V",
+                            input.vin_v
+                        ),
+                    )
+                })?,
+        ),
+        (_, Some(_), _) => {
+            return Err(InputError::new(
+                "--fs",
+                "the conversion ratio is implemented for the buck cell only",
+            ))
+        }
+        _ => None,
+    };
+    if let Some(r) = regulation {
+        report.conversion_ratio = Some(r.conversion_ratio);
+        report.switching_frequency_hz = Some(r.switching_frequency_hz);
+        report.on_time_s = Some(r.on_time_s);
+    }
+    Ok(report)
+}

@@ -1,0 +1,106 @@
+//! Human-readable rendering of reports.
+
+use std::fmt::Write as _;
+
+use crate::point::PointReport;
+use crate::units::format_si;
+
+fn ns(t: f64) -> String {
+    format_si(t, "s")
+}
+
+/// The `point` report as a short table, times from gate turn-off.
+#[must_use]
+pub fn point_text(r: &PointReport) -> String {
+    let mut s = String::new();
+    let _ = writeln!(
+        s,
+        "{} cell   V = {}   I = {}   Z0 = {}   f0 = {}",
+        r.topology,
+        format_si(r.cell_voltage_v, "V"),
+        format_si(r.cell_current_a, "A"),
+        format_si(r.z0_ohm, "Ω"),
+        format_si(r.f0_hz, "Hz"),
+    );
+    let _ = writeln!(
+        s,
+        "normalised load J = {:.4}   ({}; boundary at I = {})",
+        r.normalized_load,
+        if r.zvs {
+            "ZVS possible"
+        } else {
+            "ZVS impossible"
+        },
+        format_si(r.zvs_boundary_current_a, "A")
+    );
+    let _ = writeln!(s);
+    let _ = writeln!(s, "  event (from gate turn-off)            time");
+    let _ = writeln!(s, "  ------------------------------------  ----------");
+    let row = |s: &mut String, what: &str, t: f64| {
+        let _ = writeln!(s, "  {what:<36}  {:>10}", ns(t));
+    };
+    row(&mut s, "switch voltage reaches V", r.charge_end_s);
+    row(
+        &mut s,
+        &format!(
+            "peak switch voltage {}",
+            format_si(r.peak_switch_voltage_v, "V")
+        ),
+        r.peak_s,
+    );
+    if let (Some(open), Some(close)) = (r.window_open_s, r.window_close_s) {
+        row(&mut s, "ZVS window opens (switch at 0 V)", open);
+        row(&mut s, "ZVS window closes (Lr current at 0)", close);
+        let _ = writeln!(s, "  {:<36}  {:>10}", "  window width", ns(close - open));
+    }
+    if let (Some(v), Some(vv)) = (r.valley_s, r.valley_voltage_v) {
+        row(&mut s, &format!("valley at {}", format_si(vv, "V")), v);
+    }
+    row(&mut s, "current ramp ends", r.current_ramp_end_s);
+    let _ = writeln!(s);
+    if r.zvs {
+        let _ = writeln!(
+            s,
+            "aim: {:.0} % into the window, at {}",
+            r.window_position * 100.0,
+            ns(r.turn_on_target_s)
+        );
+    } else {
+        let _ = writeln!(s, "aim: valley fallback, at {}", ns(r.turn_on_target_s));
+    }
+    if let (Some(ticks), Some(d), Some(on), Some(tick)) =
+        (r.delay_ticks, r.delay_s, r.commanded_turn_on_s, r.tick_s)
+    {
+        let _ = writeln!(
+            s,
+            "delay: {ticks} ticks of {} = {} after the turn-off command; switch turns on at {}",
+            ns(tick),
+            ns(d),
+            ns(on)
+        );
+        if let (Some(a), Some(b)) = (r.margin_after_open_s, r.margin_before_close_s) {
+            let _ = writeln!(
+                s,
+                "margins: {} after the window opens, {} before it closes",
+                ns(a),
+                ns(b)
+            );
+        }
+    }
+    if let (Some(fs), Some(m), Some(ton)) =
+        (r.switching_frequency_hz, r.conversion_ratio, r.on_time_s)
+    {
+        let _ = writeln!(
+            s,
+            "buck: fs = {}  M = Vout/Vin = {m:.4}  on-time {}  (fs at most {})",
+            format_si(fs, "Hz"),
+            ns(ton),
+            format_si(r.max_switching_frequency_hz, "Hz")
+        );
+    }
+    for w in &r.warnings {
+        let _ = writeln!(s, "\nWARNING: {w}");
+    }
+    let _ = writeln!(s, "\n{}", r.caution);
+    s
+}

@@ -1,0 +1,268 @@
+//! SPICE decks of the resonant switch cell, in standard syntax, and a runner
+//! for Debian's `ngspice` in batch mode that reads back `.meas` results.
+//!
+//! The deck models the cell the way DESIGN.md section 6 describes: a
+//! voltage-controlled switch with an antiparallel (body) diode, Cr across the
+//! switch, Lr in series, the converter's diode, and the filter or storage
+//! inductor as a constant current source. It starts in the on-state from a
+//! DC operating point (inductors shorted, so the Lr current is exactly the
+//! cell current) and turns the gate off at [`CellDeck::t_off_s`].
+
+use std::collections::BTreeMap;
+use std::fmt::Write as _;
+use std::io::Write as _;
+use std::process::{Command, Stdio};
+
+use timing_core::Topology;
+
+/// One simulation of a cell transition.
+#[derive(Debug, Clone, PartialEq)]
+pub struct CellDeck {
+    /// Converter the cell sits in.
+    pub topology: Topology,
+    /// Resonant inductance, henry.
+    pub lr_h: f64,
+    /// Resonant capacitance, farad.
+    pub cr_f: f64,
+    /// Converter input voltage, volt.
+    pub vin_v: f64,
+    /// Converter output voltage (magnitude), volt; unused for the buck.
+    pub vout_v: f64,
+    /// Current of the filter (buck: output) or input/storage inductor, ampere:
+    /// buck Io, boost Iin, buck-boost Iin + Io.
+    pub inductor_current_a: f64,
+    /// Gate turn-off instant in the simulation, second (t = 0 of the transition).
+    pub t_off_s: f64,
+    /// Gate turn-on instant, second from gate turn-off; `None` keeps the gate off.
+    pub turn_on_s: Option<f64>,
+    /// End of the simulation, second from gate turn-off.
+    pub duration_s: f64,
+    /// Largest time step, second.
+    pub max_step_s: f64,
+}
+
+/// Names of the `.meas` results a deck from [`CellDeck::netlist`] prints.
+pub mod meas {
+    /// Switch voltage reaches the clamp voltage V (end of linear charge), s.
+    pub const CHARGE_END: &str = "t_charge";
+    /// Lr current first crosses zero falling (peak switch voltage), s.
+    pub const PEAK: &str = "t_peak";
+    /// Largest switch voltage, V.
+    pub const PEAK_VOLTAGE: &str = "v_peak";
+    /// Switch voltage first swings back through zero (window opens), s.
+    pub const SWING_TO_ZERO: &str = "t_open";
+    /// Lr current crosses zero rising: window close (ZVS) or valley (no ZVS), s.
+    pub const CURRENT_ZERO_RISE: &str = "t_rise";
+    /// Switch voltage at that instant, V.
+    pub const VOLTAGE_AT_CURRENT_ZERO_RISE: &str = "v_rise";
+}
+
+impl CellDeck {
+    /// The clamp voltage V of the cell from the converter voltages
+    /// (buck Vin, boost Vout, buck-boost Vin + Vout), volt.
+    #[must_use]
+    pub fn clamp_voltage_v(&self) -> f64 {
+        match self.topology {
+            Topology::Boost => self.vout_v,
+            Topology::BuckBoost => self.vin_v + self.vout_v,
+            _ => self.vin_v,
+        }
+    }
+
+    /// The SPICE netlist (ngspice dialect only for `.meas`; the circuit is
+    /// standard SPICE).
+    #[must_use]
+    pub fn netlist(&self) -> String {
+        let t0 = self.t_off_s;
+        let mut d = String::new();
+        let _ = writeln!(
+            d,
+            "* zvs-timing: {} ZVS quasi-resonant switch cell, gate off at {t0:e} s",
+            self.topology.name()
+        );
+        // Gate: on in the DC operating point, off at t0, optionally on again.
+        let edge = 1e-12;
+        let mut gate = format!("PWL(0 1 {t0:e} 1 {:e} 0", t0 + edge);
+        if let Some(on) = self.turn_on_s {
+            let _ = write!(gate, " {:e} 0 {:e} 1", t0 + on, t0 + on + edge);
+        }
+        gate.push(')');
+        let _ = writeln!(d, "Vg g 0 {gate}");
+        let (lr, cr, i) = (self.lr_h, self.cr_f, self.inductor_current_a);
+        match self.topology {
+            Topology::Boost => {
+                // Input inductor as a current source into x; switch from a2 to ground.
+                let _ = writeln!(d, "Iin 0 x DC {i:e}");
+                let _ = writeln!(d, "Lr x a {lr:e}");
+                let _ = writeln!(d, "Vsense a a2 0");
+                let _ = writeln!(d, "S1 a2 0 g 0 swmod");
+                let _ = writeln!(d, "Dbody 0 a2 dclamp");
+                let _ = writeln!(d, "Cr a2 0 {cr:e}");
+                let _ = writeln!(d, "Esw sw 0 a2 0 1");
+                let _ = writeln!(d, "Dout x out dclamp");
+                let _ = writeln!(d, "Vout out 0 DC {:e}", self.vout_v);
+            }
+            Topology::BuckBoost => {
+                let _ = writeln!(d, "Vin in 0 DC {:e}", self.vin_v);
+                let _ = writeln!(d, "S1 in a g 0 swmod");
+                let _ = writeln!(d, "Dbody a in dclamp");
+                let _ = writeln!(d, "Cr in a {cr:e}");
+                let _ = writeln!(d, "Esw sw 0 in a 1");
+                let _ = writeln!(d, "Lr a a2 {lr:e}");
+                let _ = writeln!(d, "Vsense a2 x 0");
+                // Storage inductor as a current sink; inverted output.
+                let _ = writeln!(d, "Istore x 0 DC {i:e}");
+                let _ = writeln!(d, "Dout out x dclamp");
+                let _ = writeln!(d, "Vout out 0 DC {:e}", -self.vout_v);
+            }
+            _ => {
+                let _ = writeln!(d, "Vin in 0 DC {:e}", self.vin_v);
+                let _ = writeln!(d, "S1 in a g 0 swmod");
+                let _ = writeln!(d, "Dbody a in dclamp");
+                let _ = writeln!(d, "Cr in a {cr:e}");
+                let _ = writeln!(d, "Esw sw 0 in a 1");
+                let _ = writeln!(d, "Lr a a2 {lr:e}");
+                let _ = writeln!(d, "Vsense a2 b 0");
+                let _ = writeln!(d, "Dfw 0 b dclamp");
+                // Output filter inductor plus load as a constant current sink.
+                let _ = writeln!(d, "Io b 0 DC {i:e}");
+            }
+        }
+        // Near-ideal parts: 1 mOhm / 1 GOhm switch; diodes with a forward drop
+        // of a few tens of mV at amperes (N = 0.05), so the clamps sit close to
+        // the ideal cell's.
+        let _ = writeln!(d, ".model swmod SW(VT=0.5 VH=0.1 RON=1m ROFF=1e9)");
+        let _ = writeln!(d, ".model dclamp D(IS=1e-12 N=0.05 RS=1m)");
+        let _ = writeln!(d, ".options reltol=1e-6 abstol=1e-12 vntol=1e-9");
+        let step = self.max_step_s;
+        let _ = writeln!(d, ".tran {step:e} {:e} 0 {step:e}", t0 + self.duration_s);
+        let v = self.clamp_voltage_v();
+        let from = format!("FROM={t0:e}");
+        let _ = writeln!(
+            d,
+            ".meas tran {} WHEN v(sw)={v:e} RISE=1 {from}",
+            meas::CHARGE_END
+        );
+        let _ = writeln!(
+            d,
+            ".meas tran {} WHEN i(vsense)=0 FALL=1 {from}",
+            meas::PEAK
+        );
+        let _ = writeln!(d, ".meas tran {} MAX v(sw) {from}", meas::PEAK_VOLTAGE);
+        let _ = writeln!(
+            d,
+            ".meas tran {} WHEN v(sw)=0 FALL=1 {from}",
+            meas::SWING_TO_ZERO
+        );
+        let _ = writeln!(
+            d,
+            ".meas tran {} WHEN i(vsense)=0 RISE=1 {from}",
+            meas::CURRENT_ZERO_RISE
+        );
+        let _ = writeln!(
+            d,
+            ".meas tran {} FIND v(sw) WHEN i(vsense)=0 RISE=1 {from}",
+            meas::VOLTAGE_AT_CURRENT_ZERO_RISE
+        );
+        let _ = writeln!(d, ".end");
+        d
+    }
+}
+
+/// What can go wrong running ngspice.
+#[derive(Debug, thiserror::Error)]
+pub enum SpiceError {
+    /// The `ngspice` program is not on the PATH.
+    #[error("ngspice is not installed or not on the PATH ({0}); install it with `apt-get install ngspice`")]
+    NotFound(std::io::Error),
+    /// Any other I/O failure talking to ngspice.
+    #[error("running ngspice: {0}")]
+    Io(#[from] std::io::Error),
+    /// ngspice exited with an error.
+    #[error("ngspice failed (exit {status}): {stderr}")]
+    Failed {
+        /// Exit status.
+        status: String,
+        /// What ngspice wrote to stderr.
+        stderr: String,
+    },
+}
+
+/// Whether an `ngspice` executable can be started.
+#[must_use]
+pub fn ngspice_available() -> bool {
+    Command::new("ngspice")
+        .arg("--version")
+        .stdout(Stdio::null())
+        .stderr(Stdio::null())
+        .status()
+        .is_ok_and(|s| s.success())
+}
+
+/// Run `deck` through `ngspice -b` and return every `.meas` result that
+/// ngspice printed as `name = value` (measurements that failed are absent).
+///
+/// # Errors
+/// [`SpiceError`] when ngspice cannot be started or exits with an error.
+pub fn run_ngspice(deck: &str) -> Result<BTreeMap<String, f64>, SpiceError> {
+    let dir = std::env::temp_dir().join(format!(
+        "zvs-timing-spice-{}-{}",
+        std::process::id(),
+        DECK_COUNTER.fetch_add(1, std::sync::atomic::Ordering::Relaxed)
+    ));
+    std::fs::create_dir_all(&dir)?;
+    let path = dir.join("cell.cir");
+    std::fs::File::create(&path)?.write_all(deck.as_bytes())?;
+    let out = Command::new("ngspice")
+        .arg("-b")
+        .arg(&path)
+        .current_dir(&dir)
+        .stdin(Stdio::null())
+        .output()
+        .map_err(|e| match e.kind() {
+            std::io::ErrorKind::NotFound => SpiceError::NotFound(e),
+            _ => SpiceError::Io(e),
+        })?;
+    let _ = std::fs::remove_dir_all(&dir);
+    if !out.status.success() {
+        return Err(SpiceError::Failed {
+            status: out.status.to_string(),
+            stderr: String::from_utf8_lossy(&out.stderr).into_owned(),
+        });
+    }
+    Ok(parse_meas(&String::from_utf8_lossy(&out.stdout)))
+}
+
+static DECK_COUNTER: std::sync::atomic::AtomicUsize = std::sync::atomic::AtomicUsize::new(0);
+
+/// Read `name = value [at= ...]` lines of ngspice's `.meas` report.
+#[must_use]
+pub fn parse_meas(stdout: &str) -> BTreeMap<String, f64> {
+    stdout
+        .lines()
+        .filter_map(|line| {
+            let (name, rest) = line.split_once('=')?;
+            let name = name.trim();
+            if name.is_empty() || name.contains(char::is_whitespace) {
+                return None;
+            }
+            let value: f64 = rest.split_whitespace().next()?.parse().ok()?;
+            Some((name.to_ascii_lowercase(), value))
+        })
+        .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn meas_report_is_parsed() {
+        let out = "Doing analysis\nt_charge            =   1.54394e-07\nv_peak              =  1.207967e+02 at=  2.839566e-07\nt_open = failed\nTotal analysis time (seconds) = 0.044\n";
+        let m = parse_meas(out);
+        assert_eq!(m.get("t_charge"), Some(&1.54394e-07));
+        assert_eq!(m.get("v_peak"), Some(&120.7967));
+        assert!(!m.contains_key("t_open"));
+        assert!(!m.contains_key("total analysis time (seconds)"));
+    }
+}

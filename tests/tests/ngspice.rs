@@ -1,0 +1,179 @@
+//! Cross-check of timing-core (through the `point` command's library path,
+//! the same code `zvs-timing point --json` prints) against ngspice
+//! transient simulations of the switch cell, for all three cells.
+//!
+//! Reference: ngspice (Debian package `ngspice`), a general-purpose SPICE
+//! simulator; the deck is a voltage-controlled switch with an antiparallel
+//! diode, Cr across it, Lr in series, the converter diode and the big
+//! inductor as a constant current (DESIGN.md section 6). Its crossing times
+//! come from `.meas` statements.
+//!
+//! Tolerance: 0.5 % + 2 ns on times (the acceptance figure). The
+//! deck's diodes drop a few tens of mV, which moves the simulated times by
+//! under 0.1 %; the time step is 1/2000 of 1/w0.
+
+#![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)]
+
+use cross_checks::{assert_close, require_program, Scenario};
+use host_tool::point::{evaluate, PointInput};
+use host_tool::spice::{meas, ngspice_available, run_ngspice, CellDeck};
+
+const REL: f64 = 0.005;
+const ABS_S: f64 = 2e-9;
+
+/// Checks one scenario; returns the worst relative error of a time.
+fn check(s: &Scenario) -> f64 {
+    let input = PointInput {
+        topology: s.topology,
+        lr_h: s.lr_h,
+        cr_f: s.cr_f,
+        vin_v: s.vin_v,
+        vout_v: Some(s.vout_v),
+        io_a: s.io_a,
+        timer: None,
+        position: 0.5,
+        fs_hz: None,
+        vds_rating_v: None,
+        derating: 0.8,
+    };
+    let r = evaluate(&input).unwrap();
+    let w0 = s.w0();
+    let t_off = 20.0 / w0;
+    // Simulate past the event of interest: one ring period plus the charge
+    // and clamp intervals, with margin.
+    let duration =
+        1.3 * (r.charge_end_s + 2.0 * std::f64::consts::PI / w0 + r.normalized_load / w0);
+    let deck = CellDeck {
+        topology: s.topology,
+        lr_h: s.lr_h,
+        cr_f: s.cr_f,
+        vin_v: s.vin_v,
+        vout_v: s.vout_v,
+        inductor_current_a: s.inductor_current_a,
+        t_off_s: t_off,
+        turn_on_s: None,
+        duration_s: duration,
+        max_step_s: 1.0 / w0 / 2000.0,
+    };
+    let m = run_ngspice(&deck.netlist()).unwrap();
+    let get = |k: &str| -> f64 {
+        *m.get(k)
+            .unwrap_or_else(|| panic!("ngspice did not report {k} for {s:?}\n{}", deck.netlist()))
+    };
+    let ctx: &dyn std::fmt::Debug = s;
+    assert_close(
+        "cell voltage",
+        r.cell_voltage_v,
+        s.clamp_voltage_v,
+        1e-12,
+        0.0,
+        ctx,
+    );
+    let mut worst = [
+        assert_close(
+            "charge end",
+            r.charge_end_s,
+            get(meas::CHARGE_END) - t_off,
+            REL,
+            ABS_S,
+            ctx,
+        ),
+        assert_close(
+            "peak time",
+            r.peak_s,
+            get(meas::PEAK) - t_off,
+            REL,
+            ABS_S,
+            ctx,
+        ),
+        assert_close(
+            "peak voltage",
+            r.peak_switch_voltage_v,
+            get(meas::PEAK_VOLTAGE),
+            REL,
+            0.0,
+            ctx,
+        ),
+    ]
+    .into_iter()
+    .fold(0.0, f64::max);
+    if r.zvs {
+        worst = worst
+            .max(assert_close(
+                "window open",
+                r.window_open_s.unwrap(),
+                get(meas::SWING_TO_ZERO) - t_off,
+                REL,
+                ABS_S,
+                ctx,
+            ))
+            .max(assert_close(
+                "window close",
+                r.window_close_s.unwrap(),
+                get(meas::CURRENT_ZERO_RISE) - t_off,
+                REL,
+                ABS_S,
+                ctx,
+            ));
+    } else {
+        assert!(
+            !m.contains_key(meas::SWING_TO_ZERO),
+            "ngspice swung to zero although J = {} < 1: {s:?}",
+            r.normalized_load
+        );
+        worst = worst.max(assert_close(
+            "valley time",
+            r.valley_s.unwrap(),
+            get(meas::CURRENT_ZERO_RISE) - t_off,
+            REL,
+            ABS_S,
+            ctx,
+        ));
+        // Valley voltage V(1 - J): 0.5 % of V (diode drops shift the clamp by tens of mV).
+        assert_close(
+            "valley voltage",
+            r.valley_voltage_v.unwrap(),
+            get(meas::VOLTAGE_AT_CURRENT_ZERO_RISE),
+            0.0,
+            REL * s.clamp_voltage_v,
+            ctx,
+        );
+    }
+    worst
+}
+
+#[test]
+fn transitions_agree_with_ngspice_for_all_cells() {
+    if !require_program("ngspice", ngspice_available(), "apt-get install ngspice") {
+        return;
+    }
+    let set = Scenario::standard_set(0x2e55_0001, 6, 3);
+    let worst = set.iter().map(check).fold(0.0, f64::max);
+    println!(
+        "ngspice agreed on {} operating points; worst relative error {:.3} %",
+        set.len(),
+        worst * 100.0
+    );
+}
+
+#[test]
+fn the_demo_point_agrees_with_ngspice() {
+    if !require_program("ngspice", ngspice_available(), "apt-get install ngspice") {
+        return;
+    }
+    // The README's demo point: 1 uH, 6.8 nF, 48 V, 6 A buck.
+    let z0 = (1e-6f64 / 6.8e-9).sqrt();
+    let s = Scenario {
+        topology: timing_core::Topology::Buck,
+        lr_h: 1e-6,
+        cr_f: 6.8e-9,
+        vin_v: 48.0,
+        vout_v: 12.0,
+        io_a: 6.0,
+        inductor_current_a: 6.0,
+        clamp_voltage_v: 48.0,
+    };
+    assert!(6.0 * z0 / 48.0 > 1.0);
+    let worst = check(&s);
+    println!("demo point: worst relative error {:.3} %", worst * 100.0);
+}
