@@ -7,6 +7,10 @@
 //! inductor as a constant current source. It starts in the on-state from a
 //! DC operating point (inductors shorted, so the Lr current is exactly the
 //! cell current) and turns the gate off at [`CellDeck::t_off_s`].
+//!
+//! Nodes: `in` (input), `a`/`a2` (switch side of Lr), `d` (the converter
+//! diode's node at the big inductor), `sw` (switch voltage, as a node), `g`
+//! (gate); `Vsense` carries the Lr current.
 
 use std::collections::BTreeMap;
 use std::fmt::Write as _;
@@ -39,6 +43,10 @@ pub struct CellDeck {
     pub duration_s: f64,
     /// Largest time step, second.
     pub max_step_s: f64,
+    /// If set, also report the average voltage of node `d` (the converter
+    /// diode's node at the big inductor) from gate turn-off over this many
+    /// seconds: over one switching period it is Vout for the buck.
+    pub average_over_s: Option<f64>,
 }
 
 /// Names of the `.meas` results a deck from [`CellDeck::netlist`] prints.
@@ -55,6 +63,8 @@ pub mod meas {
     pub const CURRENT_ZERO_RISE: &str = "t_rise";
     /// Switch voltage at that instant, V.
     pub const VOLTAGE_AT_CURRENT_ZERO_RISE: &str = "v_rise";
+    /// Average voltage of the diode node over [`super::CellDeck::average_over_s`], V.
+    pub const DIODE_NODE_AVERAGE: &str = "v_diode_avg";
 }
 
 impl CellDeck {
@@ -91,15 +101,15 @@ impl CellDeck {
         let (lr, cr, i) = (self.lr_h, self.cr_f, self.inductor_current_a);
         match self.topology {
             Topology::Boost => {
-                // Input inductor as a current source into x; switch from a2 to ground.
-                let _ = writeln!(d, "Iin 0 x DC {i:e}");
-                let _ = writeln!(d, "Lr x a {lr:e}");
+                // Input inductor as a current source into d; switch from a2 to ground.
+                let _ = writeln!(d, "Iin 0 d DC {i:e}");
+                let _ = writeln!(d, "Lr d a {lr:e}");
                 let _ = writeln!(d, "Vsense a a2 0");
                 let _ = writeln!(d, "S1 a2 0 g 0 swmod");
                 let _ = writeln!(d, "Dbody 0 a2 dclamp");
                 let _ = writeln!(d, "Cr a2 0 {cr:e}");
                 let _ = writeln!(d, "Esw sw 0 a2 0 1");
-                let _ = writeln!(d, "Dout x out dclamp");
+                let _ = writeln!(d, "Dout d out dclamp");
                 let _ = writeln!(d, "Vout out 0 DC {:e}", self.vout_v);
             }
             Topology::BuckBoost => {
@@ -109,10 +119,10 @@ impl CellDeck {
                 let _ = writeln!(d, "Cr in a {cr:e}");
                 let _ = writeln!(d, "Esw sw 0 in a 1");
                 let _ = writeln!(d, "Lr a a2 {lr:e}");
-                let _ = writeln!(d, "Vsense a2 x 0");
+                let _ = writeln!(d, "Vsense a2 d 0");
                 // Storage inductor as a current sink; inverted output.
-                let _ = writeln!(d, "Istore x 0 DC {i:e}");
-                let _ = writeln!(d, "Dout out x dclamp");
+                let _ = writeln!(d, "Istore d 0 DC {i:e}");
+                let _ = writeln!(d, "Dout out d dclamp");
                 let _ = writeln!(d, "Vout out 0 DC {:e}", -self.vout_v);
             }
             _ => {
@@ -122,10 +132,10 @@ impl CellDeck {
                 let _ = writeln!(d, "Cr in a {cr:e}");
                 let _ = writeln!(d, "Esw sw 0 in a 1");
                 let _ = writeln!(d, "Lr a a2 {lr:e}");
-                let _ = writeln!(d, "Vsense a2 b 0");
-                let _ = writeln!(d, "Dfw 0 b dclamp");
+                let _ = writeln!(d, "Vsense a2 d 0");
+                let _ = writeln!(d, "Dfw 0 d dclamp");
                 // Output filter inductor plus load as a constant current sink.
-                let _ = writeln!(d, "Io b 0 DC {i:e}");
+                let _ = writeln!(d, "Io d 0 DC {i:e}");
             }
         }
         // Near-ideal parts: 1 mOhm / 1 GOhm switch; diodes with a forward drop
@@ -164,6 +174,14 @@ impl CellDeck {
             ".meas tran {} FIND v(sw) WHEN i(vsense)=0 RISE=1 {from}",
             meas::VOLTAGE_AT_CURRENT_ZERO_RISE
         );
+        if let Some(span) = self.average_over_s {
+            let _ = writeln!(
+                d,
+                ".meas tran {} AVG v(d) {from} TO={:e}",
+                meas::DIODE_NODE_AVERAGE,
+                t0 + span
+            );
+        }
         let _ = writeln!(d, ".end");
         d
     }

@@ -54,6 +54,7 @@ fn check(s: &Scenario) -> f64 {
         turn_on_s: None,
         duration_s: duration,
         max_step_s: 1.0 / w0 / 2000.0,
+        average_over_s: None,
     };
     let m = run_ngspice(&deck.netlist()).unwrap();
     let get = |k: &str| -> f64 {
@@ -176,4 +177,76 @@ fn the_demo_point_agrees_with_ngspice() {
     assert!(6.0 * z0 / 48.0 > 1.0);
     let worst = check(&s);
     println!("demo point: worst relative error {:.3} %", worst * 100.0);
+}
+
+#[test]
+fn buck_conversion_ratio_agrees_with_a_full_cycle_in_ngspice() {
+    if !require_program("ngspice", ngspice_available(), "apt-get install ngspice") {
+        return;
+    }
+    // One whole switching period: gate off, turn-on mid-window (or at the
+    // valley), on until the next turn-off. The diode-node voltage averaged
+    // over the period is Vout (inductor volt-second balance, textbook relation,
+    // from memory); compare with timing-core's M*Vin.
+    let mut rng = <rand::rngs::StdRng as rand::SeedableRng>::seed_from_u64(0xc0_417);
+    let mut worst = 0.0f64;
+    for k in 0..8 {
+        let j_range = if k < 6 { 1.1..5.0 } else { 0.3..0.9 };
+        let s = Scenario::random(&mut rng, timing_core::Topology::Buck, j_range);
+        let input = PointInput {
+            topology: s.topology,
+            lr_h: s.lr_h,
+            cr_f: s.cr_f,
+            vin_v: s.vin_v,
+            vout_v: None,
+            io_a: s.io_a,
+            timer: None,
+            position: 0.5,
+            fs_hz: None,
+            vds_rating_v: None,
+            derating: 0.8,
+        };
+        let probe = evaluate(&input).unwrap();
+        // A frequency that leaves an on-time of about the transition's length.
+        let fs = 0.5 * probe.max_switching_frequency_hz;
+        let r = evaluate(&PointInput {
+            fs_hz: Some(fs),
+            ..input
+        })
+        .unwrap();
+        let period = 1.0 / fs;
+        let w0 = s.w0();
+        let t_off = 20.0 / w0;
+        let deck = CellDeck {
+            topology: s.topology,
+            lr_h: s.lr_h,
+            cr_f: s.cr_f,
+            vin_v: s.vin_v,
+            vout_v: s.vout_v,
+            inductor_current_a: s.inductor_current_a,
+            t_off_s: t_off,
+            turn_on_s: Some(r.turn_on_target_s),
+            duration_s: period * 1.01,
+            max_step_s: 1.0 / w0 / 2000.0,
+            average_over_s: Some(period),
+        };
+        let m = run_ngspice(&deck.netlist()).unwrap();
+        let vavg = m[meas::DIODE_NODE_AVERAGE];
+        let vout = r.conversion_ratio.unwrap() * s.vin_v;
+        // 0.5 % of Vin: the deck's diode drops (tens of mV) and switch resistance.
+        let ctx: &dyn std::fmt::Debug = &s;
+        assert_close(
+            "average diode-node voltage",
+            vout,
+            vavg,
+            0.0,
+            0.005 * s.vin_v,
+            ctx,
+        );
+        worst = worst.max((vout - vavg).abs() / s.vin_v);
+    }
+    println!(
+        "full-cycle conversion ratio: worst error {:.3} % of Vin",
+        worst * 100.0
+    );
 }
