@@ -195,12 +195,61 @@ pub struct PointReport {
     pub caution: &'static str,
 }
 
+/// Ranges outside which an input is taken for a typing error (a wrong unit
+/// prefix, most often) rather than a real part: option, unit, lowest, highest.
+/// The model itself has no such limits; these only keep nonsense out of reports.
+pub const PLAUSIBLE: &[(&str, &str, f64, f64)] = &[
+    ("--lr", "H", 1e-12, 1.0),
+    ("--cr", "F", 1e-15, 1.0),
+    ("--vin", "V", 1e-3, 1e6),
+    ("--vout", "V", 1e-3, 1e6),
+    ("--io", "A", 1e-6, 1e6),
+    ("--timer-hz", "Hz", 1e3, 1e11),
+    ("--driver-delay", "s", 0.0, 1e-3),
+    ("--driver-delay-off", "s", 0.0, 1e-3),
+    ("--fs", "Hz", 1.0, 1e9),
+];
+
+/// Refuse a finite, positive `value` of `option` outside [`PLAUSIBLE`].
+/// Non-finite and non-positive values pass through, for timing-core to name.
+fn plausible(option: &'static str, value: f64) -> Result<(), InputError> {
+    let Some(&(_, unit, lo, hi)) = PLAUSIBLE.iter().find(|p| p.0 == option) else {
+        return Ok(());
+    };
+    if value.is_finite() && value > 0.0 && !(lo..=hi).contains(&value) {
+        return Err(InputError::new(
+            option,
+            format!(
+                "{value:e} {unit} is outside what zvs-timing accepts ({} to {}); is the unit prefix right?",
+                crate::units::format_si(lo, unit),
+                crate::units::format_si(hi, unit)
+            ),
+        ));
+    }
+    Ok(())
+}
+
 /// Compute the report for `input`.
 ///
 /// # Errors
 /// [`InputError`] naming the option whose value is invalid or that makes the
 /// point impossible (e.g. a delay beyond the timer counter).
 pub fn evaluate(input: &PointInput) -> Result<PointReport, InputError> {
+    plausible("--lr", input.lr_h)?;
+    plausible("--cr", input.cr_f)?;
+    plausible("--vin", input.vin_v)?;
+    plausible("--io", input.io_a)?;
+    if let Some(v) = input.vout_v {
+        plausible("--vout", v)?;
+    }
+    if let Some(fs) = input.fs_hz {
+        plausible("--fs", fs)?;
+    }
+    if let Some(t) = input.timer {
+        plausible("--timer-hz", t.clock_hz)?;
+        plausible("--driver-delay", t.turn_on_delay_s)?;
+        plausible("--driver-delay-off", t.turn_off_delay_s)?;
+    }
     let tank = Tank::new(input.lr_h, input.cr_f)?;
     let vout = match (input.topology.needs_vout(), input.vout_v) {
         (true, None) => {

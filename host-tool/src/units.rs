@@ -36,17 +36,18 @@ pub enum NumberError {
 
 /// SI prefixes accepted after a number. Case matters, as in SI: `m` is
 /// milli, `M` mega. `u` and `µ` both mean micro.
-const PREFIXES: &[(&str, f64)] = &[
-    ("f", 1e-15),
-    ("p", 1e-12),
-    ("n", 1e-9),
-    ("u", 1e-6),
-    ("µ", 1e-6),
-    ("μ", 1e-6),
-    ("m", 1e-3),
-    ("k", 1e3),
-    ("M", 1e6),
-    ("G", 1e9),
+/// Each with its power of ten.
+const PREFIXES: &[(&str, i32)] = &[
+    ("f", -15),
+    ("p", -12),
+    ("n", -9),
+    ("u", -6),
+    ("µ", -6),
+    ("μ", -6),
+    ("m", -3),
+    ("k", 3),
+    ("M", 6),
+    ("G", 9),
 ];
 
 /// Parse `text` as a quantity in `unit` (e.g. `"H"`, `"Hz"`, `"s"`; `""`
@@ -95,7 +96,7 @@ pub fn parse_quantity(text: &str, unit: &'static str) -> Result<f64, NumberError
             // but "F" vs "f" are distinct by case) stays a unit.
             (after.is_empty() || after == unit).then_some((s, after))
         })
-        .unwrap_or((1.0, rest));
+        .unwrap_or((0, rest));
     if !rest.is_empty() && rest != unit && !(unit == "ohm" && (rest == "Ω" || rest == "R")) {
         return Err(NumberError::WrongUnit {
             text: text.to_owned(),
@@ -103,7 +104,13 @@ pub fn parse_quantity(text: &str, unit: &'static str) -> Result<f64, NumberError
             unit: if unit.is_empty() { "no unit" } else { unit },
         });
     }
-    let value = mantissa * scale;
+    // Divide for sub-unit prefixes: 10^k is exact for |k| <= 22, so `25 / 1e9`
+    // is the correctly rounded 25e-9, which `25 * 1e-9` is not.
+    let value = if scale < 0 {
+        mantissa / 10f64.powi(-scale)
+    } else {
+        mantissa * 10f64.powi(scale)
+    };
     if !value.is_finite() {
         return Err(NumberError::NotFinite {
             text: text.to_owned(),

@@ -1,0 +1,201 @@
+//! The `zvs-timing point` command as a user runs it: JSON fields, and one
+//! clear line on stderr for every kind of bad input, never a panic.
+
+#![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)]
+
+use std::process::Command;
+
+const DEMO: &[&str] = &[
+    "point", "--lr", "1u", "--cr", "6.8n", "--vin", "48", "--io", "6",
+];
+
+fn run(args: &[&str]) -> (i32, String, String) {
+    let out = Command::new(env!("CARGO_BIN_EXE_zvs-timing"))
+        .args(args)
+        .output()
+        .unwrap();
+    (
+        out.status.code().unwrap_or(-1),
+        String::from_utf8_lossy(&out.stdout).into_owned(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
+}
+
+fn with(extra: &[&str]) -> Vec<&'static str> {
+    let mut v: Vec<&'static str> = DEMO.to_vec();
+    for e in extra {
+        v.push(Box::leak(e.to_string().into_boxed_str()));
+    }
+    v
+}
+
+/// Replace the value of `opt` in the demo arguments.
+fn replace(opt: &str, value: &str) -> Vec<&'static str> {
+    let mut v = DEMO.to_vec();
+    let k = v.iter().position(|a| *a == opt).unwrap();
+    v[k + 1] = Box::leak(value.to_string().into_boxed_str());
+    v
+}
+
+#[test]
+fn json_has_the_documented_fields() {
+    let (code, out, err) = run(&with(&[
+        "--timer-hz",
+        "170M",
+        "--driver-delay",
+        "25n",
+        "--json",
+    ]));
+    assert_eq!(code, 0, "{err}");
+    let j: serde_json::Value = serde_json::from_str(&out).unwrap();
+    for key in [
+        "zvs",
+        "normalized_load",
+        "charge_end_s",
+        "window_open_s",
+        "window_close_s",
+        "peak_switch_voltage_v",
+        "valley_s",
+        "valley_voltage_v",
+        "delay_ticks",
+    ] {
+        assert!(j.get(key).is_some(), "missing {key}");
+    }
+    assert_eq!(j["zvs"], true);
+    let open = j["window_open_s"].as_f64().unwrap();
+    let close = j["window_close_s"].as_f64().unwrap();
+    let on = j["commanded_turn_on_s"].as_f64().unwrap();
+    assert!(open < on && on < close);
+    assert!(j["delay_ticks"].as_u64().unwrap() > 0);
+    assert!(j["valley_s"].is_null());
+}
+
+#[test]
+fn json_below_the_boundary_reports_the_valley() {
+    let (code, out, err) = run(&[
+        "point", "--lr", "1u", "--cr", "6.8n", "--vin", "48", "--io", "2", "--json",
+    ]);
+    assert_eq!(code, 0, "{err}");
+    let j: serde_json::Value = serde_json::from_str(&out).unwrap();
+    assert_eq!(j["zvs"], false);
+    assert!(j["valley_s"].as_f64().unwrap() > 0.0);
+    assert!(j["valley_voltage_v"].as_f64().unwrap() > 0.0);
+    assert!(j["window_open_s"].is_null());
+    assert!(j["delay_ticks"].is_null());
+    assert!(j["warnings"][0].as_str().unwrap().contains("ZVS is lost"));
+}
+
+#[test]
+fn human_output_has_the_window_and_the_caution() {
+    let (code, out, _) = run(&with(&["--timer-hz", "170M", "--driver-delay", "25n"]));
+    assert_eq!(code, 0);
+    assert!(out.contains("ZVS window opens"));
+    assert!(out.contains("ticks"));
+    assert!(out.contains("CAUTION"));
+    assert!(out.contains("reduced voltage"));
+}
+
+#[test]
+fn every_bad_input_gets_one_clear_line() {
+    let cases: Vec<(Vec<&'static str>, &str, &str)> = vec![
+        (replace("--lr", "nan"), "--lr", "finite"),
+        (replace("--lr", "inf"), "--lr", "finite"),
+        (replace("--lr", "0"), "--lr", "greater than zero"),
+        (replace("--lr", "-2u"), "--lr", "greater than zero"),
+        (replace("--lr", "1e-310"), "--lr", "outside"),
+        (replace("--lr", "1e-20"), "--lr", "outside"),
+        (replace("--lr", "2uF"), "--lr", "unit"),
+        (replace("--lr", "two"), "--lr", "not a number"),
+        (replace("--cr", "-10n"), "--cr", "greater than zero"),
+        (replace("--cr", "NaN"), "--cr", "finite"),
+        (replace("--vin", "0"), "--vin", "greater than zero"),
+        (replace("--vin", "-inf"), "--vin", "finite"),
+        (replace("--io", "-5"), "--io", "greater than zero"),
+        (replace("--io", "0"), "--io", "greater than zero"),
+        (replace("--io", "1e-320"), "--io", "outside"),
+        (
+            with(&["--topology", "boost"]),
+            "--vout",
+            "needs the output voltage",
+        ),
+        (
+            with(&["--topology", "boost", "--vout", "24"]),
+            "--vout",
+            "must lie in",
+        ),
+        (
+            with(&["--topology", "buck-boost", "--vout", "-5"]),
+            "--vout",
+            "greater than zero",
+        ),
+        (with(&["--position", "1.5"]), "--position", "[0, 1]"),
+        (with(&["--position", "-0.1"]), "--position", "[0, 1]"),
+        (
+            with(&["--timer-hz", "0"]),
+            "--timer-hz",
+            "greater than zero",
+        ),
+        (
+            with(&["--timer-hz", "170M", "--counter-bits", "40"]),
+            "--counter-bits",
+            "1 to 32",
+        ),
+        (
+            with(&["--timer-hz", "170M", "--counter-bits", "4"]),
+            "--timer-hz",
+            "counter",
+        ),
+        (
+            with(&["--timer-hz", "170M", "--driver-delay", "-5n"]),
+            "--driver-delay",
+            "negative",
+        ),
+        (
+            with(&["--timer-hz", "170M", "--driver-delay", "900n"]),
+            "--driver-delay",
+            "lead",
+        ),
+        (with(&["--fs", "5M"]), "--fs", "no on-time"),
+        (with(&["--fs", "0"]), "--fs", "greater than zero"),
+        (with(&["--vout", "60"]), "--vout", "out of reach"),
+        (with(&["--vds-rating", "-100"]), "--vds-rating", "positive"),
+        (replace("--lr", "1e300"), "--lr", "unit prefix"),
+        (replace("--cr", "6.8"), "--cr", "unit prefix"),
+    ];
+    for (args, option, phrase) in cases {
+        let (code, out, err) = run(&args);
+        assert_ne!(code, 0, "{args:?} succeeded: {out}");
+        assert!(!err.contains("panicked"), "{args:?} panicked: {err}");
+        assert_eq!(
+            err.trim_end().lines().count(),
+            1,
+            "{args:?}: not one line: {err}"
+        );
+        assert!(
+            err.contains(option),
+            "{args:?}: `{err}` does not name {option}"
+        );
+        assert!(
+            err.contains(phrase),
+            "{args:?}: `{err}` does not say `{phrase}`"
+        );
+    }
+}
+
+#[test]
+fn high_stress_and_narrow_windows_are_warned_about() {
+    // J about 6: the switch sees about 7 times Vin.
+    let (_, out, _) = run(&replace("--io", "24"));
+    assert!(out.contains("high voltage stress"), "{out}");
+    let (_, out, _) = run(&with(&["--vds-rating", "100"]));
+    assert!(out.contains("exceeds the switch rating"), "{out}");
+    // Just above the boundary the window is narrower than a 170 MHz tick.
+    let (_, out, _) = run(&with(&["--timer-hz", "170M"])
+        .into_iter()
+        .map(|a| if a == "6" { "3.96" } else { a })
+        .collect::<Vec<_>>());
+    assert!(
+        out.contains("no timer tick lands") || out.contains("ticks wide"),
+        "{out}"
+    );
+}

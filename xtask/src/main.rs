@@ -1,0 +1,95 @@
+//! `cargo xtask <chore>`:
+//!
+//! - `thumb`: build timing-core for thumbv6m-none-eabi (Cortex-M0) and
+//!   thumbv7em-none-eabihf (Cortex-M4F) with no features, each feature, and
+//!   all features. Uses the rustup toolchain when it has the targets
+//!   installed; otherwise Debian's `rustc-web`/`rust-web-src` route with
+//!   `-Z build-std=core` (DESIGN.md section 5).
+
+use std::path::Path;
+use std::process::{Command, ExitCode};
+
+const TARGETS: [&str; 2] = ["thumbv6m-none-eabi", "thumbv7em-none-eabihf"];
+const FEATURE_SETS: [&[&str]; 4] = [
+    &[],
+    &["--features", "defmt"],
+    &["--features", "serde"],
+    &["--all-features"],
+];
+
+fn rustup_has(target: &str) -> bool {
+    Command::new("rustup")
+        .args(["target", "list", "--installed"])
+        .output()
+        .is_ok_and(|o| {
+            String::from_utf8_lossy(&o.stdout)
+                .lines()
+                .any(|l| l.trim() == target)
+        })
+}
+
+fn thumb() -> Result<(), String> {
+    let debian = Path::new("/usr/bin/rustc").exists() && Path::new("/usr/bin/cargo").exists();
+    for target in TARGETS {
+        let mut cmd = if rustup_has(target) {
+            let mut c = Command::new(std::env::var("CARGO").unwrap_or_else(|_| "cargo".into()));
+            c.args(["build", "--target-dir", "target/thumb-rustup"]);
+            c
+        } else if debian {
+            let mut c = Command::new("/usr/bin/cargo");
+            c.env("RUSTC", "/usr/bin/rustc")
+                .env("RUSTC_BOOTSTRAP", "1")
+                .env_remove("RUSTUP_TOOLCHAIN")
+                .args([
+                    "build",
+                    "-Z",
+                    "build-std=core",
+                    "--target-dir",
+                    "target/thumb",
+                ]);
+            c
+        } else {
+            return Err(format!(
+                "no toolchain for {target}: run `rustup target add {target}` or, on Debian, \
+                 `apt-get install rustc-web cargo-web rust-web-src`"
+            ));
+        };
+        cmd.args(["--quiet", "-p", "timing-core", "--target", target]);
+        for features in FEATURE_SETS {
+            let mut c = Command::new(cmd.get_program());
+            c.args(cmd.get_args()).args(features);
+            for (k, v) in cmd.get_envs() {
+                match v {
+                    Some(v) => c.env(k, v),
+                    None => c.env_remove(k),
+                };
+            }
+            let shown = format!("timing-core for {target} {}", features.join(" "));
+            eprintln!("xtask: building {shown}");
+            let status = c.status().map_err(|e| format!("{shown}: {e}"))?;
+            if !status.success() {
+                return Err(format!("{shown} failed ({status})"));
+            }
+        }
+    }
+    eprintln!(
+        "xtask: timing-core builds on {} with every feature set",
+        TARGETS.join(" and ")
+    );
+    Ok(())
+}
+
+fn main() -> ExitCode {
+    let chore = std::env::args().nth(1).unwrap_or_default();
+    let result = match chore.as_str() {
+        "thumb" => thumb(),
+        _ => Err(format!("unknown chore `{chore}`; chores: thumb")),
+    };
+    match result {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(e) => {
+            eprintln!("xtask: error: {e}");
+            ExitCode::FAILURE
+        }
+    }
+}
