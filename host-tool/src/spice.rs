@@ -80,9 +80,43 @@ impl CellDeck {
     }
 
     /// The SPICE netlist (ngspice dialect only for `.meas`; the circuit is
-    /// standard SPICE).
+    /// standard SPICE), with the most accurate solver settings.
     #[must_use]
     pub fn netlist(&self) -> String {
+        self.netlist_with(&SOLVER_LADDER[0])
+    }
+
+    /// Simulate with ngspice, falling back along [`SOLVER_LADDER`] when a
+    /// setting stalls ngspice's time step ("timestep too small", or a run
+    /// that crawls past [`NGSPICE_TIME_LIMIT`]), which its near-ideal diodes
+    /// provoke at some points. Returns the `.meas`
+    /// results and the rung used.
+    ///
+    /// # Errors
+    /// The last rung's [`SpiceError`] when every rung fails.
+    pub fn simulate(&self) -> Result<(BTreeMap<String, f64>, usize), SpiceError> {
+        let mut last = None;
+        for (k, rung) in SOLVER_LADDER.iter().enumerate() {
+            match run_ngspice(&self.netlist_with(rung)) {
+                Ok(m) => return Ok((m, k)),
+                Err(SpiceError::Failed { status, stderr })
+                    if stderr.contains("Timestep too small") =>
+                {
+                    last = Some(SpiceError::Failed { status, stderr });
+                }
+                Err(e @ SpiceError::TimedOut(_)) => last = Some(e),
+                Err(e) => return Err(e),
+            }
+        }
+        Err(last.unwrap_or(SpiceError::Failed {
+            status: "none".into(),
+            stderr: "no solver settings".into(),
+        }))
+    }
+
+    /// The netlist with the given solver settings.
+    #[must_use]
+    pub fn netlist_with(&self, solver: &Solver) -> String {
         let t0 = self.t_off_s;
         let mut d = String::new();
         let _ = writeln!(
@@ -99,6 +133,10 @@ impl CellDeck {
         gate.push(')');
         let _ = writeln!(d, "Vg g 0 {gate}");
         let (lr, cr, i) = (self.lr_h, self.cr_f, self.inductor_current_a);
+        // A high resistance across the converter diode (it leaks 1e-5 of the
+        // cell current at the cell voltage) ties down the diode node while the
+        // diode blocks.
+        let r_leak = 1e5 * self.clamp_voltage_v() / i;
         match self.topology {
             Topology::Boost => {
                 // Input inductor as a current source into d; switch from a2 to ground.
@@ -106,48 +144,82 @@ impl CellDeck {
                 let _ = writeln!(d, "Lr d a {lr:e}");
                 let _ = writeln!(d, "Vsense a a2 0");
                 let _ = writeln!(d, "S1 a2 0 g 0 swmod");
-                let _ = writeln!(d, "Dbody 0 a2 dclamp");
+                let _ = writeln!(d, "Dbody 0 a2 dbody");
                 let _ = writeln!(d, "Cr a2 0 {cr:e}");
                 let _ = writeln!(d, "Esw sw 0 a2 0 1");
-                let _ = writeln!(d, "Dout d out dclamp");
+                let _ = writeln!(d, "Dout d out dconv");
+                let _ = writeln!(d, "Rleak d out {r_leak:e}");
                 let _ = writeln!(d, "Vout out 0 DC {:e}", self.vout_v);
             }
             Topology::BuckBoost => {
                 let _ = writeln!(d, "Vin in 0 DC {:e}", self.vin_v);
                 let _ = writeln!(d, "S1 in a g 0 swmod");
-                let _ = writeln!(d, "Dbody a in dclamp");
+                let _ = writeln!(d, "Dbody a in dbody");
                 let _ = writeln!(d, "Cr in a {cr:e}");
                 let _ = writeln!(d, "Esw sw 0 in a 1");
                 let _ = writeln!(d, "Lr a a2 {lr:e}");
                 let _ = writeln!(d, "Vsense a2 d 0");
                 // Storage inductor as a current sink; inverted output.
                 let _ = writeln!(d, "Istore d 0 DC {i:e}");
-                let _ = writeln!(d, "Dout out d dclamp");
+                let _ = writeln!(d, "Dout out d dconv");
+                let _ = writeln!(d, "Rleak out d {r_leak:e}");
                 let _ = writeln!(d, "Vout out 0 DC {:e}", -self.vout_v);
             }
             _ => {
                 let _ = writeln!(d, "Vin in 0 DC {:e}", self.vin_v);
                 let _ = writeln!(d, "S1 in a g 0 swmod");
-                let _ = writeln!(d, "Dbody a in dclamp");
+                let _ = writeln!(d, "Dbody a in dbody");
                 let _ = writeln!(d, "Cr in a {cr:e}");
                 let _ = writeln!(d, "Esw sw 0 in a 1");
                 let _ = writeln!(d, "Lr a a2 {lr:e}");
                 let _ = writeln!(d, "Vsense a2 d 0");
-                let _ = writeln!(d, "Dfw 0 d dclamp");
+                let _ = writeln!(d, "Dfw 0 d dconv");
+                let _ = writeln!(d, "Rleak 0 d {r_leak:e}");
                 // Output filter inductor plus load as a constant current sink.
                 let _ = writeln!(d, "Io d 0 DC {i:e}");
             }
         }
-        // Near-ideal parts: 1 mOhm / 1 GOhm switch; diodes with a forward drop
-        // of a few tens of mV at amperes (N = 0.05), so the clamps sit close to
-        // the ideal cell's.
-        let _ = writeln!(d, ".model swmod SW(VT=0.5 VH=0.1 RON=1m ROFF=1e9)");
-        let _ = writeln!(d, ".model dclamp D(IS=1e-12 N=0.05 RS=1m)");
-        let _ = writeln!(d, ".options reltol=1e-6 abstol=1e-12 vntol=1e-9");
+        // Near-ideal parts, scaled to the point: the switch's on-resistance
+        // drops 1e-4 of V at the cell current, a diode's series resistance
+        // 1e-4 of V, and the junction (N = 0.05, saturation current 1e-5 of
+        // the cell current, so it leaks that much when blocking) adds about
+        // 15 mV at the cell current. The clamps then sit within about 0.1 % of
+        // the ideal cell's at 12 V, less at higher voltage.
+        let r_unit = self.clamp_voltage_v() / self.inductor_current_a;
+        let _ = writeln!(
+            d,
+            ".model swmod SW(VT=0.5 VH=0.1 RON={:e} ROFF=1e9)",
+            1e-4 * r_unit
+        );
+        let is = 1e-5 * i;
+        let _ = writeln!(
+            d,
+            ".model dbody D(IS={is:e} N=0.05 RS={:e})",
+            solver.diode_rs * r_unit
+        );
+        // The converter diode's node has no other capacitance: a junction
+        // capacitance of Cr/1000 keeps its internal node well-posed. It sits in
+        // parallel with Cr only while the diode blocks (the linear charge),
+        // lengthening it by 0.1 %.
+        let _ = writeln!(
+            d,
+            ".model dconv D(IS={is:e} N=0.05 RS={:e} CJO={:e})",
+            solver.diode_rs * r_unit,
+            solver.diode_cj * cr
+        );
+        let _ = writeln!(
+            d,
+            ".options reltol={:e} abstol=1e-10 vntol=1e-7 method=gear",
+            solver.reltol
+        );
         let step = self.max_step_s;
         let _ = writeln!(d, ".tran {step:e} {:e} 0 {step:e}", t0 + self.duration_s);
         let v = self.clamp_voltage_v();
-        let from = format!("FROM={t0:e}");
+        // Measure from a moment after the gate edge: the switch's step from
+        // RON to ROFF leaves a one-step numerical spike in the Lr current that
+        // a zero-crossing search would otherwise take for an event. 1e-3/w0 is
+        // far shorter than any interval of the transition.
+        let from = format!("FROM={:e}", t0 + 1e-3 * (self.lr_h * self.cr_f).sqrt());
         let _ = writeln!(
             d,
             ".meas tran {} WHEN v(sw)={v:e} RISE=1 {from}",
@@ -187,6 +259,43 @@ impl CellDeck {
     }
 }
 
+/// Numerical settings of a deck: how ideal its diodes are and how tight
+/// ngspice's tolerances. Each costs accuracy against the ideal cell: the
+/// diode series resistance drops `diode_rs` of V at the cell current, the
+/// junction capacitance `diode_cj` of Cr lengthens the linear charge by as
+/// much.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Solver {
+    /// ngspice `reltol`.
+    pub reltol: f64,
+    /// Diode series resistance, in units of V/I.
+    pub diode_rs: f64,
+    /// Converter-diode junction capacitance, in units of Cr.
+    pub diode_cj: f64,
+}
+
+/// Solver settings in the order tried (the time step, 1/2000 of 1/w0,
+/// sets the accuracy more than `reltol` does); [`CellDeck::simulate`]
+/// tries them in turn. The last rung still keeps each effect at or below
+/// 0.1 % of V or Cr.
+pub const SOLVER_LADDER: [Solver; 3] = [
+    Solver {
+        reltol: 1e-4,
+        diode_rs: 1e-4,
+        diode_cj: 1e-3,
+    },
+    Solver {
+        reltol: 1e-5,
+        diode_rs: 1e-4,
+        diode_cj: 1e-3,
+    },
+    Solver {
+        reltol: 1e-4,
+        diode_rs: 1e-3,
+        diode_cj: 1e-3,
+    },
+];
+
 /// What can go wrong running ngspice.
 #[derive(Debug, thiserror::Error)]
 pub enum SpiceError {
@@ -196,6 +305,9 @@ pub enum SpiceError {
     /// Any other I/O failure talking to ngspice.
     #[error("running ngspice: {0}")]
     Io(#[from] std::io::Error),
+    /// ngspice ran past its time limit and was stopped.
+    #[error("ngspice did not finish within {0:?}")]
+    TimedOut(std::time::Duration),
     /// ngspice exited with an error.
     #[error("ngspice failed (exit {status}): {stderr}")]
     Failed {
@@ -223,32 +335,74 @@ pub fn ngspice_available() -> bool {
 /// # Errors
 /// [`SpiceError`] when ngspice cannot be started or exits with an error.
 pub fn run_ngspice(deck: &str) -> Result<BTreeMap<String, f64>, SpiceError> {
+    run_ngspice_within(deck, NGSPICE_TIME_LIMIT)
+}
+
+/// Longest a single ngspice run may take before it is stopped; runs of these
+/// decks take well under a second when the step control behaves.
+pub const NGSPICE_TIME_LIMIT: std::time::Duration = std::time::Duration::from_secs(20);
+
+/// [`run_ngspice`] with a time limit: a run still going after `limit` is
+/// killed and reported as [`SpiceError::TimedOut`].
+///
+/// # Errors
+/// As [`run_ngspice`], and [`SpiceError::TimedOut`].
+pub fn run_ngspice_within(
+    deck: &str,
+    limit: std::time::Duration,
+) -> Result<BTreeMap<String, f64>, SpiceError> {
     let dir = std::env::temp_dir().join(format!(
         "zvs-timing-spice-{}-{}",
         std::process::id(),
         DECK_COUNTER.fetch_add(1, std::sync::atomic::Ordering::Relaxed)
     ));
     std::fs::create_dir_all(&dir)?;
+    let result = run_in(&dir, deck, limit);
+    let _ = std::fs::remove_dir_all(&dir);
+    result
+}
+
+fn run_in(
+    dir: &std::path::Path,
+    deck: &str,
+    limit: std::time::Duration,
+) -> Result<BTreeMap<String, f64>, SpiceError> {
     let path = dir.join("cell.cir");
     std::fs::File::create(&path)?.write_all(deck.as_bytes())?;
-    let out = Command::new("ngspice")
+    // Output to files, not pipes, so a chatty run cannot block on a full pipe.
+    let out_path = dir.join("stdout.txt");
+    let err_path = dir.join("stderr.txt");
+    let mut child = Command::new("ngspice")
         .arg("-b")
         .arg(&path)
-        .current_dir(&dir)
+        .current_dir(dir)
         .stdin(Stdio::null())
-        .output()
+        .stdout(std::fs::File::create(&out_path)?)
+        .stderr(std::fs::File::create(&err_path)?)
+        .spawn()
         .map_err(|e| match e.kind() {
             std::io::ErrorKind::NotFound => SpiceError::NotFound(e),
             _ => SpiceError::Io(e),
         })?;
-    let _ = std::fs::remove_dir_all(&dir);
-    if !out.status.success() {
+    let start = std::time::Instant::now();
+    let status = loop {
+        if let Some(status) = child.try_wait()? {
+            break status;
+        }
+        if start.elapsed() > limit {
+            let _ = child.kill();
+            let _ = child.wait();
+            return Err(SpiceError::TimedOut(limit));
+        }
+        std::thread::sleep(std::time::Duration::from_millis(5));
+    };
+    if !status.success() {
         return Err(SpiceError::Failed {
-            status: out.status.to_string(),
-            stderr: String::from_utf8_lossy(&out.stderr).into_owned(),
+            status: status.to_string(),
+            stderr: std::fs::read_to_string(&err_path).unwrap_or_default(),
         });
     }
-    Ok(parse_meas(&String::from_utf8_lossy(&out.stdout)))
+    Ok(parse_meas(&std::fs::read_to_string(&out_path)?))
 }
 
 static DECK_COUNTER: std::sync::atomic::AtomicUsize = std::sync::atomic::AtomicUsize::new(0);

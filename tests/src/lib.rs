@@ -92,7 +92,7 @@ impl Scenario {
         let mut out = Vec::new();
         for topology in [Topology::Buck, Topology::Boost, Topology::BuckBoost] {
             for _ in 0..zvs_per_cell {
-                out.push(Scenario::random(&mut rng, topology, 1.1..6.0));
+                out.push(Scenario::random(&mut rng, topology, 1.01..15.0));
             }
             for _ in 0..valley_per_cell {
                 out.push(Scenario::random(&mut rng, topology, 0.15..0.9));

@@ -40,6 +40,8 @@
 //! - `defmt`: `defmt::Format` for every public type.
 //! - `serde`: `Serialize` for every public type; `Deserialize` for the input
 //!   types, through their validating constructors.
+//! - `blob`: [`blob::open`] checks and opens `.bin` table blobs (postcard,
+//!   CRC-32) without allocating.
 
 #![cfg_attr(not(test), no_std)]
 #![cfg_attr(
@@ -52,12 +54,14 @@
         clippy::unreachable,
         clippy::todo,
         clippy::unimplemented,
-        clippy::integer_division,
         clippy::modulo_arithmetic
     )
 )]
 #![warn(missing_docs)]
 
+mod adc;
+#[cfg(feature = "blob")]
+pub mod blob;
 mod cell;
 mod conversion;
 mod error;
@@ -65,10 +69,12 @@ pub mod normalized;
 mod real;
 #[cfg(feature = "serde")]
 mod serde_types;
+pub mod table;
 mod tank;
 mod timer;
 mod transition;
 
+pub use adc::{AdcCode, CodeRange};
 pub use cell::{CellPoint, Topology};
 pub use conversion::Regulation;
 pub use error::{Error, Quantity};

@@ -74,3 +74,18 @@ pub fn valley_ring_angle<F: Real>() -> F {
 pub fn peak_voltage_ratio<F: Real>(j: F) -> F {
     F::ONE + j
 }
+
+/// w0 times the turn-on target from gate turn-off, for the valley fallback
+/// policy: `position` (0..=1) in the ZVS window when J >= 1, else the
+/// valley. The same instant as
+/// [`Transition::turn_on_target_s`](crate::Transition::turn_on_target_s)
+/// times w0.
+#[inline]
+#[must_use]
+pub fn turn_on_angle<F: Real>(j: F, position: F) -> F {
+    if j >= F::ONE {
+        window_open_angle(j) + position * clamp_angle(j)
+    } else {
+        charge_angle(j) + valley_ring_angle()
+    }
+}

@@ -1,0 +1,460 @@
+//! Precomputed turn-on delay tables in fixed point, and their lookup.
+//!
+//! Every interval of the transition times w0 depends on the normalised load
+//! J alone, and for all three cells J = Io*Z0/Vin (buck: V = Vin, I = Io;
+//! boost and buck-boost: the Vout factors cancel). So the commanded delay is
+//! a function of the ratio of the two ADC codes, which the [`RatioLayout`]
+//! tabulates in one dimension; the [`GridLayout`] tabulates it over the raw
+//! codes instead and needs no division. Both interpolate linearly (bilinearly
+//! for the grid) in unsigned integer arithmetic, so a C compiler reproduces
+//! the result bit for bit.
+//!
+//! [`DelayTable::new`] validates a table once: ranges, shifts, and that
+//! every intermediate of the lookup fits 32 bits for every input code. The
+//! lookup, [`DelayTable::delay`], then takes any pair of codes, clamps them
+//! to the design range, and cannot fail or panic. Accuracy is the table's,
+//! proven on the host by exhaustive verification against the exact model.
+
+use crate::adc::{AdcCode, CodeRange};
+use crate::Ticks;
+
+/// Version of the `.bin` blob layout this build writes and reads
+/// (see the `blob` module, feature `blob`).
+pub const FORMAT_VERSION: u16 = 1;
+
+/// Table entries: commanded delay in ticks times `2^frac_bits`, one `u16`
+/// per node.
+pub trait Entries {
+    /// Number of entries.
+    fn count(&self) -> usize;
+    /// Entry `i`; 0 past the end (never reached in a validated table).
+    fn at(&self, i: usize) -> u16;
+}
+
+impl Entries for &[u16] {
+    #[inline]
+    fn count(&self) -> usize {
+        self.len()
+    }
+    #[inline]
+    fn at(&self, i: usize) -> u16 {
+        self.get(i).copied().unwrap_or(0)
+    }
+}
+
+/// Entries stored as little-endian byte pairs (as in a `.bin` blob in flash).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct LeBytes<'a>(pub &'a [u8]);
+
+impl Entries for LeBytes<'_> {
+    #[inline]
+    fn count(&self) -> usize {
+        self.0.len() >> 1
+    }
+    #[inline]
+    fn at(&self, i: usize) -> u16 {
+        let k = i.wrapping_mul(2);
+        match (self.0.get(k), self.0.get(k.wrapping_add(1))) {
+            (Some(&lo), Some(&hi)) => u16::from_le_bytes([lo, hi]),
+            _ => 0,
+        }
+    }
+}
+
+/// What the sensed codes look like: the design range and the current
+/// sensor's zero, shared by both layouts.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+pub struct Sensing {
+    /// Input-voltage codes of the design range; others clamp to its edge.
+    pub vin: CodeRange,
+    /// Output-current codes of the design range; others clamp to its edge.
+    pub io: CodeRange,
+    /// Current code that reads 0 A (bidirectional sensors); `io.lo` must
+    /// exceed it.
+    pub io_zero: u16,
+    /// ZVS test: the point is ZVS-capable (J >= 1) when
+    /// `(io - io_zero) * zvs_io_mul >= vin * zvs_vin_mul`.
+    pub zvs_io_mul: u16,
+    /// See `zvs_io_mul`.
+    pub zvs_vin_mul: u16,
+}
+
+/// One dimension, indexed by the code ratio
+/// `q = (vin << ratio_shift) / (io - io_zero)`, proportional to 1/J.
+/// Nodes sit at `q_lo + k * 2^step_shift`, k = 0..nodes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+pub struct RatioLayout {
+    /// Left shift of the voltage code before the division.
+    pub ratio_shift: u8,
+    /// Ratio at node 0.
+    pub q_lo: u32,
+    /// Node spacing is `2^step_shift` in q.
+    pub step_shift: u8,
+    /// Number of nodes (at least 2).
+    pub nodes: u16,
+}
+
+/// Two dimensions over the raw codes: node (r, c) at
+/// `vin = vin.lo + r * 2^vin_shift`, `io = io.lo + c * 2^io_shift`, stored
+/// row-major (`r * cols + c`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+pub struct GridLayout {
+    /// Voltage node spacing, `2^vin_shift` codes.
+    pub vin_shift: u8,
+    /// Current node spacing, `2^io_shift` codes.
+    pub io_shift: u8,
+    /// Number of voltage nodes (rows, at least 2).
+    pub rows: u16,
+    /// Number of current nodes (columns, at least 2).
+    pub cols: u16,
+}
+
+/// How a table is indexed.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+pub enum Layout {
+    /// 1-D over the code ratio (one division per lookup).
+    Ratio(RatioLayout),
+    /// 2-D over the raw codes (no division).
+    Grid(GridLayout),
+}
+
+/// What to command where ZVS is impossible (J < 1).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+pub enum Fallback {
+    /// Turn on at the valley of the ring (the table's entries hold it).
+    Valley,
+    /// A fixed delay, ticks.
+    Fixed(Ticks),
+}
+
+/// Why a table was refused.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[non_exhaustive]
+pub enum TableError {
+    /// The layout is inconsistent; the text says how.
+    Layout(&'static str),
+    /// The number of entries does not match the layout.
+    EntryCount {
+        /// Entries the layout needs.
+        expected: u32,
+        /// Entries given.
+        found: u32,
+    },
+    /// The blob does not start with the table magic.
+    BadMagic,
+    /// The blob's format version is not one this build reads.
+    UnsupportedVersion {
+        /// Version in the blob.
+        found: u16,
+    },
+    /// The blob is shorter than its header says.
+    Truncated,
+    /// The payload's CRC-32 does not match the header: the blob is corrupt.
+    CrcMismatch {
+        /// CRC-32 the header records.
+        expected: u32,
+        /// CRC-32 of the payload as read.
+        found: u32,
+    },
+    /// The blob was generated from a different design.
+    DesignMismatch {
+        /// Design hash the firmware expects.
+        expected: u32,
+        /// Design hash in the blob.
+        found: u32,
+    },
+    /// The header or payload cannot be decoded.
+    Malformed,
+}
+
+impl core::fmt::Display for TableError {
+    fn fmt(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
+        match *self {
+            TableError::Layout(why) => write!(f, "inconsistent table layout: {why}"),
+            TableError::EntryCount { expected, found } => {
+                write!(f, "table has {found} entries, its layout needs {expected}")
+            }
+            TableError::BadMagic => f.write_str("not a zvs-timing delay table (bad magic)"),
+            TableError::UnsupportedVersion { found } => write!(
+                f,
+                "table format version {found} is not supported (this build reads version {})",
+                FORMAT_VERSION
+            ),
+            TableError::Truncated => f.write_str("table blob is truncated"),
+            TableError::CrcMismatch { expected, found } => write!(
+                f,
+                "table blob is corrupt: payload CRC-32 is {found:#010x}, header says {expected:#010x}"
+            ),
+            TableError::DesignMismatch { expected, found } => write!(
+                f,
+                "table was generated from another design: hash {found:#010x}, expected {expected:#010x}"
+            ),
+            TableError::Malformed => f.write_str("table blob cannot be decoded"),
+        }
+    }
+}
+
+impl core::error::Error for TableError {}
+
+/// A lookup result: the delay to command and whether the point is
+/// ZVS-capable by the table's test.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Lookup {
+    /// Delay from the turn-off command, ticks.
+    pub ticks: Ticks,
+    /// `true` when J >= 1 (the delay aims into the ZVS window); `false`
+    /// when the fallback applies.
+    pub zvs: bool,
+}
+
+/// A validated delay table: layout, sensing, fixed-point format and entries.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct DelayTable<E> {
+    sensing: Sensing,
+    layout: Layout,
+    frac_bits: u8,
+    fallback: Fallback,
+    entries: E,
+}
+
+/// Bits needed to hold `x` (0 for 0).
+const fn bits(x: u32) -> u32 {
+    32 - x.leading_zeros()
+}
+
+impl<E: Entries> DelayTable<E> {
+    /// Validate and build a table.
+    ///
+    /// Checks that the ranges are non-empty, the current range lies above
+    /// the sensor zero, the nodes cover the whole range, the entry count
+    /// matches, and that no intermediate of [`DelayTable::delay`] can
+    /// exceed 32 bits for any code (interval bounds on the shifts and the
+    /// 16-bit entries).
+    ///
+    /// # Errors
+    /// [`TableError::Layout`] or [`TableError::EntryCount`].
+    pub fn new(
+        sensing: Sensing,
+        layout: Layout,
+        frac_bits: u8,
+        fallback: Fallback,
+        entries: E,
+    ) -> Result<Self, TableError> {
+        let s = &sensing;
+        if s.vin.is_empty() || s.io.is_empty() {
+            return Err(TableError::Layout("empty code range"));
+        }
+        if s.io.lo <= s.io_zero {
+            return Err(TableError::Layout(
+                "current range must lie above the sensor zero",
+            ));
+        }
+        if s.vin.lo == 0 {
+            return Err(TableError::Layout("voltage range must exclude code 0"));
+        }
+        let expected = match layout {
+            Layout::Ratio(r) => {
+                if r.nodes < 2 || r.step_shift > 15 {
+                    return Err(TableError::Layout(
+                        "ratio table needs 2+ nodes and step_shift <= 15",
+                    ));
+                }
+                // (vin << ratio_shift) must fit 32 bits.
+                if bits(u32::from(s.vin.hi)) + u32::from(r.ratio_shift) > 32 {
+                    return Err(TableError::Layout("vin << ratio_shift overflows 32 bits"));
+                }
+                let q_min = (u32::from(s.vin.lo) << r.ratio_shift)
+                    .checked_div(u32::from(s.io.hi - s.io_zero))
+                    .unwrap_or(0);
+                let q_max = (u32::from(s.vin.hi) << r.ratio_shift)
+                    .checked_div(u32::from(s.io.lo - s.io_zero))
+                    .unwrap_or(u32::MAX);
+                let span = u32::from(r.nodes - 1) << r.step_shift;
+                if r.q_lo > q_min || u64::from(r.q_lo) + u64::from(span) < u64::from(q_max) {
+                    return Err(TableError::Layout(
+                        "ratio nodes do not cover the design range",
+                    ));
+                }
+                // y = a*(2^s - f) + b*f <= 65535 * 2^s < 2^32; rounding adds < 2^(s+F).
+                if u32::from(r.step_shift) + u32::from(frac_bits) > 16 {
+                    return Err(TableError::Layout(
+                        "step_shift + frac_bits must be at most 16",
+                    ));
+                }
+                u32::from(r.nodes)
+            }
+            Layout::Grid(g) => {
+                if g.rows < 2 || g.cols < 2 {
+                    return Err(TableError::Layout("grid needs 2+ rows and columns"));
+                }
+                // y <= 65535 * 2^(vs + is) < 2^32, plus rounding.
+                if u32::from(g.vin_shift) + u32::from(g.io_shift) + u32::from(frac_bits) > 16 {
+                    return Err(TableError::Layout(
+                        "vin_shift + io_shift + frac_bits must be at most 16",
+                    ));
+                }
+                let cover_v = u32::from(g.rows - 1) << g.vin_shift;
+                let cover_i = u32::from(g.cols - 1) << g.io_shift;
+                if cover_v < u32::from(s.vin.hi - s.vin.lo)
+                    || cover_i < u32::from(s.io.hi - s.io.lo)
+                {
+                    return Err(TableError::Layout(
+                        "grid nodes do not cover the design range",
+                    ));
+                }
+                u32::from(g.rows) * u32::from(g.cols)
+            }
+        };
+        if frac_bits > 15 {
+            return Err(TableError::Layout("frac_bits must be at most 15"));
+        }
+        let found = u32::try_from(entries.count()).unwrap_or(u32::MAX);
+        if found != expected {
+            return Err(TableError::EntryCount { expected, found });
+        }
+        Ok(Self {
+            sensing,
+            layout,
+            frac_bits,
+            fallback,
+            entries,
+        })
+    }
+
+    /// The sensing description (ranges, zero, ZVS test).
+    #[must_use]
+    pub fn sensing(&self) -> &Sensing {
+        &self.sensing
+    }
+
+    /// The layout.
+    #[must_use]
+    pub fn layout(&self) -> &Layout {
+        &self.layout
+    }
+
+    /// Fractional bits of the entries.
+    #[must_use]
+    pub fn frac_bits(&self) -> u8 {
+        self.frac_bits
+    }
+
+    /// The fallback policy below the ZVS boundary.
+    #[must_use]
+    pub fn fallback(&self) -> Fallback {
+        self.fallback
+    }
+
+    /// The entries.
+    #[must_use]
+    pub fn entries(&self) -> &E {
+        &self.entries
+    }
+
+    /// Table size in bytes (entries only).
+    #[must_use]
+    pub fn entry_bytes(&self) -> usize {
+        self.entries.count().wrapping_mul(2)
+    }
+
+    /// The delay for the sensed codes: clamps both codes to the design
+    /// range, applies the fallback where J < 1, and otherwise interpolates
+    /// the table. Integer-only; no division in the grid layout, one 32-bit
+    /// division in the ratio layout; cannot panic (all arithmetic is proven
+    /// in range by [`DelayTable::new`] and written with wrapping operations
+    /// that therefore never wrap).
+    #[inline]
+    pub fn delay(&self, vin: AdcCode, io: AdcCode) -> Lookup {
+        let s = &self.sensing;
+        let v = u32::from(s.vin.clamp(vin));
+        let i = u32::from(s.io.clamp(io).wrapping_sub(s.io_zero));
+        let zvs =
+            i.wrapping_mul(u32::from(s.zvs_io_mul)) >= v.wrapping_mul(u32::from(s.zvs_vin_mul));
+        if !zvs {
+            if let Fallback::Fixed(t) = self.fallback {
+                return Lookup { ticks: t, zvs };
+            }
+        }
+        let f = u32::from(self.frac_bits);
+        let (y, shift) = match self.layout {
+            Layout::Ratio(r) => {
+                let q = v
+                    .wrapping_shl(u32::from(r.ratio_shift))
+                    .checked_div(i)
+                    .unwrap_or(u32::MAX);
+                let d = q.saturating_sub(r.q_lo);
+                let s = u32::from(r.step_shift);
+                let last = u32::from(r.nodes).wrapping_sub(2);
+                let mut k = d.wrapping_shr(s);
+                let one = 1u32.wrapping_shl(s);
+                let mut frac = d & one.wrapping_sub(1);
+                if k > last {
+                    k = last;
+                    frac = one;
+                }
+                let a = u32::from(self.entries.at(k as usize));
+                let b = u32::from(self.entries.at(k.wrapping_add(1) as usize));
+                (
+                    a.wrapping_mul(one.wrapping_sub(frac))
+                        .wrapping_add(b.wrapping_mul(frac)),
+                    s,
+                )
+            }
+            Layout::Grid(g) => {
+                let (vs, is) = (u32::from(g.vin_shift), u32::from(g.io_shift));
+                let dv = v.wrapping_sub(u32::from(s.vin.lo));
+                let di = i
+                    .wrapping_add(u32::from(s.io_zero))
+                    .wrapping_sub(u32::from(s.io.lo));
+                let (one_v, one_i) = (1u32.wrapping_shl(vs), 1u32.wrapping_shl(is));
+                let (mut r, mut fr) = (dv.wrapping_shr(vs), dv & one_v.wrapping_sub(1));
+                let (mut c, mut fc) = (di.wrapping_shr(is), di & one_i.wrapping_sub(1));
+                let (last_r, last_c) = (
+                    u32::from(g.rows).wrapping_sub(2),
+                    u32::from(g.cols).wrapping_sub(2),
+                );
+                if r > last_r {
+                    r = last_r;
+                    fr = one_v;
+                }
+                if c > last_c {
+                    c = last_c;
+                    fc = one_i;
+                }
+                let cols = u32::from(g.cols);
+                let base = r.wrapping_mul(cols).wrapping_add(c);
+                let e = |k: u32| u32::from(self.entries.at(k as usize));
+                let (e00, e01) = (e(base), e(base.wrapping_add(1)));
+                let (e10, e11) = (
+                    e(base.wrapping_add(cols)),
+                    e(base.wrapping_add(cols).wrapping_add(1)),
+                );
+                let wc = one_i.wrapping_sub(fc);
+                let top = e00.wrapping_mul(wc).wrapping_add(e01.wrapping_mul(fc));
+                let bot = e10.wrapping_mul(wc).wrapping_add(e11.wrapping_mul(fc));
+                let y = top
+                    .wrapping_mul(one_v.wrapping_sub(fr))
+                    .wrapping_add(bot.wrapping_mul(fr));
+                (y, vs.wrapping_add(is))
+            }
+        };
+        let total = shift.wrapping_add(f);
+        let half = 1u32.wrapping_shl(total) >> 1;
+        Lookup {
+            ticks: Ticks::new(y.wrapping_add(half).wrapping_shr(total)),
+            zvs,
+        }
+    }
+}
