@@ -154,7 +154,8 @@ fn simulate(lr: f64, cr: f64, v: f64, i: f64) -> Simulated {
                 |_, y| y[1],
                 t2,
                 State::new(0.0, y2[1]),
-                period,
+                // The clamp lasts sqrt(J^2 - 1)/w0: up to several periods at high J.
+                10.0 * period,
                 dx,
             )
             .unwrap();
