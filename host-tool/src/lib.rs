@@ -14,7 +14,11 @@
 )]
 #![warn(missing_docs)]
 
+pub mod design;
+pub mod export;
+pub mod generate;
 pub mod point;
 pub mod render;
 pub mod spice;
 pub mod units;
+pub mod verify;

@@ -30,7 +30,35 @@ struct Cli {
 #[derive(Subcommand)]
 enum Cmd {
     /// The transition, ZVS window and turn-on delay at one operating point.
-    Point(PointArgs),
+    Point(Box<PointArgs>),
+    /// Generate, verify and export the delay table of a design file.
+    Table(TableArgs),
+    /// Check a table blob against its design at every ADC code pair.
+    Verify(VerifyArgs),
+}
+
+#[derive(Args)]
+struct TableArgs {
+    /// Design file (TOML).
+    design: std::path::PathBuf,
+    /// Output folder for <name>.rs, .h, .bin and .csv.
+    #[arg(long)]
+    out: std::path::PathBuf,
+    /// Print one JSON object instead of the summary.
+    #[arg(long)]
+    json: bool,
+}
+
+#[derive(Args)]
+struct VerifyArgs {
+    /// Design file (TOML).
+    design: std::path::PathBuf,
+    /// Table blob written by `table` (<name>.bin).
+    #[arg(long)]
+    table: std::path::PathBuf,
+    /// Print one JSON object instead of the summary.
+    #[arg(long)]
+    json: bool,
 }
 
 #[derive(Clone, Copy, ValueEnum)]
@@ -156,10 +184,134 @@ fn run_point(args: &PointArgs) -> anyhow::Result<()> {
     Ok(())
 }
 
+fn print_verification(v: &host_tool::verify::VerifyReport, clock_hz: f64) {
+    println!(
+        "verified {} code pairs: max error {:.3} ticks at vin code {} ({:.3} V), io code {} ({:.4} A); RMS {:.3} ticks",
+        v.points_checked, v.max_error_ticks, v.worst_vin_code, v.worst_vin_v, v.worst_io_code, v.worst_io_a, v.rms_error_ticks
+    );
+    println!(
+        "ZVS pairs: {}; commanded turn-ons outside the true window: {} ({} early, {} late); windows narrower than a tick: {}",
+        v.zvs_points, v.outside_window, v.early, v.late, v.narrower_than_a_tick
+    );
+    if let Some(m) = v.min_margin_s {
+        println!(
+            "smallest margin to a window edge: {} ({:.2} ticks)",
+            host_tool::units::format_si(m, "s"),
+            m * clock_hz
+        );
+    }
+}
+
+fn run_table(args: &TableArgs) -> anyhow::Result<()> {
+    use host_tool::{design::Design, export, generate};
+    let design = Design::load(&args.design)?;
+    let out = generate::generate(&design)?;
+    let written = export::write_all(&args.out, &design, &out.table, &out.verification)?;
+    if args.json {
+        let j = serde_json::json!({
+            "name": design.name,
+            "layout": out.table.layout_name(),
+            "table_bytes": out.table.table_bytes(),
+            "max_error_ticks": out.verification.max_error_ticks,
+            "max_error_budget_ticks": design.max_error_ticks,
+            "frac_bits": out.table.frac_bits,
+            "design_hash": format!("{:#010x}", design.hash),
+            "verification": out.verification,
+            "alternatives": out.candidates,
+            "files": written,
+            "caution": host_tool::point::CAUTION,
+        });
+        println!("{}", serde_json::to_string_pretty(&j)?);
+    } else {
+        println!(
+            "{}: {} layout, {} bytes ({} fractional bits); written to {}",
+            design.name,
+            out.table.layout_name(),
+            out.table.table_bytes(),
+            out.table.frac_bits,
+            args.out.display()
+        );
+        print_verification(&out.verification, design.timer.clock_hz());
+        let others: Vec<String> = out
+            .candidates
+            .iter()
+            .filter(|c| c.screened_error_ticks.is_some())
+            .map(|c| {
+                format!(
+                    "{} {} B ({}): {:.3} ticks",
+                    c.layout,
+                    c.table_bytes,
+                    c.shape,
+                    c.screened_error_ticks.unwrap_or(f64::NAN)
+                )
+            })
+            .collect();
+        println!("layouts tried, smallest first:\n  {}", others.join("\n  "));
+        println!("\n{}", host_tool::point::CAUTION);
+    }
+    Ok(())
+}
+
+fn run_verify(args: &VerifyArgs) -> anyhow::Result<ExitCode> {
+    use host_tool::design::Design;
+    let design = Design::load(&args.design)?;
+    let blob = std::fs::read(&args.table)
+        .map_err(|e| anyhow::anyhow!("cannot read {}: {e}", args.table.display()))?;
+    let (_, table) = timing_core::blob::open(&blob, Some(design.hash))
+        .map_err(|e| anyhow::anyhow!("{}: integrity check failed: {e}", args.table.display()))?;
+    let total = u64::from(design.vin_codes.len());
+    let bar = indicatif::ProgressBar::new(total);
+    bar.set_style(
+        indicatif::ProgressStyle::with_template("verifying {bar:40} {percent}% ({eta} left)")
+            .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
+    );
+    // Shown only when the run takes longer than a second.
+    bar.set_draw_target(indicatif::ProgressDrawTarget::hidden());
+    let start = std::time::Instant::now();
+    let mut shown = false;
+    let mut tick = |f: f64| {
+        if !shown && start.elapsed().as_secs_f64() > 1.0 && !args.json {
+            bar.set_draw_target(indicatif::ProgressDrawTarget::stderr());
+            shown = true;
+        }
+        bar.set_position((f * total as f64) as u64);
+    };
+    let v = host_tool::verify::verify(&design, &table, Some(&mut tick));
+    bar.finish_and_clear();
+    let ok = v.max_error_ticks <= design.max_error_ticks && v.model_errors == 0;
+    if args.json {
+        let j = serde_json::json!({
+            "ok": ok,
+            "max_error_ticks": v.max_error_ticks,
+            "max_error_budget_ticks": design.max_error_ticks,
+            "points_checked": v.points_checked,
+            "report": v,
+            "seconds": start.elapsed().as_secs_f64(),
+        });
+        println!("{}", serde_json::to_string_pretty(&j)?);
+    } else {
+        print_verification(&v, design.timer.clock_hz());
+    }
+    if ok {
+        Ok(ExitCode::SUCCESS)
+    } else {
+        eprintln!(
+            "zvs-timing: error: table error {:.3} ticks exceeds max_error_ticks = {}",
+            v.max_error_ticks, design.max_error_ticks
+        );
+        Ok(ExitCode::from(1))
+    }
+}
+
 fn main() -> ExitCode {
     let cli = Cli::parse();
     let result = match &cli.command {
         Cmd::Point(args) => run_point(args),
+        Cmd::Table(args) => run_table(args),
+        Cmd::Verify(args) => match run_verify(args) {
+            Ok(code) => return code,
+            Err(e) => Err(e),
+        },
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

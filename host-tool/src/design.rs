@@ -1,0 +1,476 @@
+//! Design files (TOML): the tank, operating range, sensing, timer and table
+//! requirements of one converter. Parsing reports malformed files with line,
+//! column and key (from the TOML parser); [`Design::validate`] then refuses
+//! physically impossible or inconsistent designs in plain sentences.
+
+use serde::{Deserialize, Deserializer};
+use timing_core::{CellPoint, CodeRange, Tank, Timer, Topology, WindowPosition};
+
+use crate::units::parse_quantity;
+
+macro_rules! si_number {
+    ($name:ident, $unit:literal, $what:literal) => {
+        #[doc = concat!("A number in ", $what, " (`", $unit, "`): a TOML number or a string with an engineering prefix.")]
+        #[derive(Debug, Clone, Copy, PartialEq)]
+        pub struct $name(pub f64);
+
+        impl<'de> Deserialize<'de> for $name {
+            fn deserialize<D: Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+                #[derive(Deserialize)]
+                #[serde(untagged)]
+                enum Raw {
+                    N(f64),
+                    S(String),
+                }
+                match Raw::deserialize(d)? {
+                    Raw::N(v) => Ok($name(v)),
+                    Raw::S(s) => parse_quantity(&s, $unit).map($name).map_err(serde::de::Error::custom),
+                }
+            }
+        }
+    };
+}
+
+si_number!(Henry, "H", "henry");
+si_number!(Farad, "F", "farad");
+si_number!(Volt, "V", "volt");
+si_number!(Amp, "A", "ampere");
+si_number!(Hertz, "Hz", "hertz");
+si_number!(Second, "s", "second");
+
+/// Which table layouts generation may choose from.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Default)]
+#[serde(rename_all = "kebab-case")]
+pub enum LayoutChoice {
+    /// The smallest that meets `max_error_ticks` (default).
+    #[default]
+    Auto,
+    /// Only the 1-D code-ratio layout.
+    Ratio,
+    /// Only the 2-D code grid.
+    Grid,
+}
+
+/// What to command below the ZVS boundary.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Default)]
+#[serde(rename_all = "kebab-case")]
+pub enum FallbackChoice {
+    /// Turn on at the valley of the ring (default).
+    #[default]
+    Valley,
+    /// A fixed delay, `fallback_ticks`.
+    Fixed,
+}
+
+/// The `[adc]` table.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct AdcFile {
+    /// Converter resolution, bits (8 to 16).
+    pub bits: u8,
+    /// Input-voltage scale, volt per code (code 0 reads 0 V).
+    pub vin_volts_per_code: f64,
+    /// Output-current scale, ampere per code.
+    pub io_amps_per_code: f64,
+    /// Code that reads 0 A. Default 0.
+    #[serde(default)]
+    pub io_zero_code: u16,
+}
+
+/// The `[timer]` table.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct TimerFile {
+    /// Timer clock.
+    pub clock_hz: Hertz,
+    /// Counter width, bits. Default 16.
+    #[serde(default = "default_counter_bits")]
+    pub counter_bits: u8,
+    /// Gate-driver turn-on propagation delay. Default 0.
+    #[serde(default = "zero_s")]
+    pub driver_delay: Second,
+    /// Gate-driver turn-off propagation delay. Default 0.
+    #[serde(default = "zero_s")]
+    pub driver_delay_off: Second,
+    /// Aim point in the ZVS window, 0 = earliest. Default 0.25.
+    #[serde(default = "default_position")]
+    pub position: f64,
+}
+
+/// The `[table]` table.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct TableFile {
+    /// Largest allowed error of the commanded delay against the exact model,
+    /// ticks (including the final rounding). Default 1.0.
+    #[serde(default = "default_max_error")]
+    pub max_error_ticks: f64,
+    /// Policy below the ZVS boundary. Default `valley`.
+    #[serde(default)]
+    pub fallback: FallbackChoice,
+    /// Delay for `fallback = "fixed"`, ticks.
+    #[serde(default)]
+    pub fallback_ticks: Option<u32>,
+    /// Layouts to consider. Default `auto`.
+    #[serde(default)]
+    pub layout: LayoutChoice,
+}
+
+impl Default for TableFile {
+    fn default() -> Self {
+        Self {
+            max_error_ticks: default_max_error(),
+            fallback: FallbackChoice::Valley,
+            fallback_ticks: None,
+            layout: LayoutChoice::Auto,
+        }
+    }
+}
+
+fn default_counter_bits() -> u8 {
+    16
+}
+fn zero_s() -> Second {
+    Second(0.0)
+}
+fn default_position() -> f64 {
+    0.25
+}
+fn default_max_error() -> f64 {
+    1.0
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[serde(rename_all = "kebab-case")]
+enum TopologyFile {
+    Buck,
+    Boost,
+    BuckBoost,
+}
+
+/// A design file as written.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct DesignFile {
+    /// File stem of the outputs and prefix of C symbols.
+    pub name: String,
+    #[serde(default = "default_topology")]
+    topology: TopologyFile,
+    /// Resonant inductance.
+    pub lr: Henry,
+    /// Resonant capacitance across the switch (external plus MOSFET Coss).
+    pub cr: Farad,
+    /// Input-voltage range [min, max].
+    pub vin: [Volt; 2],
+    /// Output-current range [min, max].
+    pub io: [Amp; 2],
+    /// Output voltage (boost and buck-boost need it; it sets the stress).
+    #[serde(default)]
+    pub vout: Option<Volt>,
+    /// ADC description.
+    pub adc: AdcFile,
+    /// Timer and gate driver.
+    pub timer: TimerFile,
+    /// Table requirements.
+    #[serde(default)]
+    pub table: TableFile,
+}
+
+fn default_topology() -> TopologyFile {
+    TopologyFile::Buck
+}
+
+/// A validated design.
+#[derive(Debug, Clone)]
+pub struct Design {
+    /// Name (a C identifier).
+    pub name: String,
+    /// Converter.
+    pub topology: Topology,
+    /// The tank.
+    pub tank: Tank<f64>,
+    /// Input-voltage range, volt.
+    pub vin_v: (f64, f64),
+    /// Output-current range, ampere.
+    pub io_a: (f64, f64),
+    /// Output voltage, volt (None for a buck without one).
+    pub vout_v: Option<f64>,
+    /// ADC bits.
+    pub adc_bits: u8,
+    /// Volt per voltage code.
+    pub vin_volts_per_code: f64,
+    /// Ampere per current code.
+    pub io_amps_per_code: f64,
+    /// Current code at 0 A.
+    pub io_zero_code: u16,
+    /// Timer and driver.
+    pub timer: Timer<f64>,
+    /// Aim point.
+    pub position: WindowPosition<f64>,
+    /// Error budget, ticks.
+    pub max_error_ticks: f64,
+    /// Fallback below the ZVS boundary.
+    pub fallback: timing_core::table::Fallback,
+    /// Layouts to consider.
+    pub layout: LayoutChoice,
+    /// Voltage codes of the design range.
+    pub vin_codes: CodeRange,
+    /// Current codes of the design range.
+    pub io_codes: CodeRange,
+    /// CRC-32 of the design file's text: the design hash in table headers.
+    pub hash: u32,
+}
+
+/// A design that cannot be used.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum DesignError {
+    /// The file could not be read.
+    #[error("cannot read {path}: {message}")]
+    Read {
+        /// File path.
+        path: String,
+        /// OS message.
+        message: String,
+    },
+    /// The TOML is malformed or a key has a wrong type or value; the message
+    /// carries line, column and key.
+    #[error("{path}: {message}")]
+    Malformed {
+        /// File path.
+        path: String,
+        /// Parser message with line and column.
+        message: String,
+    },
+    /// The design is physically impossible or inconsistent.
+    #[error("{path}: {message}")]
+    Invalid {
+        /// File path.
+        path: String,
+        /// Plain sentence.
+        message: String,
+    },
+}
+
+impl Design {
+    /// Read and validate a design file.
+    ///
+    /// # Errors
+    /// [`DesignError`].
+    pub fn load(path: &std::path::Path) -> Result<Self, DesignError> {
+        let text = std::fs::read_to_string(path).map_err(|e| DesignError::Read {
+            path: path.display().to_string(),
+            message: e.to_string(),
+        })?;
+        Self::parse(&text, &path.display().to_string())
+    }
+
+    /// Parse and validate design-file text; `origin` names it in errors.
+    ///
+    /// # Errors
+    /// [`DesignError::Malformed`] or [`DesignError::Invalid`].
+    pub fn parse(text: &str, origin: &str) -> Result<Self, DesignError> {
+        let file: DesignFile = toml::from_str(text).map_err(|e| DesignError::Malformed {
+            path: origin.to_owned(),
+            message: e.to_string().trim_end().replace('\n', "\n  "),
+        })?;
+        file.validate(text).map_err(|message| DesignError::Invalid {
+            path: origin.to_owned(),
+            message,
+        })
+    }
+
+    /// The cell quantities at converter input voltage `vin` and output current `io`.
+    ///
+    /// # Errors
+    /// The timing-core error for an impossible point.
+    pub fn cell(&self, vin: f64, io: f64) -> Result<CellPoint<f64>, timing_core::Error> {
+        CellPoint::from_converter(self.topology, vin, self.vout_v.unwrap_or(f64::NAN), io)
+    }
+
+    /// Input voltage of code `c`, volt.
+    #[must_use]
+    pub fn vin_of(&self, c: u16) -> f64 {
+        f64::from(c) * self.vin_volts_per_code
+    }
+
+    /// Output current of code `c`, ampere.
+    #[must_use]
+    pub fn io_of(&self, c: u16) -> f64 {
+        (f64::from(c) - f64::from(self.io_zero_code)) * self.io_amps_per_code
+    }
+}
+
+impl DesignFile {
+    fn validate(&self, text: &str) -> Result<Design, String> {
+        let name_ok = self
+            .name
+            .chars()
+            .next()
+            .is_some_and(|c| c.is_ascii_alphabetic() || c == '_')
+            && self
+                .name
+                .chars()
+                .all(|c| c.is_ascii_alphanumeric() || c == '_');
+        if !name_ok {
+            return Err(format!(
+                "name `{}` must be a C identifier (letters, digits, _; not starting with a digit): it prefixes the C symbols",
+                self.name
+            ));
+        }
+        let tank = Tank::new(self.lr.0, self.cr.0).map_err(|e| format!("lr/cr: {e}"))?;
+        let topology = match self.topology {
+            TopologyFile::Buck => Topology::Buck,
+            TopologyFile::Boost => Topology::Boost,
+            TopologyFile::BuckBoost => Topology::BuckBoost,
+        };
+        let (vlo, vhi) = (self.vin[0].0, self.vin[1].0);
+        let (ilo, ihi) = (self.io[0].0, self.io[1].0);
+        for (what, v) in [("vin", vlo), ("vin", vhi), ("io", ilo), ("io", ihi)] {
+            if !(v.is_finite() && v > 0.0) {
+                return Err(format!(
+                    "{what} = {v}: the range must be positive (at zero current the valley delay is unbounded; start the range at the lightest load the table must serve)"
+                ));
+            }
+        }
+        if vlo >= vhi {
+            return Err(format!(
+                "vin = [{vlo}, {vhi}] is an empty range: the first value must be below the second"
+            ));
+        }
+        if ilo >= ihi {
+            return Err(format!(
+                "io = [{ilo}, {ihi}] is an empty range: the first value must be below the second"
+            ));
+        }
+        let vout = self.vout.map(|v| v.0);
+        if topology.needs_vout() && vout.is_none() {
+            return Err(format!("a {} design needs `vout`", topology.name()));
+        }
+        if let Some(v) = vout {
+            if !(v.is_finite() && v > 0.0) {
+                return Err(format!("vout = {v} must be a positive voltage"));
+            }
+            if topology == Topology::Boost && v <= vhi {
+                return Err(format!(
+                    "vout = {v} V must exceed the highest input voltage ({vhi} V) for a boost"
+                ));
+            }
+            if topology == Topology::Buck && v >= vlo {
+                return Err(format!(
+                    "vout = {v} V must be below the lowest input voltage ({vlo} V) for a buck"
+                ));
+            }
+        }
+        let a = &self.adc;
+        if !(8..=16).contains(&a.bits) {
+            return Err(format!("adc.bits = {} must be 8 to 16", a.bits));
+        }
+        for (key, v) in [
+            ("adc.vin_volts_per_code", a.vin_volts_per_code),
+            ("adc.io_amps_per_code", a.io_amps_per_code),
+        ] {
+            if !(v.is_finite() && v > 0.0) {
+                return Err(format!("{key} = {v} must be a positive scale"));
+            }
+        }
+        let max_code = (1u32 << a.bits) - 1;
+        if u32::from(a.io_zero_code) > max_code {
+            return Err(format!(
+                "adc.io_zero_code = {} is beyond the {}-bit ADC's {max_code}",
+                a.io_zero_code, a.bits
+            ));
+        }
+        // Codes inside the design range: those that read within it.
+        let code_range = |lo: f64,
+                          hi: f64,
+                          scale: f64,
+                          zero: f64,
+                          key: &str,
+                          unit: &str|
+         -> Result<CodeRange, String> {
+            let c_lo = (lo / scale + zero - 1e-9).ceil();
+            let c_hi = (hi / scale + zero + 1e-9).floor();
+            if c_hi > f64::from(max_code) {
+                return Err(format!(
+                    "{key} reaches {hi} {unit}, code {c_hi:.0}, beyond the {}-bit ADC's full scale of {:.4} {unit} (code {max_code})",
+                    a.bits,
+                    (f64::from(max_code) - zero) * scale
+                ));
+            }
+            if c_lo > c_hi || c_lo < 1.0 {
+                return Err(format!(
+                    "{key} = [{lo}, {hi}] {unit} holds no usable ADC code at {scale} {unit}/code"
+                ));
+            }
+            Ok(CodeRange {
+                lo: c_lo as u16,
+                hi: c_hi as u16,
+            })
+        };
+        let vin_codes = code_range(vlo, vhi, a.vin_volts_per_code, 0.0, "vin", "V")?;
+        let io_codes = code_range(
+            ilo,
+            ihi,
+            a.io_amps_per_code,
+            f64::from(a.io_zero_code),
+            "io",
+            "A",
+        )?;
+        if io_codes.lo <= a.io_zero_code {
+            return Err("io range starts at the sensor zero: the lightest load must read above adc.io_zero_code".into());
+        }
+        let t = &self.timer;
+        let timer = Timer::new(
+            t.clock_hz.0,
+            t.counter_bits,
+            t.driver_delay.0,
+            t.driver_delay_off.0,
+        )
+        .map_err(|e| format!("timer: {e}"))?;
+        let position =
+            WindowPosition::new(t.position).map_err(|e| format!("timer.position: {e}"))?;
+        let tb = &self.table;
+        if !(tb.max_error_ticks.is_finite() && tb.max_error_ticks >= 0.5) {
+            return Err(format!(
+                "table.max_error_ticks = {} must be at least 0.5: rounding to whole ticks alone costs half a tick",
+                tb.max_error_ticks
+            ));
+        }
+        let fallback = match (tb.fallback, tb.fallback_ticks) {
+            (FallbackChoice::Valley, _) => timing_core::table::Fallback::Valley,
+            (FallbackChoice::Fixed, Some(n)) if n <= timer.max_ticks().get() => {
+                timing_core::table::Fallback::Fixed(timing_core::Ticks::new(n))
+            }
+            (FallbackChoice::Fixed, Some(n)) => {
+                return Err(format!(
+                    "table.fallback_ticks = {n} exceeds the {}-bit counter's {}",
+                    t.counter_bits,
+                    timer.max_ticks().get()
+                ))
+            }
+            (FallbackChoice::Fixed, None) => {
+                return Err("table.fallback = \"fixed\" needs table.fallback_ticks".into())
+            }
+        };
+        Ok(Design {
+            name: self.name.clone(),
+            topology,
+            tank,
+            vin_v: (vlo, vhi),
+            io_a: (ilo, ihi),
+            vout_v: vout,
+            adc_bits: a.bits,
+            vin_volts_per_code: a.vin_volts_per_code,
+            io_amps_per_code: a.io_amps_per_code,
+            io_zero_code: a.io_zero_code,
+            timer,
+            position,
+            max_error_ticks: tb.max_error_ticks,
+            fallback,
+            layout: tb.layout,
+            vin_codes,
+            io_codes,
+            hash: timing_core::blob::CRC32.checksum(text.as_bytes()),
+        })
+    }
+}

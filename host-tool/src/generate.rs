@@ -1,0 +1,549 @@
+//! Table generation: the exact delay model over a design's code range, the
+//! candidate layouts, and the choice of the smallest that meets the error
+//! budget. All physics comes from timing-core.
+
+use timing_core::table::{DelayTable, Fallback, GridLayout, Layout, RatioLayout, Sensing};
+use timing_core::{Transition, ZvsWindow};
+
+use crate::design::Design;
+use crate::verify::{verify, VerifyReport};
+
+/// The exact (f64) commanded delay of a design, before quantisation.
+#[derive(Debug, Clone, Copy)]
+pub struct ExactModel<'a> {
+    design: &'a Design,
+    clock_hz: f64,
+    lead_s: f64,
+}
+
+/// The exact model at one operating point.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ExactPoint {
+    /// Ideal delay from the turn-off command, ticks (not rounded), with the
+    /// design's fallback.
+    pub ticks: f64,
+    /// The same with the valley fallback, which is continuous across the
+    /// ZVS boundary: what table entries hold, so interpolation near the
+    /// boundary never blends in a fixed fallback delay (a fixed fallback is
+    /// applied by the lookup's ZVS test instead).
+    pub table_ticks: f64,
+    /// The ZVS window, `None` below the boundary.
+    pub window: Option<ZvsWindow<f64>>,
+}
+
+impl<'a> ExactModel<'a> {
+    /// The model of `design`.
+    #[must_use]
+    pub fn new(design: &'a Design) -> Self {
+        Self {
+            design,
+            clock_hz: design.timer.clock_hz(),
+            lead_s: design.timer.lead_s(),
+        }
+    }
+
+    /// The exact delay at converter input voltage `vin` (V) and output current
+    /// `io` (A), with the design's aim point and fallback.
+    ///
+    /// # Errors
+    /// timing-core's error for an impossible point.
+    pub fn at(&self, vin: f64, io: f64) -> Result<ExactPoint, timing_core::Error> {
+        let cell = self.design.cell(vin, io)?;
+        let t = Transition::new(&self.design.tank, &cell)?;
+        let window = t.window();
+        let table_ticks = (t.turn_on_target_s(self.design.position) - self.lead_s) * self.clock_hz;
+        let ticks = match (window, self.design.fallback) {
+            (None, Fallback::Fixed(n)) => f64::from(n.get()),
+            _ => table_ticks,
+        };
+        Ok(ExactPoint {
+            ticks,
+            table_ticks,
+            window,
+        })
+    }
+
+    /// The exact delay at ADC codes (`vin_code`, `io_code`).
+    ///
+    /// # Errors
+    /// As [`ExactModel::at`].
+    pub fn at_codes(&self, vin_code: u16, io_code: u16) -> Result<ExactPoint, timing_core::Error> {
+        self.at(self.design.vin_of(vin_code), self.design.io_of(io_code))
+    }
+
+    /// The exact delay at normalised load `j`. For every cell
+    /// J = Io*Z0/Vin (the Vout factors of the boost and buck-boost mappings
+    /// cancel), so the point Vin = the design's lowest input voltage,
+    /// Io = J*Vin/Z0 has it.
+    ///
+    /// # Errors
+    /// As [`ExactModel::at`].
+    pub fn at_load(&self, j: f64) -> Result<ExactPoint, timing_core::Error> {
+        let vin = self.design.vin_v.0;
+        self.at(vin, j * vin / self.design.tank.z0_ohm())
+    }
+}
+
+/// A table in memory, with what generation knows about it.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Generated {
+    /// Sensing description.
+    pub sensing: Sensing,
+    /// Layout.
+    pub layout: Layout,
+    /// Fractional bits of the entries.
+    pub frac_bits: u8,
+    /// Fallback.
+    pub fallback: Fallback,
+    /// Entries.
+    pub entries: Vec<u16>,
+}
+
+impl Generated {
+    /// The validated timing-core table over these entries.
+    ///
+    /// # Errors
+    /// timing-core's [`timing_core::table::TableError`] (a generator bug if it happens).
+    pub fn table(&self) -> Result<DelayTable<&[u16]>, timing_core::table::TableError> {
+        DelayTable::new(
+            self.sensing,
+            self.layout,
+            self.frac_bits,
+            self.fallback,
+            self.entries.as_slice(),
+        )
+    }
+
+    /// Bytes of the entries.
+    #[must_use]
+    pub fn table_bytes(&self) -> usize {
+        self.entries.len() * 2
+    }
+
+    /// Layout name: `ratio` or `grid`.
+    #[must_use]
+    pub fn layout_name(&self) -> &'static str {
+        match self.layout {
+            Layout::Ratio(_) => "ratio",
+            Layout::Grid(_) => "grid",
+        }
+    }
+}
+
+/// Why generation failed.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum GenerateError {
+    /// A delay in the design range exceeds the timer counter.
+    #[error("the delay reaches {ticks:.0} ticks at Vin = {vin_v:.3} V, Io = {io_a:.4} A, beyond the {bits}-bit timer counter's limit of {max} ticks; use a wider counter, a slower timer clock, raise the lightest load in `io`, or `fallback = \"fixed\"`")]
+    CounterOverflow {
+        /// Ticks needed.
+        ticks: f64,
+        /// Where.
+        vin_v: f64,
+        /// Where.
+        io_a: f64,
+        /// Counter width.
+        bits: u8,
+        /// Counter limit.
+        max: u32,
+    },
+    /// A delay would be negative: the driver lead is longer than the target.
+    #[error("the gate driver's net lead exceeds the turn-on target at Vin = {vin_v:.3} V, Io = {io_a:.4} A: no non-negative delay reaches it")]
+    NegativeDelay {
+        /// Where.
+        vin_v: f64,
+        /// Where.
+        io_a: f64,
+    },
+    /// The model refused a point of the design range.
+    #[error("at Vin = {vin_v:.3} V, Io = {io_a:.4} A: {message}")]
+    Model {
+        /// Where.
+        vin_v: f64,
+        /// Where.
+        io_a: f64,
+        /// timing-core's message.
+        message: String,
+    },
+    /// No candidate layout meets the error budget.
+    #[error("no table layout meets max_error_ticks = {budget}: the best reached {best:.3} ticks with {bytes} bytes ({layout}); raise max_error_ticks or use a faster timer")]
+    NoLayout {
+        /// Budget.
+        budget: f64,
+        /// Best error found.
+        best: f64,
+        /// Its size.
+        bytes: usize,
+        /// Its layout.
+        layout: &'static str,
+    },
+}
+
+/// One candidate layout considered, for reports.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct Candidate {
+    /// `ratio` or `grid`.
+    pub layout: &'static str,
+    /// Entry bytes.
+    pub table_bytes: usize,
+    /// Worst error on the screening sample, ticks (`None` when the layout
+    /// could not be built within the fixed-point limits).
+    pub screened_error_ticks: Option<f64>,
+    /// Whether it met the budget on the sample.
+    pub meets_budget: bool,
+    /// Shape: `nodes=...` or `rows x cols`.
+    pub shape: String,
+}
+
+/// The result of [`generate`].
+#[derive(Debug, Clone)]
+pub struct Outcome {
+    /// The chosen table.
+    pub table: Generated,
+    /// Its exhaustive verification.
+    pub verification: VerifyReport,
+    /// Every candidate considered, smallest first.
+    pub candidates: Vec<Candidate>,
+}
+
+/// Bits needed to hold `x`.
+fn bits(x: u32) -> u32 {
+    32 - x.leading_zeros()
+}
+
+/// Largest exact delay over the design range and a check that all fit the
+/// counter and are non-negative. The delay is monotonic in neither code, so
+/// this scans the edges of the range finely and the interior on a grid; the
+/// exhaustive verification later covers every pair.
+fn delay_bounds(design: &Design, model: &ExactModel<'_>) -> Result<f64, GenerateError> {
+    let mut max_ticks = 0.0f64;
+    let v = design.vin_codes;
+    let i = design.io_codes;
+    let step = |r: timing_core::CodeRange| ((r.hi - r.lo) / 64).max(1);
+    let mut cv = v.lo;
+    loop {
+        let mut ci = i.lo;
+        loop {
+            let p = model.at_codes(cv, ci).map_err(|e| GenerateError::Model {
+                vin_v: design.vin_of(cv),
+                io_a: design.io_of(ci),
+                message: e.to_string(),
+            })?;
+            if p.ticks < 0.0 {
+                return Err(GenerateError::NegativeDelay {
+                    vin_v: design.vin_of(cv),
+                    io_a: design.io_of(ci),
+                });
+            }
+            let max = design.timer.max_ticks().get().min(u32::from(u16::MAX));
+            if p.ticks.round() > f64::from(max) {
+                return Err(GenerateError::CounterOverflow {
+                    ticks: p.ticks,
+                    vin_v: design.vin_of(cv),
+                    io_a: design.io_of(ci),
+                    bits: design.timer.counter_bits(),
+                    max,
+                });
+            }
+            max_ticks = max_ticks.max(p.ticks);
+            if ci == i.hi {
+                break;
+            }
+            ci = (ci + step(i)).min(i.hi);
+        }
+        if cv == v.hi {
+            break;
+        }
+        cv = (cv + step(v)).min(v.hi);
+    }
+    Ok(max_ticks)
+}
+
+/// The ZVS test multipliers. J = Io*Z0/Vin >= 1 with Io = ki*(io - zero)
+/// and Vin = kv*vin reads `(io - zero)*ki*Z0 >= vin*kv`: the multipliers
+/// are ki*Z0 and kv, scaled so the larger is 65535.
+fn zvs_multipliers(design: &Design) -> (u16, u16) {
+    let a = design.io_amps_per_code * design.tank.z0_ohm();
+    let b = design.vin_volts_per_code;
+    let scale = f64::from(u16::MAX) / a.max(b);
+    (
+        (a * scale).round().max(1.0) as u16,
+        (b * scale).round().max(1.0) as u16,
+    )
+}
+
+fn sensing(design: &Design) -> Sensing {
+    let (zvs_io_mul, zvs_vin_mul) = zvs_multipliers(design);
+    Sensing {
+        vin: design.vin_codes,
+        io: design.io_codes,
+        io_zero: design.io_zero_code,
+        zvs_io_mul,
+        zvs_vin_mul,
+    }
+}
+
+fn entry(ticks: f64, frac_bits: u32) -> u16 {
+    (ticks * f64::from(1u32 << frac_bits))
+        .round()
+        .clamp(0.0, f64::from(u16::MAX)) as u16
+}
+
+/// The ratio layout with about `target_nodes` nodes and `frac` fractional
+/// bits: the ratio shift is the largest (finest ratio resolution) that
+/// keeps the node step within the fixed-point limit `step + frac <= 16`.
+fn ratio_candidate(
+    design: &Design,
+    model: &ExactModel<'_>,
+    max_ticks: f64,
+    target_nodes: u32,
+    frac: u32,
+) -> Result<Option<Generated>, GenerateError> {
+    let s = sensing(design);
+    if bits(max_ticks.ceil() as u32) + frac > 16 {
+        return Ok(None);
+    }
+    let mut shift = 32 - bits(u32::from(s.vin.hi));
+    loop {
+        let q_lo = (u32::from(s.vin.lo) << shift) / u32::from(s.io.hi - s.io_zero);
+        let q_hi = (u32::from(s.vin.hi) << shift) / u32::from(s.io.lo - s.io_zero);
+        let span = q_hi - q_lo;
+        let per = (f64::from(span) / f64::from(target_nodes.max(2) - 1)).max(1.0);
+        let step = per.log2().ceil().max(0.0) as u32;
+        if step + frac > 16 {
+            if shift == 0 {
+                return Ok(None);
+            }
+            shift -= 1;
+            continue;
+        }
+        // The ratio must resolve the lightest-load end: q of the first node
+        // at least 64 (truncation of the division moves it by under 2 %).
+        if q_lo < 64 {
+            return Ok(None);
+        }
+        let nodes = (span.div_ceil(1 << step) + 1).max(2);
+        if nodes > u32::from(u16::MAX) {
+            return Ok(None);
+        }
+        let scale = design.io_amps_per_code * design.tank.z0_ohm() * f64::from(1u32 << shift)
+            / design.vin_volts_per_code;
+        let mut entries = Vec::with_capacity(nodes as usize);
+        for k in 0..nodes {
+            let q = f64::from(q_lo) + f64::from(k) * f64::from(1u32 << step);
+            let j = scale / q;
+            let p = model.at_load(j).map_err(|e| GenerateError::Model {
+                vin_v: design.vin_v.0,
+                io_a: j * design.vin_v.0 / design.tank.z0_ohm(),
+                message: e.to_string(),
+            })?;
+            entries.push(entry(p.table_ticks, frac));
+        }
+        return Ok(Some(Generated {
+            sensing: s,
+            layout: Layout::Ratio(RatioLayout {
+                ratio_shift: shift as u8,
+                q_lo,
+                step_shift: step as u8,
+                nodes: nodes as u16,
+            }),
+            frac_bits: frac as u8,
+            fallback: design.fallback,
+            entries,
+        }));
+    }
+}
+
+/// The grid layout with spacings `2^vs` x `2^is`.
+fn grid_candidate(
+    design: &Design,
+    model: &ExactModel<'_>,
+    max_ticks: f64,
+    vs: u32,
+    is: u32,
+) -> Result<Option<Generated>, GenerateError> {
+    let s = sensing(design);
+    let tick_bits = bits(max_ticks.ceil() as u32);
+    if vs + is + tick_bits > 16 {
+        return Ok(None);
+    }
+    let frac = 16 - tick_bits - vs - is;
+    let rows = u32::from(s.vin.hi - s.vin.lo).div_ceil(1 << vs) + 1;
+    let cols = u32::from(s.io.hi - s.io.lo).div_ceil(1 << is) + 1;
+    if rows * cols > 1 << 16 {
+        return Ok(None);
+    }
+    let mut entries = Vec::with_capacity((rows * cols) as usize);
+    for r in 0..rows {
+        for c in 0..cols {
+            let cv = f64::from(s.vin.lo) + f64::from(r << vs);
+            let ci = f64::from(s.io.lo) + f64::from(c << is);
+            let vin = cv * design.vin_volts_per_code;
+            let io = (ci - f64::from(s.io_zero)) * design.io_amps_per_code;
+            let p = model.at(vin, io).map_err(|e| GenerateError::Model {
+                vin_v: vin,
+                io_a: io,
+                message: e.to_string(),
+            })?;
+            entries.push(entry(p.table_ticks, frac));
+        }
+    }
+    Ok(Some(Generated {
+        sensing: s,
+        layout: Layout::Grid(GridLayout {
+            vin_shift: vs as u8,
+            io_shift: is as u8,
+            rows: rows as u16,
+            cols: cols as u16,
+        }),
+        frac_bits: frac as u8,
+        fallback: design.fallback,
+        entries,
+    }))
+}
+
+/// Worst error of `g` on a sample of the design's code pairs (about
+/// `budget_points` of them, evenly strided, edges included), ticks.
+fn screen(design: &Design, model: &ExactModel<'_>, g: &Generated) -> f64 {
+    let Ok(t) = g.table() else {
+        return f64::INFINITY;
+    };
+    let (v, i) = (design.vin_codes, design.io_codes);
+    let total = f64::from(v.len()) * f64::from(i.len());
+    let stride = ((total / 200_000.0).sqrt().floor() as u16).max(1);
+    let mut worst = 0.0f64;
+    let mut cv = v.lo;
+    while cv <= v.hi {
+        let mut ci = i.lo;
+        while ci <= i.hi {
+            if let Ok(p) = model.at_codes(cv, ci) {
+                let got = f64::from(
+                    t.delay(timing_core::AdcCode::new(cv), timing_core::AdcCode::new(ci))
+                        .ticks
+                        .get(),
+                );
+                worst = worst.max((got - p.ticks).abs());
+            }
+            if ci == i.hi {
+                break;
+            }
+            ci = ci.saturating_add(stride).min(i.hi);
+        }
+        if cv == v.hi {
+            break;
+        }
+        cv = cv.saturating_add(stride).min(v.hi);
+    }
+    worst
+}
+
+/// Generate the smallest table of the allowed layouts that meets the
+/// design's error budget on a screening sample and then in exhaustive
+/// verification over every code pair.
+///
+/// # Errors
+/// [`GenerateError`].
+pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
+    let model = ExactModel::new(design);
+    let max_ticks = delay_bounds(design, &model)?;
+    let mut pool: Vec<Generated> = Vec::new();
+    if design.layout != crate::design::LayoutChoice::Grid {
+        let mut n = 4u32;
+        while n <= 32_768 {
+            for frac in 0..=12 {
+                if let Some(g) = ratio_candidate(design, &model, max_ticks, n, frac)? {
+                    if !pool
+                        .iter()
+                        .any(|p| p.layout == g.layout && p.frac_bits == g.frac_bits)
+                    {
+                        pool.push(g);
+                    }
+                }
+            }
+            n *= 2;
+        }
+    }
+    if design.layout != crate::design::LayoutChoice::Ratio {
+        for vs in 0..=10u32 {
+            for is in 0..=10u32 {
+                if let Some(g) = grid_candidate(design, &model, max_ticks, vs, is)? {
+                    pool.push(g);
+                }
+            }
+        }
+    }
+    pool.sort_by_key(|g| (g.table_bytes(), std::cmp::Reverse(g.frac_bits)));
+    // Leave a margin on the sample for the pairs it skipped.
+    let screen_budget = design.max_error_ticks - 0.02;
+    let mut candidates = Vec::new();
+    let mut best: Option<(f64, usize, &'static str)> = None;
+    let mut chosen = None;
+    for g in pool {
+        // Grids far larger than the best ratio table are not worth screening.
+        if chosen.is_some() {
+            candidates.push(Candidate {
+                layout: g.layout_name(),
+                table_bytes: g.table_bytes(),
+                screened_error_ticks: None,
+                meets_budget: false,
+                shape: shape(&g),
+            });
+            continue;
+        }
+        let err = screen(design, &model, &g);
+        let meets = err <= screen_budget;
+        candidates.push(Candidate {
+            layout: g.layout_name(),
+            table_bytes: g.table_bytes(),
+            screened_error_ticks: Some(err),
+            meets_budget: meets,
+            shape: shape(&g),
+        });
+        if best.is_none_or(|b| err < b.0) {
+            best = Some((err, g.table_bytes(), g.layout_name()));
+        }
+        if meets {
+            let report = verify(
+                design,
+                &g.table().map_err(|e| GenerateError::Model {
+                    vin_v: 0.0,
+                    io_a: 0.0,
+                    message: e.to_string(),
+                })?,
+                None,
+            );
+            if report.max_error_ticks <= design.max_error_ticks {
+                chosen = Some((g, report));
+            } else if let Some(c) = candidates.last_mut() {
+                c.meets_budget = false;
+                c.screened_error_ticks = Some(report.max_error_ticks);
+            }
+        }
+    }
+    match chosen {
+        Some((table, verification)) => Ok(Outcome {
+            table,
+            verification,
+            candidates,
+        }),
+        None => {
+            let (best, bytes, layout) = best.unwrap_or((f64::INFINITY, 0, "none"));
+            Err(GenerateError::NoLayout {
+                budget: design.max_error_ticks,
+                best,
+                bytes,
+                layout,
+            })
+        }
+    }
+}
+
+fn shape(g: &Generated) -> String {
+    match g.layout {
+        Layout::Ratio(r) => format!("{} nodes, q step 2^{}", r.nodes, r.step_shift),
+        Layout::Grid(gr) => format!(
+            "{} x {} nodes, steps 2^{} x 2^{} codes",
+            gr.rows, gr.cols, gr.vin_shift, gr.io_shift
+        ),
+    }
+}

@@ -1,0 +1,274 @@
+//! Flash tables: the committed demo outputs are fresh, the C header computes
+//! exactly what timing-core's lookup computes (compiled with gcc), corrupt
+//! blobs are refused, and a design not used during development meets its
+//! budget within 2 KiB.
+
+#![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)]
+
+use std::path::{Path, PathBuf};
+use std::process::Command;
+
+use cross_checks::require_program;
+use host_tool::design::Design;
+use host_tool::{export, generate};
+use timing_core::table::{DelayTable, Entries, TableError};
+use timing_core::AdcCode;
+
+fn repo() -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR"))
+        .parent()
+        .unwrap()
+        .to_path_buf()
+}
+
+fn scratch(name: &str) -> PathBuf {
+    let d = std::env::temp_dir().join(format!("zvs-timing-tables-{}-{name}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&d);
+    std::fs::create_dir_all(&d).unwrap();
+    d
+}
+
+/// A design written for these tests only (not the demo): a boost from a
+/// 24 V nominal input to 48 V, bidirectional 10-bit current sensing, a
+/// 100 MHz timer and a slow isolated driver.
+const HELD_OUT: &str = r#"
+name = "held_out_boost"
+topology = "boost"
+lr = "2.2uH"
+cr = 3.3e-9
+vin = [18, 30]
+io = [0.3, 4]
+vout = 48
+[adc]
+bits = 10
+vin_volts_per_code = 0.04
+io_amps_per_code = 0.01
+io_zero_code = 512
+[timer]
+clock_hz = "100MHz"
+counter_bits = 16
+driver_delay = "60ns"
+driver_delay_off = "20ns"
+position = 0.4
+[table]
+max_error_ticks = 1.0
+"#;
+
+#[test]
+fn committed_demo_tables_are_fresh() {
+    let dir = scratch("fresh");
+    let design = Design::load(&repo().join("tables/winch_aux.toml")).unwrap();
+    let out = generate::generate(&design).unwrap();
+    export::write_all(&dir, &design, &out.table, &out.verification).unwrap();
+    for ext in ["rs", "h", "bin", "csv"] {
+        let fresh = std::fs::read(dir.join(format!("winch_aux.{ext}"))).unwrap();
+        let committed = std::fs::read(repo().join(format!("tables/winch_aux.{ext}"))).unwrap();
+        assert!(
+            fresh == committed,
+            "tables/winch_aux.{ext} is stale: regenerate with `cargo run --release -p host-tool -- table tables/winch_aux.toml --out tables`"
+        );
+    }
+    // The build.rs path writes the same Rust source.
+    let via_build =
+        export::rust_source_for_design_file(&repo().join("tables/winch_aux.toml")).unwrap();
+    assert_eq!(
+        via_build.as_bytes(),
+        std::fs::read(repo().join("tables/winch_aux.rs")).unwrap()
+    );
+}
+
+#[test]
+fn demo_table_meets_its_budget_in_2_kib() {
+    let design = Design::load(&repo().join("tables/winch_aux.toml")).unwrap();
+    let out = generate::generate(&design).unwrap();
+    assert!(
+        out.table.table_bytes() <= 2048,
+        "{} bytes",
+        out.table.table_bytes()
+    );
+    assert!(out.verification.max_error_ticks <= 1.0);
+    let pairs = u64::from(design.vin_codes.len()) * u64::from(design.io_codes.len());
+    assert_eq!(out.verification.points_checked, pairs);
+    assert_eq!(out.verification.model_errors, 0);
+}
+
+#[test]
+fn held_out_design_meets_its_budget() {
+    let design = Design::parse(HELD_OUT, "held_out.toml").unwrap();
+    let out = generate::generate(&design).unwrap();
+    println!(
+        "held-out: {} layout, {} bytes, max error {:.3} ticks over {} pairs",
+        out.table.layout_name(),
+        out.table.table_bytes(),
+        out.verification.max_error_ticks,
+        out.verification.points_checked
+    );
+    assert!(out.table.table_bytes() <= 2048);
+    assert!(out.verification.max_error_ticks <= 1.0);
+    // Independent recount: every pair of the range, table against the model.
+    let t = out.table.table().unwrap();
+    let model = generate::ExactModel::new(&design);
+    let mut worst = 0.0f64;
+    for cv in design.vin_codes.lo..=design.vin_codes.hi {
+        for ci in design.io_codes.lo..=design.io_codes.hi {
+            let exact = model.at_codes(cv, ci).unwrap().ticks;
+            let got = f64::from(t.delay(AdcCode::new(cv), AdcCode::new(ci)).ticks.get());
+            worst = worst.max((got - exact).abs());
+        }
+    }
+    assert!((worst - out.verification.max_error_ticks).abs() < 1e-12);
+}
+
+/// Compile a harness around `header` and compare `<name>_delay_ticks` with
+/// the Rust lookup on every pair of a strided grid that spans beyond the
+/// design range (clamping) and on every pair near the ZVS boundary.
+fn compare_c_with_rust<E: Entries>(
+    name: &str,
+    header: &str,
+    table: &DelayTable<E>,
+    design: &Design,
+) -> usize {
+    let dir = scratch(name);
+    std::fs::write(dir.join("table.h"), header).unwrap();
+    let harness = format!(
+        "#include <stdio.h>\n#include \"table.h\"\nint main(void) {{\n  unsigned v, i;\n  while (scanf(\"%u %u\", &v, &i) == 2) printf(\"%u %d\\n\", (unsigned){name}_delay_ticks((uint16_t)v, (uint16_t)i), {name}_zvs((uint16_t)v, (uint16_t)i));\n  return 0;\n}}\n"
+    );
+    std::fs::write(dir.join("main.c"), harness).unwrap();
+    let exe = dir.join("harness");
+    let cc = Command::new("gcc")
+        .args(["-std=c99", "-Wall", "-Wextra", "-Werror", "-O2", "-o"])
+        .arg(&exe)
+        .arg(dir.join("main.c"))
+        .output()
+        .unwrap();
+    assert!(
+        cc.status.success(),
+        "gcc failed:\n{}",
+        String::from_utf8_lossy(&cc.stderr)
+    );
+    let max = (1u32 << design.adc_bits) - 1;
+    let mut pairs = Vec::new();
+    let (v, i) = (design.vin_codes, design.io_codes);
+    let span = |lo: u16, hi: u16| -> Vec<u32> {
+        let (a, b) = (
+            u32::from(lo).saturating_sub(40),
+            (u32::from(hi) + 40).min(max),
+        );
+        (a..=b)
+            .step_by(7)
+            .chain([0, max, u32::from(lo), u32::from(hi)])
+            .collect()
+    };
+    for cv in span(v.lo, v.hi) {
+        for ci in span(i.lo, i.hi) {
+            pairs.push((cv, ci));
+        }
+    }
+    let mut input = String::new();
+    for (a, b) in &pairs {
+        input.push_str(&format!("{a} {b}\n"));
+    }
+    // Input from a file, so neither side can block on a full pipe.
+    std::fs::write(dir.join("pairs.txt"), input).unwrap();
+    let out = Command::new(&exe)
+        .stdin(std::fs::File::open(dir.join("pairs.txt")).unwrap())
+        .output()
+        .unwrap();
+    assert!(out.status.success());
+    let text = String::from_utf8(out.stdout).unwrap();
+    let mut n = 0;
+    for ((cv, ci), line) in pairs.iter().zip(text.lines()) {
+        let mut it = line.split_whitespace();
+        let c_ticks: u32 = it.next().unwrap().parse().unwrap();
+        let c_zvs: i32 = it.next().unwrap().parse().unwrap();
+        let r = table.delay(AdcCode::new(*cv as u16), AdcCode::new(*ci as u16));
+        assert_eq!(
+            c_ticks,
+            r.ticks.get(),
+            "C and Rust differ at vin code {cv}, io code {ci}"
+        );
+        assert_eq!(c_zvs == 1, r.zvs, "ZVS test differs at {cv}, {ci}");
+        n += 1;
+    }
+    assert_eq!(
+        n,
+        pairs.len(),
+        "harness printed {} of {} lines",
+        n,
+        pairs.len()
+    );
+    n
+}
+
+#[test]
+fn c_header_matches_the_rust_lookup() {
+    if !require_program(
+        "gcc",
+        Command::new("gcc").arg("--version").output().is_ok(),
+        "apt-get install gcc",
+    ) {
+        return;
+    }
+    // The demo (ratio layout), the held-out design, and the held-out design
+    // forced to the grid layout with a fixed fallback (every C branch).
+    let demo = Design::load(&repo().join("tables/winch_aux.toml")).unwrap();
+    let grid_text = HELD_OUT
+        .replace("name = \"held_out_boost\"", "name = \"held_out_grid\"")
+        // A loose budget: this design exists to exercise the grid and fixed-fallback
+        // code paths of the header, not to be accurate.
+        .replace(
+            "max_error_ticks = 1.0",
+            "max_error_ticks = 200.0\nlayout = \"grid\"\nfallback = \"fixed\"\nfallback_ticks = 90",
+        );
+    let designs = [
+        demo,
+        Design::parse(HELD_OUT, "held_out.toml").unwrap(),
+        Design::parse(&grid_text, "grid.toml").unwrap(),
+    ];
+    for d in &designs {
+        let out = generate::generate(d).unwrap();
+        let header = export::c_header(d, &out.table, &out.verification);
+        let n = compare_c_with_rust(&d.name, &header, &out.table.table().unwrap(), d);
+        println!(
+            "{}: C and Rust agree on {n} code pairs ({} layout)",
+            d.name,
+            out.table.layout_name()
+        );
+    }
+}
+
+#[test]
+fn every_flipped_byte_of_the_blob_is_refused() {
+    let blob = std::fs::read(repo().join("tables/winch_aux.bin")).unwrap();
+    let design = Design::load(&repo().join("tables/winch_aux.toml")).unwrap();
+    let (_, good) = timing_core::blob::open(&blob, Some(design.hash)).unwrap();
+    assert!(good.entry_bytes() > 0);
+    for k in 0..blob.len() {
+        for bit in [0x01u8, 0x80] {
+            let mut bad = blob.clone();
+            bad[k] ^= bit;
+            match timing_core::blob::open(&bad, Some(design.hash)) {
+                Err(e) => {
+                    let msg = e.to_string();
+                    assert!(!msg.is_empty());
+                    if k >= blob.len() - good.entry_bytes() {
+                        // Flips in the entries are payload flips: CRC mismatch.
+                        assert!(matches!(e, TableError::CrcMismatch { .. }), "byte {k}: {e}");
+                        assert!(msg.contains("corrupt"), "{msg}");
+                    }
+                }
+                Ok(_) => panic!(
+                    "a flipped bit {bit:#04x} in byte {k} of {} was accepted",
+                    blob.len()
+                ),
+            }
+        }
+    }
+    // Truncation and another design are refused with their own messages.
+    assert!(matches!(
+        timing_core::blob::open(&blob[..blob.len() - 1], None),
+        Err(TableError::Truncated)
+    ));
+    let other = timing_core::blob::open(&blob, Some(design.hash ^ 1)).unwrap_err();
+    assert!(other.to_string().contains("another design"), "{other}");
+}
