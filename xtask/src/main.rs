@@ -10,10 +10,11 @@ use std::path::Path;
 use std::process::{Command, ExitCode};
 
 const TARGETS: [&str; 2] = ["thumbv6m-none-eabi", "thumbv7em-none-eabihf"];
-const FEATURE_SETS: [&[&str]; 4] = [
+const FEATURE_SETS: [&[&str]; 5] = [
     &[],
     &["--features", "defmt"],
     &["--features", "serde"],
+    &["--features", "blob"],
     &["--all-features"],
 ];
 

@@ -1,0 +1,180 @@
+//! Design files: malformed ones are reported with line, column and key;
+//! impossible or inconsistent ones in a plain sentence; the `table` and
+//! `verify` commands as users run them.
+
+#![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)]
+
+use std::path::Path;
+use std::process::Command;
+
+use host_tool::design::{Design, DesignError};
+
+fn demo_text() -> String {
+    std::fs::read_to_string(Path::new(env!("CARGO_MANIFEST_DIR")).join("../tables/winch_aux.toml"))
+        .unwrap()
+}
+
+fn malformed(text: &str) -> String {
+    match Design::parse(text, "d.toml") {
+        Err(DesignError::Malformed { message, .. }) => message,
+        other => panic!("expected a malformed-file error, got {other:?}"),
+    }
+}
+
+fn invalid(text: &str) -> String {
+    match Design::parse(text, "d.toml") {
+        Err(DesignError::Invalid { message, .. }) => message,
+        other => panic!("expected an invalid-design error, got {other:?}"),
+    }
+}
+
+#[test]
+fn the_demo_design_is_valid() {
+    let d = Design::parse(&demo_text(), "demo").unwrap();
+    assert_eq!(d.name, "winch_aux");
+    assert_eq!((d.vin_codes.lo, d.vin_codes.hi), (2237, 3726)); // ceil(36/0.0161), floor(60/0.0161)
+}
+
+#[test]
+fn malformed_files_name_line_column_and_key() {
+    let t = demo_text().replace("lr = \"1u\"", "lr = \"1uF\"");
+    let m = malformed(&t);
+    assert!(m.contains("line 6") && m.contains("lr"), "{m}");
+    assert!(m.contains("unit"), "{m}");
+
+    let t = demo_text().replace("bits = 12", "bits = \"twelve\"");
+    let m = malformed(&t);
+    assert!(
+        m.contains("line") && m.contains("column") && m.contains("bits"),
+        "{m}"
+    );
+
+    let t = demo_text().replace("position = 0.25", "positon = 0.25");
+    let m = malformed(&t);
+    assert!(m.contains("positon"), "{m}");
+
+    let m = malformed("name = \"x\"\nlr = [1");
+    assert!(m.contains("line 2"), "{m}");
+}
+
+#[test]
+fn impossible_designs_get_a_plain_sentence() {
+    let cases = [
+        (
+            demo_text().replace("lr = \"1u\"", "lr = \"-1u\""),
+            "greater than zero",
+        ),
+        (
+            demo_text().replace("vin = [36, 60]", "vin = [60, 36]"),
+            "empty range",
+        ),
+        (
+            demo_text().replace("io = [1, 10]", "io = [0, 10]"),
+            "must be positive",
+        ),
+        (
+            demo_text().replace("io = [1, 10]", "io = [1, 30]"),
+            "beyond the 12-bit ADC's full scale",
+        ),
+        (
+            demo_text().replace("vin = [36, 60]", "vin = [36, 80]"),
+            "beyond the 12-bit ADC's full scale",
+        ),
+        (
+            demo_text().replace("name = \"winch_aux\"", "name = \"9lives\""),
+            "C identifier",
+        ),
+        (
+            demo_text().replace("vout = 12", "vout = 40"),
+            "below the lowest input voltage",
+        ),
+        (
+            demo_text().replace("position = 0.25", "position = 1.5"),
+            "position",
+        ),
+        (
+            demo_text().replace("max_error_ticks = 1.0", "max_error_ticks = 0.2"),
+            "at least 0.5",
+        ),
+        (
+            demo_text().replace("fallback = \"valley\"", "fallback = \"fixed\""),
+            "fallback_ticks",
+        ),
+        (
+            demo_text().replace("topology = \"buck\"", "topology = \"boost\""),
+            "must exceed the highest input voltage",
+        ),
+        (demo_text().replace("bits = 12", "bits = 20"), "8 to 16"),
+    ];
+    for (text, phrase) in cases {
+        let m = invalid(&text);
+        assert!(m.contains(phrase), "`{m}` should say `{phrase}`");
+        assert_eq!(m.lines().count(), 1, "{m}");
+    }
+}
+
+fn zvs_timing(args: &[&str]) -> (i32, String, String) {
+    let out = Command::new(env!("CARGO_BIN_EXE_zvs-timing"))
+        .args(args)
+        .output()
+        .unwrap();
+    (
+        out.status.code().unwrap_or(-1),
+        String::from_utf8_lossy(&out.stdout).into_owned(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
+}
+
+#[test]
+fn table_and_verify_commands() {
+    let dir = std::env::temp_dir().join(format!("zvs-timing-cli-{}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    let design = Path::new(env!("CARGO_MANIFEST_DIR")).join("../tables/winch_aux.toml");
+    let d = design.to_str().unwrap();
+    let out = dir.to_str().unwrap();
+    let (code, stdout, err) = zvs_timing(&["table", d, "--out", out, "--json"]);
+    assert_eq!(code, 0, "{err}");
+    let j: serde_json::Value = serde_json::from_str(&stdout).unwrap();
+    assert!(j["table_bytes"].as_u64().unwrap() <= 2048);
+    assert!(j["max_error_ticks"].as_f64().unwrap() <= 1.0);
+    assert!(["ratio", "grid"].contains(&j["layout"].as_str().unwrap()));
+    let alts = j["alternatives"].as_array().unwrap();
+    assert!(
+        alts.iter().any(|a| a["layout"] == "grid"),
+        "the grid layout's size must be reported"
+    );
+    for ext in ["rs", "h", "bin", "csv"] {
+        assert!(dir.join(format!("winch_aux.{ext}")).exists());
+    }
+    let bin = dir.join("winch_aux.bin");
+    let (code, stdout, _) = zvs_timing(&["verify", d, "--table", bin.to_str().unwrap(), "--json"]);
+    assert_eq!(code, 0);
+    let j: serde_json::Value = serde_json::from_str(&stdout).unwrap();
+    assert_eq!(j["points_checked"].as_u64().unwrap(), 1490 * 1845);
+    assert!(j["max_error_ticks"].as_f64().unwrap() <= 1.0);
+
+    // A flipped byte: refused with a message that says so.
+    let mut blob = std::fs::read(&bin).unwrap();
+    let k = blob.len() - 10;
+    blob[k] ^= 0x20;
+    let bad = dir.join("bad.bin");
+    std::fs::write(&bad, &blob).unwrap();
+    let (code, _, err) = zvs_timing(&["verify", d, "--table", bad.to_str().unwrap()]);
+    assert_ne!(code, 0);
+    assert!(
+        err.contains("integrity check failed") && err.contains("corrupt"),
+        "{err}"
+    );
+    assert!(!err.contains("panicked"));
+
+    // A malformed design through the command: one error naming line and key.
+    let broken = dir.join("broken.toml");
+    std::fs::write(
+        &broken,
+        demo_text().replace("cr = \"6.8n\"", "cr = \"6.8q\""),
+    )
+    .unwrap();
+    let (code, _, err) = zvs_timing(&["table", broken.to_str().unwrap(), "--out", out]);
+    assert_ne!(code, 0);
+    assert!(err.contains("line 7") && err.contains("cr"), "{err}");
+}

@@ -1,0 +1,164 @@
+//! The fixed-point table lookup: validation refuses inconsistent layouts,
+//! interpolation reproduces linear data exactly (up to the final rounding),
+//! and any code pair at all, in range or not, gives a result without panic.
+
+use timing_core::table::{
+    DelayTable, Fallback, GridLayout, Layout, RatioLayout, Sensing, TableError,
+};
+use timing_core::{AdcCode, CodeRange, Ticks};
+
+fn sensing() -> Sensing {
+    Sensing {
+        vin: CodeRange { lo: 2000, hi: 3000 },
+        io: CodeRange { lo: 300, hi: 2000 },
+        io_zero: 100,
+        zvs_io_mul: 1000,
+        zvs_vin_mul: 500,
+    }
+}
+
+fn ratio(nodes: u16) -> Layout {
+    // q = (v << 8) / (i - 100): from 2000*256/1900 = 269 to 3000*256/200 = 3840.
+    Layout::Ratio(RatioLayout {
+        ratio_shift: 8,
+        q_lo: 256,
+        step_shift: 5,
+        nodes,
+    })
+}
+
+#[test]
+fn ratio_lookup_interpolates_linear_data_exactly() {
+    // Entries linear in q: ticks(q) = 10 + q/32 (frac_bits 4 -> entry = 16*ticks).
+    let nodes = 113u16; // 256 + 112*32 = 3840
+                        // q_lo = 256 -> ticks 10 + 8 at node 0, one more per node.
+    let entries: Vec<u16> = (0..nodes).map(|k| 16 * (10 + 8 + k)).collect();
+    let t = DelayTable::new(
+        sensing(),
+        ratio(nodes),
+        4,
+        Fallback::Valley,
+        entries.as_slice(),
+    )
+    .unwrap();
+    for v in (2000u16..=3000).step_by(37) {
+        for i in (300u16..=2000).step_by(41) {
+            let q = (u32::from(v) << 8) / u32::from(i - 100);
+            let expect = 10.0 + f64::from(q) / 32.0;
+            let got = t.delay(AdcCode::new(v), AdcCode::new(i)).ticks.get();
+            assert!(
+                (f64::from(got) - expect).abs() <= 0.5,
+                "v {v} i {i}: {got} vs {expect}"
+            );
+        }
+    }
+}
+
+#[test]
+fn grid_lookup_interpolates_bilinear_data_exactly() {
+    let g = GridLayout {
+        vin_shift: 4,
+        io_shift: 5,
+        rows: 64, // 63*16 = 1008 >= 1000
+        cols: 55, // 54*32 = 1728 >= 1700
+    };
+    // ticks = 20 + r + 2c at node (r, c); frac_bits 3.
+    let mut entries = Vec::new();
+    for r in 0..g.rows {
+        for c in 0..g.cols {
+            entries.push(8 * (20 + r + 2 * c));
+        }
+    }
+    let t = DelayTable::new(
+        sensing(),
+        Layout::Grid(g),
+        3,
+        Fallback::Valley,
+        entries.as_slice(),
+    )
+    .unwrap();
+    for v in (2000u16..=3000).step_by(13) {
+        for i in (300u16..=2000).step_by(17) {
+            let expect = 20.0 + f64::from(v - 2000) / 16.0 + 2.0 * f64::from(i - 300) / 32.0;
+            let got = t.delay(AdcCode::new(v), AdcCode::new(i)).ticks.get();
+            assert!(
+                (f64::from(got) - expect).abs() <= 0.5 + 1e-9,
+                "v {v} i {i}: {got} vs {expect}"
+            );
+        }
+    }
+}
+
+#[test]
+fn any_code_pair_clamps_and_never_panics() {
+    let nodes = 113u16;
+    let entries = vec![u16::MAX; usize::from(nodes)];
+    let t = DelayTable::new(
+        sensing(),
+        ratio(nodes),
+        4,
+        Fallback::Fixed(Ticks::new(77)),
+        entries.as_slice(),
+    )
+    .unwrap();
+    for v in (0..=u16::MAX).step_by(97).chain([0, u16::MAX]) {
+        for i in (0..=u16::MAX).step_by(89).chain([0, u16::MAX]) {
+            let r = t.delay(AdcCode::new(v), AdcCode::new(i));
+            if r.zvs {
+                assert_eq!(r.ticks.get(), 4096, "all-max entries give 65535/16 rounded");
+            } else {
+                assert_eq!(r.ticks.get(), 77);
+            }
+        }
+    }
+    // Out-of-range codes give exactly the edge's result.
+    let edge = t.delay(AdcCode::new(3000), AdcCode::new(2000));
+    assert_eq!(
+        t.delay(AdcCode::new(u16::MAX), AdcCode::new(u16::MAX)),
+        edge
+    );
+}
+
+#[test]
+fn inconsistent_tables_are_refused() {
+    let e = vec![0u16; 113];
+    let ok = |l, f, s: Sensing| DelayTable::new(s, l, f, Fallback::Valley, e.as_slice());
+    assert!(
+        matches!(ok(ratio(100), 4, sensing()), Err(TableError::Layout(_))),
+        "nodes must cover the range"
+    );
+    assert!(
+        matches!(ok(ratio(113), 12, sensing()), Err(TableError::Layout(_))),
+        "step + frac <= 16"
+    );
+    let mut s = sensing();
+    s.io_zero = 300;
+    assert!(
+        matches!(ok(ratio(113), 4, s), Err(TableError::Layout(_))),
+        "io range above the zero"
+    );
+    let mut s = sensing();
+    s.vin = CodeRange { lo: 3000, hi: 2000 };
+    assert!(
+        matches!(ok(ratio(113), 4, s), Err(TableError::Layout(_))),
+        "empty range"
+    );
+    let short = vec![0u16; 112];
+    assert!(matches!(
+        DelayTable::new(sensing(), ratio(113), 4, Fallback::Valley, short.as_slice()),
+        Err(TableError::EntryCount {
+            expected: 113,
+            found: 112
+        })
+    ));
+    let big_shift = Layout::Ratio(RatioLayout {
+        ratio_shift: 21,
+        q_lo: 0,
+        step_shift: 1,
+        nodes: 2,
+    });
+    assert!(
+        matches!(ok(big_shift, 0, sensing()), Err(TableError::Layout(_))),
+        "vin << shift must fit 32 bits"
+    );
+}
