@@ -45,8 +45,10 @@ pub enum LayoutChoice {
     /// The smallest that meets `max_error_ticks` (default).
     #[default]
     Auto,
-    /// Only the 1-D code-ratio layout.
+    /// Only the 1-D code-ratio layout, uniform.
     Ratio,
+    /// Only the 1-D code-ratio layout, log-spaced.
+    LogRatio,
     /// Only the 2-D code grid.
     Grid,
 }

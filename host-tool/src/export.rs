@@ -17,6 +17,10 @@ fn layout_rs(l: &Layout) -> String {
             "Layout::Ratio(RatioLayout {{ ratio_shift: {}, q_lo: {}, step_shift: {}, nodes: {} }})",
             r.ratio_shift, r.q_lo, r.step_shift, r.nodes
         ),
+        Layout::LogRatio(r) => format!(
+            "Layout::LogRatio(LogRatioLayout {{ ratio_shift: {}, mant_bits: {}, e_lo: {}, nodes: {} }})",
+            r.ratio_shift, r.mant_bits, r.e_lo, r.nodes
+        ),
         Layout::Grid(g) => format!(
             "Layout::Grid(GridLayout {{ vin_shift: {}, io_shift: {}, rows: {}, cols: {} }})",
             g.vin_shift, g.io_shift, g.rows, g.cols
@@ -68,7 +72,7 @@ pub fn rust_source(design: &Design, g: &Generated, v: &VerifyReport) -> String {
     let _ = writeln!(s, "#[allow(unused_imports)]");
     let _ = writeln!(
         s,
-        "use timing_core::table::{{DelayTable, Fallback, GridLayout, Layout, RatioLayout, Sensing, TableError}};"
+        "use timing_core::table::{{DelayTable, Fallback, GridLayout, Layout, LogRatioLayout, RatioLayout, Sensing, TableError}};"
     );
     let _ = writeln!(
         s,
@@ -236,6 +240,52 @@ pub fn c_header(design: &Design, g: &Generated, v: &VerifyReport) -> String {
             let half = (1u32 << total) >> 1;
             let _ = writeln!(s, "    return (uint16_t)((y + {half}u) >> {total}u);");
         }
+        Layout::LogRatio(r) => {
+            let m = u32::from(r.mant_bits);
+            let _ = writeln!(s, "    uint32_t q = (v << {}u) / i;", r.ratio_shift);
+            let _ = writeln!(
+                s,
+                "    /* Octave e = floor(log2(q)), portable C99 (no compiler builtins). */"
+            );
+            let _ = writeln!(s, "    uint32_t e = 0u, t = q;");
+            let _ = writeln!(s, "    if (t >= 65536u) {{ t >>= 16; e += 16u; }}");
+            let _ = writeln!(s, "    if (t >= 256u) {{ t >>= 8; e += 8u; }}");
+            let _ = writeln!(s, "    if (t >= 16u) {{ t >>= 4; e += 4u; }}");
+            let _ = writeln!(s, "    if (t >= 4u) {{ t >>= 2; e += 2u; }}");
+            let _ = writeln!(s, "    if (t >= 2u) {{ e += 1u; }}");
+            let _ = writeln!(s, "    uint32_t k, frac, sh;");
+            let _ = writeln!(
+                s,
+                "    if (q == 0u || e < {}u) {{ k = 0u; frac = 0u; sh = {}u; }} else {{",
+                r.e_lo,
+                u32::from(r.e_lo) - m
+            );
+            let _ = writeln!(s, "        sh = e - {m}u;");
+            let _ = writeln!(
+                s,
+                "        k = ((e - {}u) << {m}u) + ((q >> sh) - {}u);",
+                r.e_lo,
+                1u32 << m
+            );
+            let _ = writeln!(s, "        frac = q & ((1u << sh) - 1u);");
+            let _ = writeln!(s, "    }}");
+            let _ = writeln!(s, "    uint32_t one = 1u << sh;");
+            let _ = writeln!(
+                s,
+                "    if (k > {}u) {{ k = {}u; frac = one; }}",
+                r.nodes - 2,
+                r.nodes - 2
+            );
+            let _ = writeln!(
+                s,
+                "    uint32_t y = (uint32_t){n}_entries[k] * (one - frac) + (uint32_t){n}_entries[k + 1u] * frac;"
+            );
+            let _ = writeln!(s, "    uint32_t total = sh + {f}u;");
+            let _ = writeln!(
+                s,
+                "    return (uint16_t)((y + ((1u << total) >> 1)) >> total);"
+            );
+        }
         Layout::Grid(gr) => {
             let (vs, is) = (u32::from(gr.vin_shift), u32::from(gr.io_shift));
             let _ = writeln!(
@@ -333,6 +383,27 @@ pub fn csv(design: &Design, g: &Generated) -> String {
                     / design.vin_volts_per_code;
             for (k, e) in g.entries.iter().enumerate() {
                 let q = f64::from(r.q_lo) + (k as f64) * f64::from(1u32 << r.step_shift);
+                let j = scale / q;
+                let exact = model.at_load(j).map_or(f64::NAN, |p| p.ticks);
+                let _ = writeln!(
+                    s,
+                    "{k},{q},{j:.6},{:.6},{exact:.4},{e},{:.4}",
+                    design.tank.z0_ohm() / j,
+                    f64::from(*e) / scale_f
+                );
+            }
+        }
+        Layout::LogRatio(r) => {
+            s.push_str("node,q,normalized_load,vin_over_io_ohm,exact_ticks,entry,entry_ticks\n");
+            let scale =
+                design.io_amps_per_code * design.tank.z0_ohm() * f64::from(1u32 << r.ratio_shift)
+                    / design.vin_volts_per_code;
+            for (k, e) in g.entries.iter().enumerate() {
+                let q = crate::generate::log_node_q(
+                    k as u32,
+                    u32::from(r.e_lo),
+                    u32::from(r.mant_bits),
+                );
                 let j = scale / q;
                 let exact = model.at_load(j).map_or(f64::NAN, |p| p.ticks);
                 let _ = writeln!(

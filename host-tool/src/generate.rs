@@ -2,7 +2,9 @@
 //! candidate layouts, and the choice of the smallest that meets the error
 //! budget. All physics comes from timing-core.
 
-use timing_core::table::{DelayTable, Fallback, GridLayout, Layout, RatioLayout, Sensing};
+use timing_core::table::{
+    log_index, DelayTable, Fallback, GridLayout, Layout, LogRatioLayout, RatioLayout, Sensing,
+};
 use timing_core::{Transition, ZvsWindow};
 
 use crate::design::Design;
@@ -125,6 +127,7 @@ impl Generated {
     pub fn layout_name(&self) -> &'static str {
         match self.layout {
             Layout::Ratio(_) => "ratio",
+            Layout::LogRatio(_) => "log-ratio",
             Layout::Grid(_) => "grid",
         }
     }
@@ -354,6 +357,77 @@ fn ratio_candidate(
     }
 }
 
+/// The log-spaced ratio layout with `2^m` nodes per octave and `frac`
+/// fractional bits; the ratio shift is the largest that keeps the top
+/// octave's step within 2^15.
+fn log_ratio_candidate(
+    design: &Design,
+    model: &ExactModel<'_>,
+    max_ticks: f64,
+    m: u32,
+    frac: u32,
+) -> Result<Option<Generated>, GenerateError> {
+    let s = sensing(design);
+    if bits(max_ticks.ceil() as u32) + frac > 16 {
+        return Ok(None);
+    }
+    let mut shift = 32 - bits(u32::from(s.vin.hi));
+    loop {
+        let q_lo = (u32::from(s.vin.lo) << shift) / u32::from(s.io.hi - s.io_zero);
+        let q_hi = (u32::from(s.vin.hi) << shift) / u32::from(s.io.lo - s.io_zero);
+        if q_lo == 0 || bits(q_lo) - 1 < m {
+            return Ok(None);
+        }
+        let e_lo = bits(q_lo) - 1;
+        let e_hi = bits(q_hi) - 1;
+        if e_hi - m > 15 {
+            if shift == 0 {
+                return Ok(None);
+            }
+            shift -= 1;
+            continue;
+        }
+        let nodes = log_index(q_hi, e_lo, m).0 + 2;
+        if nodes > u32::from(u16::MAX) {
+            return Ok(None);
+        }
+        let scale = design.io_amps_per_code * design.tank.z0_ohm() * f64::from(1u32 << shift)
+            / design.vin_volts_per_code;
+        let mut entries = Vec::with_capacity(nodes as usize);
+        for k in 0..nodes {
+            let q = log_node_q(k, e_lo, m);
+            let j = scale / q;
+            let p = model.at_load(j).map_err(|e| GenerateError::Model {
+                vin_v: design.vin_v.0,
+                io_a: j * design.vin_v.0 / design.tank.z0_ohm(),
+                message: e.to_string(),
+            })?;
+            entries.push(entry(p.table_ticks, frac));
+        }
+        return Ok(Some(Generated {
+            sensing: s,
+            layout: Layout::LogRatio(LogRatioLayout {
+                ratio_shift: shift as u8,
+                mant_bits: m as u8,
+                e_lo: e_lo as u8,
+                nodes: nodes as u16,
+            }),
+            frac_bits: frac as u8,
+            fallback: design.fallback,
+            entries,
+        }));
+    }
+}
+
+/// The ratio q at node `k` of a log-spaced table (octaves from `e_lo`,
+/// `2^m` nodes each).
+#[must_use]
+pub fn log_node_q(k: u32, e_lo: u32, m: u32) -> f64 {
+    let e = e_lo + (k >> m);
+    let mant = k & ((1 << m) - 1);
+    f64::from((1u32 << m) + mant) * 2f64.powi(e as i32 - m as i32)
+}
+
 /// The grid layout with spacings `2^vs` x `2^is`.
 fn grid_candidate(
     design: &Design,
@@ -410,7 +484,7 @@ fn screen(design: &Design, model: &ExactModel<'_>, g: &Generated) -> f64 {
     };
     let (v, i) = (design.vin_codes, design.io_codes);
     let total = f64::from(v.len()) * f64::from(i.len());
-    let stride = ((total / 200_000.0).sqrt().floor() as u16).max(1);
+    let stride = ((total / 100_000.0).sqrt().floor() as u16).max(1);
     let mut worst = 0.0f64;
     let mut cv = v.lo;
     while cv <= v.hi {
@@ -447,10 +521,11 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
     let model = ExactModel::new(design);
     let max_ticks = delay_bounds(design, &model)?;
     let mut pool: Vec<Generated> = Vec::new();
-    if design.layout != crate::design::LayoutChoice::Grid {
+    use crate::design::LayoutChoice as L;
+    if matches!(design.layout, L::Auto | L::Ratio) {
         let mut n = 4u32;
         while n <= 32_768 {
-            for frac in 0..=12 {
+            for frac in (0..=12).step_by(2) {
                 if let Some(g) = ratio_candidate(design, &model, max_ticks, n, frac)? {
                     if !pool
                         .iter()
@@ -463,7 +538,22 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
             n *= 2;
         }
     }
-    if design.layout != crate::design::LayoutChoice::Ratio {
+    if matches!(design.layout, L::Auto | L::LogRatio) {
+        // The log layout's step does not trade against the fractional bits;
+        // a few settings, the most the largest delay leaves among them.
+        let most = 16u32.saturating_sub(bits(max_ticks.ceil() as u32)).min(12);
+        let mut fracs = vec![most, 4, 2];
+        fracs.retain(|&f| f <= most);
+        fracs.dedup();
+        for m in 1..=10 {
+            for &frac in &fracs {
+                if let Some(g) = log_ratio_candidate(design, &model, max_ticks, m, frac)? {
+                    pool.push(g);
+                }
+            }
+        }
+    }
+    if matches!(design.layout, L::Auto | L::Grid) {
         for vs in 0..=10u32 {
             for is in 0..=10u32 {
                 if let Some(g) = grid_candidate(design, &model, max_ticks, vs, is)? {
@@ -541,6 +631,7 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
 fn shape(g: &Generated) -> String {
     match g.layout {
         Layout::Ratio(r) => format!("{} nodes, q step 2^{}", r.nodes, r.step_shift),
+        Layout::LogRatio(r) => format!("{} nodes, 2^{} per octave", r.nodes, r.mant_bits),
         Layout::Grid(gr) => format!(
             "{} x {} nodes, steps 2^{} x 2^{} codes",
             gr.rows, gr.cols, gr.vin_shift, gr.io_shift

@@ -184,7 +184,7 @@ fn run_point(args: &PointArgs) -> anyhow::Result<()> {
     Ok(())
 }
 
-fn print_verification(v: &host_tool::verify::VerifyReport, clock_hz: f64) {
+fn print_verification(v: &host_tool::verify::VerifyReport, clock_hz: f64, w0_rad_s: f64) {
     println!(
         "verified {} code pairs: max error {:.3} ticks at vin code {} ({:.3} V), io code {} ({:.4} A); RMS {:.3} ticks",
         v.points_checked, v.max_error_ticks, v.worst_vin_code, v.worst_vin_v, v.worst_io_code, v.worst_io_a, v.rms_error_ticks
@@ -193,6 +193,12 @@ fn print_verification(v: &host_tool::verify::VerifyReport, clock_hz: f64) {
         "ZVS pairs: {}; commanded turn-ons outside the true window: {} ({} early, {} late); windows narrower than a tick: {}",
         v.zvs_points, v.outside_window, v.early, v.late, v.narrower_than_a_tick
     );
+    if let Some(j) = v.outside_window_max_load {
+        let width = timing_core::normalized::clamp_angle(j) / w0_rad_s * clock_hz;
+        println!(
+            "every miss is at J <= {j:.4}, where the ZVS window is at most {width:.2} ticks wide"
+        );
+    }
     if let Some(m) = v.min_margin_s {
         println!(
             "smallest margin to a window edge: {} ({:.2} ticks)",
@@ -231,7 +237,11 @@ fn run_table(args: &TableArgs) -> anyhow::Result<()> {
             out.table.frac_bits,
             args.out.display()
         );
-        print_verification(&out.verification, design.timer.clock_hz());
+        print_verification(
+            &out.verification,
+            design.timer.clock_hz(),
+            design.tank.w0_rad_s(),
+        );
         let others: Vec<String> = out
             .candidates
             .iter()
@@ -290,7 +300,7 @@ fn run_verify(args: &VerifyArgs) -> anyhow::Result<ExitCode> {
         });
         println!("{}", serde_json::to_string_pretty(&j)?);
     } else {
-        print_verification(&v, design.timer.clock_hz());
+        print_verification(&v, design.timer.clock_hz(), design.tank.w0_rad_s());
     }
     if ok {
         Ok(ExitCode::SUCCESS)

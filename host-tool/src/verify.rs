@@ -39,6 +39,10 @@ pub struct VerifyReport {
     /// Smallest margin of a commanded turn-on inside its window to the nearer
     /// edge, second (`None` when no turn-on is inside).
     pub min_margin_s: Option<f64>,
+    /// Largest normalised load J among the pairs whose turn-on missed the
+    /// window (`None` when none did): how far above the ZVS boundary misses
+    /// reach.
+    pub outside_window_max_load: Option<f64>,
     /// Pairs the model refused (should be 0).
     pub model_errors: u64,
 }
@@ -69,8 +73,10 @@ pub fn verify<E: Entries>(
         late: 0,
         narrower_than_a_tick: 0,
         min_margin_s: None,
+        outside_window_max_load: None,
         model_errors: 0,
     };
+    let z0 = design.tank.z0_ohm();
     let mut sum_sq = 0.0f64;
     for cv in v.lo..=v.hi {
         for ci in i.lo..=i.hi {
@@ -93,10 +99,17 @@ pub fn verify<E: Entries>(
                     r.narrower_than_a_tick += 1;
                 }
                 let on = f64::from(got) / clock + lead;
+                let missed = on < w.open_s || on > w.close_s;
                 if on < w.open_s {
                     r.early += 1;
                 } else if on > w.close_s {
                     r.late += 1;
+                }
+                if missed {
+                    // J = Io*Z0/Vin for every cell.
+                    let j = design.io_of(ci) * z0 / design.vin_of(cv);
+                    r.outside_window_max_load =
+                        Some(r.outside_window_max_load.map_or(j, |x: f64| x.max(j)));
                 } else {
                     let m = (on - w.open_s).min(w.close_s - on);
                     r.min_margin_s = Some(r.min_margin_s.map_or(m, |x: f64| x.min(m)));

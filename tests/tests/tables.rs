@@ -210,7 +210,8 @@ fn c_header_matches_the_rust_lookup() {
         return;
     }
     // The demo (ratio layout), the held-out design, and the held-out design
-    // forced to the grid layout with a fixed fallback (every C branch).
+    // forced to the grid layout with a fixed fallback and to the log-spaced
+    // ratio layout (every C branch).
     let demo = Design::load(&repo().join("tables/winch_aux.toml")).unwrap();
     let grid_text = HELD_OUT
         .replace("name = \"held_out_boost\"", "name = \"held_out_grid\"")
@@ -220,10 +221,17 @@ fn c_header_matches_the_rust_lookup() {
             "max_error_ticks = 1.0",
             "max_error_ticks = 200.0\nlayout = \"grid\"\nfallback = \"fixed\"\nfallback_ticks = 90",
         );
+    let ratio_text = HELD_OUT
+        .replace("name = \"held_out_boost\"", "name = \"held_out_ratio\"")
+        .replace(
+            "max_error_ticks = 1.0",
+            "max_error_ticks = 1.0\nlayout = \"ratio\"",
+        );
     let designs = [
         demo,
         Design::parse(HELD_OUT, "held_out.toml").unwrap(),
         Design::parse(&grid_text, "grid.toml").unwrap(),
+        Design::parse(&ratio_text, "ratio.toml").unwrap(),
     ];
     for d in &designs {
         let out = generate::generate(d).unwrap();
@@ -235,6 +243,40 @@ fn c_header_matches_the_rust_lookup() {
             out.table.layout_name()
         );
     }
+}
+
+/// A design spanning decades of Vin/Io (10-60 V, 0.5-20 A, full-scale
+/// 12-bit sensing), where uniform nodes would be wasted: the log-spaced
+/// layout keeps it near 2 KiB.
+const WIDE: &str = r#"
+name = "wide_range"
+lr = "1.2u"
+cr = "8.2n"
+vin = [10, 60]
+io = [0.5, 20]
+[adc]
+bits = 12
+vin_volts_per_code = 0.014653
+io_amps_per_code = 0.0048845
+[timer]
+clock_hz = "170M"
+driver_delay = "25n"
+"#;
+
+#[test]
+fn a_wide_range_design_is_served_by_the_log_layout() {
+    let design = Design::parse(WIDE, "wide.toml").unwrap();
+    let out = generate::generate(&design).unwrap();
+    println!(
+        "wide: {} layout, {} bytes, max error {:.3} ticks over {} pairs",
+        out.table.layout_name(),
+        out.table.table_bytes(),
+        out.verification.max_error_ticks,
+        out.verification.points_checked
+    );
+    assert!(out.verification.max_error_ticks <= 1.0);
+    assert_eq!(out.table.layout_name(), "log-ratio");
+    assert!(out.table.table_bytes() <= 2200);
 }
 
 #[test]

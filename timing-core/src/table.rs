@@ -98,6 +98,25 @@ pub struct RatioLayout {
     pub nodes: u16,
 }
 
+/// One dimension over the same code ratio q, log-spaced like a float:
+/// node `(e - e_lo) * 2^mant_bits + mant` sits at `q = (2^mant_bits + mant) << (e - mant_bits)`
+/// for the octave `2^e <= q < 2^(e+1)`, so every octave holds `2^mant_bits`
+/// nodes and the relative node spacing is about `2^-mant_bits` everywhere:
+/// fit for operating ranges spanning decades of Vin/Io.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+pub struct LogRatioLayout {
+    /// Left shift of the voltage code before the division.
+    pub ratio_shift: u8,
+    /// Nodes per octave are `2^mant_bits`.
+    pub mant_bits: u8,
+    /// Octave of node 0 (`2^e_lo <= q`).
+    pub e_lo: u8,
+    /// Number of nodes (at least 2).
+    pub nodes: u16,
+}
+
 /// Two dimensions over the raw codes: node (r, c) at
 /// `vin = vin.lo + r * 2^vin_shift`, `io = io.lo + c * 2^io_shift`, stored
 /// row-major (`r * cols + c`).
@@ -122,6 +141,9 @@ pub struct GridLayout {
 pub enum Layout {
     /// 1-D over the code ratio (one division per lookup).
     Ratio(RatioLayout),
+    /// 1-D over the code ratio, log-spaced (one division and a
+    /// leading-zero count per lookup).
+    LogRatio(LogRatioLayout),
     /// 2-D over the raw codes (no division).
     Grid(GridLayout),
 }
@@ -234,6 +256,23 @@ const fn bits(x: u32) -> u32 {
     32 - x.leading_zeros()
 }
 
+/// Node index, interpolation weight and step shift of `q` in a log-spaced
+/// table with octaves from `e_lo` and `2^m` nodes per octave:
+/// `(index, q mod step, log2 step)`. Requires `q >= 2^e_lo >= 2^m` (a
+/// validated table guarantees it for every code pair); smaller q give node 0.
+#[inline]
+#[must_use]
+pub const fn log_index(q: u32, e_lo: u32, m: u32) -> (u32, u32, u32) {
+    let e = 31u32.wrapping_sub(q.leading_zeros());
+    if q == 0 || e < e_lo {
+        return (0, 0, e_lo.wrapping_sub(m));
+    }
+    let sh = e.wrapping_sub(m);
+    let mant = q.wrapping_shr(sh).wrapping_sub(1u32.wrapping_shl(m));
+    let idx = e.wrapping_sub(e_lo).wrapping_shl(m).wrapping_add(mant);
+    (idx, q & 1u32.wrapping_shl(sh).wrapping_sub(1), sh)
+}
+
 impl<E: Entries> DelayTable<E> {
     /// Validate and build a table.
     ///
@@ -291,6 +330,44 @@ impl<E: Entries> DelayTable<E> {
                 if u32::from(r.step_shift) + u32::from(frac_bits) > 16 {
                     return Err(TableError::Layout(
                         "step_shift + frac_bits must be at most 16",
+                    ));
+                }
+                u32::from(r.nodes)
+            }
+            Layout::LogRatio(r) => {
+                let m = u32::from(r.mant_bits);
+                if r.nodes < 2 || m > 12 {
+                    return Err(TableError::Layout(
+                        "log-ratio table needs 2+ nodes and mant_bits <= 12",
+                    ));
+                }
+                if bits(u32::from(s.vin.hi)) + u32::from(r.ratio_shift) > 32 {
+                    return Err(TableError::Layout("vin << ratio_shift overflows 32 bits"));
+                }
+                let q_min = (u32::from(s.vin.lo) << r.ratio_shift)
+                    .checked_div(u32::from(s.io.hi - s.io_zero))
+                    .unwrap_or(0);
+                let q_max = (u32::from(s.vin.hi) << r.ratio_shift)
+                    .checked_div(u32::from(s.io.lo - s.io_zero))
+                    .unwrap_or(u32::MAX);
+                // Node 0 at or below q_min, whose octave holds 2^m nodes.
+                if q_min == 0 || bits(q_min) - 1 < u32::from(r.e_lo) || u32::from(r.e_lo) < m {
+                    return Err(TableError::Layout(
+                        "log-ratio octaves do not start at the design range",
+                    ));
+                }
+                let e_max = bits(q_max) - 1;
+                // y = a*(2^sh - f) + b*f <= 65535 * 2^sh and the rounding adds
+                // 2^(sh + F - 1) <= 2^(sh + 14): below 2^32 for sh = e - m <= 15.
+                if e_max - m > 15 {
+                    return Err(TableError::Layout(
+                        "log-ratio octave step too coarse for 32 bits",
+                    ));
+                }
+                let top = log_index(q_max, u32::from(r.e_lo), m).0;
+                if top.saturating_add(2) > u32::from(r.nodes) {
+                    return Err(TableError::Layout(
+                        "log-ratio nodes do not cover the design range",
                     ));
                 }
                 u32::from(r.nodes)
@@ -410,6 +487,26 @@ impl<E: Entries> DelayTable<E> {
                     a.wrapping_mul(one.wrapping_sub(frac))
                         .wrapping_add(b.wrapping_mul(frac)),
                     s,
+                )
+            }
+            Layout::LogRatio(r) => {
+                let q = v
+                    .wrapping_shl(u32::from(r.ratio_shift))
+                    .checked_div(i)
+                    .unwrap_or(u32::MAX);
+                let (mut k, mut frac, sh) = log_index(q, u32::from(r.e_lo), u32::from(r.mant_bits));
+                let last = u32::from(r.nodes).wrapping_sub(2);
+                let one = 1u32.wrapping_shl(sh);
+                if k > last {
+                    k = last;
+                    frac = one;
+                }
+                let a = u32::from(self.entries.at(k as usize));
+                let b = u32::from(self.entries.at(k.wrapping_add(1) as usize));
+                (
+                    a.wrapping_mul(one.wrapping_sub(frac))
+                        .wrapping_add(b.wrapping_mul(frac)),
+                    sh,
                 )
             }
             Layout::Grid(g) => {

@@ -162,3 +162,37 @@ fn inconsistent_tables_are_refused() {
         "vin << shift must fit 32 bits"
     );
 }
+
+#[test]
+fn log_ratio_lookup_interpolates_linear_data_exactly() {
+    use timing_core::table::{log_index, LogRatioLayout};
+    // q from 269 (octave 8) to 3840 (octave 11); 2^4 nodes per octave.
+    let (e_lo, m) = (8u32, 4u32);
+    let nodes = log_index(3840, e_lo, m).0 as u16 + 2;
+    let node_q = |k: u32| ((16 + (k & 15)) << (e_lo + (k >> 4) - m)) as f64;
+    // ticks = 5 + q/64, frac_bits 6.
+    let entries: Vec<u16> = (0..u32::from(nodes))
+        .map(|k| ((5.0 + node_q(k) / 64.0) * 64.0) as u16)
+        .collect();
+    let layout = Layout::LogRatio(LogRatioLayout {
+        ratio_shift: 8,
+        mant_bits: m as u8,
+        e_lo: e_lo as u8,
+        nodes,
+    });
+    let t = DelayTable::new(sensing(), layout, 6, Fallback::Valley, entries.as_slice()).unwrap();
+    for v in (2000u16..=3000).step_by(29) {
+        for i in (300u16..=2000).step_by(31) {
+            let q = (u32::from(v) << 8) / u32::from(i - 100);
+            let expect = 5.0 + f64::from(q) / 64.0;
+            let got = t.delay(AdcCode::new(v), AdcCode::new(i)).ticks.get();
+            assert!(
+                (f64::from(got) - expect).abs() <= 0.5,
+                "v {v} i {i}: {got} vs {expect}"
+            );
+        }
+    }
+    // Node positions: the octave boundary 2^9 is node 16 exactly.
+    assert_eq!(log_index(512, e_lo, m), (16, 0, 5));
+    assert_eq!(log_index(511, e_lo, m), (15, 15, 4));
+}
