@@ -602,6 +602,16 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
                 })?,
                 None,
             );
+            let max = design.timer.max_ticks().get();
+            if report.max_commanded_ticks > max {
+                return Err(GenerateError::CounterOverflow {
+                    ticks: f64::from(report.max_commanded_ticks),
+                    vin_v: design.vin_of(report.max_commanded_at.0),
+                    io_a: design.io_of(report.max_commanded_at.1),
+                    bits: design.timer.counter_bits(),
+                    max,
+                });
+            }
             if report.max_error_ticks <= design.max_error_ticks {
                 chosen = Some((g, report));
             } else if let Some(c) = candidates.last_mut() {

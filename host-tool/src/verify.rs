@@ -43,6 +43,10 @@ pub struct VerifyReport {
     /// window (`None` when none did): how far above the ZVS boundary misses
     /// reach.
     pub outside_window_max_load: Option<f64>,
+    /// Largest delay the table commands, ticks (must fit the timer counter).
+    pub max_commanded_ticks: u32,
+    /// Voltage and current codes where it is commanded.
+    pub max_commanded_at: (u16, u16),
     /// Pairs the model refused (should be 0).
     pub model_errors: u64,
 }
@@ -74,6 +78,8 @@ pub fn verify<E: Entries>(
         narrower_than_a_tick: 0,
         min_margin_s: None,
         outside_window_max_load: None,
+        max_commanded_ticks: 0,
+        max_commanded_at: (v.lo, i.lo),
         model_errors: 0,
     };
     let z0 = design.tank.z0_ohm();
@@ -86,6 +92,10 @@ pub fn verify<E: Entries>(
                 continue;
             };
             let got = table.delay(AdcCode::new(cv), AdcCode::new(ci)).ticks.get();
+            if got > r.max_commanded_ticks {
+                r.max_commanded_ticks = got;
+                r.max_commanded_at = (cv, ci);
+            }
             let err = (f64::from(got) - p.ticks).abs();
             sum_sq += err * err;
             if err > r.max_error_ticks {
