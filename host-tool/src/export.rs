@@ -375,45 +375,27 @@ pub fn csv(design: &Design, g: &Generated) -> String {
     let model = ExactModel::new(design);
     let scale_f = f64::from(1u32 << g.frac_bits);
     let mut s = String::new();
+    let one_d = |s: &mut String, shift: u8, node_q: &dyn Fn(u32) -> f64| {
+        s.push_str("node,q,normalized_load,vin_over_io_ohm,exact_ticks,entry,entry_ticks\n");
+        for (k, e) in g.entries.iter().enumerate() {
+            let q = node_q(k as u32);
+            let j = crate::generate::load_at_ratio(design, shift, q);
+            let exact = model.at_load(j).map_or(f64::NAN, |p| p.ticks);
+            let _ = writeln!(
+                s,
+                "{k},{q},{j:.6},{:.6},{exact:.4},{e},{:.4}",
+                design.tank.z0_ohm() / j,
+                f64::from(*e) / scale_f
+            );
+        }
+    };
     match g.layout {
-        Layout::Ratio(r) => {
-            s.push_str("node,q,normalized_load,vin_over_io_ohm,exact_ticks,entry,entry_ticks\n");
-            let scale =
-                design.io_amps_per_code * design.tank.z0_ohm() * f64::from(1u32 << r.ratio_shift)
-                    / design.vin_volts_per_code;
-            for (k, e) in g.entries.iter().enumerate() {
-                let q = f64::from(r.q_lo) + (k as f64) * f64::from(1u32 << r.step_shift);
-                let j = scale / q;
-                let exact = model.at_load(j).map_or(f64::NAN, |p| p.ticks);
-                let _ = writeln!(
-                    s,
-                    "{k},{q},{j:.6},{:.6},{exact:.4},{e},{:.4}",
-                    design.tank.z0_ohm() / j,
-                    f64::from(*e) / scale_f
-                );
-            }
-        }
-        Layout::LogRatio(r) => {
-            s.push_str("node,q,normalized_load,vin_over_io_ohm,exact_ticks,entry,entry_ticks\n");
-            let scale =
-                design.io_amps_per_code * design.tank.z0_ohm() * f64::from(1u32 << r.ratio_shift)
-                    / design.vin_volts_per_code;
-            for (k, e) in g.entries.iter().enumerate() {
-                let q = crate::generate::log_node_q(
-                    k as u32,
-                    u32::from(r.e_lo),
-                    u32::from(r.mant_bits),
-                );
-                let j = scale / q;
-                let exact = model.at_load(j).map_or(f64::NAN, |p| p.ticks);
-                let _ = writeln!(
-                    s,
-                    "{k},{q},{j:.6},{:.6},{exact:.4},{e},{:.4}",
-                    design.tank.z0_ohm() / j,
-                    f64::from(*e) / scale_f
-                );
-            }
-        }
+        Layout::Ratio(r) => one_d(&mut s, r.ratio_shift, &|k| {
+            f64::from(r.q_lo) + f64::from(k) * f64::from(1u32 << r.step_shift)
+        }),
+        Layout::LogRatio(r) => one_d(&mut s, r.ratio_shift, &|k| {
+            crate::generate::log_node_q(k, u32::from(r.e_lo), u32::from(r.mant_bits))
+        }),
         Layout::Grid(gr) => {
             s.push_str("row,col,vin_code,io_code,vin_v,io_a,exact_ticks,entry,entry_ticks\n");
             for r in 0..u32::from(gr.rows) {

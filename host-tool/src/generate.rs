@@ -292,6 +292,40 @@ fn entry(ticks: f64, frac_bits: u32) -> u16 {
         .clamp(0.0, f64::from(u16::MAX)) as u16
 }
 
+/// Normalised load at ratio `q` of a 1-D table with ratio shift `shift`:
+/// q = (vin_code << shift)/(io_code - zero) and J = Io*Z0/Vin give
+/// J = ki*Z0*2^shift/(kv*q).
+#[must_use]
+pub fn load_at_ratio(design: &Design, shift: u8, q: f64) -> f64 {
+    design.io_amps_per_code * design.tank.z0_ohm() * f64::from(1u32 << shift)
+        / design.vin_volts_per_code
+        / q
+}
+
+/// Entries of a 1-D table whose node `k` sits at ratio `node_q(k)`.
+fn ratio_entries(
+    design: &Design,
+    model: &ExactModel<'_>,
+    shift: u8,
+    frac: u32,
+    nodes: u32,
+    node_q: impl Fn(u32) -> f64,
+) -> Result<Vec<u16>, GenerateError> {
+    (0..nodes)
+        .map(|k| {
+            let j = load_at_ratio(design, shift, node_q(k));
+            model
+                .at_load(j)
+                .map(|p| entry(p.table_ticks, frac))
+                .map_err(|e| GenerateError::Model {
+                    vin_v: design.vin_v.0,
+                    io_a: j * design.vin_v.0 / design.tank.z0_ohm(),
+                    message: e.to_string(),
+                })
+        })
+        .collect()
+}
+
 /// The ratio layout with about `target_nodes` nodes and `frac` fractional
 /// bits: the ratio shift is the largest (finest ratio resolution) that
 /// keeps the node step within the fixed-point limit `step + frac <= 16`.
@@ -329,19 +363,9 @@ fn ratio_candidate(
         if nodes > u32::from(u16::MAX) {
             return Ok(None);
         }
-        let scale = design.io_amps_per_code * design.tank.z0_ohm() * f64::from(1u32 << shift)
-            / design.vin_volts_per_code;
-        let mut entries = Vec::with_capacity(nodes as usize);
-        for k in 0..nodes {
-            let q = f64::from(q_lo) + f64::from(k) * f64::from(1u32 << step);
-            let j = scale / q;
-            let p = model.at_load(j).map_err(|e| GenerateError::Model {
-                vin_v: design.vin_v.0,
-                io_a: j * design.vin_v.0 / design.tank.z0_ohm(),
-                message: e.to_string(),
-            })?;
-            entries.push(entry(p.table_ticks, frac));
-        }
+        let entries = ratio_entries(design, model, shift as u8, frac, nodes, |k| {
+            f64::from(q_lo) + f64::from(k) * f64::from(1u32 << step)
+        })?;
         return Ok(Some(Generated {
             sensing: s,
             layout: Layout::Ratio(RatioLayout {
@@ -391,19 +415,9 @@ fn log_ratio_candidate(
         if nodes > u32::from(u16::MAX) {
             return Ok(None);
         }
-        let scale = design.io_amps_per_code * design.tank.z0_ohm() * f64::from(1u32 << shift)
-            / design.vin_volts_per_code;
-        let mut entries = Vec::with_capacity(nodes as usize);
-        for k in 0..nodes {
-            let q = log_node_q(k, e_lo, m);
-            let j = scale / q;
-            let p = model.at_load(j).map_err(|e| GenerateError::Model {
-                vin_v: design.vin_v.0,
-                io_a: j * design.vin_v.0 / design.tank.z0_ohm(),
-                message: e.to_string(),
-            })?;
-            entries.push(entry(p.table_ticks, frac));
-        }
+        let entries = ratio_entries(design, model, shift as u8, frac, nodes, |k| {
+            log_node_q(k, e_lo, m)
+        })?;
         return Ok(Some(Generated {
             sensing: s,
             layout: Layout::LogRatio(LogRatioLayout {

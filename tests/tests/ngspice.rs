@@ -21,14 +21,14 @@ use host_tool::spice::{meas, ngspice_available, CellDeck};
 const REL: f64 = 0.005;
 const ABS_S: f64 = 2e-9;
 
-/// Checks one scenario; returns the worst relative error of a time.
-fn check(s: &Scenario) -> f64 {
-    let input = PointInput {
+/// The `point` input of a scenario (Vout only where the cell needs it: for
+/// the buck it would ask for regulation).
+fn point_input(s: &Scenario) -> PointInput {
+    PointInput {
         topology: s.topology,
         lr_h: s.lr_h,
         cr_f: s.cr_f,
         vin_v: s.vin_v,
-        // For the buck, Vout would ask for regulation; the transition needs no Vout.
         vout_v: s.topology.needs_vout().then_some(s.vout_v),
         io_a: s.io_a,
         timer: None,
@@ -36,15 +36,19 @@ fn check(s: &Scenario) -> f64 {
         fs_hz: None,
         vds_rating_v: None,
         derating: 0.8,
-    };
-    let r = evaluate(&input).unwrap();
-    let w0 = s.w0();
-    let t_off = 20.0 / w0;
-    // Simulate past the event of interest: one ring period plus the charge
-    // and clamp intervals, with margin.
-    let duration =
-        1.3 * (r.charge_end_s + 2.0 * std::f64::consts::PI / w0 + r.normalized_load / w0);
-    let deck = CellDeck {
+    }
+}
+
+/// The deck of a scenario: gate off at `t_off`, optionally on again, time
+/// step 1/2000 of 1/w0.
+fn cell_deck(
+    s: &Scenario,
+    t_off: f64,
+    turn_on_s: Option<f64>,
+    duration_s: f64,
+    average_over_s: Option<f64>,
+) -> CellDeck {
+    CellDeck {
         topology: s.topology,
         lr_h: s.lr_h,
         cr_f: s.cr_f,
@@ -52,11 +56,24 @@ fn check(s: &Scenario) -> f64 {
         vout_v: s.vout_v,
         inductor_current_a: s.inductor_current_a,
         t_off_s: t_off,
-        turn_on_s: None,
-        duration_s: duration,
-        max_step_s: 1.0 / w0 / 2000.0,
-        average_over_s: None,
-    };
+        turn_on_s,
+        duration_s,
+        max_step_s: 1.0 / s.w0() / 2000.0,
+        average_over_s,
+    }
+}
+
+/// Checks one scenario; returns the worst relative error of a time.
+fn check(s: &Scenario) -> f64 {
+    let input = point_input(s);
+    let r = evaluate(&input).unwrap();
+    let w0 = s.w0();
+    let t_off = 20.0 / w0;
+    // Simulate past the event of interest: one ring period plus the charge
+    // and clamp intervals, with margin.
+    let duration =
+        1.3 * (r.charge_end_s + 2.0 * std::f64::consts::PI / w0 + r.normalized_load / w0);
+    let deck = cell_deck(s, t_off, None, duration, None);
     if std::env::var_os("ZVS_SPICE_DUMP").is_some() {
         eprintln!("{}", deck.netlist());
     }
@@ -221,17 +238,8 @@ fn buck_conversion_ratio_agrees_with_a_full_cycle_in_ngspice() {
         let j_range = if k < 6 { 1.1..5.0 } else { 0.3..0.9 };
         let s = Scenario::random(&mut rng, timing_core::Topology::Buck, j_range);
         let input = PointInput {
-            topology: s.topology,
-            lr_h: s.lr_h,
-            cr_f: s.cr_f,
-            vin_v: s.vin_v,
             vout_v: None,
-            io_a: s.io_a,
-            timer: None,
-            position: 0.5,
-            fs_hz: None,
-            vds_rating_v: None,
-            derating: 0.8,
+            ..point_input(&s)
         };
         let probe = evaluate(&input).unwrap();
         // A frequency that leaves an on-time of about the transition's length.
@@ -244,19 +252,13 @@ fn buck_conversion_ratio_agrees_with_a_full_cycle_in_ngspice() {
         let period = 1.0 / fs;
         let w0 = s.w0();
         let t_off = 20.0 / w0;
-        let deck = CellDeck {
-            topology: s.topology,
-            lr_h: s.lr_h,
-            cr_f: s.cr_f,
-            vin_v: s.vin_v,
-            vout_v: s.vout_v,
-            inductor_current_a: s.inductor_current_a,
-            t_off_s: t_off,
-            turn_on_s: Some(r.turn_on_target_s),
-            duration_s: period * 1.01,
-            max_step_s: 1.0 / w0 / 2000.0,
-            average_over_s: Some(period),
-        };
+        let deck = cell_deck(
+            &s,
+            t_off,
+            Some(r.turn_on_target_s),
+            period * 1.01,
+            Some(period),
+        );
         if std::env::var_os("ZVS_SPICE_DUMP").is_some() {
             eprintln!("{}", deck.netlist());
         }
