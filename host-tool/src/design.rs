@@ -49,6 +49,8 @@ pub enum LayoutChoice {
     Ratio,
     /// Only the 1-D code-ratio layout, log-spaced.
     LogRatio,
+    /// Only the division-free 1-D layout uniform in log(ratio).
+    LogUniform,
     /// Only the 2-D code grid.
     Grid,
 }

@@ -21,6 +21,10 @@ fn layout_rs(l: &Layout) -> String {
             "Layout::LogRatio(LogRatioLayout {{ ratio_shift: {}, mant_bits: {}, e_lo: {}, nodes: {} }})",
             r.ratio_shift, r.mant_bits, r.e_lo, r.nodes
         ),
+        Layout::LogUniform(r) => format!(
+            "Layout::LogUniform(LogUniformLayout {{ lambda_lo: {}, step_shift: {}, nodes: {} }})",
+            r.lambda_lo, r.step_shift, r.nodes
+        ),
         Layout::Grid(g) => format!(
             "Layout::Grid(GridLayout {{ vin_shift: {}, io_shift: {}, rows: {}, cols: {} }})",
             g.vin_shift, g.io_shift, g.rows, g.cols
@@ -72,7 +76,7 @@ pub fn rust_source(design: &Design, g: &Generated, v: &VerifyReport) -> String {
     let _ = writeln!(s, "#[allow(unused_imports)]");
     let _ = writeln!(
         s,
-        "use timing_core::table::{{DelayTable, Fallback, GridLayout, Layout, LogRatioLayout, RatioLayout, Sensing, TableError}};"
+        "use timing_core::table::{{DelayTable, Fallback, GridLayout, Layout, LogRatioLayout, LogUniformLayout, RatioLayout, Sensing, TableError}};"
     );
     let _ = writeln!(
         s,
@@ -154,6 +158,38 @@ pub fn c_header(design: &Design, g: &Generated, v: &VerifyReport) -> String {
         let _ = write!(s, " {e}u,");
     }
     s.push_str("\n};\n\n");
+    if let Layout::LogUniform(_) = g.layout {
+        let _ = write!(s, "/* round(2^15 * log2(1 + k/64)), k = 0..64 */\nstatic const uint16_t {n}_log2_table_[65] = {{");
+        for (k, e) in timing_core::table::log2::LOG2_Q15.iter().enumerate() {
+            if k % 13 == 0 {
+                s.push_str("\n   ");
+            }
+            let _ = write!(s, " {e}u,");
+        }
+        s.push_str("\n};\n\n");
+        let _ = writeln!(
+            s,
+            "/* log2(c) in Q15, as timing-core's log2_q15 (0 for 0). */"
+        );
+        let _ = writeln!(s, "static inline uint32_t {n}_log2_q15_(uint32_t c) {{");
+        let _ = writeln!(s, "    uint32_t e = 0u, t = c;");
+        let _ = writeln!(s, "    if (c == 0u) return 0u;");
+        let _ = writeln!(s, "    if (t >= 65536u) {{ t >>= 16; e += 16u; }}");
+        let _ = writeln!(s, "    if (t >= 256u) {{ t >>= 8; e += 8u; }}");
+        let _ = writeln!(s, "    if (t >= 16u) {{ t >>= 4; e += 4u; }}");
+        let _ = writeln!(s, "    if (t >= 4u) {{ t >>= 2; e += 2u; }}");
+        let _ = writeln!(s, "    if (t >= 2u) {{ e += 1u; }}");
+        let _ = writeln!(s, "    uint32_t f = ((c << (31u - e)) >> 15) & 0xffffu;");
+        let _ = writeln!(s, "    uint32_t k = f >> 10, r = f & 0x3ffu;");
+        let _ = writeln!(
+            s,
+            "    uint32_t a = {n}_log2_table_[k], b = {n}_log2_table_[k + 1u];"
+        );
+        let _ = writeln!(
+            s,
+            "    return (e << 15) + a + (((b - a) * r + 512u) >> 10);\n}}\n"
+        );
+    }
     let _ = writeln!(s, "/* Clamp a code to the design range. */");
     let _ = writeln!(
         s,
@@ -286,6 +322,35 @@ pub fn c_header(design: &Design, g: &Generated, v: &VerifyReport) -> String {
                 "    return (uint16_t)((y + ((1u << total) >> 1)) >> total);"
             );
         }
+        Layout::LogUniform(r) => {
+            let st = u32::from(r.step_shift);
+            let _ = writeln!(
+                s,
+                "    uint32_t l = {n}_log2_q15_(v) + {}u - {n}_log2_q15_(i);",
+                timing_core::table::LOG_OFFSET
+            );
+            let _ = writeln!(s, "    uint32_t d = l > {0}u ? l - {0}u : 0u;", r.lambda_lo);
+            let _ = writeln!(
+                s,
+                "    uint32_t k = d >> {st}u, frac = d & {}u;",
+                (1u32 << st) - 1
+            );
+            let _ = writeln!(
+                s,
+                "    if (k > {}u) {{ k = {}u; frac = {}u; }}",
+                r.nodes - 2,
+                r.nodes - 2,
+                1u32 << st
+            );
+            let _ = writeln!(
+                s,
+                "    uint32_t y = (uint32_t){n}_entries[k] * ({}u - frac) + (uint32_t){n}_entries[k + 1u] * frac;",
+                1u32 << st
+            );
+            let total = st + f;
+            let half = (1u32 << total) >> 1;
+            let _ = writeln!(s, "    return (uint16_t)((y + {half}u) >> {total}u);");
+        }
         Layout::Grid(gr) => {
             let (vs, is) = (u32::from(gr.vin_shift), u32::from(gr.io_shift));
             let _ = writeln!(
@@ -392,6 +457,10 @@ pub fn csv(design: &Design, g: &Generated) -> String {
     match g.layout {
         Layout::Ratio(r) => one_d(&mut s, r.ratio_shift, &|k| {
             f64::from(r.q_lo) + f64::from(k) * f64::from(1u32 << r.step_shift)
+        }),
+        Layout::LogUniform(r) => one_d(&mut s, 0, &|k| {
+            let lambda = f64::from(r.lambda_lo) + f64::from(k) * f64::from(1u32 << r.step_shift);
+            2f64.powf((lambda - f64::from(timing_core::table::LOG_OFFSET)) / 32768.0)
         }),
         Layout::LogRatio(r) => one_d(&mut s, r.ratio_shift, &|k| {
             crate::generate::log_node_q(k, u32::from(r.e_lo), u32::from(r.mant_bits))

@@ -3,7 +3,8 @@
 //! budget. All physics comes from timing-core.
 
 use timing_core::table::{
-    log_index, DelayTable, Fallback, GridLayout, Layout, LogRatioLayout, RatioLayout, Sensing,
+    log_index, log_ratio_index, DelayTable, Fallback, GridLayout, Layout, LogRatioLayout,
+    LogUniformLayout, RatioLayout, Sensing, LOG_OFFSET,
 };
 use timing_core::{Transition, ZvsWindow};
 
@@ -128,6 +129,7 @@ impl Generated {
         match self.layout {
             Layout::Ratio(_) => "ratio",
             Layout::LogRatio(_) => "log-ratio",
+            Layout::LogUniform(_) => "log-uniform",
             Layout::Grid(_) => "grid",
         }
     }
@@ -433,6 +435,45 @@ fn log_ratio_candidate(
     }
 }
 
+/// The log-uniform layout with node step `2^step` in lambda and `frac`
+/// fractional bits.
+fn log_uniform_candidate(
+    design: &Design,
+    model: &ExactModel<'_>,
+    max_ticks: f64,
+    step: u32,
+    frac: u32,
+) -> Result<Option<Generated>, GenerateError> {
+    let s = sensing(design);
+    if bits(max_ticks.ceil() as u32) + frac > 16 || step + frac > 16 || step > 15 {
+        return Ok(None);
+    }
+    let l_lo = log_ratio_index(u32::from(s.vin.lo), u32::from(s.io.hi - s.io_zero));
+    let l_hi = log_ratio_index(u32::from(s.vin.hi), u32::from(s.io.lo - s.io_zero));
+    // Node 0 on a multiple of the step at or below the range.
+    let lambda_lo = (l_lo >> step) << step;
+    let nodes = ((l_hi - lambda_lo).div_ceil(1 << step) + 1).max(2);
+    if nodes > 4096 {
+        return Ok(None);
+    }
+    let entries = ratio_entries(design, model, 0, frac, nodes, |k| {
+        // The ratio vin/io at node k, as the q of a zero-shift ratio table.
+        let lambda = f64::from(lambda_lo) + f64::from(k) * f64::from(1u32 << step);
+        2f64.powf((lambda - f64::from(LOG_OFFSET)) / 32768.0)
+    })?;
+    Ok(Some(Generated {
+        sensing: s,
+        layout: Layout::LogUniform(LogUniformLayout {
+            lambda_lo,
+            step_shift: step as u8,
+            nodes: nodes as u16,
+        }),
+        frac_bits: frac as u8,
+        fallback: design.fallback,
+        entries,
+    }))
+}
+
 /// The ratio q at node `k` of a log-spaced table (octaves from `e_lo`,
 /// `2^m` nodes each).
 #[must_use]
@@ -567,6 +608,23 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
             }
         }
     }
+    if matches!(design.layout, L::Auto | L::LogUniform) {
+        let most = 16u32.saturating_sub(bits(max_ticks.ceil() as u32));
+        for step in 0..=15u32 {
+            for frac in [most.min(16 - step), 4, 2] {
+                if frac <= most && step + frac <= 16 {
+                    if let Some(g) = log_uniform_candidate(design, &model, max_ticks, step, frac)? {
+                        if !pool
+                            .iter()
+                            .any(|p| p.layout == g.layout && p.frac_bits == g.frac_bits)
+                        {
+                            pool.push(g);
+                        }
+                    }
+                }
+            }
+        }
+    }
     if matches!(design.layout, L::Auto | L::Grid) {
         for vs in 0..=10u32 {
             for is in 0..=10u32 {
@@ -656,6 +714,7 @@ fn shape(g: &Generated) -> String {
     match g.layout {
         Layout::Ratio(r) => format!("{} nodes, q step 2^{}", r.nodes, r.step_shift),
         Layout::LogRatio(r) => format!("{} nodes, 2^{} per octave", r.nodes, r.mant_bits),
+        Layout::LogUniform(r) => format!("{} nodes, step 2^{} in Q15 log2", r.nodes, r.step_shift),
         Layout::Grid(gr) => format!(
             "{} x {} nodes, steps 2^{} x 2^{} codes",
             gr.rows, gr.cols, gr.vin_shift, gr.io_shift

@@ -227,8 +227,15 @@ fn c_header_matches_the_rust_lookup() {
             "max_error_ticks = 1.0",
             "max_error_ticks = 1.0\nlayout = \"ratio\"",
         );
+    let log_text = HELD_OUT
+        .replace("name = \"held_out_boost\"", "name = \"held_out_log\"")
+        .replace(
+            "max_error_ticks = 1.0",
+            "max_error_ticks = 1.0\nlayout = \"log-ratio\"",
+        );
     let designs = [
         demo,
+        Design::parse(&log_text, "log.toml").unwrap(),
         Design::parse(HELD_OUT, "held_out.toml").unwrap(),
         Design::parse(&grid_text, "grid.toml").unwrap(),
         Design::parse(&ratio_text, "ratio.toml").unwrap(),
@@ -246,7 +253,7 @@ fn c_header_matches_the_rust_lookup() {
 }
 
 /// A design spanning decades of Vin/Io (10-60 V, 0.5-20 A, full-scale
-/// 12-bit sensing), where uniform nodes would be wasted: the log-spaced
+/// 12-bit sensing), where uniform nodes would be wasted: a log-spaced
 /// layout keeps it near 2 KiB.
 const WIDE: &str = r#"
 name = "wide_range"
@@ -275,7 +282,11 @@ fn a_wide_range_design_is_served_by_the_log_layout() {
         out.verification.points_checked
     );
     assert!(out.verification.max_error_ticks <= 1.0);
-    assert_eq!(out.table.layout_name(), "log-ratio");
+    assert!(
+        out.table.layout_name().starts_with("log-"),
+        "{}",
+        out.table.layout_name()
+    );
     assert!(out.table.table_bytes() <= 2200);
 }
 

@@ -15,8 +15,25 @@
 //! to the design range, and cannot fail or panic. Accuracy is the table's,
 //! proven on the host by exhaustive verification against the exact model.
 
+pub mod log2;
+
 use crate::adc::{AdcCode, CodeRange};
 use crate::Ticks;
+use log2::log2_q15;
+
+/// Offset of the log-domain index so it is never negative:
+/// `lambda = log2_q15(vin) + LOG_OFFSET - log2_q15(io - zero)` (16 octaves).
+pub const LOG_OFFSET: u32 = 16 << 15;
+
+/// The log-domain index of a code pair, `2^15 * log2(vin/io) + LOG_OFFSET`
+/// (see [`log2::log2_q15`]); `io` is already offset by the sensor zero.
+#[inline]
+#[must_use]
+pub fn log_ratio_index(vin: u32, io: u32) -> u32 {
+    log2_q15(vin)
+        .wrapping_add(LOG_OFFSET)
+        .wrapping_sub(log2_q15(io))
+}
 
 /// Version of the `.bin` blob layout this build writes and reads
 /// (see the `blob` module, feature `blob`).
@@ -117,6 +134,22 @@ pub struct LogRatioLayout {
     pub nodes: u16,
 }
 
+/// One dimension, uniform in the logarithm of the code ratio, computed
+/// without division: `lambda = log2_q15(vin) - log2_q15(io - io_zero) + LOG_OFFSET`
+/// ([`log_ratio_index`]); nodes at `lambda_lo + k * 2^step_shift`. The
+/// division-free layout for cores without a divide instruction.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+pub struct LogUniformLayout {
+    /// Index at node 0.
+    pub lambda_lo: u32,
+    /// Node spacing is `2^step_shift` in lambda (`2^15` is one octave).
+    pub step_shift: u8,
+    /// Number of nodes (at least 2).
+    pub nodes: u16,
+}
+
 /// Two dimensions over the raw codes: node (r, c) at
 /// `vin = vin.lo + r * 2^vin_shift`, `io = io.lo + c * 2^io_shift`, stored
 /// row-major (`r * cols + c`).
@@ -144,6 +177,8 @@ pub enum Layout {
     /// 1-D over the code ratio, log-spaced (one division and a
     /// leading-zero count per lookup).
     LogRatio(LogRatioLayout),
+    /// 1-D, uniform in log(code ratio), no division.
+    LogUniform(LogUniformLayout),
     /// 2-D over the raw codes (no division).
     Grid(GridLayout),
 }
@@ -372,6 +407,28 @@ impl<E: Entries> DelayTable<E> {
                 }
                 u32::from(r.nodes)
             }
+            Layout::LogUniform(r) => {
+                if r.nodes < 2
+                    || r.step_shift > 15
+                    || u32::from(r.step_shift) + u32::from(frac_bits) > 16
+                {
+                    return Err(TableError::Layout(
+                        "log-uniform table needs 2+ nodes and step_shift + frac_bits <= 16",
+                    ));
+                }
+                // log2_q15 is non-decreasing, so the corners bound lambda.
+                let l_min = log_ratio_index(u32::from(s.vin.lo), u32::from(s.io.hi - s.io_zero));
+                let l_max = log_ratio_index(u32::from(s.vin.hi), u32::from(s.io.lo - s.io_zero));
+                let span = u32::from(r.nodes - 1) << r.step_shift;
+                if r.lambda_lo > l_min
+                    || u64::from(r.lambda_lo) + u64::from(span) < u64::from(l_max)
+                {
+                    return Err(TableError::Layout(
+                        "log-uniform nodes do not cover the design range",
+                    ));
+                }
+                u32::from(r.nodes)
+            }
             Layout::Grid(g) => {
                 if g.rows < 2 || g.cols < 2 {
                     return Err(TableError::Layout("grid needs 2+ rows and columns"));
@@ -446,6 +503,28 @@ impl<E: Entries> DelayTable<E> {
         self.entries.count().wrapping_mul(2)
     }
 
+    /// Linear interpolation on uniform nodes `2^step` apart, `d` from node 0:
+    /// `(a*(2^s - f) + b*f, s)`.
+    #[inline]
+    fn uniform(&self, d: u32, step: u8, nodes: u16) -> (u32, u32) {
+        let s = u32::from(step);
+        let last = u32::from(nodes).wrapping_sub(2);
+        let one = 1u32.wrapping_shl(s);
+        let mut k = d.wrapping_shr(s);
+        let mut frac = d & one.wrapping_sub(1);
+        if k > last {
+            k = last;
+            frac = one;
+        }
+        let a = u32::from(self.entries.at(k as usize));
+        let b = u32::from(self.entries.at(k.wrapping_add(1) as usize));
+        (
+            a.wrapping_mul(one.wrapping_sub(frac))
+                .wrapping_add(b.wrapping_mul(frac)),
+            s,
+        )
+    }
+
     /// The delay for the sensed codes: clamps both codes to the design
     /// range, applies the fallback where J < 1, and otherwise interpolates
     /// the table. Integer-only; no division in the grid layout, one 32-bit
@@ -471,23 +550,11 @@ impl<E: Entries> DelayTable<E> {
                     .wrapping_shl(u32::from(r.ratio_shift))
                     .checked_div(i)
                     .unwrap_or(u32::MAX);
-                let d = q.saturating_sub(r.q_lo);
-                let s = u32::from(r.step_shift);
-                let last = u32::from(r.nodes).wrapping_sub(2);
-                let mut k = d.wrapping_shr(s);
-                let one = 1u32.wrapping_shl(s);
-                let mut frac = d & one.wrapping_sub(1);
-                if k > last {
-                    k = last;
-                    frac = one;
-                }
-                let a = u32::from(self.entries.at(k as usize));
-                let b = u32::from(self.entries.at(k.wrapping_add(1) as usize));
-                (
-                    a.wrapping_mul(one.wrapping_sub(frac))
-                        .wrapping_add(b.wrapping_mul(frac)),
-                    s,
-                )
+                self.uniform(q.saturating_sub(r.q_lo), r.step_shift, r.nodes)
+            }
+            Layout::LogUniform(r) => {
+                let l = log_ratio_index(v, i);
+                self.uniform(l.saturating_sub(r.lambda_lo), r.step_shift, r.nodes)
             }
             Layout::LogRatio(r) => {
                 let q = v

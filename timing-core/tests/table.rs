@@ -196,3 +196,19 @@ fn log_ratio_lookup_interpolates_linear_data_exactly() {
     assert_eq!(log_index(512, e_lo, m), (16, 0, 5));
     assert_eq!(log_index(511, e_lo, m), (15, 15, 4));
 }
+
+#[test]
+fn log2_q15_against_libm() {
+    use timing_core::table::log2::{log2_q15, LOG2_Q15_MAX_ERROR};
+    let mut worst = 0.0f64;
+    for c in 1u32..=65535 {
+        let got = f64::from(log2_q15(c)) / 32768.0;
+        let err = (got - f64::from(c).log2()).abs();
+        worst = worst.max(err);
+    }
+    println!("log2_q15 worst error {worst:.3e}");
+    assert!(worst <= LOG2_Q15_MAX_ERROR, "{worst:e}");
+    assert_eq!(log2_q15(1), 0);
+    assert_eq!(log2_q15(32768), 15 << 15);
+    assert_eq!(log2_q15(0), 0);
+}

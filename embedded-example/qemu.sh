@@ -1,0 +1,103 @@
+#!/usr/bin/env bash
+# Build the firmware example for one core, run it under QEMU with a
+# deterministic instruction count, decode its defmt log, and print the
+# summary lines. Exits non-zero when any ZVS cycle turned on early or late.
+#
+#   embedded-example/qemu.sh cortex-m4f     # thumbv7em-none-eabihf on mps2-an386
+#   embedded-example/qemu.sh cortex-m0      # thumbv6m-none-eabi on mps2-an385
+#   PANIC_NEVER=1 embedded-example/qemu.sh cortex-m0   # only link the panic-free proof build
+#
+# Toolchain: the rustup toolchain when it has the thumb target installed
+# (`rustup target add thumbv7em-none-eabihf thumbv6m-none-eabi`); otherwise
+# Debian's rustc-web with -Z build-std=core and ld.lld-16 (DESIGN.md
+# section 5), installed here when missing and running as root.
+set -euo pipefail
+here="$(cd "$(dirname "$0")" && pwd)"
+cd "$here"
+
+case "${1:-}" in
+  cortex-m4f) triple=thumbv7em-none-eabihf machine=mps2-an386 cpu=cortex-m4 ;;
+  cortex-m0)  triple=thumbv6m-none-eabi    machine=mps2-an385 cpu=cortex-m3 ;;
+  *) echo "usage: $0 cortex-m4f|cortex-m0" >&2; exit 2 ;;
+esac
+target_name=$1
+
+need=()
+command -v qemu-system-arm >/dev/null 2>&1 || need+=(qemu-system-arm)
+command -v readelf >/dev/null 2>&1 || need+=(binutils)
+if rustup target list --installed 2>/dev/null | grep -qx "$triple"; then
+  route=rustup
+else
+  route=debian
+  [ -x /usr/bin/rustc ] || need+=(rustc-web)
+  [ -x /usr/bin/cargo ] || need+=(cargo-web)
+  [ -d /usr/lib/rustlib/src/rust/library/core ] || need+=(rust-web-src)
+  command -v ld.lld-16 >/dev/null 2>&1 || need+=(lld-16)
+fi
+if [ "${#need[@]}" -gt 0 ]; then
+  if [ "$(id -u)" -eq 0 ] && command -v apt-get >/dev/null 2>&1; then
+    echo "qemu.sh: installing ${need[*]}" >&2
+    apt-get update -qq && DEBIAN_FRONTEND=noninteractive apt-get install -y -qq "${need[@]}" >/dev/null
+  else
+    echo "qemu.sh: missing ${need[*]}; install them (Debian: apt-get install ${need[*]})" >&2
+    exit 1
+  fi
+fi
+if ! command -v defmt-print >/dev/null 2>&1; then
+  echo "qemu.sh: installing defmt-print (cargo install --locked defmt-print, about a minute)" >&2
+  cargo install --locked --quiet defmt-print
+fi
+
+features=()
+if [ -n "${PANIC_NEVER:-}" ]; then
+  # The proof build has no logging and links without defmt's linker
+  # script (which keeps defmt's own panic hook alive on purpose).
+  features=(--no-default-features --features panic-never)
+  export RUSTFLAGS="-C link-arg=-Tlink.x"
+  export CARGO_TARGET_DIR="$here/target/panic-never"
+fi
+upper=$(echo "$triple" | tr 'a-z-' 'A-Z_')
+if [ "$route" = rustup ]; then
+  cargo build --quiet --release --target "$triple" "${features[@]}"
+else
+  env RUSTC=/usr/bin/rustc RUSTC_BOOTSTRAP=1 "CARGO_TARGET_${upper}_LINKER=ld.lld-16" \
+    /usr/bin/cargo build --quiet --release -Z build-std=core --target "$triple" "${features[@]}"
+fi
+elf="${CARGO_TARGET_DIR:-target}/$triple/release/embedded-example"
+if [ -n "${PANIC_NEVER:-}" ]; then
+  echo "PANIC-NEVER target=$target_name linked=yes (no panic path survives in the firmware)"
+  exit 0
+fi
+
+raw=$(mktemp)
+trap 'rm -f "$raw"' EXIT
+set +e
+qemu-system-arm -machine "$machine" -cpu "$cpu" -nographic \
+  -semihosting-config enable=on,target=native \
+  -icount shift=8,align=off,sleep=off -kernel "$elf" > "$raw"
+qemu_rc=$?
+set -e
+log=$(defmt-print -e "$elf" < "$raw")
+echo "$log"
+
+# Memory: sections of the ELF (readelf works on any ELF), and the table's share.
+sec() { local h; h=$(readelf -S -W "$elf" | sed 's/^ *\[ *[0-9]*\] *//' | awk -v n="$1" '$1 == n { print $5 }' | head -n 1); echo $((16#${h:-0})); }
+text=$(( $(sec .text || echo 0) + $(sec .rodata || echo 0) + $(sec .vector_table || echo 0) ))
+ram=$(( $(sec .data || echo 0) + $(sec .bss || echo 0) + $(sec .uninit || echo 0) ))
+sym() { readelf -s -W "$elf" | awk -v n="$1" '$8 ~ n { s += $3 } END { print s + 0 }'; }
+blob_bytes=$(stat -c %s "$here/../tables/winch_aux.bin")
+# The build-time table's entries plus the flash blob (included whole).
+table=$(( $(sym 'ENTRIES') + blob_bytes ))
+
+echo
+echo "$log" | grep -o 'ZVS-SUMMARY .*' || true
+echo "$log" | grep -o 'ISR-COST .*' || true
+echo "MEMORY target=$target_name table_flash_bytes=$table text_bytes=$text ram_bytes=$ram"
+
+summary=$(echo "$log" | grep -o 'ZVS-SUMMARY .*' || true)
+early=$(echo "$summary" | sed -n 's/.* early=\([0-9]*\).*/\1/p')
+late=$(echo "$summary" | sed -n 's/.* late=\([0-9]*\).*/\1/p')
+if [ -z "$summary" ] || [ "$qemu_rc" -ne 0 ] || [ "${early:-1}" != 0 ] || [ "${late:-1}" != 0 ]; then
+  echo "qemu.sh: FAILED (qemu exit $qemu_rc, early=${early:-?}, late=${late:-?})" >&2
+  exit 1
+fi

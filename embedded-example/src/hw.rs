@@ -1,0 +1,46 @@
+//! The hardware binding: the only module a port to a real MCU rewrites.
+//!
+//! Here the "ADC" is a pair of result registers that the plant model writes,
+//! and the "compare register" is a word the judge reads back. On a real
+//! power-conversion MCU:
+//! - `read_adc` reads the injected-conversion data registers of the Vin and
+//!   Io channels, whose conversions the PWM timer triggers at the turn-off
+//!   event (so the codes are fresh when the interrupt runs);
+//! - `write_compare` writes the compare register of the advanced or
+//!   high-resolution PWM timer that sets the next turn-on edge, counted
+//!   from the turn-off event (preload enabled, so the value takes effect at
+//!   the next period and never mid-transition);
+//! - SysTick stands in for the PWM timer's turn-off (or period) interrupt.
+
+use core::sync::atomic::{AtomicU32, Ordering};
+
+use timing_core::{AdcCode, Ticks};
+
+static ADC_RESULT: AtomicU32 = AtomicU32::new(0);
+static COMPARE: AtomicU32 = AtomicU32::new(0);
+
+/// Latest Vin and Io conversions (the interrupt's input).
+#[inline(always)]
+pub fn read_adc() -> (AdcCode, AdcCode) {
+    let w = ADC_RESULT.load(Ordering::Relaxed);
+    (AdcCode::new(w as u16), AdcCode::new((w >> 16) as u16))
+}
+
+/// Next turn-on delay into the PWM compare register (the interrupt's output).
+#[inline(always)]
+pub fn write_compare(t: Ticks) {
+    COMPARE.store(t.get(), Ordering::Relaxed);
+}
+
+/// Stand-in for the ADC hardware: the plant model posts its conversions.
+pub fn post_conversions(vin: AdcCode, io: AdcCode) {
+    ADC_RESULT.store(
+        u32::from(vin.get()) | (u32::from(io.get()) << 16),
+        Ordering::Relaxed,
+    );
+}
+
+/// Stand-in for the PWM hardware: what the interrupt last commanded.
+pub fn commanded() -> Ticks {
+    Ticks::new(COMPARE.load(Ordering::Relaxed))
+}

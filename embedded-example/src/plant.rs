@@ -1,0 +1,83 @@
+//! The converter outside the interrupt: a scenario of true Vin and Io over
+//! the run, sensor noise and ADC quantisation (invented for the demo).
+//!
+//! Scenario: the winch's auxiliary rail idles at light load (1.5 A, below
+//! the ZVS boundary: valley turn-on), the brake solenoids pull in (step to
+//! 8 A), and the battery bus charges slowly from 40 V to 56 V meanwhile.
+
+/// One switching cycle's true operating point and what the ADC reads.
+#[derive(Clone, Copy)]
+pub struct Sample {
+    /// True input voltage, volt.
+    pub vin_v: f32,
+    /// True output current, ampere.
+    pub io_a: f32,
+    /// Vin as converted, code.
+    pub vin_code: u16,
+    /// Io as converted, code.
+    pub io_code: u16,
+}
+
+/// The plant: deterministic, with a small linear-congruential noise source.
+pub struct Plant {
+    seed: u32,
+    /// Cycles in the run.
+    pub cycles: u32,
+}
+
+/// ADC scales of the demo design (tables/winch_aux.toml).
+const VIN_VOLTS_PER_CODE: f32 = 0.0161;
+const IO_AMPS_PER_CODE: f32 = 0.00488;
+const MAX_CODE: f32 = 4095.0;
+/// Peak sensor noise, codes.
+const NOISE_CODES: f32 = 3.0;
+
+impl Plant {
+    /// The scenario over `cycles` switching cycles.
+    pub const fn new(cycles: u32) -> Self {
+        Self {
+            seed: 0x2545_f491,
+            cycles,
+        }
+    }
+
+    fn noise(&mut self) -> f32 {
+        self.seed = self
+            .seed
+            .wrapping_mul(1_664_525)
+            .wrapping_add(1_013_904_223);
+        // Uniform in [-1, 1).
+        ((self.seed >> 8) as f32 / 8_388_608.0) - 1.0
+    }
+
+    fn convert(x: f32, per_code: f32, noise: f32) -> u16 {
+        let c = x / per_code + noise * NOISE_CODES + 0.5;
+        if c < 0.0 {
+            0
+        } else if c > MAX_CODE {
+            MAX_CODE as u16
+        } else {
+            c as u16
+        }
+    }
+
+    /// The operating point of cycle `n`.
+    pub fn sample(&mut self, n: u32) -> Sample {
+        let f = n as f32 / self.cycles as f32;
+        let vin_v = 40.0 + 16.0 * f;
+        // Load step at 40 % of the run, with a short exponential settle.
+        let io_a = if f < 0.4 {
+            1.5
+        } else {
+            let k = ((f - 0.4) * 200.0).min(8.0);
+            8.0 - 6.5 * libm::expf(-k)
+        };
+        let (a, b) = (self.noise(), self.noise());
+        Sample {
+            vin_v,
+            io_a,
+            vin_code: Self::convert(vin_v, VIN_VOLTS_PER_CODE, a),
+            io_code: Self::convert(io_a, IO_AMPS_PER_CODE, b),
+        }
+    }
+}
