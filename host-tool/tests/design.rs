@@ -129,7 +129,10 @@ fn zvs_timing(args: &[&str]) -> (i32, String, String) {
 fn table_and_verify_commands() {
     let dir = std::env::temp_dir().join(format!("zvs-timing-cli-{}", std::process::id()));
     let _ = std::fs::remove_dir_all(&dir);
-    let design = Path::new(env!("CARGO_MANIFEST_DIR")).join("../tables/winch_aux.toml");
+    // The demo design with the layout left to `auto`, so every layout is tried.
+    std::fs::create_dir_all(&dir).unwrap();
+    let design = dir.join("winch_aux.toml");
+    std::fs::write(&design, demo_text().replace("layout = \"log-uniform\"", "")).unwrap();
     let d = design.to_str().unwrap();
     let out = dir.to_str().unwrap();
     let (code, stdout, err) = zvs_timing(&["table", d, "--out", out, "--json"]);
