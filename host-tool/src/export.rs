@@ -252,29 +252,8 @@ pub fn c_header(design: &Design, g: &Generated, v: &VerifyReport) -> String {
     let f = u32::from(g.frac_bits);
     match g.layout {
         Layout::Ratio(r) => {
-            let st = u32::from(r.step_shift);
             let _ = writeln!(s, "    uint32_t q = (v << {}u) / i;", r.ratio_shift);
-            let _ = writeln!(s, "    uint32_t d = q > {0}u ? q - {0}u : 0u;", r.q_lo);
-            let _ = writeln!(
-                s,
-                "    uint32_t k = d >> {st}u, frac = d & {}u;",
-                (1u32 << st) - 1
-            );
-            let _ = writeln!(
-                s,
-                "    if (k > {}u) {{ k = {}u; frac = {}u; }}",
-                r.nodes - 2,
-                r.nodes - 2,
-                1u32 << st
-            );
-            let _ = writeln!(
-                s,
-                "    uint32_t y = (uint32_t){n}_entries[k] * ({}u - frac) + (uint32_t){n}_entries[k + 1u] * frac;",
-                1u32 << st
-            );
-            let total = st + f;
-            let half = (1u32 << total) >> 1;
-            let _ = writeln!(s, "    return (uint16_t)((y + {half}u) >> {total}u);");
+            c_uniform_tail(&mut s, n, "q", r.q_lo, r.step_shift, r.nodes, f);
         }
         Layout::LogRatio(r) => {
             let m = u32::from(r.mant_bits);
@@ -323,33 +302,12 @@ pub fn c_header(design: &Design, g: &Generated, v: &VerifyReport) -> String {
             );
         }
         Layout::LogUniform(r) => {
-            let st = u32::from(r.step_shift);
             let _ = writeln!(
                 s,
                 "    uint32_t l = {n}_log2_q15_(v) + {}u - {n}_log2_q15_(i);",
                 timing_core::table::LOG_OFFSET
             );
-            let _ = writeln!(s, "    uint32_t d = l > {0}u ? l - {0}u : 0u;", r.lambda_lo);
-            let _ = writeln!(
-                s,
-                "    uint32_t k = d >> {st}u, frac = d & {}u;",
-                (1u32 << st) - 1
-            );
-            let _ = writeln!(
-                s,
-                "    if (k > {}u) {{ k = {}u; frac = {}u; }}",
-                r.nodes - 2,
-                r.nodes - 2,
-                1u32 << st
-            );
-            let _ = writeln!(
-                s,
-                "    uint32_t y = (uint32_t){n}_entries[k] * ({}u - frac) + (uint32_t){n}_entries[k + 1u] * frac;",
-                1u32 << st
-            );
-            let total = st + f;
-            let half = (1u32 << total) >> 1;
-            let _ = writeln!(s, "    return (uint16_t)((y + {half}u) >> {total}u);");
+            c_uniform_tail(&mut s, n, "l", r.lambda_lo, r.step_shift, r.nodes, f);
         }
         Layout::Grid(gr) => {
             let (vs, is) = (u32::from(gr.vin_shift), u32::from(gr.io_shift));
@@ -406,6 +364,32 @@ pub fn c_header(design: &Design, g: &Generated, v: &VerifyReport) -> String {
     }
     let _ = writeln!(s, "}}\n\n#endif /* {up}_DELAY_TABLE_H */");
     s
+}
+
+/// C for interpolation on uniform nodes, as timing-core's `uniform`: index
+/// variable `var`, node 0 at `lo`, nodes `2^step` apart, `f` fractional bits.
+fn c_uniform_tail(s: &mut String, n: &str, var: &str, lo: u32, step: u8, nodes: u16, f: u32) {
+    let st = u32::from(step);
+    let _ = writeln!(s, "    uint32_t d = {var} > {lo}u ? {var} - {lo}u : 0u;");
+    let _ = writeln!(
+        s,
+        "    uint32_t k = d >> {st}u, frac = d & {}u;",
+        (1u32 << st) - 1
+    );
+    let _ = writeln!(
+        s,
+        "    if (k > {0}u) {{ k = {0}u; frac = {1}u; }}",
+        nodes - 2,
+        1u32 << st
+    );
+    let _ = writeln!(
+        s,
+        "    uint32_t y = (uint32_t){n}_entries[k] * ({}u - frac) + (uint32_t){n}_entries[k + 1u] * frac;",
+        1u32 << st
+    );
+    let total = st + f;
+    let half = (1u32 << total) >> 1;
+    let _ = writeln!(s, "    return (uint16_t)((y + {half}u) >> {total}u);");
 }
 
 /// The `.bin` blob: postcard header (magic, version, design hash, payload

@@ -308,6 +308,21 @@ pub const fn log_index(q: u32, e_lo: u32, m: u32) -> (u32, u32, u32) {
     (idx, q & 1u32.wrapping_shl(sh).wrapping_sub(1), sh)
 }
 
+/// Smallest and largest code ratio `q = (vin << shift)/(io - zero)` of the
+/// design range, refusing a shift that overflows 32 bits.
+fn ratio_bounds(s: &Sensing, shift: u8) -> Result<(u32, u32), TableError> {
+    if bits(u32::from(s.vin.hi)) + u32::from(shift) > 32 {
+        return Err(TableError::Layout("vin << ratio_shift overflows 32 bits"));
+    }
+    let q_min = (u32::from(s.vin.lo) << shift)
+        .checked_div(u32::from(s.io.hi.wrapping_sub(s.io_zero)))
+        .unwrap_or(0);
+    let q_max = (u32::from(s.vin.hi) << shift)
+        .checked_div(u32::from(s.io.lo.wrapping_sub(s.io_zero)))
+        .unwrap_or(u32::MAX);
+    Ok((q_min, q_max))
+}
+
 impl<E: Entries> DelayTable<E> {
     /// Validate and build a table.
     ///
@@ -345,16 +360,7 @@ impl<E: Entries> DelayTable<E> {
                         "ratio table needs 2+ nodes and step_shift <= 15",
                     ));
                 }
-                // (vin << ratio_shift) must fit 32 bits.
-                if bits(u32::from(s.vin.hi)) + u32::from(r.ratio_shift) > 32 {
-                    return Err(TableError::Layout("vin << ratio_shift overflows 32 bits"));
-                }
-                let q_min = (u32::from(s.vin.lo) << r.ratio_shift)
-                    .checked_div(u32::from(s.io.hi - s.io_zero))
-                    .unwrap_or(0);
-                let q_max = (u32::from(s.vin.hi) << r.ratio_shift)
-                    .checked_div(u32::from(s.io.lo - s.io_zero))
-                    .unwrap_or(u32::MAX);
+                let (q_min, q_max) = ratio_bounds(s, r.ratio_shift)?;
                 let span = u32::from(r.nodes - 1) << r.step_shift;
                 if r.q_lo > q_min || u64::from(r.q_lo) + u64::from(span) < u64::from(q_max) {
                     return Err(TableError::Layout(
@@ -376,15 +382,7 @@ impl<E: Entries> DelayTable<E> {
                         "log-ratio table needs 2+ nodes and mant_bits <= 12",
                     ));
                 }
-                if bits(u32::from(s.vin.hi)) + u32::from(r.ratio_shift) > 32 {
-                    return Err(TableError::Layout("vin << ratio_shift overflows 32 bits"));
-                }
-                let q_min = (u32::from(s.vin.lo) << r.ratio_shift)
-                    .checked_div(u32::from(s.io.hi - s.io_zero))
-                    .unwrap_or(0);
-                let q_max = (u32::from(s.vin.hi) << r.ratio_shift)
-                    .checked_div(u32::from(s.io.lo - s.io_zero))
-                    .unwrap_or(u32::MAX);
+                let (q_min, q_max) = ratio_bounds(s, r.ratio_shift)?;
                 // Node 0 at or below q_min, whose octave holds 2^m nodes.
                 if q_min == 0 || bits(q_min) - 1 < u32::from(r.e_lo) || u32::from(r.e_lo) < m {
                     return Err(TableError::Layout(
