@@ -211,4 +211,11 @@ fn log2_q15_against_libm() {
     assert_eq!(log2_q15(1), 0);
     assert_eq!(log2_q15(32768), 15 << 15);
     assert_eq!(log2_q15(0), 0);
+    for t in 1u32..=1 << 20 {
+        assert_eq!(
+            timing_core::table::log2::floor_log2(t),
+            31 - t.leading_zeros()
+        );
+    }
+    assert_eq!(timing_core::table::log2::floor_log2(u32::MAX), 31);
 }
