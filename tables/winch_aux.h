@@ -32,8 +32,8 @@ static const uint16_t winch_aux_log2_table_[65] = {
 
 /* log2(c) in Q15, as timing-core's log2_q15 (0 for 0). */
 static inline uint32_t winch_aux_log2_q15_(uint32_t c) {
-    uint32_t e = 0u, t = c;
     if (c == 0u) return 0u;
+    uint32_t e = 0u, t = c;
     if (t >= 65536u) { t >>= 16; e += 16u; }
     if (t >= 256u) { t >>= 8; e += 8u; }
     if (t >= 16u) { t >>= 4; e += 4u; }

@@ -172,13 +172,8 @@ pub fn c_header(design: &Design, g: &Generated, v: &VerifyReport) -> String {
             "/* log2(c) in Q15, as timing-core's log2_q15 (0 for 0). */"
         );
         let _ = writeln!(s, "static inline uint32_t {n}_log2_q15_(uint32_t c) {{");
-        let _ = writeln!(s, "    uint32_t e = 0u, t = c;");
         let _ = writeln!(s, "    if (c == 0u) return 0u;");
-        let _ = writeln!(s, "    if (t >= 65536u) {{ t >>= 16; e += 16u; }}");
-        let _ = writeln!(s, "    if (t >= 256u) {{ t >>= 8; e += 8u; }}");
-        let _ = writeln!(s, "    if (t >= 16u) {{ t >>= 4; e += 4u; }}");
-        let _ = writeln!(s, "    if (t >= 4u) {{ t >>= 2; e += 2u; }}");
-        let _ = writeln!(s, "    if (t >= 2u) {{ e += 1u; }}");
+        c_floor_log2(&mut s, "c");
         let _ = writeln!(s, "    uint32_t f = ((c << (31u - e)) >> 15) & 0xffffu;");
         let _ = writeln!(s, "    uint32_t k = f >> 10, r = f & 0x3ffu;");
         let _ = writeln!(
@@ -262,12 +257,7 @@ pub fn c_header(design: &Design, g: &Generated, v: &VerifyReport) -> String {
                 s,
                 "    /* Octave e = floor(log2(q)), portable C99 (no compiler builtins). */"
             );
-            let _ = writeln!(s, "    uint32_t e = 0u, t = q;");
-            let _ = writeln!(s, "    if (t >= 65536u) {{ t >>= 16; e += 16u; }}");
-            let _ = writeln!(s, "    if (t >= 256u) {{ t >>= 8; e += 8u; }}");
-            let _ = writeln!(s, "    if (t >= 16u) {{ t >>= 4; e += 4u; }}");
-            let _ = writeln!(s, "    if (t >= 4u) {{ t >>= 2; e += 2u; }}");
-            let _ = writeln!(s, "    if (t >= 2u) {{ e += 1u; }}");
+            c_floor_log2(&mut s, "q");
             let _ = writeln!(s, "    uint32_t k, frac, sh;");
             let _ = writeln!(
                 s,
@@ -364,6 +354,19 @@ pub fn c_header(design: &Design, g: &Generated, v: &VerifyReport) -> String {
     }
     let _ = writeln!(s, "}}\n\n#endif /* {up}_DELAY_TABLE_H */");
     s
+}
+
+/// C for `uint32_t e = floor(log2(var))` by the five-step binary search of
+/// timing-core's `floor_log2` (portable C99, no compiler builtins).
+fn c_floor_log2(s: &mut String, var: &str) {
+    let _ = writeln!(s, "    uint32_t e = 0u, t = {var};");
+    for (limit, shift) in [(65536u32, 16u32), (256, 8), (16, 4), (4, 2)] {
+        let _ = writeln!(
+            s,
+            "    if (t >= {limit}u) {{ t >>= {shift}; e += {shift}u; }}"
+        );
+    }
+    let _ = writeln!(s, "    if (t >= 2u) {{ e += 1u; }}");
 }
 
 /// C for interpolation on uniform nodes, as timing-core's `uniform`: index

@@ -3,8 +3,8 @@
 //! budget. All physics comes from timing-core.
 
 use timing_core::table::{
-    log_index, log_ratio_index, DelayTable, Fallback, GridLayout, Layout, LogRatioLayout,
-    LogUniformLayout, RatioLayout, Sensing, LOG_OFFSET,
+    log_index, log_ratio_index, ratio_bounds, DelayTable, Fallback, GridLayout, Layout,
+    LogRatioLayout, LogUniformLayout, RatioLayout, Sensing, LOG_OFFSET,
 };
 use timing_core::{Transition, ZvsWindow};
 
@@ -342,45 +342,50 @@ fn ratio_candidate(
     if bits(max_ticks.ceil() as u32) + frac > 16 {
         return Ok(None);
     }
-    let mut shift = 32 - bits(u32::from(s.vin.hi));
-    loop {
-        let q_lo = (u32::from(s.vin.lo) << shift) / u32::from(s.io.hi - s.io_zero);
-        let q_hi = (u32::from(s.vin.hi) << shift) / u32::from(s.io.lo - s.io_zero);
-        let span = q_hi - q_lo;
-        let per = (f64::from(span) / f64::from(target_nodes.max(2) - 1)).max(1.0);
-        let step = per.log2().ceil().max(0.0) as u32;
-        if step + frac > 16 {
-            if shift == 0 {
-                return Ok(None);
-            }
-            shift -= 1;
-            continue;
-        }
-        // The ratio must resolve the lightest-load end: q of the first node
-        // at least 64 (truncation of the division moves it by under 2 %).
-        if q_lo < 64 {
-            return Ok(None);
-        }
-        let nodes = (span.div_ceil(1 << step) + 1).max(2);
-        if nodes > u32::from(u16::MAX) {
-            return Ok(None);
-        }
-        let entries = ratio_entries(design, model, shift as u8, frac, nodes, |k| {
-            f64::from(q_lo) + f64::from(k) * f64::from(1u32 << step)
-        })?;
-        return Ok(Some(Generated {
-            sensing: s,
-            layout: Layout::Ratio(RatioLayout {
-                ratio_shift: shift as u8,
-                q_lo,
-                step_shift: step as u8,
-                nodes: nodes as u16,
-            }),
-            frac_bits: frac as u8,
-            fallback: design.fallback,
-            entries,
-        }));
+    let step_for = |q_lo: u32, q_hi: u32| {
+        let per = (f64::from(q_hi - q_lo) / f64::from(target_nodes.max(2) - 1)).max(1.0);
+        per.log2().ceil().max(0.0) as u32
+    };
+    let Some((shift, q_lo, q_hi)) = finest_shift(&s, |lo, hi| step_for(lo, hi) + frac <= 16) else {
+        return Ok(None);
+    };
+    let step = step_for(q_lo, q_hi);
+    // The ratio must resolve the lightest-load end: q of the first node
+    // at least 64 (truncation of the division moves it by under 2 %).
+    if q_lo < 64 {
+        return Ok(None);
     }
+    let nodes = ((q_hi - q_lo).div_ceil(1 << step) + 1).max(2);
+    if nodes > u32::from(u16::MAX) {
+        return Ok(None);
+    }
+    let entries = ratio_entries(design, model, shift as u8, frac, nodes, |k| {
+        f64::from(q_lo) + f64::from(k) * f64::from(1u32 << step)
+    })?;
+    Ok(Some(Generated {
+        sensing: s,
+        layout: Layout::Ratio(RatioLayout {
+            ratio_shift: shift as u8,
+            q_lo,
+            step_shift: step as u8,
+            nodes: nodes as u16,
+        }),
+        frac_bits: frac as u8,
+        fallback: design.fallback,
+        entries,
+    }))
+}
+
+/// The largest ratio shift (finest ratio resolution) at which `fits(q_lo,
+/// q_hi)` holds, with the design range's ratio bounds there (timing-core's
+/// own `ratio_bounds`, the ones its validation checks).
+fn finest_shift(s: &Sensing, fits: impl Fn(u32, u32) -> bool) -> Option<(u32, u32, u32)> {
+    (0..=32 - bits(u32::from(s.vin.hi)))
+        .rev()
+        .find_map(|shift| {
+            let (lo, hi) = ratio_bounds(s, shift as u8).ok()?;
+            fits(lo, hi).then_some((shift, lo, hi))
+        })
 }
 
 /// The log-spaced ratio layout with `2^m` nodes per octave and `frac`
@@ -397,42 +402,33 @@ fn log_ratio_candidate(
     if bits(max_ticks.ceil() as u32) + frac > 16 {
         return Ok(None);
     }
-    let mut shift = 32 - bits(u32::from(s.vin.hi));
-    loop {
-        let q_lo = (u32::from(s.vin.lo) << shift) / u32::from(s.io.hi - s.io_zero);
-        let q_hi = (u32::from(s.vin.hi) << shift) / u32::from(s.io.lo - s.io_zero);
-        if q_lo == 0 || bits(q_lo) - 1 < m {
-            return Ok(None);
-        }
-        let e_lo = bits(q_lo) - 1;
-        let e_hi = bits(q_hi) - 1;
-        if e_hi - m > 15 {
-            if shift == 0 {
-                return Ok(None);
-            }
-            shift -= 1;
-            continue;
-        }
-        let nodes = log_index(q_hi, e_lo, m).0 + 2;
-        if nodes > u32::from(u16::MAX) {
-            return Ok(None);
-        }
-        let entries = ratio_entries(design, model, shift as u8, frac, nodes, |k| {
-            log_node_q(k, e_lo, m)
-        })?;
-        return Ok(Some(Generated {
-            sensing: s,
-            layout: Layout::LogRatio(LogRatioLayout {
-                ratio_shift: shift as u8,
-                mant_bits: m as u8,
-                e_lo: e_lo as u8,
-                nodes: nodes as u16,
-            }),
-            frac_bits: frac as u8,
-            fallback: design.fallback,
-            entries,
-        }));
+    let top_step_fits = |_: u32, hi: u32| bits(hi).saturating_sub(1).saturating_sub(m) <= 15;
+    let Some((shift, q_lo, q_hi)) = finest_shift(&s, top_step_fits) else {
+        return Ok(None);
+    };
+    if q_lo == 0 || bits(q_lo) - 1 < m {
+        return Ok(None);
     }
+    let e_lo = bits(q_lo) - 1;
+    let nodes = log_index(q_hi, e_lo, m).0 + 2;
+    if nodes > u32::from(u16::MAX) {
+        return Ok(None);
+    }
+    let entries = ratio_entries(design, model, shift as u8, frac, nodes, |k| {
+        log_node_q(k, e_lo, m)
+    })?;
+    Ok(Some(Generated {
+        sensing: s,
+        layout: Layout::LogRatio(LogRatioLayout {
+            ratio_shift: shift as u8,
+            mant_bits: m as u8,
+            e_lo: e_lo as u8,
+            nodes: nodes as u16,
+        }),
+        frac_bits: frac as u8,
+        fallback: design.fallback,
+        entries,
+    }))
 }
 
 /// The log-uniform layout with node step `2^step` in lambda and `frac`

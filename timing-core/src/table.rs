@@ -310,7 +310,10 @@ pub const fn log_index(q: u32, e_lo: u32, m: u32) -> (u32, u32, u32) {
 
 /// Smallest and largest code ratio `q = (vin << shift)/(io - zero)` of the
 /// design range, refusing a shift that overflows 32 bits.
-fn ratio_bounds(s: &Sensing, shift: u8) -> Result<(u32, u32), TableError> {
+///
+/// # Errors
+/// [`TableError::Layout`] when `vin << shift` overflows.
+pub fn ratio_bounds(s: &Sensing, shift: u8) -> Result<(u32, u32), TableError> {
     if bits(u32::from(s.vin.hi)) + u32::from(shift) > 32 {
         return Err(TableError::Layout("vin << ratio_shift overflows 32 bits"));
     }
@@ -506,10 +509,17 @@ impl<E: Entries> DelayTable<E> {
     #[inline]
     fn uniform(&self, d: u32, step: u8, nodes: u16) -> (u32, u32) {
         let s = u32::from(step);
+        let frac = d & 1u32.wrapping_shl(s).wrapping_sub(1);
+        self.interpolate(d.wrapping_shr(s), frac, s, nodes)
+    }
+
+    /// Between nodes `k` and `k + 1`, `2^sh` apart, at `frac` past node `k`
+    /// (past the last interval: its far end): `(a*(2^sh - f) + b*f, sh)`.
+    #[inline]
+    fn interpolate(&self, k: u32, frac: u32, sh: u32, nodes: u16) -> (u32, u32) {
         let last = u32::from(nodes).wrapping_sub(2);
-        let one = 1u32.wrapping_shl(s);
-        let mut k = d.wrapping_shr(s);
-        let mut frac = d & one.wrapping_sub(1);
+        let one = 1u32.wrapping_shl(sh);
+        let (mut k, mut frac) = (k, frac);
         if k > last {
             k = last;
             frac = one;
@@ -519,7 +529,7 @@ impl<E: Entries> DelayTable<E> {
         (
             a.wrapping_mul(one.wrapping_sub(frac))
                 .wrapping_add(b.wrapping_mul(frac)),
-            s,
+            sh,
         )
     }
 
@@ -559,20 +569,8 @@ impl<E: Entries> DelayTable<E> {
                     .wrapping_shl(u32::from(r.ratio_shift))
                     .checked_div(i)
                     .unwrap_or(u32::MAX);
-                let (mut k, mut frac, sh) = log_index(q, u32::from(r.e_lo), u32::from(r.mant_bits));
-                let last = u32::from(r.nodes).wrapping_sub(2);
-                let one = 1u32.wrapping_shl(sh);
-                if k > last {
-                    k = last;
-                    frac = one;
-                }
-                let a = u32::from(self.entries.at(k as usize));
-                let b = u32::from(self.entries.at(k.wrapping_add(1) as usize));
-                (
-                    a.wrapping_mul(one.wrapping_sub(frac))
-                        .wrapping_add(b.wrapping_mul(frac)),
-                    sh,
-                )
+                let (k, frac, sh) = log_index(q, u32::from(r.e_lo), u32::from(r.mant_bits));
+                self.interpolate(k, frac, sh, r.nodes)
             }
             Layout::Grid(g) => {
                 let (vs, is) = (u32::from(g.vin_shift), u32::from(g.io_shift));
