@@ -5,7 +5,7 @@
 // Timer 170000000 Hz; codes outside vin 2237..=3726 / io 205..=2049 clamp to the range edge.
 // CAUTION: verify every delay at reduced voltage with a scope before full-voltage operation.
 #[allow(unused_imports)]
-use timing_core::table::{DelayTable, Fallback, GridLayout, Layout, LogRatioLayout, LogUniformLayout, RatioLayout, Sensing, TableError};
+use timing_core::table::{DelayTable, Fallback, GridLayout, Layout, LogRatioLayout, LogUniformLayout, RatioLayout, RecipRatioLayout, Sensing, TableError};
 #[allow(unused_imports)]
 use timing_core::{CodeRange, Ticks};
 
@@ -28,6 +28,14 @@ pub static ENTRIES: [u16; 66] = [
     3043, 3090, 3139, 3190, 3244, 3300, 3359, 3420, 3484, 3550, 3620, 3693,
     3769, 3848, 3931, 4017, 4107, 4202,
 ];
+
+/// The table as a constant, validated at compile time: the interrupt's
+/// lookup sees every layout parameter as a constant and folds it.
+pub const TABLE: DelayTable<&'static [u16]> =
+    match DelayTable::from_static(SENSING, LAYOUT, FRAC_BITS, FALLBACK, &ENTRIES) {
+        Ok(t) => t,
+        Err(_) => panic!("generated table `winch_aux` fails timing-core's validation"),
+    };
 
 /// The validated table (validation runs once; call it at start-up).
 pub fn table() -> Result<DelayTable<&'static [u16]>, TableError> {

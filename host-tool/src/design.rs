@@ -53,6 +53,9 @@ pub enum LayoutChoice {
     LogUniform,
     /// Only the 2-D code grid.
     Grid,
+    /// Only the 1-D code-ratio layout with a reciprocal table instead of
+    /// the division (fastest on cores without a divide instruction).
+    RecipRatio,
 }
 
 /// What to command below the ZVS boundary.

@@ -25,6 +25,10 @@ fn layout_rs(l: &Layout) -> String {
             "Layout::LogUniform(LogUniformLayout {{ lambda_lo: {}, step_shift: {}, nodes: {} }})",
             r.lambda_lo, r.step_shift, r.nodes
         ),
+        Layout::RecipRatio(r) => format!(
+            "Layout::RecipRatio(RecipRatioLayout {{ recip_shift: {}, post_shift: {}, q_lo: {}, step_shift: {}, nodes: {} }})",
+            r.recip_shift, r.post_shift, r.q_lo, r.step_shift, r.nodes
+        ),
         Layout::Grid(g) => format!(
             "Layout::Grid(GridLayout {{ vin_shift: {}, io_shift: {}, rows: {}, cols: {} }})",
             g.vin_shift, g.io_shift, g.rows, g.cols
@@ -76,7 +80,7 @@ pub fn rust_source(design: &Design, g: &Generated, v: &VerifyReport) -> String {
     let _ = writeln!(s, "#[allow(unused_imports)]");
     let _ = writeln!(
         s,
-        "use timing_core::table::{{DelayTable, Fallback, GridLayout, Layout, LogRatioLayout, LogUniformLayout, RatioLayout, Sensing, TableError}};"
+        "use timing_core::table::{{DelayTable, Fallback, GridLayout, Layout, LogRatioLayout, LogUniformLayout, RatioLayout, RecipRatioLayout, Sensing, TableError}};"
     );
     let _ = writeln!(
         s,
@@ -116,6 +120,15 @@ pub fn rust_source(design: &Design, g: &Generated, v: &VerifyReport) -> String {
         let _ = write!(s, " {e},");
     }
     s.push_str("\n];\n\n");
+    let _ = writeln!(
+        s,
+        "/// The table as a constant, validated at compile time: the interrupt's\n/// lookup sees every layout parameter as a constant and folds it."
+    );
+    let _ = writeln!(
+        s,
+        "pub const TABLE: DelayTable<&'static [u16]> =\n    match DelayTable::from_static(SENSING, LAYOUT, FRAC_BITS, FALLBACK, &ENTRIES) {{\n        Ok(t) => t,\n        Err(_) => panic!(\"generated table `{}` fails timing-core's validation\"),\n    }};\n",
+        design.name
+    );
     let _ = writeln!(
         s,
         "/// The validated table (validation runs once; call it at start-up)."
@@ -248,6 +261,18 @@ pub fn c_header(design: &Design, g: &Generated, v: &VerifyReport) -> String {
     match g.layout {
         Layout::Ratio(r) => {
             let _ = writeln!(s, "    uint32_t q = (v << {}u) / i;", r.ratio_shift);
+            c_uniform_tail(&mut s, n, "q", r.q_lo, r.step_shift, r.nodes, f);
+        }
+        Layout::RecipRatio(r) => {
+            let _ = writeln!(
+                s,
+                "    /* Reciprocal of the current code from the table's tail (no division). */"
+            );
+            let _ = writeln!(
+                s,
+                "    uint32_t q = (v * (uint32_t){n}_entries[{}u + i + {}u - {}u]) >> {}u;",
+                r.nodes, sn.io_zero, sn.io.lo, r.post_shift
+            );
             c_uniform_tail(&mut s, n, "q", r.q_lo, r.step_shift, r.nodes, f);
         }
         Layout::LogRatio(r) => {
@@ -429,7 +454,11 @@ pub fn csv(design: &Design, g: &Generated) -> String {
     let mut s = String::new();
     let one_d = |s: &mut String, shift: u8, node_q: &dyn Fn(u32) -> f64| {
         s.push_str("node,q,normalized_load,vin_over_io_ohm,exact_ticks,entry,entry_ticks\n");
-        for (k, e) in g.entries.iter().enumerate() {
+        let nodes = match g.layout {
+            Layout::RecipRatio(r) => usize::from(r.nodes),
+            _ => g.entries.len(),
+        };
+        for (k, e) in g.entries.iter().take(nodes).enumerate() {
             let q = node_q(k as u32);
             let j = crate::generate::load_at_ratio(design, shift, q);
             let exact = model.at_load(j).map_or(f64::NAN, |p| p.ticks);
@@ -448,6 +477,9 @@ pub fn csv(design: &Design, g: &Generated) -> String {
         Layout::LogUniform(r) => one_d(&mut s, 0, &|k| {
             let lambda = f64::from(r.lambda_lo) + f64::from(k) * f64::from(1u32 << r.step_shift);
             2f64.powf((lambda - f64::from(timing_core::table::LOG_OFFSET)) / 32768.0)
+        }),
+        Layout::RecipRatio(r) => one_d(&mut s, r.recip_shift - r.post_shift, &|k| {
+            f64::from(r.q_lo) + f64::from(k) * f64::from(1u32 << r.step_shift)
         }),
         Layout::LogRatio(r) => one_d(&mut s, r.ratio_shift, &|k| {
             crate::generate::log_node_q(k, u32::from(r.e_lo), u32::from(r.mant_bits))
@@ -520,7 +552,25 @@ pub fn write_all(
 /// # Errors
 /// The design, generation or verification error as a sentence.
 pub fn rust_source_for_design_file(path: &std::path::Path) -> Result<String, String> {
-    let design = Design::load(path).map_err(|e| e.to_string())?;
+    firmware_table(path, None).map(|(source, _)| source)
+}
+
+/// The Rust source and the `.bin` blob of the table for the design file at
+/// `path`, with the layout choice overridden by `layout` when given (a
+/// firmware build picks the layout that is fastest on its core). For
+/// build scripts.
+///
+/// # Errors
+/// The design's or generation's error as text.
+pub fn firmware_table(
+    path: &std::path::Path,
+    layout: Option<crate::design::LayoutChoice>,
+) -> Result<(String, Vec<u8>), String> {
+    let mut design = Design::load(path).map_err(|e| e.to_string())?;
+    if let Some(l) = layout {
+        design.layout = l;
+    }
     let out = crate::generate::generate(&design).map_err(|e| format!("{}: {e}", path.display()))?;
-    Ok(rust_source(&design, &out.table, &out.verification))
+    let bin = blob(&design, &out.table).map_err(|e| e.to_string())?;
+    Ok((rust_source(&design, &out.table, &out.verification), bin))
 }

@@ -4,7 +4,7 @@
 
 use timing_core::table::{
     log_index, log_ratio_index, ratio_bounds, DelayTable, Fallback, GridLayout, Layout,
-    LogRatioLayout, LogUniformLayout, RatioLayout, Sensing, LOG_OFFSET,
+    LogRatioLayout, LogUniformLayout, RatioLayout, RecipRatioLayout, Sensing, LOG_OFFSET,
 };
 use timing_core::{Transition, ZvsWindow};
 
@@ -131,6 +131,7 @@ impl Generated {
             Layout::LogRatio(_) => "log-ratio",
             Layout::LogUniform(_) => "log-uniform",
             Layout::Grid(_) => "grid",
+            Layout::RecipRatio(_) => "recip-ratio",
         }
     }
 }
@@ -376,6 +377,75 @@ fn ratio_candidate(
     }))
 }
 
+/// The reciprocal-ratio layout (the ratio layout without the division)
+/// with about `target_nodes` nodes and `frac` fractional bits. The
+/// reciprocals use the most bits that keep every one within 16 bits; the
+/// post-multiplication shift is the smallest (finest ratio resolution)
+/// that keeps the node step within `step + frac <= 16`.
+fn recip_ratio_candidate(
+    design: &Design,
+    model: &ExactModel<'_>,
+    max_ticks: f64,
+    target_nodes: u32,
+    frac: u32,
+) -> Result<Option<Generated>, GenerateError> {
+    let s = sensing(design);
+    if bits(max_ticks.ceil() as u32) + frac > 16 {
+        return Ok(None);
+    }
+    let i_lo = u32::from(s.io.lo - s.io_zero);
+    let i_hi = u32::from(s.io.hi - s.io_zero);
+    // 2^rs / i_lo <= 65535 (rounded).
+    let rs = (0..=31u32)
+        .rev()
+        .find(|&rs| ((1u64 << rs) as f64 / f64::from(i_lo)).round() <= 65535.0)
+        .unwrap_or(0);
+    let recips: Vec<u16> = (i_lo..=i_hi)
+        .map(|i| ((1u64 << rs) as f64 / f64::from(i)).round() as u16)
+        .collect();
+    let (r_min, r_max) = (
+        u32::from(*recips.last().unwrap_or(&0)),
+        u32::from(*recips.first().unwrap_or(&0)),
+    );
+    let step_for = |q_lo: u32, q_hi: u32| {
+        let per = (f64::from(q_hi - q_lo) / f64::from(target_nodes.max(2) - 1)).max(1.0);
+        per.log2().ceil().max(0.0) as u32
+    };
+    // q is increasing in vin and in R, so the corners bound it.
+    let Some((ps, q_lo, q_hi)) = (0..=rs).find_map(|ps| {
+        let lo = (u32::from(s.vin.lo) * r_min) >> ps;
+        let hi = (u32::from(s.vin.hi) * r_max) >> ps;
+        (step_for(lo, hi) + frac <= 16).then_some((ps, lo, hi))
+    }) else {
+        return Ok(None);
+    };
+    if q_lo < 64 {
+        return Ok(None);
+    }
+    let step = step_for(q_lo, q_hi);
+    let nodes = ((q_hi - q_lo).div_ceil(1 << step) + 1).max(2);
+    if nodes > u32::from(u16::MAX) {
+        return Ok(None);
+    }
+    let mut entries = ratio_entries(design, model, (rs - ps) as u8, frac, nodes, |k| {
+        f64::from(q_lo) + f64::from(k) * f64::from(1u32 << step)
+    })?;
+    entries.extend_from_slice(&recips);
+    Ok(Some(Generated {
+        sensing: s,
+        layout: Layout::RecipRatio(RecipRatioLayout {
+            recip_shift: rs as u8,
+            post_shift: ps as u8,
+            q_lo,
+            step_shift: step as u8,
+            nodes: nodes as u16,
+        }),
+        frac_bits: frac as u8,
+        fallback: design.fallback,
+        entries,
+    }))
+}
+
 /// The largest ratio shift (finest ratio resolution) at which `fits(q_lo,
 /// q_hi)` holds, with the design range's ratio bounds there (timing-core's
 /// own `ratio_bounds`, the ones its validation checks).
@@ -589,6 +659,22 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
             n *= 2;
         }
     }
+    if matches!(design.layout, L::Auto | L::RecipRatio) {
+        let mut n = 4u32;
+        while n <= 32_768 {
+            for frac in (0..=12).step_by(2) {
+                if let Some(g) = recip_ratio_candidate(design, &model, max_ticks, n, frac)? {
+                    if !pool
+                        .iter()
+                        .any(|p| p.layout == g.layout && p.frac_bits == g.frac_bits)
+                    {
+                        pool.push(g);
+                    }
+                }
+            }
+            n *= 2;
+        }
+    }
     if matches!(design.layout, L::Auto | L::LogRatio) {
         // The log layout's step does not trade against the fractional bits;
         // a few settings, the most the largest delay leaves among them.
@@ -714,6 +800,12 @@ fn shape(g: &Generated) -> String {
         Layout::Grid(gr) => format!(
             "{} x {} nodes, steps 2^{} x 2^{} codes",
             gr.rows, gr.cols, gr.vin_shift, gr.io_shift
+        ),
+        Layout::RecipRatio(r) => format!(
+            "{} nodes, q step 2^{}, {} reciprocals",
+            r.nodes,
+            r.step_shift,
+            g.entries.len() - usize::from(r.nodes)
         ),
     }
 }

@@ -209,9 +209,10 @@ fn c_header_matches_the_rust_lookup() {
     ) {
         return;
     }
-    // The demo (ratio layout), the held-out design, and the held-out design
-    // forced to the grid layout with a fixed fallback and to the log-spaced
-    // ratio layout (every C branch).
+    // The demo (log-uniform layout), the held-out design, and the held-out
+    // design forced to the grid layout with a fixed fallback, to the
+    // log-spaced and the uniform ratio layouts, and to the reciprocal-ratio
+    // layout (every C branch).
     let demo = Design::load(&repo().join("tables/winch_aux.toml")).unwrap();
     let grid_text = HELD_OUT
         .replace("name = \"held_out_boost\"", "name = \"held_out_grid\"")
@@ -233,8 +234,15 @@ fn c_header_matches_the_rust_lookup() {
             "max_error_ticks = 1.0",
             "max_error_ticks = 1.0\nlayout = \"log-ratio\"",
         );
+    let recip_text = HELD_OUT
+        .replace("name = \"held_out_boost\"", "name = \"held_out_recip\"")
+        .replace(
+            "max_error_ticks = 1.0",
+            "max_error_ticks = 1.0\nlayout = \"recip-ratio\"",
+        );
     let designs = [
         demo,
+        Design::parse(&recip_text, "recip.toml").unwrap(),
         Design::parse(&log_text, "log.toml").unwrap(),
         Design::parse(HELD_OUT, "held_out.toml").unwrap(),
         Design::parse(&grid_text, "grid.toml").unwrap(),

@@ -29,7 +29,7 @@ pub const LOG_OFFSET: u32 = 16 << 15;
 /// (see [`log2::log2_q15`]); `io` is already offset by the sensor zero.
 #[inline]
 #[must_use]
-pub fn log_ratio_index(vin: u32, io: u32) -> u32 {
+pub const fn log_ratio_index(vin: u32, io: u32) -> u32 {
     log2_q15(vin)
         .wrapping_add(LOG_OFFSET)
         .wrapping_sub(log2_q15(io))
@@ -150,6 +150,31 @@ pub struct LogUniformLayout {
     pub nodes: u16,
 }
 
+/// One dimension over the code ratio, like [`RatioLayout`], with the
+/// division replaced by a reciprocal table for cores without a divide
+/// instruction: after the `nodes` delay entries come one reciprocal per
+/// current code of the design range, `R[c - io.lo] = round(2^recip_shift
+/// / (c - io_zero))` (each at most 65535), and
+/// `q = (vin * R) >> post_shift` stands in for the quotient
+/// `(vin << (recip_shift - post_shift)) / (io - io_zero)`. Nodes sit at
+/// `q_lo + k * 2^step_shift`. The fastest layout on a Cortex-M0; its flash
+/// grows with the current range (two bytes per code).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+pub struct RecipRatioLayout {
+    /// The reciprocals hold `2^recip_shift / (io - io_zero)`.
+    pub recip_shift: u8,
+    /// Right shift of `vin * R`.
+    pub post_shift: u8,
+    /// Ratio at node 0.
+    pub q_lo: u32,
+    /// Node spacing is `2^step_shift` in q.
+    pub step_shift: u8,
+    /// Number of delay nodes (at least 2).
+    pub nodes: u16,
+}
+
 /// Two dimensions over the raw codes: node (r, c) at
 /// `vin = vin.lo + r * 2^vin_shift`, `io = io.lo + c * 2^io_shift`, stored
 /// row-major (`r * cols + c`).
@@ -181,6 +206,9 @@ pub enum Layout {
     LogUniform(LogUniformLayout),
     /// 2-D over the raw codes (no division).
     Grid(GridLayout),
+    /// 1-D over the code ratio, the division done by a reciprocal table
+    /// (no division, one multiplication).
+    RecipRatio(RecipRatioLayout),
 }
 
 /// What to command where ZVS is impossible (J < 1).
@@ -313,17 +341,192 @@ pub const fn log_index(q: u32, e_lo: u32, m: u32) -> (u32, u32, u32) {
 ///
 /// # Errors
 /// [`TableError::Layout`] when `vin << shift` overflows.
-pub fn ratio_bounds(s: &Sensing, shift: u8) -> Result<(u32, u32), TableError> {
-    if bits(u32::from(s.vin.hi)) + u32::from(shift) > 32 {
+pub const fn ratio_bounds(s: &Sensing, shift: u8) -> Result<(u32, u32), TableError> {
+    if bits(s.vin.hi as u32) + shift as u32 > 32 {
         return Err(TableError::Layout("vin << ratio_shift overflows 32 bits"));
     }
-    let q_min = (u32::from(s.vin.lo) << shift)
-        .checked_div(u32::from(s.io.hi.wrapping_sub(s.io_zero)))
-        .unwrap_or(0);
-    let q_max = (u32::from(s.vin.hi) << shift)
-        .checked_div(u32::from(s.io.lo.wrapping_sub(s.io_zero)))
-        .unwrap_or(u32::MAX);
+    let q_min =
+        match ((s.vin.lo as u32) << shift).checked_div(s.io.hi.wrapping_sub(s.io_zero) as u32) {
+            Some(q) => q,
+            None => 0,
+        };
+    let q_max =
+        match ((s.vin.hi as u32) << shift).checked_div(s.io.lo.wrapping_sub(s.io_zero) as u32) {
+            Some(q) => q,
+            None => u32::MAX,
+        };
     Ok((q_min, q_max))
+}
+
+/// The validation of [`DelayTable::new`], usable in `const` items.
+const fn check(
+    sensing: &Sensing,
+    layout: &Layout,
+    frac_bits: u8,
+    count: usize,
+) -> Result<(), TableError> {
+    let s = sensing;
+    if s.vin.is_empty() || s.io.is_empty() {
+        return Err(TableError::Layout("empty code range"));
+    }
+    if s.io.lo <= s.io_zero {
+        return Err(TableError::Layout(
+            "current range must lie above the sensor zero",
+        ));
+    }
+    if s.vin.lo == 0 {
+        return Err(TableError::Layout("voltage range must exclude code 0"));
+    }
+    let expected = match *layout {
+        Layout::Ratio(r) => {
+            if r.nodes < 2 || r.step_shift > 15 {
+                return Err(TableError::Layout(
+                    "ratio table needs 2+ nodes and step_shift <= 15",
+                ));
+            }
+            let (q_min, q_max) = match ratio_bounds(s, r.ratio_shift) {
+                Ok(b) => b,
+                Err(e) => return Err(e),
+            };
+            let span = ((r.nodes - 1) as u32) << r.step_shift;
+            if r.q_lo > q_min || (r.q_lo as u64) + (span as u64) < (q_max as u64) {
+                return Err(TableError::Layout(
+                    "ratio nodes do not cover the design range",
+                ));
+            }
+            // y = a*(2^s - f) + b*f <= 65535 * 2^s < 2^32; rounding adds < 2^(s+F).
+            if (r.step_shift as u32) + (frac_bits as u32) > 16 {
+                return Err(TableError::Layout(
+                    "step_shift + frac_bits must be at most 16",
+                ));
+            }
+            r.nodes as u32
+        }
+        Layout::LogRatio(r) => {
+            let m = r.mant_bits as u32;
+            if r.nodes < 2 || m > 12 {
+                return Err(TableError::Layout(
+                    "log-ratio table needs 2+ nodes and mant_bits <= 12",
+                ));
+            }
+            let (q_min, q_max) = match ratio_bounds(s, r.ratio_shift) {
+                Ok(b) => b,
+                Err(e) => return Err(e),
+            };
+            // Node 0 at or below q_min, whose octave holds 2^m nodes.
+            if q_min == 0 || bits(q_min) - 1 < (r.e_lo as u32) || (r.e_lo as u32) < m {
+                return Err(TableError::Layout(
+                    "log-ratio octaves do not start at the design range",
+                ));
+            }
+            let e_max = bits(q_max) - 1;
+            // y = a*(2^sh - f) + b*f <= 65535 * 2^sh and the rounding adds
+            // 2^(sh + F - 1) <= 2^(sh + 14): below 2^32 for sh = e - m <= 15.
+            if e_max.saturating_sub(m) > 15 {
+                return Err(TableError::Layout(
+                    "log-ratio octave step too coarse for 32 bits",
+                ));
+            }
+            let top = log_index(q_max, r.e_lo as u32, m).0;
+            if top.saturating_add(2) > (r.nodes as u32) {
+                return Err(TableError::Layout(
+                    "log-ratio nodes do not cover the design range",
+                ));
+            }
+            r.nodes as u32
+        }
+        Layout::LogUniform(r) => {
+            if r.nodes < 2 || r.step_shift > 15 || (r.step_shift as u32) + (frac_bits as u32) > 16 {
+                return Err(TableError::Layout(
+                    "log-uniform table needs 2+ nodes and step_shift + frac_bits <= 16",
+                ));
+            }
+            // log2_q15 is non-decreasing, so the corners bound lambda.
+            let l_min = log_ratio_index(s.vin.lo as u32, (s.io.hi - s.io_zero) as u32);
+            let l_max = log_ratio_index(s.vin.hi as u32, (s.io.lo - s.io_zero) as u32);
+            let span = ((r.nodes - 1) as u32) << r.step_shift;
+            if r.lambda_lo > l_min || (r.lambda_lo as u64) + (span as u64) < (l_max as u64) {
+                return Err(TableError::Layout(
+                    "log-uniform nodes do not cover the design range",
+                ));
+            }
+            r.nodes as u32
+        }
+        Layout::Grid(g) => {
+            if g.rows < 2 || g.cols < 2 {
+                return Err(TableError::Layout("grid needs 2+ rows and columns"));
+            }
+            // y <= 65535 * 2^(vs + is) < 2^32, plus rounding.
+            if (g.vin_shift as u32) + (g.io_shift as u32) + (frac_bits as u32) > 16 {
+                return Err(TableError::Layout(
+                    "vin_shift + io_shift + frac_bits must be at most 16",
+                ));
+            }
+            let cover_v = ((g.rows - 1) as u32) << g.vin_shift;
+            let cover_i = ((g.cols - 1) as u32) << g.io_shift;
+            if cover_v < ((s.vin.hi - s.vin.lo) as u32) || cover_i < ((s.io.hi - s.io.lo) as u32) {
+                return Err(TableError::Layout(
+                    "grid nodes do not cover the design range",
+                ));
+            }
+            (g.rows as u32) * (g.cols as u32)
+        }
+        Layout::RecipRatio(r) => {
+            // q = (vin * R) >> post_shift < 2^32 for 16-bit codes and entries;
+            // the interpolation bound is the ratio layout's.
+            if r.nodes < 2
+                || r.step_shift > 15
+                || (r.step_shift as u32) + (frac_bits as u32) > 16
+                || r.post_shift > 31
+                || r.recip_shift > 31
+            {
+                return Err(TableError::Layout(
+                    "reciprocal-ratio table needs 2+ nodes, step_shift + frac_bits <= 16 and shifts <= 31",
+                ));
+            }
+            (r.nodes as u32) + s.io.len()
+        }
+    };
+    if frac_bits > 15 {
+        return Err(TableError::Layout("frac_bits must be at most 15"));
+    }
+    let found = if count > u32::MAX as usize {
+        u32::MAX
+    } else {
+        count as u32
+    };
+    if found != expected {
+        return Err(TableError::EntryCount { expected, found });
+    }
+    Ok(())
+}
+
+impl DelayTable<&'static [u16]> {
+    /// [`DelayTable::new`] for entries in a `static`, in `const` context:
+    /// generated firmware sources build their table as a `const` item, so
+    /// validation runs at compile time and the interrupt's lookup sees
+    /// every layout parameter as a constant.
+    ///
+    /// # Errors
+    /// As [`DelayTable::new`].
+    pub const fn from_static(
+        sensing: Sensing,
+        layout: Layout,
+        frac_bits: u8,
+        fallback: Fallback,
+        entries: &'static [u16],
+    ) -> Result<Self, TableError> {
+        match check(&sensing, &layout, frac_bits, entries.len()) {
+            Ok(()) => Ok(Self {
+                sensing,
+                layout,
+                frac_bits,
+                fallback,
+                entries,
+            }),
+            Err(e) => Err(e),
+        }
+    }
 }
 
 impl<E: Entries> DelayTable<E> {
@@ -344,128 +547,16 @@ impl<E: Entries> DelayTable<E> {
         fallback: Fallback,
         entries: E,
     ) -> Result<Self, TableError> {
-        let s = &sensing;
-        if s.vin.is_empty() || s.io.is_empty() {
-            return Err(TableError::Layout("empty code range"));
+        match check(&sensing, &layout, frac_bits, entries.count()) {
+            Ok(()) => Ok(Self {
+                sensing,
+                layout,
+                frac_bits,
+                fallback,
+                entries,
+            }),
+            Err(e) => Err(e),
         }
-        if s.io.lo <= s.io_zero {
-            return Err(TableError::Layout(
-                "current range must lie above the sensor zero",
-            ));
-        }
-        if s.vin.lo == 0 {
-            return Err(TableError::Layout("voltage range must exclude code 0"));
-        }
-        let expected = match layout {
-            Layout::Ratio(r) => {
-                if r.nodes < 2 || r.step_shift > 15 {
-                    return Err(TableError::Layout(
-                        "ratio table needs 2+ nodes and step_shift <= 15",
-                    ));
-                }
-                let (q_min, q_max) = ratio_bounds(s, r.ratio_shift)?;
-                let span = u32::from(r.nodes - 1) << r.step_shift;
-                if r.q_lo > q_min || u64::from(r.q_lo) + u64::from(span) < u64::from(q_max) {
-                    return Err(TableError::Layout(
-                        "ratio nodes do not cover the design range",
-                    ));
-                }
-                // y = a*(2^s - f) + b*f <= 65535 * 2^s < 2^32; rounding adds < 2^(s+F).
-                if u32::from(r.step_shift) + u32::from(frac_bits) > 16 {
-                    return Err(TableError::Layout(
-                        "step_shift + frac_bits must be at most 16",
-                    ));
-                }
-                u32::from(r.nodes)
-            }
-            Layout::LogRatio(r) => {
-                let m = u32::from(r.mant_bits);
-                if r.nodes < 2 || m > 12 {
-                    return Err(TableError::Layout(
-                        "log-ratio table needs 2+ nodes and mant_bits <= 12",
-                    ));
-                }
-                let (q_min, q_max) = ratio_bounds(s, r.ratio_shift)?;
-                // Node 0 at or below q_min, whose octave holds 2^m nodes.
-                if q_min == 0 || bits(q_min) - 1 < u32::from(r.e_lo) || u32::from(r.e_lo) < m {
-                    return Err(TableError::Layout(
-                        "log-ratio octaves do not start at the design range",
-                    ));
-                }
-                let e_max = bits(q_max) - 1;
-                // y = a*(2^sh - f) + b*f <= 65535 * 2^sh and the rounding adds
-                // 2^(sh + F - 1) <= 2^(sh + 14): below 2^32 for sh = e - m <= 15.
-                if e_max - m > 15 {
-                    return Err(TableError::Layout(
-                        "log-ratio octave step too coarse for 32 bits",
-                    ));
-                }
-                let top = log_index(q_max, u32::from(r.e_lo), m).0;
-                if top.saturating_add(2) > u32::from(r.nodes) {
-                    return Err(TableError::Layout(
-                        "log-ratio nodes do not cover the design range",
-                    ));
-                }
-                u32::from(r.nodes)
-            }
-            Layout::LogUniform(r) => {
-                if r.nodes < 2
-                    || r.step_shift > 15
-                    || u32::from(r.step_shift) + u32::from(frac_bits) > 16
-                {
-                    return Err(TableError::Layout(
-                        "log-uniform table needs 2+ nodes and step_shift + frac_bits <= 16",
-                    ));
-                }
-                // log2_q15 is non-decreasing, so the corners bound lambda.
-                let l_min = log_ratio_index(u32::from(s.vin.lo), u32::from(s.io.hi - s.io_zero));
-                let l_max = log_ratio_index(u32::from(s.vin.hi), u32::from(s.io.lo - s.io_zero));
-                let span = u32::from(r.nodes - 1) << r.step_shift;
-                if r.lambda_lo > l_min
-                    || u64::from(r.lambda_lo) + u64::from(span) < u64::from(l_max)
-                {
-                    return Err(TableError::Layout(
-                        "log-uniform nodes do not cover the design range",
-                    ));
-                }
-                u32::from(r.nodes)
-            }
-            Layout::Grid(g) => {
-                if g.rows < 2 || g.cols < 2 {
-                    return Err(TableError::Layout("grid needs 2+ rows and columns"));
-                }
-                // y <= 65535 * 2^(vs + is) < 2^32, plus rounding.
-                if u32::from(g.vin_shift) + u32::from(g.io_shift) + u32::from(frac_bits) > 16 {
-                    return Err(TableError::Layout(
-                        "vin_shift + io_shift + frac_bits must be at most 16",
-                    ));
-                }
-                let cover_v = u32::from(g.rows - 1) << g.vin_shift;
-                let cover_i = u32::from(g.cols - 1) << g.io_shift;
-                if cover_v < u32::from(s.vin.hi - s.vin.lo)
-                    || cover_i < u32::from(s.io.hi - s.io.lo)
-                {
-                    return Err(TableError::Layout(
-                        "grid nodes do not cover the design range",
-                    ));
-                }
-                u32::from(g.rows) * u32::from(g.cols)
-            }
-        };
-        if frac_bits > 15 {
-            return Err(TableError::Layout("frac_bits must be at most 15"));
-        }
-        let found = u32::try_from(entries.count()).unwrap_or(u32::MAX);
-        if found != expected {
-            return Err(TableError::EntryCount { expected, found });
-        }
-        Ok(Self {
-            sensing,
-            layout,
-            frac_bits,
-            fallback,
-            entries,
-        })
     }
 
     /// The sensing description (ranges, zero, ZVS test).
@@ -558,6 +649,18 @@ impl<E: Entries> DelayTable<E> {
                     .wrapping_shl(u32::from(r.ratio_shift))
                     .checked_div(i)
                     .unwrap_or(u32::MAX);
+                self.uniform(q.saturating_sub(r.q_lo), r.step_shift, r.nodes)
+            }
+            Layout::RecipRatio(r) => {
+                // The clamped current code's offset into the reciprocals.
+                let k = i
+                    .wrapping_add(u32::from(s.io_zero))
+                    .wrapping_sub(u32::from(s.io.lo));
+                let recip = u32::from(
+                    self.entries
+                        .at(usize::from(r.nodes).wrapping_add(k as usize)),
+                );
+                let q = v.wrapping_mul(recip).wrapping_shr(u32::from(r.post_shift));
                 self.uniform(q.saturating_sub(r.q_lo), r.step_shift, r.nodes)
             }
             Layout::LogUniform(r) => {

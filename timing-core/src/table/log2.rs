@@ -27,7 +27,7 @@ pub const LOG2_Q15_MAX_ERROR: f64 = 8.0e-5;
 /// division; never panics.
 #[inline]
 #[must_use]
-pub fn log2_q15(c: u32) -> u32 {
+pub const fn log2_q15(c: u32) -> u32 {
     if c == 0 {
         return 0;
     }
@@ -74,7 +74,12 @@ pub const fn floor_log2(mut t: u32) -> u32 {
     e
 }
 
+/// Entry `k` of [`LOG2_Q15`], 2^15 past its end (k <= 64 here: the
+/// mantissa's top six bits).
 #[inline]
-fn table_at(k: usize) -> u32 {
-    LOG2_Q15.get(k).map_or(32768, |&v| u32::from(v))
+const fn table_at(k: usize) -> u32 {
+    match LOG2_Q15.split_at_checked(k) {
+        Some((_, [v, ..])) => *v as u32,
+        _ => 32768,
+    }
 }
