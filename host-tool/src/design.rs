@@ -294,6 +294,26 @@ impl Design {
         CellPoint::from_converter(self.topology, vin, self.vout_v.unwrap_or(f64::NAN), io)
     }
 
+    /// The design as timing-core's closed-form methods take it.
+    ///
+    /// # Errors
+    /// timing-core's error (not expected for a validated design).
+    pub fn closed_form(&self) -> Result<timing_core::closed_form::ClosedForm, timing_core::Error> {
+        timing_core::closed_form::ClosedForm::new(
+            &self.tank,
+            &self.timer,
+            self.position,
+            timing_core::closed_form::CodeScaling {
+                vin: self.vin_codes,
+                io: self.io_codes,
+                io_zero: self.io_zero_code,
+                vin_volts_per_code: self.vin_volts_per_code,
+                io_amps_per_code: self.io_amps_per_code,
+            },
+            self.fallback,
+        )
+    }
+
     /// Input voltage of code `c`, volt.
     #[must_use]
     pub fn vin_of(&self, c: u16) -> f64 {

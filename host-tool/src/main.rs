@@ -53,12 +53,28 @@ struct TableArgs {
 struct VerifyArgs {
     /// Design file (TOML).
     design: std::path::PathBuf,
-    /// Table blob written by `table` (<name>.bin).
+    /// Table blob written by `table` (<name>.bin); needed for `--method table`.
     #[arg(long)]
-    table: std::path::PathBuf,
+    table: Option<std::path::PathBuf>,
+    /// The runtime method to check: the table lookup or one of timing-core's
+    /// closed forms (evaluated exactly as the firmware does).
+    #[arg(long, value_enum, default_value = "table")]
+    method: MethodArg,
     /// Print one JSON object instead of the summary.
     #[arg(long)]
     json: bool,
+}
+
+#[derive(Clone, Copy, PartialEq, Eq, ValueEnum)]
+enum MethodArg {
+    /// The flash table (`--table`).
+    Table,
+    /// Closed form in f32 with timing-core's fast approximations.
+    ClosedFormF32,
+    /// Closed form in 32-bit integers (no FPU, no divider).
+    FixedPoint,
+    /// Closed form in f32 with libm (baseline).
+    LibmF32,
 }
 
 #[derive(Clone, Copy, ValueEnum)]
@@ -186,9 +202,17 @@ fn run_point(args: &PointArgs) -> anyhow::Result<()> {
 
 fn print_verification(v: &host_tool::verify::VerifyReport, clock_hz: f64, w0_rad_s: f64) {
     println!(
-        "verified {} code pairs: max error {:.3} ticks at vin code {} ({:.3} V), io code {} ({:.4} A); RMS {:.3} ticks",
-        v.points_checked, v.max_error_ticks, v.worst_vin_code, v.worst_vin_v, v.worst_io_code, v.worst_io_a, v.rms_error_ticks
+        "method {}: verified {} code pairs: max error {:.3} ticks at vin code {} ({:.3} V), io code {} ({:.4} A); RMS {:.3} ticks",
+        v.method, v.points_checked, v.max_error_ticks, v.worst_vin_code, v.worst_vin_v, v.worst_io_code, v.worst_io_a, v.rms_error_ticks
     );
+    if let (Some(e), Some((cv, ci))) = (
+        v.max_approximation_error_ticks,
+        v.max_approximation_error_at,
+    ) {
+        println!(
+            "approximation error before rounding to whole ticks: at most {e:.4} ticks (vin code {cv}, io code {ci})"
+        );
+    }
     println!(
         "ZVS pairs: {}; commanded turn-ons outside the true window: {} ({} early, {} late); windows narrower than a tick: {}",
         v.zvs_points, v.outside_window, v.early, v.late, v.narrower_than_a_tick
@@ -264,11 +288,34 @@ fn run_table(args: &TableArgs) -> anyhow::Result<()> {
 
 fn run_verify(args: &VerifyArgs) -> anyhow::Result<ExitCode> {
     use host_tool::design::Design;
+    use host_tool::verify::DelayMethod;
     let design = Design::load(&args.design)?;
-    let blob = std::fs::read(&args.table)
-        .map_err(|e| anyhow::anyhow!("cannot read {}: {e}", args.table.display()))?;
-    let (_, table) = timing_core::blob::open(&blob, Some(design.hash))
-        .map_err(|e| anyhow::anyhow!("{}: integrity check failed: {e}", args.table.display()))?;
+    let cf = design.closed_form()?;
+    let blob = match (&args.table, args.method) {
+        (Some(path), MethodArg::Table) => std::fs::read(path)
+            .map_err(|e| anyhow::anyhow!("cannot read {}: {e}", path.display()))?,
+        (None, MethodArg::Table) => {
+            anyhow::bail!("--method table needs --table <name>.bin (written by `zvs-timing table`)")
+        }
+        _ => Vec::new(),
+    };
+    let method: Box<dyn DelayMethod + '_> = match args.method {
+        MethodArg::Table => {
+            let (_, table) = timing_core::blob::open(&blob, Some(design.hash)).map_err(|e| {
+                anyhow::anyhow!(
+                    "{}: integrity check failed: {e}",
+                    args.table
+                        .as_deref()
+                        .unwrap_or(std::path::Path::new(""))
+                        .display()
+                )
+            })?;
+            Box::new(table)
+        }
+        MethodArg::ClosedFormF32 => Box::new(cf.fast_f32()?),
+        MethodArg::FixedPoint => Box::new(cf.fixed_point()?),
+        MethodArg::LibmF32 => Box::new(cf.libm_f32()?),
+    };
     let total = u64::from(design.vin_codes.len());
     let bar = indicatif::ProgressBar::new(total);
     bar.set_style(
@@ -286,7 +333,7 @@ fn run_verify(args: &VerifyArgs) -> anyhow::Result<ExitCode> {
         }
         bar.set_position((f * total as f64) as u64);
     };
-    let v = host_tool::verify::verify(&design, &table, Some(&mut tick));
+    let v = host_tool::verify::verify(&design, method.as_ref(), Some(&mut tick));
     bar.finish_and_clear();
     let ok = v.max_error_ticks <= design.max_error_ticks && v.model_errors == 0;
     if args.json {
@@ -306,8 +353,8 @@ fn run_verify(args: &VerifyArgs) -> anyhow::Result<ExitCode> {
         Ok(ExitCode::SUCCESS)
     } else {
         eprintln!(
-            "zvs-timing: error: table error {:.3} ticks exceeds max_error_ticks = {}",
-            v.max_error_ticks, design.max_error_ticks
+            "zvs-timing: error: {} error {:.3} ticks exceeds max_error_ticks = {}",
+            v.method, v.max_error_ticks, design.max_error_ticks
         );
         Ok(ExitCode::from(1))
     }

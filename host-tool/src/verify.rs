@@ -1,18 +1,80 @@
-//! Exhaustive verification: the table lookup (timing-core's, the code the
-//! firmware runs) at every ADC code pair of the design range against the
-//! exact f64 model.
+//! Exhaustive verification: a runtime method (timing-core's table lookup or
+//! one of its closed forms, the code the firmware runs) at every ADC code
+//! pair of the design range against the exact f64 model. Rows of voltage
+//! codes run in parallel on every core; the result does not depend on the
+//! number of threads (rows are merged in order).
+
+use std::sync::atomic::{AtomicU32, Ordering};
 
 use serde::Serialize;
+use timing_core::closed_form::{FastF32, FixedPoint, LibmF32};
 use timing_core::table::{DelayTable, Entries};
 use timing_core::AdcCode;
 
 use crate::design::Design;
 use crate::generate::ExactModel;
 
+/// A runtime delay method: what the interrupt would command at a code pair.
+pub trait DelayMethod: Sync {
+    /// Method name as the CLI and the firmware print it.
+    fn name(&self) -> &'static str;
+    /// Commanded ticks, and the delay before rounding (ticks) for methods
+    /// that compute one (the closed forms).
+    fn eval(&self, vin: u16, io: u16) -> (u32, Option<f64>);
+}
+
+impl<E: Entries + Sync> DelayMethod for DelayTable<E> {
+    fn name(&self) -> &'static str {
+        "table"
+    }
+    fn eval(&self, vin: u16, io: u16) -> (u32, Option<f64>) {
+        (
+            self.delay(AdcCode::new(vin), AdcCode::new(io)).ticks.get(),
+            None,
+        )
+    }
+}
+
+impl DelayMethod for FastF32 {
+    fn name(&self) -> &'static str {
+        "closed-form-f32"
+    }
+    fn eval(&self, vin: u16, io: u16) -> (u32, Option<f64>) {
+        let (v, i) = (AdcCode::new(vin), AdcCode::new(io));
+        let (raw, _) = self.raw_ticks(v, i);
+        (self.delay(v, i).ticks.get(), Some(f64::from(raw)))
+    }
+}
+
+impl DelayMethod for FixedPoint {
+    fn name(&self) -> &'static str {
+        "fixed-point"
+    }
+    fn eval(&self, vin: u16, io: u16) -> (u32, Option<f64>) {
+        let (v, i) = (AdcCode::new(vin), AdcCode::new(io));
+        let (raw, _) = self.raw_ticks_q8(v, i);
+        (self.delay(v, i).ticks.get(), Some(f64::from(raw) / 256.0))
+    }
+}
+
+impl DelayMethod for LibmF32 {
+    fn name(&self) -> &'static str {
+        "libm-f32"
+    }
+    fn eval(&self, vin: u16, io: u16) -> (u32, Option<f64>) {
+        let (v, i) = (AdcCode::new(vin), AdcCode::new(io));
+        let (raw, _) = self.raw_ticks(v, i);
+        (self.delay(v, i).ticks.get(), Some(f64::from(raw)))
+    }
+}
+
 /// What verification found.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct VerifyReport {
-    /// Worst |table - exact| over all pairs, ticks.
+    /// The method checked (`table`, `closed-form-f32`, `fixed-point`, `libm-f32`).
+    pub method: &'static str,
+    /// Worst |commanded - exact| over all pairs, ticks (includes the
+    /// rounding to whole ticks).
     pub max_error_ticks: f64,
     /// RMS error over all pairs, ticks.
     pub rms_error_ticks: f64,
@@ -24,6 +86,13 @@ pub struct VerifyReport {
     pub worst_vin_v: f64,
     /// Output current of the worst pair, ampere.
     pub worst_io_a: f64,
+    /// Worst |delay before rounding - exact| over the pairs where the
+    /// design's fallback does not override it, ticks: the approximation
+    /// error of a closed-form method (`None` for tables, which hold whole
+    /// entries).
+    pub max_approximation_error_ticks: Option<f64>,
+    /// Voltage and current codes of that worst approximation error.
+    pub max_approximation_error_at: Option<(u16, u16)>,
     /// Code pairs checked.
     pub points_checked: u64,
     /// Pairs where ZVS is possible.
@@ -43,33 +112,159 @@ pub struct VerifyReport {
     /// window (`None` when none did): how far above the ZVS boundary misses
     /// reach.
     pub outside_window_max_load: Option<f64>,
-    /// Largest delay the table commands, ticks (must fit the timer counter).
+    /// Largest delay the method commands, ticks (must fit the timer counter).
     pub max_commanded_ticks: u32,
     /// Voltage and current codes where it is commanded.
     pub max_commanded_at: (u16, u16),
     /// Pairs the model refused (should be 0).
     pub model_errors: u64,
+    /// Threads the check ran on.
+    pub threads: usize,
 }
 
-/// Check `table` against the exact model of `design` at every code pair in
-/// the design range; `progress` is called with the fraction done (0..1)
-/// after each voltage code.
-pub fn verify<E: Entries>(
+/// One row of voltage codes.
+#[derive(Debug, Clone, Default)]
+struct Row {
+    max_err: f64,
+    worst_ci: u16,
+    sum_sq: f64,
+    approx: Option<(f64, u16)>,
+    points: u64,
+    zvs: u64,
+    early: u64,
+    late: u64,
+    narrow: u64,
+    min_margin: Option<f64>,
+    miss_load: Option<f64>,
+    max_cmd: u32,
+    max_cmd_ci: u16,
+    model_errors: u64,
+}
+
+fn check_row(design: &Design, model: &ExactModel<'_>, m: &dyn DelayMethod, cv: u16) -> Row {
+    let clock = design.timer.clock_hz();
+    let lead = design.timer.lead_s();
+    let z0 = design.tank.z0_ohm();
+    let i = design.io_codes;
+    let mut r = Row {
+        worst_ci: i.lo,
+        max_cmd_ci: i.lo,
+        ..Row::default()
+    };
+    for ci in i.lo..=i.hi {
+        r.points += 1;
+        let Ok(p) = model.at_codes(cv, ci) else {
+            r.model_errors += 1;
+            continue;
+        };
+        let (got, raw) = m.eval(cv, ci);
+        if got > r.max_cmd {
+            r.max_cmd = got;
+            r.max_cmd_ci = ci;
+        }
+        let err = (f64::from(got) - p.ticks).abs();
+        r.sum_sq += err * err;
+        if err > r.max_err {
+            r.max_err = err;
+            r.worst_ci = ci;
+        }
+        // The approximation error where the method's own delay is commanded
+        // (everywhere with the valley fallback; inside the ZVS region with a
+        // fixed one).
+        let fixed = matches!(design.fallback, timing_core::table::Fallback::Fixed(_));
+        if let Some(raw) = raw {
+            if !fixed || p.window.is_some() {
+                let e = (raw - p.table_ticks).abs();
+                if r.approx.is_none_or(|(w, _)| e > w) {
+                    r.approx = Some((e, ci));
+                }
+            }
+        }
+        if let Some(w) = p.window {
+            r.zvs += 1;
+            if w.width_s() * clock < 1.0 {
+                r.narrow += 1;
+            }
+            let on = f64::from(got) / clock + lead;
+            if on < w.open_s {
+                r.early += 1;
+            } else if on > w.close_s {
+                r.late += 1;
+            }
+            if on < w.open_s || on > w.close_s {
+                // J = Io*Z0/Vin for every cell.
+                let j = design.io_of(ci) * z0 / design.vin_of(cv);
+                r.miss_load = Some(r.miss_load.map_or(j, |x: f64| x.max(j)));
+            } else {
+                let mg = (on - w.open_s).min(w.close_s - on);
+                r.min_margin = Some(r.min_margin.map_or(mg, |x: f64| x.min(mg)));
+            }
+        }
+    }
+    r
+}
+
+/// Check `method` against the exact model of `design` at every code pair
+/// in the design range, on all cores; `progress` is called with the
+/// fraction done (0..1) now and then.
+pub fn verify(
     design: &Design,
-    table: &DelayTable<E>,
+    method: &dyn DelayMethod,
     mut progress: Option<&mut dyn FnMut(f64)>,
 ) -> VerifyReport {
     let model = ExactModel::new(design);
-    let clock = design.timer.clock_hz();
-    let lead = design.timer.lead_s();
-    let (v, i) = (design.vin_codes, design.io_codes);
+    let v = design.vin_codes;
+    let n_rows = v.len() as usize;
+    let threads = std::thread::available_parallelism()
+        .map_or(1, std::num::NonZero::get)
+        .clamp(1, 16)
+        .min(n_rows.max(1));
+    let next = AtomicU32::new(0);
+    let done = AtomicU32::new(0);
+    let mut rows: Vec<Row> = vec![Row::default(); n_rows];
+    std::thread::scope(|s| {
+        let handles: Vec<_> = (0..threads)
+            .map(|_| {
+                s.spawn(|| {
+                    let mut mine = Vec::new();
+                    loop {
+                        let k = next.fetch_add(1, Ordering::Relaxed);
+                        if k as usize >= n_rows {
+                            break;
+                        }
+                        mine.push((k, check_row(design, &model, method, v.lo + k as u16)));
+                        done.fetch_add(1, Ordering::Relaxed);
+                    }
+                    mine
+                })
+            })
+            .collect();
+        if let Some(f) = progress.as_mut() {
+            while handles.iter().any(|h| !h.is_finished()) {
+                f(f64::from(done.load(Ordering::Relaxed)) / n_rows.max(1) as f64);
+                std::thread::sleep(std::time::Duration::from_millis(50));
+            }
+            f(1.0);
+        }
+        for h in handles {
+            if let Ok(mine) = h.join() {
+                for (k, row) in mine {
+                    rows[k as usize] = row;
+                }
+            }
+        }
+    });
+    let i = design.io_codes;
     let mut r = VerifyReport {
+        method: method.name(),
         max_error_ticks: 0.0,
         rms_error_ticks: 0.0,
         worst_vin_code: v.lo,
         worst_io_code: i.lo,
         worst_vin_v: 0.0,
         worst_io_a: 0.0,
+        max_approximation_error_ticks: None,
+        max_approximation_error_at: None,
         points_checked: 0,
         zvs_points: 0,
         outside_window: 0,
@@ -81,53 +276,38 @@ pub fn verify<E: Entries>(
         max_commanded_ticks: 0,
         max_commanded_at: (v.lo, i.lo),
         model_errors: 0,
+        threads,
     };
-    let z0 = design.tank.z0_ohm();
     let mut sum_sq = 0.0f64;
-    for cv in v.lo..=v.hi {
-        for ci in i.lo..=i.hi {
-            r.points_checked += 1;
-            let Ok(p) = model.at_codes(cv, ci) else {
-                r.model_errors += 1;
-                continue;
-            };
-            let got = table.delay(AdcCode::new(cv), AdcCode::new(ci)).ticks.get();
-            if got > r.max_commanded_ticks {
-                r.max_commanded_ticks = got;
-                r.max_commanded_at = (cv, ci);
-            }
-            let err = (f64::from(got) - p.ticks).abs();
-            sum_sq += err * err;
-            if err > r.max_error_ticks {
-                r.max_error_ticks = err;
-                r.worst_vin_code = cv;
-                r.worst_io_code = ci;
-            }
-            if let Some(w) = p.window {
-                r.zvs_points += 1;
-                if w.width_s() * clock < 1.0 {
-                    r.narrower_than_a_tick += 1;
-                }
-                let on = f64::from(got) / clock + lead;
-                let missed = on < w.open_s || on > w.close_s;
-                if on < w.open_s {
-                    r.early += 1;
-                } else if on > w.close_s {
-                    r.late += 1;
-                }
-                if missed {
-                    // J = Io*Z0/Vin for every cell.
-                    let j = design.io_of(ci) * z0 / design.vin_of(cv);
-                    r.outside_window_max_load =
-                        Some(r.outside_window_max_load.map_or(j, |x: f64| x.max(j)));
-                } else {
-                    let m = (on - w.open_s).min(w.close_s - on);
-                    r.min_margin_s = Some(r.min_margin_s.map_or(m, |x: f64| x.min(m)));
-                }
+    for (k, row) in rows.iter().enumerate() {
+        let cv = v.lo + k as u16;
+        r.points_checked += row.points;
+        sum_sq += row.sum_sq;
+        if row.max_err > r.max_error_ticks {
+            r.max_error_ticks = row.max_err;
+            r.worst_vin_code = cv;
+            r.worst_io_code = row.worst_ci;
+        }
+        if let Some((e, ci)) = row.approx {
+            if r.max_approximation_error_ticks.is_none_or(|w| e > w) {
+                r.max_approximation_error_ticks = Some(e);
+                r.max_approximation_error_at = Some((cv, ci));
             }
         }
-        if let Some(f) = progress.as_mut() {
-            f(f64::from(cv - v.lo + 1) / f64::from(v.len()));
+        if row.max_cmd > r.max_commanded_ticks {
+            r.max_commanded_ticks = row.max_cmd;
+            r.max_commanded_at = (cv, row.max_cmd_ci);
+        }
+        r.zvs_points += row.zvs;
+        r.early += row.early;
+        r.late += row.late;
+        r.narrower_than_a_tick += row.narrow;
+        r.model_errors += row.model_errors;
+        if let Some(m) = row.min_margin {
+            r.min_margin_s = Some(r.min_margin_s.map_or(m, |x| x.min(m)));
+        }
+        if let Some(j) = row.miss_load {
+            r.outside_window_max_load = Some(r.outside_window_max_load.map_or(j, |x| x.max(j)));
         }
     }
     r.outside_window = r.early + r.late;

@@ -140,7 +140,8 @@ fn table_and_verify_commands() {
     let j: serde_json::Value = serde_json::from_str(&stdout).unwrap();
     assert!(j["table_bytes"].as_u64().unwrap() <= 2048);
     assert!(j["max_error_ticks"].as_f64().unwrap() <= 1.0);
-    assert!(["ratio", "log-ratio", "log-uniform", "grid", "recip-ratio"].contains(&j["layout"].as_str().unwrap()));
+    assert!(["ratio", "log-ratio", "log-uniform", "grid", "recip-ratio"]
+        .contains(&j["layout"].as_str().unwrap()));
     let alts = j["alternatives"].as_array().unwrap();
     assert!(
         alts.iter().any(|a| a["layout"] == "grid"),

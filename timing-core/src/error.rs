@@ -49,6 +49,14 @@ pub enum Quantity {
     SwitchingFrequency,
     /// Conversion ratio M = Vout/Vin, dimensionless.
     ConversionRatio,
+    /// ADC scale of the input-voltage channel, volt per code.
+    VoltsPerCode,
+    /// ADC scale of the output-current channel, ampere per code.
+    AmpsPerCode,
+    /// A raw ADC code (a range bound or the current sensor's zero).
+    AdcCode,
+    /// A coefficient of a closed-form method (see `closed_form`).
+    MethodCoefficient,
 }
 
 impl Quantity {
@@ -75,6 +83,10 @@ impl Quantity {
             Quantity::DelayTicks => "turn-on delay (timer ticks)",
             Quantity::SwitchingFrequency => "switching frequency fs (Hz)",
             Quantity::ConversionRatio => "conversion ratio M = Vout/Vin",
+            Quantity::VoltsPerCode => "input-voltage ADC scale (V per code)",
+            Quantity::AmpsPerCode => "output-current ADC scale (A per code)",
+            Quantity::AdcCode => "ADC code",
+            Quantity::MethodCoefficient => "closed-form method coefficient",
         }
     }
 }

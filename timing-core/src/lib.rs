@@ -60,9 +60,11 @@
 #![warn(missing_docs)]
 
 mod adc;
+pub mod approx;
 #[cfg(feature = "blob")]
 pub mod blob;
 mod cell;
+pub mod closed_form;
 mod conversion;
 mod error;
 pub mod normalized;

@@ -1,0 +1,310 @@
+//! The closed-form turn-on delay evaluated from the ADC codes on the
+//! interrupt path, without a table, three ways from one validated
+//! [`ClosedForm`]:
+//!
+//! - [`FastF32`]: f32 with this crate's own approximations
+//!   ([`approx`](crate::approx)): adds, multiplies and two divides, for cores
+//!   with a single-precision FPU;
+//! - [`FixedPoint`]: 32-bit integer arithmetic only, no division and no
+//!   leading-zero count, for cores without an FPU or a divider (ARMv6-M);
+//! - [`LibmF32`]: the straightforward f32 formula with `libm`'s `asinf` and
+//!   `sqrtf`, the baseline the other two are measured against.
+//!
+//! With `x = 1/J = kx * vin_code / (io_code - io_zero)`, where
+//! `kx = (V per code) / ((A per code) * Z0)` (J = Io*Z0/Vin for every cell),
+//! the turn-on angle `w0 * t` from gate turn-off (DESIGN.md section 2,
+//! [`normalized::turn_on_angle`](crate::normalized::turn_on_angle)) is
+//!
+//! - ZVS (`x <= 1`): `x + pi + asin(x) + p*sqrt(1 - x^2)/x`, written as
+//!   `x + 3pi/2 + sqrt(1 - x) * (p*J*sqrt(1 + x) - P(x))` with
+//!   `P(x) = (pi/2 - asin x) / sqrt(1 - x)`;
+//! - valley (`x > 1`): `x + 3pi/2`;
+//!
+//! the two branches meet at `x = 1`. The delay in ticks is the angle times
+//! `f_clk / w0`, less the driver's net lead, rounded to the nearest tick and
+//! clamped to the counter. Codes outside the design range clamp to its
+//! edge, as in the tables.
+//!
+//! Accuracy: each method's worst error against the f64 model is proven on
+//! the host by evaluating the method (bit-identical IEEE f32 or integer
+//! arithmetic) at every code pair of the design range: `zvs-timing verify
+//! DESIGN.toml --method <name>`.
+
+pub mod fast_f32;
+pub mod fixed_point;
+pub mod libm_f32;
+
+pub use fast_f32::FastF32;
+pub use fixed_point::{FixedPoint, FixedPointParts};
+pub use libm_f32::LibmF32;
+
+use crate::error::{positive, Error, Quantity};
+use crate::table::Fallback;
+use crate::{CodeRange, Tank, Timer, WindowPosition};
+
+/// How ADC codes map to volts and amperes, with the design's code ranges.
+#[derive(Debug, Clone, Copy, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[cfg_attr(feature = "serde", derive(serde::Serialize))]
+pub struct CodeScaling {
+    /// Input-voltage codes of the design range (others clamp to its edge).
+    pub vin: CodeRange,
+    /// Output-current codes of the design range (others clamp to its edge).
+    pub io: CodeRange,
+    /// Current code that reads 0 A; `io.lo` must exceed it.
+    pub io_zero: u16,
+    /// Input voltage per code, V.
+    pub vin_volts_per_code: f64,
+    /// Output current per code, A.
+    pub io_amps_per_code: f64,
+}
+
+/// The coefficients shared by the f32 methods, in the units the interrupt
+/// needs. Built by [`ClosedForm::f32_parts`]; generated firmware sources
+/// write them out as literals for `const` construction.
+#[derive(Debug, Clone, Copy, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[cfg_attr(feature = "serde", derive(serde::Serialize))]
+pub struct F32Parts {
+    /// Input-voltage code range.
+    pub vin: CodeRange,
+    /// Output-current code range.
+    pub io: CodeRange,
+    /// Current code that reads 0 A.
+    pub io_zero: u16,
+    /// `x = kx * vin_code / (io_code - io_zero)`, dimensionless per code ratio.
+    pub kx: f32,
+    /// Timer ticks per radian of the resonance, `f_clk / w0`.
+    pub ticks_per_rad: f32,
+    /// The driver's net turn-on lead, ticks.
+    pub lead_ticks: f32,
+    /// Aim point in the ZVS window, 0..=1.
+    pub position: f32,
+    /// Largest count the timer holds.
+    pub max_ticks: u32,
+    /// What to command where ZVS is impossible.
+    pub fallback: Fallback,
+}
+
+/// A design validated for the closed-form methods.
+#[derive(Debug, Clone, Copy, PartialEq)]
+#[cfg_attr(feature = "serde", derive(serde::Serialize))]
+pub struct ClosedForm {
+    scaling: CodeScaling,
+    kx: f64,
+    ticks_per_rad: f64,
+    lead_ticks: f64,
+    position: f64,
+    max_ticks: u32,
+    fallback: Fallback,
+}
+
+impl ClosedForm {
+    /// Validate the code scaling against the tank, timer and aim point.
+    ///
+    /// # Errors
+    /// [`Error::OutOfRange`] naming [`Quantity::AdcCode`] for an empty code
+    /// range, a current range not above the sensor zero, or a voltage range
+    /// starting at code 0; [`Error::NotPositive`]/[`Error::NotFinite`] for
+    /// the ADC scales; [`Error::Overflow`] when the derived coefficients do
+    /// not fit.
+    ///
+    /// ```
+    /// # fn main() -> Result<(), timing_core::Error> {
+    /// use timing_core::closed_form::{ClosedForm, CodeScaling};
+    /// use timing_core::table::Fallback;
+    /// use timing_core::{AdcCode, CodeRange, Tank, Timer, WindowPosition};
+    /// let scaling = CodeScaling {
+    ///     vin: CodeRange { lo: 2237, hi: 3726 }, io: CodeRange { lo: 205, hi: 2049 },
+    ///     io_zero: 0, vin_volts_per_code: 0.0161, io_amps_per_code: 0.00488,
+    /// };
+    /// let cf = ClosedForm::new(
+    ///     &Tank::new(1.0e-6, 6.8e-9)?, &Timer::new(170.0e6, 16, 25.0e-9, 0.0)?,
+    ///     WindowPosition::new(0.25)?, scaling, Fallback::Valley,
+    /// )?;
+    /// let fast = cf.fast_f32()?;
+    /// let d = fast.delay(AdcCode::new(2981), AdcCode::new(1229)); // 48 V, 6 A
+    /// assert!(d.zvs && (60..90).contains(&d.ticks.get()));
+    /// # Ok(()) }
+    /// ```
+    pub fn new(
+        tank: &Tank<f64>,
+        timer: &Timer<f64>,
+        position: WindowPosition<f64>,
+        scaling: CodeScaling,
+        fallback: Fallback,
+    ) -> Result<Self, Error> {
+        let s = &scaling;
+        let code_err = |value: u16, min: u16, max: u16| Error::OutOfRange {
+            quantity: Quantity::AdcCode,
+            value: f64::from(value),
+            min: f64::from(min),
+            max: f64::from(max),
+        };
+        if s.vin.is_empty() {
+            return Err(code_err(s.vin.lo, 0, s.vin.hi));
+        }
+        if s.io.is_empty() {
+            return Err(code_err(s.io.lo, 0, s.io.hi));
+        }
+        if s.vin.lo == 0 {
+            return Err(code_err(0, 1, u16::MAX));
+        }
+        if s.io.lo <= s.io_zero {
+            return Err(code_err(s.io.lo, s.io_zero.saturating_add(1), u16::MAX));
+        }
+        let kv = positive(Quantity::VoltsPerCode, s.vin_volts_per_code)?;
+        let ki = positive(Quantity::AmpsPerCode, s.io_amps_per_code)?;
+        let kx = crate::error::derived(Quantity::MethodCoefficient, kv / (ki * tank.z0_ohm()))?;
+        let clock = timer.clock_hz();
+        let ticks_per_rad =
+            crate::error::derived(Quantity::MethodCoefficient, clock / tank.w0_rad_s())?;
+        Ok(Self {
+            scaling,
+            kx,
+            ticks_per_rad,
+            lead_ticks: timer.lead_s() * clock,
+            position: position.get(),
+            max_ticks: timer.max_ticks().get(),
+            fallback,
+        })
+    }
+
+    /// The code scaling.
+    #[must_use]
+    pub fn scaling(&self) -> &CodeScaling {
+        &self.scaling
+    }
+
+    /// `kx` of `x = 1/J = kx * vin_code / (io_code - io_zero)`.
+    #[must_use]
+    pub fn kx(&self) -> f64 {
+        self.kx
+    }
+
+    /// Timer ticks per radian of the resonance, `f_clk / w0`.
+    #[must_use]
+    pub fn ticks_per_rad(&self) -> f64 {
+        self.ticks_per_rad
+    }
+
+    /// Smallest and largest `x = 1/J` over the design range.
+    #[must_use]
+    pub fn x_range(&self) -> (f64, f64) {
+        let s = &self.scaling;
+        let i = |c: u16| f64::from(c - s.io_zero);
+        (
+            self.kx * f64::from(s.vin.lo) / i(s.io.hi),
+            self.kx * f64::from(s.vin.hi) / i(s.io.lo),
+        )
+    }
+
+    /// The coefficients of the f32 methods.
+    #[must_use]
+    pub fn f32_parts(&self) -> F32Parts {
+        F32Parts {
+            vin: self.scaling.vin,
+            io: self.scaling.io,
+            io_zero: self.scaling.io_zero,
+            kx: self.kx as f32,
+            ticks_per_rad: self.ticks_per_rad as f32,
+            lead_ticks: self.lead_ticks as f32,
+            position: self.position as f32,
+            max_ticks: self.max_ticks,
+            fallback: self.fallback,
+        }
+    }
+
+    /// The f32 method with fast approximations.
+    ///
+    /// # Errors
+    /// As [`FastF32::from_parts`].
+    pub fn fast_f32(&self) -> Result<FastF32, Error> {
+        FastF32::from_parts(self.f32_parts())
+    }
+
+    /// The libm f32 baseline.
+    ///
+    /// # Errors
+    /// As [`LibmF32::from_parts`].
+    pub fn libm_f32(&self) -> Result<LibmF32, Error> {
+        LibmF32::from_parts(self.f32_parts())
+    }
+
+    /// The integer method.
+    ///
+    /// # Errors
+    /// As [`FixedPoint::from_parts`], and [`Error::OutOfRange`] naming
+    /// [`Quantity::MethodCoefficient`] when a coefficient does not fit its
+    /// fixed-point format.
+    pub fn fixed_point(&self) -> Result<FixedPoint, Error> {
+        FixedPoint::from_parts(fixed_point::parts(self)?)
+    }
+
+    pub(crate) fn lead_ticks(&self) -> f64 {
+        self.lead_ticks
+    }
+
+    pub(crate) fn position(&self) -> f64 {
+        self.position
+    }
+
+    pub(crate) fn max_ticks(&self) -> u32 {
+        self.max_ticks
+    }
+
+    pub(crate) fn fallback(&self) -> Fallback {
+        self.fallback
+    }
+}
+
+/// Check f32 parts (shared by both f32 methods).
+const fn bad(value: f32) -> Error {
+    Error::OutOfRange {
+        quantity: Quantity::MethodCoefficient,
+        value: value as f64,
+        min: 0.0,
+        max: f32::MAX as f64,
+    }
+}
+
+pub(crate) const fn check_f32_parts(p: &F32Parts) -> Result<(), Error> {
+    if p.vin.is_empty() || p.io.is_empty() || p.vin.lo == 0 || p.io.lo <= p.io_zero {
+        return Err(Error::OutOfRange {
+            quantity: Quantity::AdcCode,
+            value: p.io.lo as f64,
+            min: p.io_zero as f64 + 1.0,
+            max: p.io.hi as f64,
+        });
+    }
+    if !(p.kx.is_finite() && p.kx > 0.0) {
+        return Err(bad(p.kx));
+    }
+    if !(p.ticks_per_rad.is_finite() && p.ticks_per_rad > 0.0) {
+        return Err(bad(p.ticks_per_rad));
+    }
+    if !p.lead_ticks.is_finite() {
+        return Err(bad(p.lead_ticks));
+    }
+    if !(p.position >= 0.0 && p.position <= 1.0) {
+        return Err(Error::OutOfRange {
+            quantity: Quantity::WindowPosition,
+            value: p.position as f64,
+            min: 0.0,
+            max: 1.0,
+        });
+    }
+    Ok(())
+}
+
+/// Round a raw delay in ticks to the nearest tick and clamp it to the
+/// counter (negative and NaN give 0: Rust's float-to-int cast saturates).
+#[inline]
+pub(crate) fn round_ticks(raw: f32, max: u32) -> u32 {
+    let t = (raw + 0.5) as u32;
+    if t > max {
+        max
+    } else {
+        t
+    }
+}

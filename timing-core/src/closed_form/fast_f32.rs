@@ -1,0 +1,85 @@
+//! The closed form in f32 with fast approximations: the root by
+//! [`rsqrt_f32`], the arcsine by the [`asin_factor_f32`] polynomial, no
+//! library call. About 70 instructions on a Cortex-M4F (see the firmware
+//! example's ISR-COST lines); every operation is an IEEE single-precision
+//! add, multiply or divide, so the host's exhaustive proof of its error
+//! holds on the target bit for bit.
+
+use super::{check_f32_parts, round_ticks, F32Parts};
+use crate::approx::asin_f32::asin_factor_f32;
+use crate::approx::rsqrt_f32::rsqrt_f32;
+use crate::table::{Fallback, Lookup};
+use crate::{AdcCode, Error, Ticks};
+
+/// The f32 closed form with fast approximations (validated coefficients).
+#[derive(Debug, Clone, Copy, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct FastF32 {
+    parts: F32Parts,
+    /// `ticks_per_rad * 3pi/2 - lead_ticks`: the delay at x = 0 of both branches.
+    offset: f32,
+}
+
+impl FastF32 {
+    /// Validate the coefficients (usable in `const` items).
+    ///
+    /// # Errors
+    /// [`Error::OutOfRange`] for a non-finite or non-positive coefficient,
+    /// a position outside 0..=1, or inconsistent code ranges.
+    pub const fn from_parts(parts: F32Parts) -> Result<Self, Error> {
+        match check_f32_parts(&parts) {
+            Ok(()) => Ok(Self {
+                parts,
+                offset: parts.ticks_per_rad * (1.5 * core::f32::consts::PI) - parts.lead_ticks,
+            }),
+            Err(e) => Err(e),
+        }
+    }
+
+    /// The coefficients.
+    #[must_use]
+    pub const fn parts(&self) -> &F32Parts {
+        &self.parts
+    }
+
+    /// The delay before rounding, ticks, and whether the point is ZVS-capable
+    /// (x <= 1). Never panics; no NaN for any codes (they are clamped to the
+    /// design range, where the current is above the sensor zero).
+    #[inline]
+    #[must_use]
+    pub fn raw_ticks(&self, vin: AdcCode, io: AdcCode) -> (f32, bool) {
+        let p = &self.parts;
+        let v = f32::from(p.vin.clamp(vin));
+        let i = f32::from(p.io.clamp(io).wrapping_sub(p.io_zero));
+        let kv = p.kx * v;
+        let x = kv / i;
+        let base = x * p.ticks_per_rad + self.offset;
+        if x <= 1.0 {
+            let t = 1.0 - x;
+            let u = 1.0 + x;
+            let r = t * rsqrt_f32(t);
+            let q = u * rsqrt_f32(u);
+            let j = i / kv;
+            let h = p.position * j * q - asin_factor_f32(x);
+            (base + p.ticks_per_rad * r * h, true)
+        } else {
+            (base, false)
+        }
+    }
+
+    /// The delay to command, rounded to the nearest tick and clamped to the
+    /// counter, with the fallback below the ZVS boundary.
+    #[inline]
+    pub fn delay(&self, vin: AdcCode, io: AdcCode) -> Lookup {
+        let (raw, zvs) = self.raw_ticks(vin, io);
+        if !zvs {
+            if let Fallback::Fixed(t) = self.parts.fallback {
+                return Lookup { ticks: t, zvs };
+            }
+        }
+        Lookup {
+            ticks: Ticks::new(round_ticks(raw, self.parts.max_ticks)),
+            zvs,
+        }
+    }
+}

@@ -1,0 +1,295 @@
+//! The closed form in 32-bit integer arithmetic, for cores without an FPU
+//! or a divide instruction: reciprocals by [`recip_q23`] (Newton), the root
+//! by [`sqrt_q24`], the arcsine factor and `sqrt(1 + x)` by the
+//! [`asin_factor_q17`] and [`sqrt1p_q16`] polynomials; wide products by
+//! [`mul_shr`]. No division, no leading-zero count, no 64-bit multiply.
+//!
+//! Formats: `x = 1/J` in Q24 (fine enough that `sqrt(1 - x)` near the ZVS
+//! boundary, where it is steep, stays within a few thousandths of a tick),
+//! Q16 for the polynomials and the angle in radians, the root in Q15,
+//! `p*J` in Q10, the result in Q8 ticks. The bounds that keep every
+//! intermediate within 32 bits are checked once by
+//! [`FixedPoint::from_parts`], at the corners of the design range.
+
+use super::ClosedForm;
+use crate::approx::asin_q::asin_factor_q17;
+use crate::approx::mul_shr::mul_shr;
+use crate::approx::recip_q::recip_q23;
+use crate::approx::sqrt1p_q::sqrt1p_q16;
+use crate::approx::sqrt_q::sqrt_q24;
+use crate::error::{Error, Quantity};
+use crate::table::log2::floor_log2;
+use crate::table::{Fallback, Lookup};
+use crate::{AdcCode, CodeRange, Ticks};
+
+/// 3*pi/2 in Q16.
+const THREE_HALF_PI_Q16: u32 = 308_831;
+/// 1.0 in Q16.
+const ONE_Q16: u32 = 1 << 16;
+/// 1.0 in Q24.
+const ONE_Q24: u32 = 1 << 24;
+
+/// The integer coefficients. Built by [`ClosedForm::fixed_point`];
+/// generated firmware sources write them out for `const` construction.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[cfg_attr(feature = "serde", derive(serde::Serialize))]
+pub struct FixedPointParts {
+    /// Input-voltage code range.
+    pub vin: CodeRange,
+    /// Output-current code range.
+    pub io: CodeRange,
+    /// Current code that reads 0 A.
+    pub io_zero: u16,
+    /// `kx = k_mant * 2^-k_shift` (`k_mant` in [2^31, 2^32)).
+    pub k_mant: u32,
+    /// See `k_mant`.
+    pub k_shift: u8,
+    /// Ticks per radian `= t_mant * 2^-t_shift` (`t_mant` in [2^15, 2^16)).
+    pub t_mant: u16,
+    /// See `t_mant`.
+    pub t_shift: u8,
+    /// Aim point in the ZVS window, Q15 (0..=32768).
+    pub position_q15: u16,
+    /// The driver's net turn-on lead, ticks in Q8.
+    pub lead_q8: i32,
+    /// Largest count the timer holds.
+    pub max_ticks: u32,
+    /// What to command where ZVS is impossible.
+    pub fallback: Fallback,
+}
+
+/// The integer closed form (validated coefficients).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct FixedPoint {
+    parts: FixedPointParts,
+    out_right: u32,
+    out_left: u32,
+}
+
+/// Mantissa in [2^(bits-1), 2^bits) and shift of a positive value:
+/// `v ~= m * 2^-s`.
+fn normalise(v: f64, bits: i32) -> Result<(u32, u8), Error> {
+    let bad = Error::OutOfRange {
+        quantity: Quantity::MethodCoefficient,
+        value: v,
+        min: 1.0e-12,
+        max: 65535.0,
+    };
+    if !(v.is_finite() && v > 1.0e-12 && v < 65535.5) {
+        return Err(bad);
+    }
+    let top = libm::exp2(f64::from(bits));
+    let mut s = bits - 1 - libm::floor(libm::log2(v)) as i32;
+    let mut m = libm::round(v * libm::exp2(f64::from(s)));
+    if m >= top {
+        s -= 1;
+        m = libm::round(v * libm::exp2(f64::from(s)));
+    }
+    if !(0..=63).contains(&s) {
+        return Err(bad);
+    }
+    Ok((m as u32, s as u8))
+}
+
+/// The integer coefficients of a validated design.
+pub(crate) fn parts(cf: &ClosedForm) -> Result<FixedPointParts, Error> {
+    let s = cf.scaling();
+    let (k_mant, k_shift) = normalise(cf.kx(), 32)?;
+    let (t_mant, t_shift) = normalise(cf.ticks_per_rad(), 16)?;
+    let t_mant = t_mant as u16;
+    let lead_q8 = libm::round(cf.lead_ticks() * 256.0);
+    if lead_q8.abs() >= f64::from(1u32 << 30) {
+        return Err(Error::OutOfRange {
+            quantity: Quantity::DelayTicks,
+            value: cf.lead_ticks(),
+            min: -f64::from(1u32 << 22),
+            max: f64::from(1u32 << 22),
+        });
+    }
+    Ok(FixedPointParts {
+        vin: s.vin,
+        io: s.io,
+        io_zero: s.io_zero,
+        k_mant,
+        k_shift,
+        t_mant,
+        t_shift,
+        position_q15: libm::round(cf.position() * 32768.0) as u16,
+        lead_q8: lead_q8 as i32,
+        max_ticks: cf.max_ticks(),
+        fallback: cf.fallback(),
+    })
+}
+
+const fn range_error(value: f64, max: f64) -> Error {
+    Error::OutOfRange {
+        quantity: Quantity::MethodCoefficient,
+        value,
+        min: 0.0,
+        max,
+    }
+}
+
+impl FixedPoint {
+    /// Validate the coefficients (usable in `const` items): code ranges,
+    /// normalised mantissas, and the 32-bit bounds of every intermediate at
+    /// the corners of the design range (`x` in Q16 below 2^30, `p*J` below
+    /// 64 wherever ZVS is possible, the Q8 result below 2^30).
+    ///
+    /// # Errors
+    /// [`Error::OutOfRange`] naming [`Quantity::AdcCode`],
+    /// [`Quantity::MethodCoefficient`] (the value is the offending bound) or
+    /// [`Quantity::WindowPosition`].
+    pub const fn from_parts(parts: FixedPointParts) -> Result<Self, Error> {
+        let p = &parts;
+        if p.vin.is_empty() || p.io.is_empty() || p.vin.lo == 0 || p.io.lo <= p.io_zero {
+            return Err(Error::OutOfRange {
+                quantity: Quantity::AdcCode,
+                value: p.io.lo as f64,
+                min: p.io_zero as f64 + 1.0,
+                max: p.io.hi as f64,
+            });
+        }
+        if p.k_mant < 1 << 31 || p.t_mant < 1 << 15 || p.t_shift > 31 {
+            return Err(range_error(p.k_mant as f64, u32::MAX as f64));
+        }
+        if p.position_q15 > 1 << 15 {
+            return Err(Error::OutOfRange {
+                quantity: Quantity::WindowPosition,
+                value: p.position_q15 as f64 / 32768.0,
+                min: 0.0,
+                max: 1.0,
+            });
+        }
+        // The shift of x after the k product, k_shift + e - 40, within 31
+        // either way over the current range.
+        let e_min = floor_log2((p.io.lo - p.io_zero) as u32) as i32;
+        let e_max = floor_log2((p.io.hi - p.io_zero) as u32) as i32;
+        let k = p.k_shift as i32;
+        if k + e_max - 40 > 31 || 40 - k - e_min > 31 {
+            return Err(range_error(p.k_shift as f64, 63.0));
+        }
+        let (out_right, out_left) = if p.t_shift >= 8 {
+            (p.t_shift as u32 - 8, 0)
+        } else {
+            (0, 8 - p.t_shift as u32)
+        };
+        let me = Self {
+            parts,
+            out_right,
+            out_left,
+        };
+        let x_max = me.x_q24(p.vin.hi as u32, (p.io.lo - p.io_zero) as u32);
+        let x_min = me.x_q24(p.vin.lo as u32, (p.io.hi - p.io_zero) as u32);
+        if x_max >= 1 << 30 {
+            return Err(range_error(x_max as f64 / 16_777_216.0, 64.0));
+        }
+        if x_min <= ONE_Q24 && p.position_q15 > 0 {
+            // p*J in Q10 is largest at the smallest x, and J = 1/x must stay
+            // below 8192 (x in Q16 at least 8).
+            let x16 = x_min >> 8;
+            if x16 < 8 {
+                return Err(range_error(x_min as f64 / 16_777_216.0, 1.0));
+            }
+            let (yx, sx) = recip_q23(x16);
+            let pj10 = mul_shr(yx, p.position_q15, 16) >> (sx - 27);
+            if pj10 >= 65_000 {
+                return Err(range_error(pj10 as f64 / 1024.0, 63.0));
+            }
+        }
+        // The largest angle: the larger of the valley at x_max and the ZVS
+        // branch bound (p*J*sqrt(2) < 92 rad).
+        let big = if x_max > ONE_Q24 { x_max >> 8 } else { ONE_Q16 };
+        let theta_max = big + THREE_HALF_PI_Q16 + (92 << 16);
+        let r8 = (mul_shr(theta_max, p.t_mant, 16) >> out_right) as u64;
+        if r8 << out_left >= 1 << 30 {
+            return Err(range_error(
+                (r8 << out_left) as f64 / 256.0,
+                (1u32 << 22) as f64,
+            ));
+        }
+        if p.lead_q8 >= 1 << 30 || p.lead_q8 <= -(1 << 30) {
+            return Err(range_error(p.lead_q8 as f64 / 256.0, (1u32 << 22) as f64));
+        }
+        Ok(me)
+    }
+
+    /// The coefficients.
+    #[must_use]
+    pub const fn parts(&self) -> &FixedPointParts {
+        &self.parts
+    }
+
+    /// `x = 1/J` in Q24 at clamped codes (`i` already less the zero).
+    #[inline]
+    const fn x_q24(&self, v: u32, i: u32) -> u32 {
+        let p = &self.parts;
+        // 1/i = y / 2^s; a = v*y / 2^8 (below 2^32 for 16-bit codes).
+        let (y, s) = recip_q23(i);
+        let a = mul_shr(y, v as u16, 8);
+        // m = floor(k_mant * a / 2^32) by two 16-bit halves of k_mant.
+        let m = mul_shr(a, (p.k_mant >> 16) as u16, 16)
+            .wrapping_add(mul_shr(a, p.k_mant as u16, 16) >> 16);
+        // x * 2^24 = m * 2^(64 - k_shift - s).
+        let sh = (p.k_shift as i32).wrapping_add(s as i32).wrapping_sub(64);
+        if sh >= 0 {
+            m.wrapping_shr(sh as u32)
+        } else {
+            m.wrapping_shl(sh.wrapping_neg() as u32)
+        }
+    }
+
+    /// The delay before rounding, ticks in Q8 (`ticks * 256`), and whether
+    /// the point is ZVS-capable (x <= 1). Integer-only; never panics.
+    #[inline]
+    #[must_use]
+    pub fn raw_ticks_q8(&self, vin: AdcCode, io: AdcCode) -> (i32, bool) {
+        let p = &self.parts;
+        let v = u32::from(p.vin.clamp(vin));
+        let i = u32::from(p.io.clamp(io).wrapping_sub(p.io_zero));
+        let x24 = self.x_q24(v, i);
+        let x = x24 >> 8;
+        let zvs = x24 <= ONE_Q24;
+        let mut theta = x.wrapping_add(THREE_HALF_PI_Q16);
+        if zvs {
+            // sqrt(1 - x) in Q15 (at most 2^15, so it fits 16 bits).
+            let r = sqrt_q24(ONE_Q24.wrapping_sub(x24)) as u16;
+            // p*J = p * 2^16 / X in Q10: 1/X = yx / 2^sx.
+            let (yx, sx) = recip_q23(x);
+            let pj10 = mul_shr(yx, p.position_q15, 16).wrapping_shr(sx.wrapping_sub(27));
+            let pjq12 = mul_shr(sqrt1p_q16(x), pj10 as u16, 14);
+            let plus = mul_shr(pjq12, r, 11);
+            let minus = mul_shr(asin_factor_q17(x), r, 16);
+            theta = theta.wrapping_add(plus).wrapping_sub(minus);
+        }
+        let r8 = (mul_shr(theta, p.t_mant, 16) >> self.out_right) << self.out_left;
+        ((r8 as i32).wrapping_sub(p.lead_q8), zvs)
+    }
+
+    /// The delay to command, rounded to the nearest tick and clamped to the
+    /// counter, with the fallback below the ZVS boundary.
+    #[inline]
+    pub fn delay(&self, vin: AdcCode, io: AdcCode) -> Lookup {
+        let (raw, zvs) = self.raw_ticks_q8(vin, io);
+        if !zvs {
+            if let Fallback::Fixed(t) = self.parts.fallback {
+                return Lookup { ticks: t, zvs };
+            }
+        }
+        let t = if raw <= 0 {
+            0
+        } else {
+            (raw.wrapping_add(128) >> 8) as u32
+        };
+        Lookup {
+            ticks: Ticks::new(if t > self.parts.max_ticks {
+                self.parts.max_ticks
+            } else {
+                t
+            }),
+            zvs,
+        }
+    }
+}
