@@ -518,9 +518,12 @@ pub struct Written {
     pub bin: std::path::PathBuf,
     /// Node CSV.
     pub csv: std::path::PathBuf,
+    /// Rust source of the closed-form methods' coefficients.
+    pub closed_form_rs: std::path::PathBuf,
 }
 
-/// Write `<dir>/<name>.{rs,h,bin,csv}`, creating `dir`.
+/// Write `<dir>/<name>.{rs,h,bin,csv}` and `<dir>/<name>_closed_form.rs`,
+/// creating `dir`.
 ///
 /// # Errors
 /// I/O errors, and postcard's (not expected).
@@ -533,6 +536,7 @@ pub fn write_all(
     std::fs::create_dir_all(dir)?;
     let base = dir.join(&design.name);
     let w = Written {
+        closed_form_rs: dir.join(format!("{}_closed_form.rs", design.name)),
         rs: base.with_extension("rs"),
         h: base.with_extension("h"),
         bin: base.with_extension("bin"),
@@ -542,6 +546,10 @@ pub fn write_all(
     std::fs::write(&w.h, c_header(design, g, v))?;
     std::fs::write(&w.bin, blob(design, g).map_err(std::io::Error::other)?)?;
     std::fs::write(&w.csv, csv(design, g))?;
+    std::fs::write(
+        &w.closed_form_rs,
+        crate::closed_form_source::closed_form_source(design).map_err(std::io::Error::other)?,
+    )?;
     Ok(w)
 }
 

@@ -14,6 +14,7 @@
 )]
 #![warn(missing_docs)]
 
+pub mod closed_form_source;
 pub mod design;
 pub mod export;
 pub mod generate;

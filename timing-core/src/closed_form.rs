@@ -21,8 +21,9 @@
 //! - valley (`x > 1`): `x + 3pi/2`;
 //!
 //! the two branches meet at `x = 1`. The delay in ticks is the angle times
-//! `f_clk / w0`, less the driver's net lead, rounded to the nearest tick and
-//! clamped to the counter. Codes outside the design range clamp to its
+//! `f_clk / w0`, less the driver's net lead, rounded to the nearest tick
+//! (moved by one tick into the window when rounding left it outside and
+//! the next tick is inside) and clamped to the counter. Codes outside the design range clamp to its
 //! edge, as in the tables.
 //!
 //! Accuracy: each method's worst error against the f64 model is proven on
@@ -306,5 +307,27 @@ pub(crate) fn round_ticks(raw: f32, max: u32) -> u32 {
         max
     } else {
         t
+    }
+}
+
+/// The nearest tick to `target`, moved by one tick into the window
+/// `[open, close]` (all in ticks) when rounding left it outside and the
+/// neighbouring tick is inside, as [`Timer::command`](crate::Timer::command)
+/// does; clamped to the counter.
+#[inline]
+pub(crate) fn round_into_window(target: f32, open: f32, close: f32, max: u32) -> u32 {
+    let t = round_ticks(target, max);
+    let tf = t as f32;
+    let n = if tf < open && tf + 1.0 <= close {
+        t.saturating_add(1)
+    } else if tf > close && tf - 1.0 >= open {
+        t.saturating_sub(1)
+    } else {
+        t
+    };
+    if n > max {
+        max
+    } else {
+        n
     }
 }

@@ -5,7 +5,7 @@
 //! add, multiply or divide, so the host's exhaustive proof of its error
 //! holds on the target bit for bit.
 
-use super::{check_f32_parts, round_ticks, F32Parts};
+use super::{check_f32_parts, round_into_window, round_ticks, F32Parts};
 use crate::approx::asin_f32::asin_factor_f32;
 use crate::approx::rsqrt_f32::rsqrt_f32;
 use crate::table::{Fallback, Lookup};
@@ -42,12 +42,10 @@ impl FastF32 {
         &self.parts
     }
 
-    /// The delay before rounding, ticks, and whether the point is ZVS-capable
-    /// (x <= 1). Never panics; no NaN for any codes (they are clamped to the
-    /// design range, where the current is above the sensor zero).
+    /// The target delay before rounding and, where ZVS is possible, the
+    /// window's opening and closing delays, ticks.
     #[inline]
-    #[must_use]
-    pub fn raw_ticks(&self, vin: AdcCode, io: AdcCode) -> (f32, bool) {
+    fn eval(&self, vin: AdcCode, io: AdcCode) -> (f32, Option<(f32, f32)>) {
         let p = &self.parts;
         let v = f32::from(p.vin.clamp(vin));
         let i = f32::from(p.io.clamp(io).wrapping_sub(p.io_zero));
@@ -57,29 +55,47 @@ impl FastF32 {
         if x <= 1.0 {
             let t = 1.0 - x;
             let u = 1.0 + x;
-            let r = t * rsqrt_f32(t);
+            // sqrt(1 - x) and sqrt(1 + x), in ticks per radian for the root.
+            let a = p.ticks_per_rad * (t * rsqrt_f32(t));
             let q = u * rsqrt_f32(u);
             let j = i / kv;
-            let h = p.position * j * q - asin_factor_f32(x);
-            (base + p.ticks_per_rad * r * h, true)
+            let open = base - a * asin_factor_f32(x);
+            let width = a * q * j;
+            (open + p.position * width, Some((open, open + width)))
         } else {
-            (base, false)
+            (base, None)
         }
     }
 
-    /// The delay to command, rounded to the nearest tick and clamped to the
-    /// counter, with the fallback below the ZVS boundary.
+    /// The delay before rounding, ticks, and whether the point is
+    /// ZVS-capable (x <= 1). Never panics; no NaN for any codes (they are
+    /// clamped to the design range, where the current is above the sensor
+    /// zero).
+    #[inline]
+    #[must_use]
+    pub fn raw_ticks(&self, vin: AdcCode, io: AdcCode) -> (f32, bool) {
+        let (t, w) = self.eval(vin, io);
+        (t, w.is_some())
+    }
+
+    /// The delay to command: the nearest tick inside the window (or, where
+    /// none is, the nearest), clamped to the counter, with the fallback
+    /// below the ZVS boundary.
     #[inline]
     pub fn delay(&self, vin: AdcCode, io: AdcCode) -> Lookup {
-        let (raw, zvs) = self.raw_ticks(vin, io);
-        if !zvs {
-            if let Fallback::Fixed(t) = self.parts.fallback {
-                return Lookup { ticks: t, zvs };
-            }
-        }
-        Lookup {
-            ticks: Ticks::new(round_ticks(raw, self.parts.max_ticks)),
-            zvs,
+        let max = self.parts.max_ticks;
+        match self.eval(vin, io) {
+            (target, Some((open, close))) => Lookup {
+                ticks: Ticks::new(round_into_window(target, open, close, max)),
+                zvs: true,
+            },
+            (target, None) => Lookup {
+                ticks: match self.parts.fallback {
+                    Fallback::Fixed(t) => t,
+                    Fallback::Valley => Ticks::new(round_ticks(target, max)),
+                },
+                zvs: false,
+            },
         }
     }
 }

@@ -186,21 +186,20 @@ impl FixedPoint {
         if x_max >= 1 << 30 {
             return Err(range_error(x_max as f64 / 16_777_216.0, 64.0));
         }
-        if x_min <= ONE_Q24 && p.position_q15 > 0 {
-            // p*J in Q10 is largest at the smallest x, and J = 1/x must stay
-            // below 8192 (x in Q16 at least 8).
-            let x16 = x_min >> 8;
-            if x16 < 8 {
-                return Err(range_error(x_min as f64 / 16_777_216.0, 1.0));
-            }
-            let (yx, sx) = recip_q23(x16);
-            let pj10 = mul_shr(yx, p.position_q15, 16) >> (sx - 27);
-            if pj10 >= 65_000 {
-                return Err(range_error(pj10 as f64 / 1024.0, 63.0));
+        if x_min <= ONE_Q24 {
+            // J = 1/x in Q10 must fit 16 bits wherever ZVS is possible:
+            // J below 63 (x in Q16 at least 1041).
+            if (x_min >> 8) < 1041 {
+                return Err(Error::OutOfRange {
+                    quantity: Quantity::NormalizedLoad,
+                    value: 16_777_216.0 / x_min as f64,
+                    min: 0.0,
+                    max: 63.0,
+                });
             }
         }
         // The largest angle: the larger of the valley at x_max and the ZVS
-        // branch bound (p*J*sqrt(2) < 92 rad).
+        // branch bound (the window, J*sqrt(2) < 92 rad).
         let big = if x_max > ONE_Q24 { x_max >> 8 } else { ONE_Q16 };
         let theta_max = big + THREE_HALF_PI_Q16 + (92 << 16);
         let r8 = (mul_shr(theta_max, p.t_mant, 16) >> out_right) as u64;
@@ -241,55 +240,80 @@ impl FixedPoint {
         }
     }
 
-    /// The delay before rounding, ticks in Q8 (`ticks * 256`), and whether
-    /// the point is ZVS-capable (x <= 1). Integer-only; never panics.
+    /// An angle in Q16 radians as a delay in Q8 ticks, less the lead.
     #[inline]
-    #[must_use]
-    pub fn raw_ticks_q8(&self, vin: AdcCode, io: AdcCode) -> (i32, bool) {
+    fn q8(&self, theta: u32) -> i32 {
+        let r8 = (mul_shr(theta, self.parts.t_mant, 16) >> self.out_right) << self.out_left;
+        (r8 as i32).wrapping_sub(self.parts.lead_q8)
+    }
+
+    /// The target delay before rounding and, where ZVS is possible, the
+    /// window's opening and closing delays, ticks in Q8.
+    #[inline]
+    fn eval(&self, vin: AdcCode, io: AdcCode) -> (i32, Option<(i32, i32)>) {
         let p = &self.parts;
         let v = u32::from(p.vin.clamp(vin));
         let i = u32::from(p.io.clamp(io).wrapping_sub(p.io_zero));
         let x24 = self.x_q24(v, i);
         let x = x24 >> 8;
-        let zvs = x24 <= ONE_Q24;
-        let mut theta = x.wrapping_add(THREE_HALF_PI_Q16);
-        if zvs {
-            // sqrt(1 - x) in Q15 (at most 2^15, so it fits 16 bits).
-            let r = sqrt_q24(ONE_Q24.wrapping_sub(x24)) as u16;
-            // p*J = p * 2^16 / X in Q10: 1/X = yx / 2^sx.
-            let (yx, sx) = recip_q23(x);
-            let pj10 = mul_shr(yx, p.position_q15, 16).wrapping_shr(sx.wrapping_sub(27));
-            let pjq12 = mul_shr(sqrt1p_q16(x), pj10 as u16, 14);
-            let plus = mul_shr(pjq12, r, 11);
-            let minus = mul_shr(asin_factor_q17(x), r, 16);
-            theta = theta.wrapping_add(plus).wrapping_sub(minus);
+        let base = x.wrapping_add(THREE_HALF_PI_Q16);
+        if x24 > ONE_Q24 {
+            return (self.q8(base), None);
         }
-        let r8 = (mul_shr(theta, p.t_mant, 16) >> self.out_right) << self.out_left;
-        ((r8 as i32).wrapping_sub(p.lead_q8), zvs)
+        // sqrt(1 - x) in Q15 (at most 2^15, so it fits 16 bits).
+        let r = sqrt_q24(ONE_Q24.wrapping_sub(x24)) as u16;
+        // J = 2^16 / X in Q10 (below 2^16: validated), 1/X = yx / 2^sx.
+        let (yx, sx) = recip_q23(x);
+        let j10 = yx.wrapping_shr(sx.wrapping_sub(26));
+        let jq12 = mul_shr(sqrt1p_q16(x), j10 as u16, 14);
+        // Window width sqrt(1 - x^2)/x = r * sqrt(1 + x) * J, Q16 radians.
+        let width = mul_shr(jq12, r, 11);
+        let open = base.wrapping_sub(mul_shr(asin_factor_q17(x), r, 16));
+        let target = open.wrapping_add(mul_shr(width, p.position_q15, 15));
+        (
+            self.q8(target),
+            Some((self.q8(open), self.q8(open.wrapping_add(width)))),
+        )
     }
 
-    /// The delay to command, rounded to the nearest tick and clamped to the
-    /// counter, with the fallback below the ZVS boundary.
+    /// The delay before rounding, ticks in Q8 (`ticks * 256`), and whether
+    /// the point is ZVS-capable (x <= 1). Integer-only; never panics.
+    #[inline]
+    #[must_use]
+    pub fn raw_ticks_q8(&self, vin: AdcCode, io: AdcCode) -> (i32, bool) {
+        let (t, w) = self.eval(vin, io);
+        (t, w.is_some())
+    }
+
+    /// The delay to command: the nearest tick inside the window (or, where
+    /// none is, the nearest), clamped to the counter, with the fallback
+    /// below the ZVS boundary.
     #[inline]
     pub fn delay(&self, vin: AdcCode, io: AdcCode) -> Lookup {
-        let (raw, zvs) = self.raw_ticks_q8(vin, io);
-        if !zvs {
+        let max = self.parts.max_ticks;
+        let (target, window) = self.eval(vin, io);
+        if window.is_none() {
             if let Fallback::Fixed(t) = self.parts.fallback {
-                return Lookup { ticks: t, zvs };
+                return Lookup { ticks: t, zvs: false };
             }
         }
-        let t = if raw <= 0 {
+        let mut t = if target <= 0 {
             0
         } else {
-            (raw.wrapping_add(128) >> 8) as u32
+            target.wrapping_add(128) >> 8
         };
+        if let Some((open, close)) = window {
+            let t8 = t.wrapping_shl(8);
+            if t8 < open && t8.wrapping_add(256) <= close {
+                t = t.wrapping_add(1);
+            } else if t8 > close && t8.wrapping_sub(256) >= open {
+                t = t.wrapping_sub(1);
+            }
+        }
+        let t = t.max(0) as u32;
         Lookup {
-            ticks: Ticks::new(if t > self.parts.max_ticks {
-                self.parts.max_ticks
-            } else {
-                t
-            }),
-            zvs,
+            ticks: Ticks::new(if t > max { max } else { t }),
+            zvs: window.is_some(),
         }
     }
 }

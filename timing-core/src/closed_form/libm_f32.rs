@@ -4,7 +4,7 @@
 //! costs several hundred instructions (see the firmware example's
 //! ISR-COST lines).
 
-use super::{check_f32_parts, round_ticks, F32Parts};
+use super::{check_f32_parts, round_into_window, round_ticks, F32Parts};
 use crate::table::{Fallback, Lookup};
 use crate::{AdcCode, Error, Ticks};
 
@@ -33,38 +33,55 @@ impl LibmF32 {
         &self.parts
     }
 
-    /// The delay before rounding, ticks, and whether the point is
-    /// ZVS-capable (x <= 1).
+    /// The target delay before rounding and, where ZVS is possible, the
+    /// window's opening and closing delays, ticks.
     #[inline]
-    #[must_use]
-    pub fn raw_ticks(&self, vin: AdcCode, io: AdcCode) -> (f32, bool) {
+    fn eval(&self, vin: AdcCode, io: AdcCode) -> (f32, Option<(f32, f32)>) {
         use core::f32::consts::PI;
         let p = &self.parts;
         let v = f32::from(p.vin.clamp(vin));
         let i = f32::from(p.io.clamp(io).wrapping_sub(p.io_zero));
         let x = p.kx * v / i;
-        let zvs = x <= 1.0;
-        let angle = if zvs {
-            x + PI + libm::asinf(x) + p.position * libm::sqrtf((1.0 - x) * (1.0 + x)) / x
+        let ticks = |angle: f32| angle * p.ticks_per_rad - p.lead_ticks;
+        if x <= 1.0 {
+            let open = x + PI + libm::asinf(x);
+            let width = libm::sqrtf((1.0 - x) * (1.0 + x)) / x;
+            (
+                ticks(open + p.position * width),
+                Some((ticks(open), ticks(open + width))),
+            )
         } else {
-            x + 1.5 * PI
-        };
-        (angle * p.ticks_per_rad - p.lead_ticks, zvs)
+            (ticks(x + 1.5 * PI), None)
+        }
     }
 
-    /// The delay to command, rounded to the nearest tick and clamped to the
-    /// counter, with the fallback below the ZVS boundary.
+    /// The delay before rounding, ticks, and whether the point is
+    /// ZVS-capable (x <= 1).
+    #[inline]
+    #[must_use]
+    pub fn raw_ticks(&self, vin: AdcCode, io: AdcCode) -> (f32, bool) {
+        let (t, w) = self.eval(vin, io);
+        (t, w.is_some())
+    }
+
+    /// The delay to command: the nearest tick inside the window (or, where
+    /// none is, the nearest), clamped to the counter, with the fallback
+    /// below the ZVS boundary.
     #[inline]
     pub fn delay(&self, vin: AdcCode, io: AdcCode) -> Lookup {
-        let (raw, zvs) = self.raw_ticks(vin, io);
-        if !zvs {
-            if let Fallback::Fixed(t) = self.parts.fallback {
-                return Lookup { ticks: t, zvs };
-            }
-        }
-        Lookup {
-            ticks: Ticks::new(round_ticks(raw, self.parts.max_ticks)),
-            zvs,
+        let max = self.parts.max_ticks;
+        match self.eval(vin, io) {
+            (target, Some((open, close))) => Lookup {
+                ticks: Ticks::new(round_into_window(target, open, close, max)),
+                zvs: true,
+            },
+            (target, None) => Lookup {
+                ticks: match self.parts.fallback {
+                    Fallback::Fixed(t) => t,
+                    Fallback::Valley => Ticks::new(round_ticks(target, max)),
+                },
+                zvs: false,
+            },
         }
     }
 }
