@@ -28,6 +28,10 @@ fn main() {
         host_tool::export::firmware_table(&design, Some(layout)).unwrap_or_else(|e| panic!("{e}"));
     std::fs::write(out.join("winch_aux_table.rs"), source).expect("write table source");
     std::fs::write(out.join("winch_aux.bin"), blob).expect("write table blob");
+    let design_data = host_tool::design::Design::load(&design).unwrap_or_else(|e| panic!("{e}"));
+    let closed = host_tool::closed_form_source::closed_form_source(&design_data)
+        .unwrap_or_else(|e| panic!("{e}"));
+    std::fs::write(out.join("winch_aux_closed_form.rs"), closed).expect("write closed-form source");
     std::fs::copy(manifest.join("memory.x"), out.join("memory.x")).expect("copy memory.x");
     println!("cargo:rustc-link-search={}", out.display());
 }

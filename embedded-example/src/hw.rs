@@ -18,6 +18,9 @@ use timing_core::{AdcCode, Ticks};
 
 static ADC_RESULT: AtomicU32 = AtomicU32::new(0);
 static COMPARE: AtomicU32 = AtomicU32::new(0);
+/// Where the methods that do not drive the PWM put their results (index =
+/// method; 0 is unused, the table drives `COMPARE`).
+static SHADOW: [AtomicU32; 4] = [const { AtomicU32::new(0) }; 4];
 
 /// Latest Vin and Io conversions (the interrupt's input).
 #[inline(always)]
@@ -30,6 +33,19 @@ pub fn read_adc() -> (AdcCode, AdcCode) {
 #[inline(always)]
 pub fn write_compare(t: Ticks) {
     COMPARE.store(t.get(), Ordering::Relaxed);
+}
+
+/// A method's result beside the one that drives the PWM, for comparison.
+#[inline(always)]
+pub fn write_shadow(method: usize, t: Ticks) {
+    if let Some(r) = SHADOW.get(method) {
+        r.store(t.get(), Ordering::Relaxed);
+    }
+}
+
+/// What method `method` last wrote with [`write_shadow`].
+pub fn shadow(method: usize) -> Ticks {
+    Ticks::new(SHADOW.get(method).map_or(0, |r| r.load(Ordering::Relaxed)))
 }
 
 /// Stand-in for the ADC hardware: the plant model posts its conversions.

@@ -26,8 +26,9 @@ pub struct Plant {
 }
 
 /// ADC scales of the demo design (tables/winch_aux.toml).
-const VIN_VOLTS_PER_CODE: f32 = 0.0161;
-const IO_AMPS_PER_CODE: f32 = 0.00488;
+pub const VIN_VOLTS_PER_CODE: f32 = 0.0161;
+/// See [`VIN_VOLTS_PER_CODE`].
+pub const IO_AMPS_PER_CODE: f32 = 0.00488;
 const MAX_CODE: f32 = 4095.0;
 /// Peak sensor noise, codes.
 const NOISE_CODES: f32 = 3.0;

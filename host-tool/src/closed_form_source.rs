@@ -83,9 +83,7 @@ fn proof_line(s: &mut String, v: &VerifyReport) {
 pub fn closed_form_source(design: &Design) -> Result<String, String> {
     let cf = design.closed_form().map_err(|e| e.to_string())?;
     let fast = cf.fast_f32().map_err(|e| format!("closed-form-f32: {e}"))?;
-    let fixed = cf
-        .fixed_point()
-        .map_err(|e| format!("fixed-point: {e}"))?;
+    let fixed = cf.fixed_point().map_err(|e| format!("fixed-point: {e}"))?;
     let libm = cf.libm_f32().map_err(|e| format!("libm-f32: {e}"))?;
     let reports = [
         verify(design, &fast, None),
@@ -126,7 +124,11 @@ pub fn closed_form_source(design: &Design) -> Result<String, String> {
     let _ = writeln!(
         s,
         "/// Coefficients of the integer method.\npub const FIXED_POINT_PARTS: {};\n",
-        fixed_parts(fixed.parts()).replacen("FixedPointParts {", "FixedPointParts = FixedPointParts {", 1)
+        fixed_parts(fixed.parts()).replacen(
+            "FixedPointParts {",
+            "FixedPointParts = FixedPointParts {",
+            1
+        )
     );
     for (name, ty, parts) in [
         ("FAST_F32", "FastF32", "F32_PARTS"),

@@ -6,13 +6,42 @@
 //! 1/17), two Newton steps `y <- y * (2 - m*y)` in Q15 (error squared each
 //! step: 3.5e-3, 1.2e-5), and a third in the correction form
 //! `y <- y + y * (1 - m*y)` carried to Q23, which leaves the Q23 rounding.
-//! [`RECIP_Q23_MAX_ERROR`] is checked at every `n` in 1..65536 by the
-//! `recip_q23_exhaustive` test (measured 2.4e-7).
+//! [`RECIP_Q23_MAX_ERROR`] and, for the two Q15 steps alone
+//! ([`recip_q15`]), [`RECIP_Q15_MAX_ERROR`] are checked at every `n` in
+//! 1..65536 by the `recip_q23_exhaustive` and `recip_q15_exhaustive` tests
+//! (measured 2.4e-7 and 7.1e-5).
 
 use crate::table::log2::floor_log2;
 
 /// Largest relative error of [`recip_q23`] over 1 <= n < 2^16.
 pub const RECIP_Q23_MAX_ERROR: f64 = 1.0e-6;
+
+/// Largest relative error of [`recip_q15`] over 1 <= n < 2^16.
+pub const RECIP_Q15_MAX_ERROR: f64 = 1.0e-4;
+
+/// `(y, s)` with `1/n ~= y / 2^s`, `y` in (2^15, 2^16] and
+/// `s = 16 + floor(log2 n)`, within [`RECIP_Q15_MAX_ERROR`] (relative) for
+/// `1 <= n < 2^16`: the seed and the two Q15 steps of [`recip_q23`].
+/// Five multiplications; never panics.
+#[inline]
+#[must_use]
+pub const fn recip_q15(n: u32) -> (u32, u32) {
+    let (y, e, _) = recip_steps(n);
+    (y, e.wrapping_add(16))
+}
+
+/// The seed and two Newton steps: `(y, e, m)` with y in Q15.
+#[inline(always)]
+const fn recip_steps(n: u32) -> (u32, u32, u32) {
+    let e = floor_log2(n);
+    let m = n.wrapping_shl(15u32.wrapping_sub(e));
+    let mut y = 92_521u32.wrapping_sub(m.wrapping_mul(61_682) >> 16);
+    let d = 0u32.wrapping_sub(m.wrapping_mul(y)) >> 16;
+    y = y.wrapping_mul(d) >> 15;
+    let d = 0u32.wrapping_sub(m.wrapping_mul(y)) >> 16;
+    y = y.wrapping_mul(d) >> 15;
+    (y, e, m)
+}
 
 /// `(y, s)` with `1/n ~= y / 2^s`, `y` in (2^23, 2^24] and
 /// `s = 24 + floor(log2 n)`, within [`RECIP_Q23_MAX_ERROR`] (relative) for
@@ -21,13 +50,7 @@ pub const RECIP_Q23_MAX_ERROR: f64 = 1.0e-6;
 #[inline]
 #[must_use]
 pub const fn recip_q23(n: u32) -> (u32, u32) {
-    let e = floor_log2(n);
-    let m = n.wrapping_shl(15u32.wrapping_sub(e));
-    let mut y = 92_521u32.wrapping_sub(m.wrapping_mul(61_682) >> 16);
-    let d = 0u32.wrapping_sub(m.wrapping_mul(y)) >> 16;
-    y = y.wrapping_mul(d) >> 15;
-    let d = 0u32.wrapping_sub(m.wrapping_mul(y)) >> 16;
-    y = y.wrapping_mul(d) >> 15;
+    let (y, e, m) = recip_steps(n);
     // err = (1 - m*y) * 2^31, small: |err| < 2^23.
     let err = (1u32 << 31).wrapping_sub(m.wrapping_mul(y)) as i32;
     let y23 = (y << 8).wrapping_add(((y as i32).wrapping_mul(err >> 8) >> 15) as u32);
@@ -37,6 +60,24 @@ pub const fn recip_q23(n: u32) -> (u32, u32) {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn recip_q15_exhaustive() {
+        let mut worst = (0.0f64, 0u32);
+        for n in 1..(1u32 << 16) {
+            let (y, s) = recip_q15(n);
+            let got = f64::from(y) / 2f64.powi(s as i32);
+            let e = (got * f64::from(n) - 1.0).abs();
+            if e > worst.0 {
+                worst = (e, n);
+            }
+        }
+        println!(
+            "recip_q15: worst relative error {:.3e} at n = {}",
+            worst.0, worst.1
+        );
+        assert!(worst.0 <= RECIP_Q15_MAX_ERROR, "{worst:?}");
+    }
 
     #[test]
     fn recip_q23_exhaustive() {

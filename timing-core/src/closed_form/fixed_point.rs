@@ -1,21 +1,27 @@
 //! The closed form in 32-bit integer arithmetic, for cores without an FPU
-//! or a divide instruction: reciprocals by [`recip_q23`] (Newton), the root
-//! by [`sqrt_q24`], the arcsine factor and `sqrt(1 + x)` by the
-//! [`asin_factor_q17`] and [`sqrt1p_q16`] polynomials; wide products by
-//! [`mul_shr`]. No division, no leading-zero count, no 64-bit multiply.
+//! or a divide instruction: reciprocals by [`recip_q23`] and [`recip_q15`]
+//! (Newton), the root by [`sqrt_q24`] (Newton), and one polynomial
+//! `G(x) = p*sqrt(1 + x) - x*P(x)` built from the [`sqrt1p_q16`] and
+//! [`asin_factor_q17`] fits, so that the ZVS turn-on angle is
+//! `x + 3pi/2 + sqrt(1 - x) * G(x) / x`. Wide products by [`mul_shr`]. No
+//! division, no leading-zero instruction, no 64-bit multiply.
 //!
 //! Formats: `x = 1/J` in Q24 (fine enough that `sqrt(1 - x)` near the ZVS
 //! boundary, where it is steep, stays within a few thousandths of a tick),
-//! Q16 for the polynomials and the angle in radians, the root in Q15,
-//! `p*J` in Q10, the result in Q8 ticks. The bounds that keep every
-//! intermediate within 32 bits are checked once by
+//! Q16 for the polynomial and for the angle in radians, the root in Q15,
+//! `G` in Q14, `J` in Q10, the result in Q8 ticks. The bounds that keep
+//! every intermediate within 32 bits are checked once by
 //! [`FixedPoint::from_parts`], at the corners of the design range.
+//!
+//! Unlike the f32 methods, the result is rounded to the nearest tick
+//! without moving it into the window (as the tables do): where the window
+//! is under two ticks wide, the nearest tick can fall outside it.
 
 use super::ClosedForm;
-use crate::approx::asin_q::asin_factor_q17;
+use crate::approx::asin_q::ASIN_FACTOR_Q17;
 use crate::approx::mul_shr::mul_shr;
-use crate::approx::recip_q::recip_q23;
-use crate::approx::sqrt1p_q::sqrt1p_q16;
+use crate::approx::recip_q::{recip_q15, recip_q23};
+use crate::approx::sqrt1p_q::SQRT1P_Q16;
 use crate::approx::sqrt_q::sqrt_q24;
 use crate::error::{Error, Quantity};
 use crate::table::log2::floor_log2;
@@ -24,8 +30,6 @@ use crate::{AdcCode, CodeRange, Ticks};
 
 /// 3*pi/2 in Q16.
 const THREE_HALF_PI_Q16: u32 = 308_831;
-/// 1.0 in Q16.
-const ONE_Q16: u32 = 1 << 16;
 /// 1.0 in Q24.
 const ONE_Q24: u32 = 1 << 24;
 
@@ -41,8 +45,8 @@ pub struct FixedPointParts {
     pub io: CodeRange,
     /// Current code that reads 0 A.
     pub io_zero: u16,
-    /// `kx = k_mant * 2^-k_shift` (`k_mant` in [2^31, 2^32)).
-    pub k_mant: u32,
+    /// `kx = k_mant * 2^-k_shift` (`k_mant` in [2^15, 2^16)).
+    pub k_mant: u16,
     /// See `k_mant`.
     pub k_shift: u8,
     /// Ticks per radian `= t_mant * 2^-t_shift` (`t_mant` in [2^15, 2^16)).
@@ -64,13 +68,14 @@ pub struct FixedPointParts {
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct FixedPoint {
     parts: FixedPointParts,
+    /// `G(x)` in Q14, lowest order first (degree 6).
+    g: [i32; 7],
     out_right: u32,
     out_left: u32,
 }
 
-/// Mantissa in [2^(bits-1), 2^bits) and shift of a positive value:
-/// `v ~= m * 2^-s`.
-fn normalise(v: f64, bits: i32) -> Result<(u32, u8), Error> {
+/// Mantissa in [2^15, 2^16) and shift of a positive value: `v ~= m * 2^-s`.
+fn normalise(v: f64) -> Result<(u16, u8), Error> {
     let bad = Error::OutOfRange {
         quantity: Quantity::MethodCoefficient,
         value: v,
@@ -80,25 +85,23 @@ fn normalise(v: f64, bits: i32) -> Result<(u32, u8), Error> {
     if !(v.is_finite() && v > 1.0e-12 && v < 65535.5) {
         return Err(bad);
     }
-    let top = libm::exp2(f64::from(bits));
-    let mut s = bits - 1 - libm::floor(libm::log2(v)) as i32;
+    let mut s = 15 - libm::floor(libm::log2(v)) as i32;
     let mut m = libm::round(v * libm::exp2(f64::from(s)));
-    if m >= top {
+    if m >= 65536.0 {
         s -= 1;
         m = libm::round(v * libm::exp2(f64::from(s)));
     }
     if !(0..=63).contains(&s) {
         return Err(bad);
     }
-    Ok((m as u32, s as u8))
+    Ok((m as u16, s as u8))
 }
 
 /// The integer coefficients of a validated design.
 pub(crate) fn parts(cf: &ClosedForm) -> Result<FixedPointParts, Error> {
     let s = cf.scaling();
-    let (k_mant, k_shift) = normalise(cf.kx(), 32)?;
-    let (t_mant, t_shift) = normalise(cf.ticks_per_rad(), 16)?;
-    let t_mant = t_mant as u16;
+    let (k_mant, k_shift) = normalise(cf.kx())?;
+    let (t_mant, t_shift) = normalise(cf.ticks_per_rad())?;
     let lead_q8 = libm::round(cf.lead_ticks() * 256.0);
     if lead_q8.abs() >= f64::from(1u32 << 30) {
         return Err(Error::OutOfRange {
@@ -132,16 +135,40 @@ const fn range_error(value: f64, max: f64) -> Error {
     }
 }
 
+/// `G = p*Q - x*P` in Q14 from the Q16 `sqrt(1 + x)` and the Q17 arcsine
+/// factor coefficients, rounded to nearest (every Horner partial sum of G
+/// stays below 1.58 in magnitude for any p in 0..=1, so below 2^15 in Q14).
+const fn g_coefficients(p15: u16) -> [i32; 7] {
+    // p*Q_k: Q15 * Q16 = Q31, to Q14; P_k: Q17 to Q14.
+    const fn pq(p15: u16, q: i32) -> i64 {
+        (p15 as i64 * q as i64 + (1 << 16)) >> 17
+    }
+    const fn xp(c: i32) -> i64 {
+        (c as i64 + 4) >> 3
+    }
+    let [q0, q1, q2, q3, q4, q5] = SQRT1P_Q16;
+    let [a0, a1, a2, a3, a4, a5] = ASIN_FACTOR_Q17;
+    [
+        pq(p15, q0) as i32,
+        (pq(p15, q1) - xp(a0)) as i32,
+        (pq(p15, q2) - xp(a1)) as i32,
+        (pq(p15, q3) - xp(a2)) as i32,
+        (pq(p15, q4) - xp(a3)) as i32,
+        (pq(p15, q5) - xp(a4)) as i32,
+        -xp(a5) as i32,
+    ]
+}
+
 impl FixedPoint {
     /// Validate the coefficients (usable in `const` items): code ranges,
     /// normalised mantissas, and the 32-bit bounds of every intermediate at
-    /// the corners of the design range (`x` in Q16 below 2^30, `p*J` below
-    /// 64 wherever ZVS is possible, the Q8 result below 2^30).
+    /// the corners of the design range (`x` in Q24 below 2^30, J below 63
+    /// wherever ZVS is possible, the Q8 result below 2^30).
     ///
     /// # Errors
     /// [`Error::OutOfRange`] naming [`Quantity::AdcCode`],
-    /// [`Quantity::MethodCoefficient`] (the value is the offending bound) or
-    /// [`Quantity::WindowPosition`].
+    /// [`Quantity::NormalizedLoad`], [`Quantity::MethodCoefficient`] (the
+    /// value is the offending bound) or [`Quantity::WindowPosition`].
     pub const fn from_parts(parts: FixedPointParts) -> Result<Self, Error> {
         let p = &parts;
         if p.vin.is_empty() || p.io.is_empty() || p.vin.lo == 0 || p.io.lo <= p.io_zero {
@@ -152,8 +179,8 @@ impl FixedPoint {
                 max: p.io.hi as f64,
             });
         }
-        if p.k_mant < 1 << 31 || p.t_mant < 1 << 15 || p.t_shift > 31 {
-            return Err(range_error(p.k_mant as f64, u32::MAX as f64));
+        if p.k_mant < 1 << 15 || p.t_mant < 1 << 15 || p.t_shift > 31 {
+            return Err(range_error(p.k_mant as f64, 65535.0));
         }
         if p.position_q15 > 1 << 15 {
             return Err(Error::OutOfRange {
@@ -163,12 +190,12 @@ impl FixedPoint {
                 max: 1.0,
             });
         }
-        // The shift of x after the k product, k_shift + e - 40, within 31
+        // The shift of x after the k product, k_shift + e - 24, within 31
         // either way over the current range.
         let e_min = floor_log2((p.io.lo - p.io_zero) as u32) as i32;
         let e_max = floor_log2((p.io.hi - p.io_zero) as u32) as i32;
         let k = p.k_shift as i32;
-        if k + e_max - 40 > 31 || 40 - k - e_min > 31 {
+        if k + e_max - 24 > 31 || 24 - k - e_min > 31 {
             return Err(range_error(p.k_shift as f64, 63.0));
         }
         let (out_right, out_left) = if p.t_shift >= 8 {
@@ -178,6 +205,7 @@ impl FixedPoint {
         };
         let me = Self {
             parts,
+            g: g_coefficients(p.position_q15),
             out_right,
             out_left,
         };
@@ -186,22 +214,20 @@ impl FixedPoint {
         if x_max >= 1 << 30 {
             return Err(range_error(x_max as f64 / 16_777_216.0, 64.0));
         }
-        if x_min <= ONE_Q24 {
-            // J = 1/x in Q10 must fit 16 bits wherever ZVS is possible:
-            // J below 63 (x in Q16 at least 1041).
-            if (x_min >> 8) < 1041 {
-                return Err(Error::OutOfRange {
-                    quantity: Quantity::NormalizedLoad,
-                    value: 16_777_216.0 / x_min as f64,
-                    min: 0.0,
-                    max: 63.0,
-                });
-            }
+        // J = 1/x in Q10 must fit 16 bits wherever ZVS is possible: J below
+        // 63 (x in Q16 at least 1041).
+        if x_min <= ONE_Q24 && (x_min >> 8) < 1041 {
+            return Err(Error::OutOfRange {
+                quantity: Quantity::NormalizedLoad,
+                value: 16_777_216.0 / x_min as f64,
+                min: 0.0,
+                max: 63.0,
+            });
         }
         // The largest angle: the larger of the valley at x_max and the ZVS
-        // branch bound (the window, J*sqrt(2) < 92 rad).
-        let big = if x_max > ONE_Q24 { x_max >> 8 } else { ONE_Q16 };
-        let theta_max = big + THREE_HALF_PI_Q16 + (92 << 16);
+        // branch bound (|sqrt(1-x) G(x) / x| < 1.6 * 63 rad).
+        let big = if x_max > ONE_Q24 { x_max >> 8 } else { 1 << 16 };
+        let theta_max = big + THREE_HALF_PI_Q16 + (101 << 16);
         let r8 = (mul_shr(theta_max, p.t_mant, 16) >> out_right) as u64;
         if r8 << out_left >= 1 << 30 {
             return Err(range_error(
@@ -228,11 +254,9 @@ impl FixedPoint {
         // 1/i = y / 2^s; a = v*y / 2^8 (below 2^32 for 16-bit codes).
         let (y, s) = recip_q23(i);
         let a = mul_shr(y, v as u16, 8);
-        // m = floor(k_mant * a / 2^32) by two 16-bit halves of k_mant.
-        let m = mul_shr(a, (p.k_mant >> 16) as u16, 16)
-            .wrapping_add(mul_shr(a, p.k_mant as u16, 16) >> 16);
-        // x * 2^24 = m * 2^(64 - k_shift - s).
-        let sh = (p.k_shift as i32).wrapping_add(s as i32).wrapping_sub(64);
+        let m = mul_shr(a, p.k_mant, 16);
+        // x * 2^24 = m * 2^(48 - k_shift - s).
+        let sh = (p.k_shift as i32).wrapping_add(s as i32).wrapping_sub(48);
         if sh >= 0 {
             m.wrapping_shr(sh as u32)
         } else {
@@ -240,80 +264,64 @@ impl FixedPoint {
         }
     }
 
-    /// An angle in Q16 radians as a delay in Q8 ticks, less the lead.
-    #[inline]
-    fn q8(&self, theta: u32) -> i32 {
-        let r8 = (mul_shr(theta, self.parts.t_mant, 16) >> self.out_right) << self.out_left;
-        (r8 as i32).wrapping_sub(self.parts.lead_q8)
-    }
-
-    /// The target delay before rounding and, where ZVS is possible, the
-    /// window's opening and closing delays, ticks in Q8.
-    #[inline]
-    fn eval(&self, vin: AdcCode, io: AdcCode) -> (i32, Option<(i32, i32)>) {
-        let p = &self.parts;
-        let v = u32::from(p.vin.clamp(vin));
-        let i = u32::from(p.io.clamp(io).wrapping_sub(p.io_zero));
-        let x24 = self.x_q24(v, i);
-        let x = x24 >> 8;
-        let base = x.wrapping_add(THREE_HALF_PI_Q16);
-        if x24 > ONE_Q24 {
-            return (self.q8(base), None);
-        }
-        // sqrt(1 - x) in Q15 (at most 2^15, so it fits 16 bits).
-        let r = sqrt_q24(ONE_Q24.wrapping_sub(x24)) as u16;
-        // J = 2^16 / X in Q10 (below 2^16: validated), 1/X = yx / 2^sx.
-        let (yx, sx) = recip_q23(x);
-        let j10 = yx.wrapping_shr(sx.wrapping_sub(26));
-        let jq12 = mul_shr(sqrt1p_q16(x), j10 as u16, 14);
-        // Window width sqrt(1 - x^2)/x = r * sqrt(1 + x) * J, Q16 radians.
-        let width = mul_shr(jq12, r, 11);
-        let open = base.wrapping_sub(mul_shr(asin_factor_q17(x), r, 16));
-        let target = open.wrapping_add(mul_shr(width, p.position_q15, 15));
-        (
-            self.q8(target),
-            Some((self.q8(open), self.q8(open.wrapping_add(width)))),
-        )
-    }
-
     /// The delay before rounding, ticks in Q8 (`ticks * 256`), and whether
     /// the point is ZVS-capable (x <= 1). Integer-only; never panics.
     #[inline]
     #[must_use]
     pub fn raw_ticks_q8(&self, vin: AdcCode, io: AdcCode) -> (i32, bool) {
-        let (t, w) = self.eval(vin, io);
-        (t, w.is_some())
+        let p = &self.parts;
+        let v = u32::from(p.vin.clamp(vin));
+        let i = u32::from(p.io.clamp(io).wrapping_sub(p.io_zero));
+        let x24 = self.x_q24(v, i);
+        let x = x24 >> 8;
+        let mut theta = x.wrapping_add(THREE_HALF_PI_Q16);
+        let zvs = x24 <= ONE_Q24;
+        if zvs {
+            // sqrt(1 - x) in Q15.
+            let r = sqrt_q24(ONE_Q24.wrapping_sub(x24)) as i32;
+            // J = 2^16 / X in Q10 (X >= 1041 here, validated): 1/X = y / 2^s.
+            let (yx, sx) = recip_q15(x);
+            let j10 = yx.wrapping_shr(sx.wrapping_sub(26)) as i32;
+            // G(x) in Q14 by Horner (x in Q16).
+            let xi = x as i32;
+            let [g0, g1, g2, g3, g4, g5, g6] = self.g;
+            let mut acc = g6;
+            acc = g5.wrapping_add(acc.wrapping_mul(xi) >> 16);
+            acc = g4.wrapping_add(acc.wrapping_mul(xi) >> 16);
+            acc = g3.wrapping_add(acc.wrapping_mul(xi) >> 16);
+            acc = g2.wrapping_add(acc.wrapping_mul(xi) >> 16);
+            acc = g1.wrapping_add(acc.wrapping_mul(xi) >> 16);
+            let g = g0.wrapping_add(acc.wrapping_mul(xi) >> 16);
+            // sqrt(1 - x) * G * J in Q16: Q15*Q14 >> 15 = Q14; * Q10 >> 8.
+            let rg = r.wrapping_mul(g) >> 15;
+            theta = theta.wrapping_add_signed(rg.wrapping_mul(j10) >> 8);
+        }
+        let r8 = (mul_shr(theta, p.t_mant, 16) >> self.out_right) << self.out_left;
+        ((r8 as i32).wrapping_sub(p.lead_q8), zvs)
     }
 
-    /// The delay to command: the nearest tick inside the window (or, where
-    /// none is, the nearest), clamped to the counter, with the fallback
-    /// below the ZVS boundary.
+    /// The delay to command, rounded to the nearest tick and clamped to the
+    /// counter, with the fallback below the ZVS boundary.
     #[inline]
     pub fn delay(&self, vin: AdcCode, io: AdcCode) -> Lookup {
-        let max = self.parts.max_ticks;
-        let (target, window) = self.eval(vin, io);
-        if window.is_none() {
+        let (raw, zvs) = self.raw_ticks_q8(vin, io);
+        if !zvs {
             if let Fallback::Fixed(t) = self.parts.fallback {
-                return Lookup { ticks: t, zvs: false };
+                return Lookup { ticks: t, zvs };
             }
         }
-        let mut t = if target <= 0 {
+        let t = if raw <= 0 {
             0
         } else {
-            target.wrapping_add(128) >> 8
+            (raw.wrapping_add(128) >> 8) as u32
         };
-        if let Some((open, close)) = window {
-            let t8 = t.wrapping_shl(8);
-            if t8 < open && t8.wrapping_add(256) <= close {
-                t = t.wrapping_add(1);
-            } else if t8 > close && t8.wrapping_sub(256) >= open {
-                t = t.wrapping_sub(1);
-            }
-        }
-        let t = t.max(0) as u32;
         Lookup {
-            ticks: Ticks::new(if t > max { max } else { t }),
-            zvs: window.is_some(),
+            ticks: Ticks::new(if t > self.parts.max_ticks {
+                self.parts.max_ticks
+            } else {
+                t
+            }),
+            zvs,
         }
     }
 }

@@ -45,37 +45,34 @@ pub const fn log2_q15(c: u32) -> u32 {
         .wrapping_add(b.wrapping_sub(a).wrapping_mul(r).wrapping_add(512) >> 10)
 }
 
-/// floor(log2(t)) for t >= 1 by a five-step binary search (0 for 0): a
-/// handful of instructions on every core, where a leading-zero count is a
-/// library call on ARMv6-M. The C export uses the same steps.
+/// floor(log2(b)) for each byte value b (0 for 0). Built at compile time
+/// (an index out of range would be a compile error, not a run-time panic).
+#[allow(clippy::indexing_slicing)]
+const LOG2_BYTE: [u8; 256] = {
+    let mut t = [0u8; 256];
+    let mut b = 2;
+    while b < 256 {
+        t[b] = t[b / 2] + 1;
+        b += 1;
+    }
+    t
+};
+
+/// floor(log2(t)) for t >= 1 (0 for 0): two halving steps and a 256-byte
+/// table, a handful of instructions on every core, where a leading-zero
+/// count is a library call on ARMv6-M. The C export computes the same value
+/// by a binary search.
 #[inline]
 #[must_use]
-pub const fn floor_log2(mut t: u32) -> u32 {
-    let mut e = 0;
-    if t >= 1 << 16 {
-        t >>= 16;
-        e += 16;
-    }
-    if t >= 1 << 8 {
-        t >>= 8;
-        e += 8;
-    }
-    if t >= 1 << 4 {
-        t >>= 4;
-        e += 4;
-    }
-    if t >= 1 << 2 {
-        t >>= 2;
-        e += 2;
-    }
-    if t >= 2 {
-        e += 1;
-    }
-    e
+pub const fn floor_log2(t: u32) -> u32 {
+    let (t, e) = if t >= 1 << 16 { (t >> 16, 16) } else { (t, 0) };
+    let (t, e) = if t >= 1 << 8 { (t >> 8, e + 8) } else { (t, e) };
+    // t < 256 here; the mask makes the bound visible to the compiler.
+    #[allow(clippy::indexing_slicing)]
+    let b = LOG2_BYTE[(t & 0xff) as usize];
+    e + b as u32
 }
 
-/// Entry `k` of [`LOG2_Q15`], 2^15 past its end (k <= 64 here: the
-/// mantissa's top six bits).
 #[inline]
 const fn table_at(k: usize) -> u32 {
     match LOG2_Q15.split_at_checked(k) {
