@@ -5,7 +5,11 @@
 #
 #   embedded-example/qemu.sh cortex-m4f     # thumbv7em-none-eabihf on mps2-an386
 #   embedded-example/qemu.sh cortex-m0      # thumbv6m-none-eabi on mps2-an385
-#   PANIC_NEVER=1 embedded-example/qemu.sh cortex-m0   # only link the panic-free proof build
+#   PANIC_NEVER=1 embedded-example/qemu.sh cortex-m0   # only link the panic-free proof builds
+#
+# The proof builds (one per runtime method, plus `table-any` for any
+# validated table and `none`, the sweep alone) also give each method's
+# flash bytes: text + rodata of its build less that of `none`.
 #
 # Toolchain: the rustup toolchain when it has the thumb target installed
 # (`rustup target add thumbv7em-none-eabihf thumbv6m-none-eabi`); otherwise
@@ -48,26 +52,43 @@ if ! command -v defmt-print >/dev/null 2>&1; then
   cargo install --locked --quiet defmt-print
 fi
 
-features=()
+upper=$(echo "$triple" | tr 'a-z-' 'A-Z_')
+build() {
+  if [ "$route" = rustup ]; then
+    cargo build --quiet --release --target "$triple" "$@"
+  else
+    env RUSTC=/usr/bin/rustc RUSTC_BOOTSTRAP=1 "CARGO_TARGET_${upper}_LINKER=ld.lld-16" \
+      /usr/bin/cargo build --quiet --release -Z build-std=core --target "$triple" "$@"
+  fi
+}
+# Bytes of the ELF section named $2 of $1 (readelf works on any ELF).
+sec() { local h; h=$(readelf -S -W "$1" | sed 's/^ *\[ *[0-9]*\] *//' | awk -v n="$2" '$1 == n { print $5 }' | head -n 1); echo $((16#${h:-0})); }
+flash_of() { echo $(( $(sec "$1" .text) + $(sec "$1" .rodata) + $(sec "$1" .vector_table) )); }
+
 if [ -n "${PANIC_NEVER:-}" ]; then
-  # The proof build has no logging and links without defmt's linker
+  # The proof builds have no logging and link without defmt's linker
   # script (which keeps defmt's own panic hook alive on purpose).
-  features=(--no-default-features --features panic-never)
   export RUSTFLAGS="-C link-arg=-Tlink.x"
   export CARGO_TARGET_DIR="$here/target/panic-never"
-fi
-upper=$(echo "$triple" | tr 'a-z-' 'A-Z_')
-if [ "$route" = rustup ]; then
-  cargo build --quiet --release --target "$triple" "${features[@]}"
-else
-  env RUSTC=/usr/bin/rustc RUSTC_BOOTSTRAP=1 "CARGO_TARGET_${upper}_LINKER=ld.lld-16" \
-    /usr/bin/cargo build --quiet --release -Z build-std=core --target "$triple" "${features[@]}"
-fi
-elf="${CARGO_TARGET_DIR:-target}/$triple/release/embedded-example"
-if [ -n "${PANIC_NEVER:-}" ]; then
-  echo "PANIC-NEVER target=$target_name linked=yes (no panic path survives in the firmware)"
+  elf="$CARGO_TARGET_DIR/$triple/release/embedded-example"
+  base=0
+  for m in none table table-any closed-form-f32 fixed-point libm-f32; do
+    if ! build --no-default-features --features "proof-$m"; then
+      echo "PANIC-NEVER target=$target_name method=$m linked=no (a panic path survives, see the undefined symbol above)" >&2
+      exit 1
+    fi
+    bytes=$(flash_of "$elf")
+    if [ "$m" = none ]; then
+      base=$bytes
+      continue
+    fi
+    echo "PANIC-NEVER target=$target_name method=$m linked=yes (no panic path survives)"
+    [ "$m" = table-any ] || echo "FLASH target=$target_name method=$m bytes=$((bytes - base))"
+  done
   exit 0
 fi
+build
+elf="target/$triple/release/embedded-example"
 
 raw=$(mktemp)
 trap 'rm -f "$raw"' EXIT
@@ -80,24 +101,24 @@ set -e
 log=$(defmt-print -e "$elf" < "$raw")
 echo "$log"
 
-# Memory: sections of the ELF (readelf works on any ELF), and the table's share.
-sec() { local h; h=$(readelf -S -W "$elf" | sed 's/^ *\[ *[0-9]*\] *//' | awk -v n="$1" '$1 == n { print $5 }' | head -n 1); echo $((16#${h:-0})); }
-text=$(( $(sec .text || echo 0) + $(sec .rodata || echo 0) + $(sec .vector_table || echo 0) ))
-ram=$(( $(sec .data || echo 0) + $(sec .bss || echo 0) + $(sec .uninit || echo 0) ))
+# Memory: sections of the ELF, and the tables' share (the build-time
+# entries plus the flash blob, whose size the firmware logs).
+text=$(flash_of "$elf")
+ram=$(( $(sec "$elf" .data) + $(sec "$elf" .bss) + $(sec "$elf" .uninit) ))
 sym() { readelf -s -W "$elf" | awk -v n="$1" '$8 ~ n { s += $3 } END { print s + 0 }'; }
-blob_bytes=$(stat -c %s "$here/../tables/winch_aux.bin")
-# The build-time table's entries plus the flash blob (included whole).
-table=$(( $(sym 'ENTRIES') + blob_bytes ))
+blob_bytes=$(echo "$log" | sed -n 's/.*table blob accepted: \([0-9]*\) bytes.*/\1/p' | head -n 1)
+table=$(( $(sym 'ENTRIES') + ${blob_bytes:-0} ))
 
 echo
 echo "$log" | grep -o 'ZVS-SUMMARY .*' || true
 echo "$log" | grep -o 'ISR-COST .*' || true
+echo "$log" | grep -o 'METHOD-RUN .*' || true
 echo "MEMORY target=$target_name table_flash_bytes=$table text_bytes=$text ram_bytes=$ram"
 
 summary=$(echo "$log" | grep -o 'ZVS-SUMMARY .*' || true)
 early=$(echo "$summary" | sed -n 's/.* early=\([0-9]*\).*/\1/p')
 late=$(echo "$summary" | sed -n 's/.* late=\([0-9]*\).*/\1/p')
 if [ -z "$summary" ] || [ "$qemu_rc" -ne 0 ] || [ "${early:-1}" != 0 ] || [ "${late:-1}" != 0 ]; then
-  echo "qemu.sh: FAILED (qemu exit $qemu_rc, early=${early:-?}, late=${late:-?})" >&2
+  echo "qemu.sh: FAILED (qemu exit $qemu_rc, table early=${early:-?}, late=${late:-?}; see METHOD-RUN lines for the others)" >&2
   exit 1
 fi

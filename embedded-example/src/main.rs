@@ -48,6 +48,18 @@ const METHODS: [&str; 4] = ["table", "closed-form-f32", "fixed-point", "libm-f32
 /// The same table as a `.bin` blob placed in flash, checked at start-up.
 static BLOB: &[u8] = include_bytes!(concat!(env!("OUT_DIR"), "/winch_aux.bin"));
 
+#[cfg(all(
+    feature = "panic-never",
+    not(any(
+        feature = "proof-none",
+        feature = "proof-table",
+        feature = "proof-table-any",
+        feature = "proof-closed-form-f32",
+        feature = "proof-fixed-point",
+        feature = "proof-libm-f32"
+    ))
+))]
+compile_error!("the panic-free proof build needs one `proof-<method>` feature (see qemu.sh)");
 #[cfg(all(feature = "panic-never", feature = "log"))]
 compile_error!(
     "build the panic-free proof without logging: --no-default-features --features panic-never"
@@ -166,34 +178,49 @@ fn main() -> ! {
                 timing_core::AdcCode::new(core::hint::black_box(v)),
                 timing_core::AdcCode::new(i),
             );
-            proof_step();
-            acc = acc.wrapping_add(hw::commanded().get());
+            acc = acc.wrapping_add(proof_step().get());
         }
     }
     exit(core::hint::black_box(acc) != 0)
 }
 
+/// One step of the proof sweep: the selected method's compute path, and
+/// the register it wrote (read back, so the work cannot be optimised away).
 #[cfg(feature = "panic-never")]
 #[inline(always)]
-fn proof_step() {
+fn proof_step() -> timing_core::Ticks {
     #[cfg(feature = "proof-table")]
-    compute(0);
+    {
+        compute(0);
+        hw::commanded()
+    }
     #[cfg(feature = "proof-closed-form-f32")]
-    compute(1);
+    {
+        compute(1);
+        hw::shadow(1)
+    }
     #[cfg(feature = "proof-fixed-point")]
-    compute(2);
+    {
+        compute(2);
+        hw::shadow(2)
+    }
     #[cfg(feature = "proof-libm-f32")]
-    compute(3);
+    {
+        compute(3);
+        hw::shadow(3)
+    }
     #[cfg(feature = "proof-table-any")]
     {
         let t = core::hint::black_box(built::TABLE);
         let (vin, io) = hw::read_adc();
         hw::write_compare(t.delay(vin, io).ticks);
+        hw::commanded()
     }
     #[cfg(feature = "proof-none")]
     {
         let (vin, io) = hw::read_adc();
         hw::write_compare(timing_core::Ticks::new(u32::from(vin.get() ^ io.get())));
+        hw::commanded()
     }
 }
 
