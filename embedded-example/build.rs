@@ -3,14 +3,12 @@
 //! on the target core, writes its `.bin` blob for the flash copy, and puts
 //! `memory.x` on the linker path.
 //!
-//! Layout per core: ARMv7E-M has a divide instruction, so the compact
-//! `ratio` layout (one division); ARMv6-M has none (a division is a library
-//! call of ~100 instructions), so `recip-ratio`, which trades two bytes of
-//! flash per current code for one multiplication.
+//! Layout per core: `host_tool::export::firmware_layout` (ARMv7E-M: the
+//! compact `ratio` layout, one division; ARMv6-M, which has no divide
+//! instruction: `recip-ratio`, a reciprocal table and one multiplication).
+//! The closed-form methods' coefficients come from the same design.
 
 use std::path::PathBuf;
-
-use host_tool::design::LayoutChoice;
 
 fn main() {
     let out = PathBuf::from(std::env::var("OUT_DIR").expect("OUT_DIR"));
@@ -19,11 +17,7 @@ fn main() {
     let design = manifest.join("../tables/winch_aux.toml");
     println!("cargo:rerun-if-changed={}", design.display());
     println!("cargo:rerun-if-changed=memory.x");
-    let layout = if target.starts_with("thumbv6m") {
-        LayoutChoice::RecipRatio
-    } else {
-        LayoutChoice::Ratio
-    };
+    let layout = host_tool::export::firmware_layout(&target);
     let (source, blob) =
         host_tool::export::firmware_table(&design, Some(layout)).unwrap_or_else(|e| panic!("{e}"));
     std::fs::write(out.join("winch_aux_table.rs"), source).expect("write table source");

@@ -563,6 +563,20 @@ pub fn rust_source_for_design_file(path: &std::path::Path) -> Result<String, Str
     firmware_table(path, None).map(|(source, _)| source)
 }
 
+/// The table layout a firmware build for the target triple `target` asks
+/// for: ARMv6-M has no divide instruction (a division is a library call of
+/// about a hundred instructions), so `recip-ratio`, which trades two bytes
+/// of flash per current code for one multiplication; cores with a divider
+/// get the compact `ratio` layout (one division).
+#[must_use]
+pub fn firmware_layout(target: &str) -> crate::design::LayoutChoice {
+    if target.starts_with("thumbv6m") {
+        crate::design::LayoutChoice::RecipRatio
+    } else {
+        crate::design::LayoutChoice::Ratio
+    }
+}
+
 /// The Rust source and the `.bin` blob of the table for the design file at
 /// `path`, with the layout choice overridden by `layout` when given (a
 /// firmware build picks the layout that is fastest on its core). For

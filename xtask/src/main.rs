@@ -5,6 +5,11 @@
 //!   all features. Uses the rustup toolchain when it has the targets
 //!   installed; otherwise Debian's `rustc-web`/`rust-web-src` route with
 //!   `-Z build-std=core` (DESIGN.md section 5).
+//! - `methods [--check]`: measure every runtime method on both cores (QEMU
+//!   instruction counts, proof-build flash bytes, host proofs of the worst
+//!   error) and rewrite the README's table of them, or check it.
+
+mod methods;
 
 use std::path::Path;
 use std::process::{Command, ExitCode};
@@ -84,7 +89,14 @@ fn main() -> ExitCode {
     let chore = std::env::args().nth(1).unwrap_or_default();
     let result = match chore.as_str() {
         "thumb" => thumb(),
-        _ => Err(format!("unknown chore `{chore}`; chores: thumb")),
+        "methods" => {
+            let check = std::env::args().nth(2).is_some_and(|a| a == "--check");
+            let root = Path::new(env!("CARGO_MANIFEST_DIR")).join("..");
+            methods::methods(&root, check)
+        }
+        _ => Err(format!(
+            "unknown chore `{chore}`; chores: thumb, methods [--check]"
+        )),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,
