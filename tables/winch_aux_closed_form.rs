@@ -4,8 +4,8 @@
 // 2749050 code pairs (codes outside vin 2237..=3726 / io 205..=2049 clamp to the range edge):
 // closed-form-f32: approximation error at most 0.0002 ticks before rounding; commanded error at most 0.567 ticks (RMS 0.284);
 //   2005 of 1845157 ZVS turn-ons outside the window.
-// fixed-point: approximation error at most 0.0078 ticks before rounding; commanded error at most 0.564 ticks (RMS 0.284);
-//   2039 of 1845157 ZVS turn-ons outside the window.
+// fixed-point: approximation error at most 0.0064 ticks before rounding; commanded error at most 0.505 ticks (RMS 0.284);
+//   2813 of 1845157 ZVS turn-ons outside the window.
 // libm-f32: approximation error at most 0.0002 ticks before rounding; commanded error at most 0.567 ticks (RMS 0.284);
 //   2005 of 1845157 ZVS turn-ons outside the window.
 // CAUTION: verify every delay at reduced voltage with a scope before full-voltage operation.

@@ -6,16 +6,16 @@
 //! Q14, and `sqrt(t) = t * y` shifted back: an absolute error of about 2.4e-4,
 //! which is what the turn-on angle needs (the root multiplies terms of
 //! order one). [`SQRT_Q24_MAX_ERROR`] is
-//! checked at every input 0..=2^24 by the `sqrt_q24_exhaustive` test
+//! checked at every input 0..2^24 by the `sqrt_q24_exhaustive` test
 //! (measured 7.7, i.e. 2.4e-4).
 
 use crate::table::log2::floor_log2;
 
-/// Largest absolute error of [`sqrt_q24`] over 0 <= t <= 2^24, in units of
+/// Largest absolute error of [`sqrt_q24`] over 0 <= t < 2^24, in units of
 /// the result (2^-15).
 pub const SQRT_Q24_MAX_ERROR: f64 = 8.0;
 
-/// `sqrt(t / 2^24) * 2^15` (Q24 in, Q15 out) for `0 <= t <= 2^24`, within
+/// `sqrt(t / 2^24) * 2^15` (Q24 in, Q15 out) for `0 <= t < 2^24`, within
 /// [`SQRT_Q24_MAX_ERROR`] units of 2^-15. Larger `t` give a meaningless but
 /// finite result; never panics. Seven multiplications.
 #[inline]
@@ -25,12 +25,9 @@ pub const fn sqrt_q24(t: u32) -> u32 {
         return 0;
     }
     let k = floor_log2(t) >> 1;
-    // tn = t * 2^(14 - 2k), in [2^14, 2^16).
-    let tn = if k <= 7 {
-        t.wrapping_shl(14u32.wrapping_sub(k.wrapping_mul(2)))
-    } else {
-        t.wrapping_shr(k.wrapping_mul(2).wrapping_sub(14))
-    };
+    // tn = t * 2^(14 - 2k), in [2^14, 2^16): up by 22 - 2k (at least 0 for
+    // t < 2^24), down by 8.
+    let tn = t.wrapping_shl(22u32.wrapping_sub(k.wrapping_mul(2))) >> 8;
     // 1/sqrt(tn/2^16) in Q14.
     let y = 34_898u32.wrapping_sub(tn.wrapping_mul(19_907) >> 16);
     let y = rsqrt_step(y, tn);
@@ -52,7 +49,7 @@ mod tests {
     #[test]
     fn sqrt_q24_exhaustive() {
         let mut worst = (0.0f64, 0u32);
-        for t in 0..=(1u32 << 24) {
+        for t in 0..(1u32 << 24) {
             let exact = (f64::from(t) / 16_777_216.0).sqrt() * 32768.0;
             let e = (f64::from(sqrt_q24(t)) - exact).abs();
             if e > worst.0 {

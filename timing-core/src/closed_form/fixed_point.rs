@@ -1,5 +1,5 @@
 //! The closed form in 32-bit integer arithmetic, for cores without an FPU
-//! or a divide instruction: reciprocals by [`recip_q23`] and [`recip_q15`]
+//! or a divide instruction: reciprocals by [`recip_q23`] and [`recip_q15_normalised`]
 //! (Newton), the root by [`sqrt_q24`] (Newton), and one polynomial
 //! `G(x) = p*sqrt(1 + x) - x*P(x)` built from the [`sqrt1p_q16`] and
 //! [`asin_factor_q17`] fits, so that the ZVS turn-on angle is
@@ -9,7 +9,7 @@
 //! Formats: `x = 1/J` in Q24 (fine enough that `sqrt(1 - x)` near the ZVS
 //! boundary, where it is steep, stays within a few thousandths of a tick),
 //! Q16 for the polynomial and for the angle in radians, the root in Q15,
-//! `G` in Q14, `J` in Q10, the result in Q8 ticks. The bounds that keep
+//! `G` in Q15, `J` in Q10, the result in Q8 ticks. The bounds that keep
 //! every intermediate within 32 bits are checked once by
 //! [`FixedPoint::from_parts`], at the corners of the design range.
 //!
@@ -20,11 +20,11 @@
 use super::ClosedForm;
 use crate::approx::asin_q::ASIN_FACTOR_Q17;
 use crate::approx::mul_shr::mul_shr;
-use crate::approx::recip_q::{recip_q15, recip_q23};
+use crate::approx::recip_q::{recip_q15_normalised, recip_q23};
 use crate::approx::sqrt1p_q::SQRT1P_Q16;
 use crate::approx::sqrt_q::sqrt_q24;
 use crate::error::{Error, Quantity};
-use crate::table::log2::floor_log2;
+use crate::table::log2::{floor_log2, floor_log2_byte};
 use crate::table::{Fallback, Lookup};
 use crate::{AdcCode, CodeRange, Ticks};
 
@@ -45,8 +45,10 @@ pub struct FixedPointParts {
     pub io: CodeRange,
     /// Current code that reads 0 A.
     pub io_zero: u16,
-    /// `kx = k_mant * 2^-k_shift` (`k_mant` in [2^15, 2^16)).
-    pub k_mant: u16,
+    /// `kx = k_mant * 2^-k_shift` (`k_mant` in [2^31, 2^32): 32 bits, as a
+    /// relative error of 2^-16 in x would cost a few thousandths of a
+    /// radian near the ZVS boundary).
+    pub k_mant: u32,
     /// See `k_mant`.
     pub k_shift: u8,
     /// Ticks per radian `= t_mant * 2^-t_shift` (`t_mant` in [2^15, 2^16)).
@@ -68,14 +70,15 @@ pub struct FixedPointParts {
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct FixedPoint {
     parts: FixedPointParts,
-    /// `G(x)` in Q14, lowest order first (degree 6).
-    g: [i32; 7],
+    /// `G(x)` in Q15, lowest order first (degree 5).
+    g: [i32; 6],
     out_right: u32,
     out_left: u32,
 }
 
-/// Mantissa in [2^15, 2^16) and shift of a positive value: `v ~= m * 2^-s`.
-fn normalise(v: f64) -> Result<(u16, u8), Error> {
+/// Mantissa in [2^(bits-1), 2^bits) and shift of a positive value:
+/// `v ~= m * 2^-s`.
+fn normalise(v: f64, bits: i32) -> Result<(u32, u8), Error> {
     let bad = Error::OutOfRange {
         quantity: Quantity::MethodCoefficient,
         value: v,
@@ -85,23 +88,25 @@ fn normalise(v: f64) -> Result<(u16, u8), Error> {
     if !(v.is_finite() && v > 1.0e-12 && v < 65535.5) {
         return Err(bad);
     }
-    let mut s = 15 - libm::floor(libm::log2(v)) as i32;
+    let top = libm::exp2(f64::from(bits));
+    let mut s = bits - 1 - libm::floor(libm::log2(v)) as i32;
     let mut m = libm::round(v * libm::exp2(f64::from(s)));
-    if m >= 65536.0 {
+    if m >= top {
         s -= 1;
         m = libm::round(v * libm::exp2(f64::from(s)));
     }
     if !(0..=63).contains(&s) {
         return Err(bad);
     }
-    Ok((m as u16, s as u8))
+    Ok((m as u32, s as u8))
 }
 
 /// The integer coefficients of a validated design.
 pub(crate) fn parts(cf: &ClosedForm) -> Result<FixedPointParts, Error> {
     let s = cf.scaling();
-    let (k_mant, k_shift) = normalise(cf.kx())?;
-    let (t_mant, t_shift) = normalise(cf.ticks_per_rad())?;
+    let (k_mant, k_shift) = normalise(cf.kx(), 32)?;
+    let (t_mant, t_shift) = normalise(cf.ticks_per_rad(), 16)?;
+    let t_mant = t_mant as u16;
     let lead_q8 = libm::round(cf.lead_ticks() * 256.0);
     if lead_q8.abs() >= f64::from(1u32 << 30) {
         return Err(Error::OutOfRange {
@@ -135,19 +140,20 @@ const fn range_error(value: f64, max: f64) -> Error {
     }
 }
 
-/// `G = p*Q - x*P` in Q14 from the Q16 `sqrt(1 + x)` and the Q17 arcsine
-/// factor coefficients, rounded to nearest (every Horner partial sum of G
-/// stays below 1.58 in magnitude for any p in 0..=1, so below 2^15 in Q14).
-const fn g_coefficients(p15: u16) -> [i32; 7] {
-    // p*Q_k: Q15 * Q16 = Q31, to Q14; P_k: Q17 to Q14.
+/// `G = p*Q - x*P` in Q15 from the Q16 `sqrt(1 + x)` and the Q17 arcsine
+/// factor coefficients, rounded to nearest. Every Horner partial sum of G
+/// stays below 1.58 in magnitude for any p in 0..=1 (below 2^16 in Q15),
+/// so with x in Q15 each product fits 31 bits.
+const fn g_coefficients(p15: u16) -> [i32; 6] {
+    // p*Q_k: Q15 * Q16 = Q31, to Q15; P_k: Q17 to Q15.
     const fn pq(p15: u16, q: i32) -> i64 {
-        (p15 as i64 * q as i64 + (1 << 16)) >> 17
+        (p15 as i64 * q as i64 + (1 << 15)) >> 16
     }
     const fn xp(c: i32) -> i64 {
-        (c as i64 + 4) >> 3
+        (c as i64 + 2) >> 2
     }
     let [q0, q1, q2, q3, q4, q5] = SQRT1P_Q16;
-    let [a0, a1, a2, a3, a4, a5] = ASIN_FACTOR_Q17;
+    let [a0, a1, a2, a3, a4] = ASIN_FACTOR_Q17;
     [
         pq(p15, q0) as i32,
         (pq(p15, q1) - xp(a0)) as i32,
@@ -155,7 +161,6 @@ const fn g_coefficients(p15: u16) -> [i32; 7] {
         (pq(p15, q3) - xp(a2)) as i32,
         (pq(p15, q4) - xp(a3)) as i32,
         (pq(p15, q5) - xp(a4)) as i32,
-        -xp(a5) as i32,
     ]
 }
 
@@ -179,8 +184,8 @@ impl FixedPoint {
                 max: p.io.hi as f64,
             });
         }
-        if p.k_mant < 1 << 15 || p.t_mant < 1 << 15 || p.t_shift > 31 {
-            return Err(range_error(p.k_mant as f64, 65535.0));
+        if p.k_mant < 1 << 31 || p.t_mant < 1 << 15 || p.t_shift > 31 {
+            return Err(range_error(p.k_mant as f64, u32::MAX as f64));
         }
         if p.position_q15 > 1 << 15 {
             return Err(Error::OutOfRange {
@@ -190,12 +195,12 @@ impl FixedPoint {
                 max: 1.0,
             });
         }
-        // The shift of x after the k product, k_shift + e - 24, within 31
+        // The shift of x after the k product, k_shift + e - 40, within 31
         // either way over the current range.
         let e_min = floor_log2((p.io.lo - p.io_zero) as u32) as i32;
         let e_max = floor_log2((p.io.hi - p.io_zero) as u32) as i32;
         let k = p.k_shift as i32;
-        if k + e_max - 24 > 31 || 24 - k - e_min > 31 {
+        if k + e_max - 40 > 31 || 40 - k - e_min > 31 {
             return Err(range_error(p.k_shift as f64, 63.0));
         }
         let (out_right, out_left) = if p.t_shift >= 8 {
@@ -215,8 +220,9 @@ impl FixedPoint {
             return Err(range_error(x_max as f64 / 16_777_216.0, 64.0));
         }
         // J = 1/x in Q10 must fit 16 bits wherever ZVS is possible: J below
-        // 63 (x in Q16 at least 1041).
-        if x_min <= ONE_Q24 && (x_min >> 8) < 1041 {
+        // 63 (x in Q24 at least 266,306, above 2^18; larger x_min leave the
+        // whole range to the valley or to J below 63).
+        if x_min < 266_306 {
             return Err(Error::OutOfRange {
                 quantity: Quantity::NormalizedLoad,
                 value: 16_777_216.0 / x_min as f64,
@@ -254,9 +260,13 @@ impl FixedPoint {
         // 1/i = y / 2^s; a = v*y / 2^8 (below 2^32 for 16-bit codes).
         let (y, s) = recip_q23(i);
         let a = mul_shr(y, v as u16, 8);
-        let m = mul_shr(a, p.k_mant, 16);
-        // x * 2^24 = m * 2^(48 - k_shift - s).
-        let sh = (p.k_shift as i32).wrapping_add(s as i32).wrapping_sub(48);
+        // m = k_mant * a / 2^32 (within 2 units) by the two 16-bit halves of
+        // k_mant: the low half's share is below 2^16, so 16 bits of `a`
+        // suffice for it.
+        let m = mul_shr(a, (p.k_mant >> 16) as u16, 16)
+            .wrapping_add(((a >> 16).wrapping_mul(p.k_mant & 0xffff)) >> 16);
+        // x * 2^24 = m * 2^(64 - k_shift - s).
+        let sh = (p.k_shift as i32).wrapping_add(s as i32).wrapping_sub(64);
         if sh >= 0 {
             m.wrapping_shr(sh as u32)
         } else {
@@ -279,22 +289,31 @@ impl FixedPoint {
         if zvs {
             // sqrt(1 - x) in Q15.
             let r = sqrt_q24(ONE_Q24.wrapping_sub(x24)) as i32;
-            // J = 2^16 / X in Q10 (X >= 1041 here, validated): 1/X = y / 2^s.
-            let (yx, sx) = recip_q15(x);
-            let j10 = yx.wrapping_shr(sx.wrapping_sub(26)) as i32;
-            // G(x) in Q14 by Horner (x in Q16).
-            let xi = x as i32;
-            let [g0, g1, g2, g3, g4, g5, g6] = self.g;
-            let mut acc = g6;
-            acc = g5.wrapping_add(acc.wrapping_mul(xi) >> 16);
-            acc = g4.wrapping_add(acc.wrapping_mul(xi) >> 16);
-            acc = g3.wrapping_add(acc.wrapping_mul(xi) >> 16);
-            acc = g2.wrapping_add(acc.wrapping_mul(xi) >> 16);
-            acc = g1.wrapping_add(acc.wrapping_mul(xi) >> 16);
-            let g = g0.wrapping_add(acc.wrapping_mul(xi) >> 16);
-            // sqrt(1 - x) * G * J in Q16: Q15*Q14 >> 15 = Q14; * Q10 >> 8.
-            let rg = r.wrapping_mul(g) >> 15;
-            theta = theta.wrapping_add_signed(rg.wrapping_mul(j10) >> 8);
+            // J = 2^24 / x24 in Q10 (2^18 <= x24 <= 2^24 here: J < 63,
+            // validated), 1/x24 = y / 2^s; floor(log2 x24) = 18 + one table
+            // read, and x24 cut to its top 16 bits.
+            let up = 3 + floor_log2_byte(x24 >> 18);
+            let (yx, sx) = recip_q15_normalised(x24 >> up, 15 + up);
+            let j10 = yx.wrapping_shr(sx.wrapping_sub(34));
+            // G(x) in Q15 by Horner (x in Q15).
+            let xi = (x24 >> 9) as i32;
+            let [g0, g1, g2, g3, g4, g5] = self.g;
+            let mut acc = g5;
+            acc = g4.wrapping_add(acc.wrapping_mul(xi) >> 15);
+            acc = g3.wrapping_add(acc.wrapping_mul(xi) >> 15);
+            acc = g2.wrapping_add(acc.wrapping_mul(xi) >> 15);
+            acc = g1.wrapping_add(acc.wrapping_mul(xi) >> 15);
+            let g = g0.wrapping_add(acc.wrapping_mul(xi) >> 15);
+            // sqrt(1 - x) * G * J in Q16: r*G in Q30 (|r*G| < 1.6), times J
+            // by a full-width product of its magnitude (J amplifies any
+            // truncation of r*G, so none is made before it).
+            let rg = r.wrapping_mul(g);
+            let m = mul_shr(rg.unsigned_abs(), j10 as u16, 16) >> 8;
+            theta = if rg < 0 {
+                theta.wrapping_sub(m)
+            } else {
+                theta.wrapping_add(m)
+            };
         }
         let r8 = (mul_shr(theta, p.t_mant, 16) >> self.out_right) << self.out_left;
         ((r8 as i32).wrapping_sub(p.lead_q8), zvs)
@@ -310,11 +329,9 @@ impl FixedPoint {
                 return Lookup { ticks: t, zvs };
             }
         }
-        let t = if raw <= 0 {
-            0
-        } else {
-            (raw.wrapping_add(128) >> 8) as u32
-        };
+        // Round half up; below zero (a lead longer than the target) gives 0.
+        let r = raw.wrapping_add(128);
+        let t = if r <= 0 { 0 } else { (r >> 8) as u32 };
         Lookup {
             ticks: Ticks::new(if t > self.parts.max_ticks {
                 self.parts.max_ticks

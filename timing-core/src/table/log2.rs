@@ -58,6 +58,17 @@ const LOG2_BYTE: [u8; 256] = {
     t
 };
 
+/// floor(log2(b)) for `b < 256` by one table read (0 for 0; only the low
+/// eight bits of `b` are looked at).
+#[inline]
+#[must_use]
+pub const fn floor_log2_byte(b: u32) -> u32 {
+    // The mask makes the bound visible to the compiler.
+    #[allow(clippy::indexing_slicing)]
+    let e = LOG2_BYTE[(b & 0xff) as usize];
+    e as u32
+}
+
 /// floor(log2(t)) for t >= 1 (0 for 0): two halving steps and a 256-byte
 /// table, a handful of instructions on every core, where a leading-zero
 /// count is a library call on ARMv6-M. The C export computes the same value
@@ -67,10 +78,7 @@ const LOG2_BYTE: [u8; 256] = {
 pub const fn floor_log2(t: u32) -> u32 {
     let (t, e) = if t >= 1 << 16 { (t >> 16, 16) } else { (t, 0) };
     let (t, e) = if t >= 1 << 8 { (t >> 8, e + 8) } else { (t, e) };
-    // t < 256 here; the mask makes the bound visible to the compiler.
-    #[allow(clippy::indexing_slicing)]
-    let b = LOG2_BYTE[(t & 0xff) as usize];
-    e + b as u32
+    e + floor_log2_byte(t)
 }
 
 #[inline]
