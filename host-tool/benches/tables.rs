@@ -4,6 +4,9 @@
 //! design and for a design that uses both 12-bit ADCs over nearly their
 //! whole scale (16.7 million pairs). `cargo bench -p host-tool`.
 
+// criterion_group! and criterion_main! generate undocumented items.
+#![allow(missing_docs)]
+
 use std::hint::black_box;
 use std::path::Path;
 
