@@ -33,8 +33,141 @@ enum Cmd {
     Point(Box<PointArgs>),
     /// Generate, verify and export the delay table of a design file.
     Table(TableArgs),
-    /// Check a table blob against its design at every ADC code pair.
+    /// Check a table blob or a closed-form method against its design at every ADC code pair.
     Verify(VerifyArgs),
+    /// Size the resonant tank: the Z0 interval for ZVS within the voltage rating, Lr/Cr pairs.
+    Size(SizeArgs),
+    /// A SPICE deck of the design's switch cell at one point, with the commanded turn-on.
+    Netlist(NetlistArgs),
+}
+
+#[derive(Args)]
+struct NetlistArgs {
+    /// Design file (TOML).
+    design: std::path::PathBuf,
+    /// Input voltage, volt.
+    #[arg(long, allow_hyphen_values = true)]
+    vin: String,
+    /// Output current, ampere.
+    #[arg(long, allow_hyphen_values = true)]
+    io: String,
+    /// Write the deck here instead of standard output.
+    #[arg(long)]
+    out: Option<std::path::PathBuf>,
+    /// Print the prediction as JSON (the deck goes to --out, which is then required).
+    #[arg(long)]
+    json: bool,
+}
+
+fn run_netlist(args: &NetlistArgs) -> anyhow::Result<()> {
+    let design = host_tool::design::Design::load(&args.design)?;
+    let vin = num("--vin", &args.vin, "V")?;
+    let io = num("--io", &args.io, "A")?;
+    let (deck, prediction) = host_tool::netlist::netlist(&design, vin, io)?;
+    match &args.out {
+        Some(path) => std::fs::write(path, &deck)
+            .map_err(|e| anyhow::anyhow!("cannot write {}: {e}", path.display()))?,
+        None if args.json => anyhow::bail!("--json prints the prediction; give --out for the deck"),
+        None => print!("{deck}"),
+    }
+    if args.json {
+        let mut j = serde_json::to_value(&prediction)?;
+        if let Some(o) = j.as_object_mut() {
+            o.insert(
+                "caution".to_owned(),
+                serde_json::Value::String(host_tool::point::CAUTION.to_owned()),
+            );
+        }
+        println!("{}", serde_json::to_string_pretty(&j)?);
+    } else if args.out.is_some() {
+        println!("{}", host_tool::point::CAUTION);
+    }
+    Ok(())
+}
+
+/// Ranges are `LOW:HIGH`; numbers take SI or engineering prefixes as in `point`.
+#[derive(Args)]
+struct SizeArgs {
+    /// Input-voltage range, volt, e.g. 36:60.
+    #[arg(long, allow_hyphen_values = true)]
+    vin: String,
+    /// Output-current range that must switch softly, ampere, e.g. 1:8.
+    #[arg(long, allow_hyphen_values = true)]
+    io: String,
+    /// MOSFET drain-source voltage rating, volt.
+    #[arg(long, allow_hyphen_values = true)]
+    vds_rating: String,
+    /// Fraction of the rating the peak switch voltage may use.
+    #[arg(long, default_value = "0.8", allow_hyphen_values = true)]
+    derating: String,
+    /// Converter the switch sits in.
+    #[arg(long, value_enum, default_value = "buck")]
+    topology: TopologyArg,
+    /// Output voltage, volt (boost and buck-boost need it; for the buck it gives the
+    /// switching-frequency range that regulates).
+    #[arg(long, allow_hyphen_values = true)]
+    vout: Option<String>,
+    /// Resonant frequency f0 for the Lr/Cr pairs, hertz.
+    #[arg(long, allow_hyphen_values = true)]
+    f0: Option<String>,
+    /// Highest switching frequency allowed, hertz: picks f0 when --f0 is not given (buck
+    /// with --vout), else is checked.
+    #[arg(long, allow_hyphen_values = true)]
+    fs_max: Option<String>,
+    /// Print one JSON object instead of the summary.
+    #[arg(long)]
+    json: bool,
+}
+
+fn range(option: &'static str, text: &str, unit: &'static str) -> Result<(f64, f64), InputError> {
+    let Some((a, b)) = text.split_once(':') else {
+        return Err(InputError::new(
+            option,
+            format!("expected LOW:HIGH, e.g. 36:60, got `{text}`"),
+        ));
+    };
+    Ok((num(option, a.trim(), unit)?, num(option, b.trim(), unit)?))
+}
+
+impl SizeArgs {
+    fn to_input(&self) -> Result<host_tool::size::SizeInput, InputError> {
+        Ok(host_tool::size::SizeInput {
+            topology: topology(self.topology),
+            vin_v: range("--vin", &self.vin, "V")?,
+            io_a: range("--io", &self.io, "A")?,
+            vout_v: opt_num("--vout", self.vout.as_ref(), "V")?,
+            vds_rating_v: num("--vds-rating", &self.vds_rating, "V")?,
+            derating: num("--derating", &self.derating, "")?,
+            f0_hz: opt_num("--f0", self.f0.as_ref(), "Hz")?,
+            fs_max_hz: opt_num("--fs-max", self.fs_max.as_ref(), "Hz")?,
+        })
+    }
+}
+
+fn topology(t: TopologyArg) -> timing_core::Topology {
+    match t {
+        TopologyArg::Buck => timing_core::Topology::Buck,
+        TopologyArg::Boost => timing_core::Topology::Boost,
+        TopologyArg::BuckBoost => timing_core::Topology::BuckBoost,
+    }
+}
+
+fn run_size(args: &SizeArgs) -> anyhow::Result<()> {
+    let input = args.to_input()?;
+    let report = host_tool::size::size(&input)?;
+    if args.json {
+        let mut j = serde_json::to_value(&report)?;
+        if let Some(o) = j.as_object_mut() {
+            o.insert(
+                "caution".to_owned(),
+                serde_json::Value::String(host_tool::point::CAUTION.to_owned()),
+            );
+        }
+        println!("{}", serde_json::to_string_pretty(&j)?);
+    } else {
+        print!("{}", host_tool::render::size_text(&report));
+    }
+    Ok(())
 }
 
 #[derive(Args)]
@@ -171,11 +304,7 @@ impl PointArgs {
             None => None,
         };
         Ok(PointInput {
-            topology: match self.topology {
-                TopologyArg::Buck => timing_core::Topology::Buck,
-                TopologyArg::Boost => timing_core::Topology::Boost,
-                TopologyArg::BuckBoost => timing_core::Topology::BuckBoost,
-            },
+            topology: topology(self.topology),
             lr_h: num("--lr", &self.lr, "H")?,
             cr_f: num("--cr", &self.cr, "F")?,
             vin_v: num("--vin", &self.vin, "V")?,
@@ -365,6 +494,8 @@ fn main() -> ExitCode {
     let result = match &cli.command {
         Cmd::Point(args) => run_point(args),
         Cmd::Table(args) => run_table(args),
+        Cmd::Size(args) => run_size(args),
+        Cmd::Netlist(args) => run_netlist(args),
         Cmd::Verify(args) => match run_verify(args) {
             Ok(code) => return code,
             Err(e) => Err(e),

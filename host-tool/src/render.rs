@@ -104,3 +104,68 @@ pub fn point_text(r: &PointReport) -> String {
     let _ = writeln!(s, "\n{}", r.caution);
     s
 }
+
+/// The `size` report: the Z0 interval, the trade-offs where it is empty,
+/// the Lr/Cr pairs and the caution.
+#[must_use]
+pub fn size_text(r: &crate::size::SizeReport) -> String {
+    let mut s = String::new();
+    let _ = writeln!(
+        s,
+        "ZVS over the load range needs Z0 >= {}; the peak switch voltage within {} needs Z0 <= {}",
+        format_si(r.zvs_z0_min_ohm, "Ω"),
+        format_si(r.vds_limit_v, "V"),
+        format_si(r.stress_z0_max_ohm, "Ω"),
+    );
+    match (r.z0_min_ohm, r.z0_max_ohm) {
+        (Some(lo), Some(hi)) => {
+            let _ = writeln!(
+                s,
+                "feasible Z0: {} to {}",
+                format_si(lo, "Ω"),
+                format_si(hi, "Ω")
+            );
+        }
+        _ => {
+            let _ = writeln!(s, "no Z0 satisfies both; the trade-offs:");
+            for t in &r.trade_offs {
+                let _ = writeln!(s, "  - {t}");
+            }
+        }
+    }
+    if let Some(f0) = r.f0_hz {
+        let _ = writeln!(s, "\nLr/Cr at f0 = {}:", format_si(f0, "Hz"));
+        let _ = writeln!(
+            s,
+            "  {:>10}  {:>10}  {:>10}  {:>12}  switching frequency",
+            "Z0", "Lr", "Cr", "peak Vds"
+        );
+        for p in &r.pairs {
+            let fs = p.fs_range_hz.map_or_else(
+                || "-".to_owned(),
+                |(a, b)| format!("{} to {}", format_si(a, "Hz"), format_si(b, "Hz")),
+            );
+            let _ = writeln!(
+                s,
+                "  {:>10}  {:>10}  {:>10}  {:>12}  {fs}",
+                format_si(p.z0_ohm, "Ω"),
+                format_si(p.lr_h, "H"),
+                format_si(p.cr_f, "F"),
+                format_si(p.peak_switch_voltage_v, "V"),
+            );
+        }
+    }
+    if let (Some(c), Some(z)) = (r.coss_budget_f, r.coss_budget_z0_ohm) {
+        let _ = writeln!(
+            s,
+            "\nMOSFET output capacitance budget: its charge-equivalent Coss at the operating voltage must stay below {} (Cr of the Z0 = {} pair); the external capacitor makes up the rest.",
+            format_si(c, "F"),
+            format_si(z, "Ω")
+        );
+    }
+    for w in &r.warnings {
+        let _ = writeln!(s, "warning: {w}");
+    }
+    let _ = writeln!(s, "\n{}", crate::point::CAUTION);
+    s
+}

@@ -65,6 +65,9 @@ pub mod meas {
     pub const VOLTAGE_AT_CURRENT_ZERO_RISE: &str = "v_rise";
     /// Average voltage of the diode node over [`super::CellDeck::average_over_s`], V.
     pub const DIODE_NODE_AVERAGE: &str = "v_diode_avg";
+    /// Switch voltage at the gate's turn-on edge (when the deck turns the
+    /// gate on again), V: about 0 for a zero-voltage turn-on.
+    pub const VOLTAGE_AT_TURN_ON: &str = "v_on";
 }
 
 impl CellDeck {
@@ -246,6 +249,14 @@ impl CellDeck {
             ".meas tran {} FIND v(sw) WHEN i(vsense)=0 RISE=1 {from}",
             meas::VOLTAGE_AT_CURRENT_ZERO_RISE
         );
+        if let Some(on) = self.turn_on_s {
+            let _ = writeln!(
+                d,
+                ".meas tran {} FIND v(sw) AT={:e}",
+                meas::VOLTAGE_AT_TURN_ON,
+                t0 + on
+            );
+        }
         if let Some(span) = self.average_over_s {
             let _ = writeln!(
                 d,
