@@ -145,6 +145,9 @@ fn zvs_boundary_io(inp: &SizeInput, vin: f64, z0: f64) -> Result<f64, timing_cor
     Ok(hi)
 }
 
+/// A point where Vout cannot be regulated: (Vin, Io, lowest reachable ratio).
+type Unregulated = (f64, f64, f64);
+
 /// The switching-frequency range regulating Vout over a grid of the
 /// operating range (buck only), and the first grid point where no
 /// frequency reaches the ratio (the quasi-resonant buck's lowest ratio
@@ -152,7 +155,7 @@ fn zvs_boundary_io(inp: &SizeInput, vin: f64, z0: f64) -> Result<f64, timing_cor
 fn fs_range(
     inp: &SizeInput,
     t: &Tank<f64>,
-) -> Result<(Option<(f64, f64)>, Option<(f64, f64, f64)>), timing_core::Error> {
+) -> Result<(Option<(f64, f64)>, Option<Unregulated>), timing_core::Error> {
     let (Topology::Buck, Some(vout)) = (inp.topology, inp.vout_v) else {
         return Ok((None, None));
     };
