@@ -147,6 +147,8 @@ fn zvs_boundary_io(inp: &SizeInput, vin: f64, z0: f64) -> Result<f64, timing_cor
 
 /// A point where Vout cannot be regulated: (Vin, Io, lowest reachable ratio).
 type Unregulated = (f64, f64, f64);
+/// The regulating frequency range, hertz, and an unregulated point.
+type Regulation = (Option<(f64, f64)>, Option<Unregulated>);
 
 /// The switching-frequency range regulating Vout over a grid of the
 /// operating range (buck only), and the first grid point where no
@@ -155,7 +157,7 @@ type Unregulated = (f64, f64, f64);
 fn fs_range(
     inp: &SizeInput,
     t: &Tank<f64>,
-) -> Result<(Option<(f64, f64)>, Option<Unregulated>), timing_core::Error> {
+) -> Result<Regulation, timing_core::Error> {
     let (Topology::Buck, Some(vout)) = (inp.topology, inp.vout_v) else {
         return Ok((None, None));
     };
