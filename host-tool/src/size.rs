@@ -154,10 +154,7 @@ type Regulation = (Option<(f64, f64)>, Option<Unregulated>);
 /// operating range (buck only), and the first grid point where no
 /// frequency reaches the ratio (the quasi-resonant buck's lowest ratio
 /// grows as the load falls).
-fn fs_range(
-    inp: &SizeInput,
-    t: &Tank<f64>,
-) -> Result<Regulation, timing_core::Error> {
+fn fs_range(inp: &SizeInput, t: &Tank<f64>) -> Result<Regulation, timing_core::Error> {
     let (Topology::Buck, Some(vout)) = (inp.topology, inp.vout_v) else {
         return Ok((None, None));
     };

@@ -199,3 +199,36 @@ fn high_stress_and_narrow_windows_are_warned_about() {
         "{out}"
     );
 }
+
+#[test]
+fn the_cli_writes_the_deck_and_the_prediction() {
+    let dir = std::env::temp_dir().join(format!("zvs-netlist-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let deck = dir.join("cell.cir");
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_zvs-timing"))
+        .args(["netlist"])
+        .arg(std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("../tables/winch_aux.toml"))
+        .args(["--vin", "48", "--io", "6", "--json", "--out"])
+        .arg(&deck)
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let j: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert!(j["window_open_s"].as_f64().unwrap() > 0.0);
+    assert!(j["caution"].as_str().unwrap().contains("scope"));
+    let text = std::fs::read_to_string(&deck).unwrap();
+    assert!(text.contains(".tran") && text.contains(".end") && text.contains("CAUTION"));
+    // A point the design's timer cannot reach is refused by name.
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_zvs-timing"))
+        .args(["netlist"])
+        .arg(std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("../tables/winch_aux.toml"))
+        .args(["--vin", "-3", "--io", "6"])
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("input voltage"));
+}
