@@ -20,6 +20,7 @@
 
 use cross_checks::{assert_close, Scenario};
 use ode_solvers::{Dopri5, System, Vector2};
+use timing_core::waveform::Waveform;
 use timing_core::{CellPoint, Tank, Transition};
 
 type State = Vector2<f64>;
@@ -107,6 +108,8 @@ struct Simulated {
     peak: f64,
     peak_v: f64,
     open_close: Option<(f64, f64)>,
+    /// Lr current when the body diode starts to conduct (window opening).
+    open_current: Option<f64>,
     valley: Option<(f64, f64)>,
 }
 
@@ -146,6 +149,7 @@ fn simulate(lr: f64, cr: f64, v: f64, i: f64) -> Simulated {
         0.75 * period,
         dx,
     );
+    let open_current = to_zero.map(|(_, y2)| y2[1]);
     let (open_close, valley) = match (to_zero, valley) {
         (Some((t2, y2)), _) => {
             let (t3, _) = run_until(
@@ -169,6 +173,7 @@ fn simulate(lr: f64, cr: f64, v: f64, i: f64) -> Simulated {
         peak: tp,
         peak_v: yp[0],
         open_close,
+        open_current,
         valley,
     }
 }
@@ -247,4 +252,85 @@ fn transitions_agree_with_an_ode_solver() {
         "ODE solver agreed on {} points; worst relative error {worst:.2e}",
         set.len()
     );
+}
+
+/// timing-core's waveform (the pictures' source) passes through the
+/// solver's states at the solver's own event times: the end of the linear
+/// charge, the peak, the window's opening and close, the valley.
+#[test]
+fn the_waveform_passes_through_the_solvers_states() {
+    let set = Scenario::standard_set(0x0de_5eed, 8, 4);
+    for s in &set {
+        let (v, i) = (s.clamp_voltage_v, s.inductor_current_a);
+        let tank = Tank::new(s.lr_h, s.cr_f).unwrap();
+        let cell = CellPoint::new(v, i).unwrap();
+        let sim = simulate(s.lr_h, s.cr_f, v, i);
+        // Turn on late, so the gate-off trajectory holds through the events.
+        let late = 100.0 * (s.lr_h * s.cr_f).sqrt() + sim.charge_end;
+        let w = Waveform::new(&tank, &cell, late).unwrap();
+        let ctx: &dyn std::fmt::Debug = s;
+        let (rel, i_abs) = (1e-6, 1e-6 * i);
+        let at = |t: f64| w.at(t);
+        assert_close(
+            "v at charge end",
+            at(sim.charge_end).switch_voltage_v,
+            v,
+            rel,
+            0.0,
+            ctx,
+        );
+        assert_close(
+            "v at peak",
+            at(sim.peak).switch_voltage_v,
+            sim.peak_v,
+            rel,
+            0.0,
+            ctx,
+        );
+        assert_close(
+            "i at peak",
+            at(sim.peak).inductor_current_a,
+            0.0,
+            0.0,
+            i_abs,
+            ctx,
+        );
+        if let (Some((open, close)), Some(i_open)) = (sim.open_close, sim.open_current) {
+            assert_close(
+                "v at open",
+                at(open).switch_voltage_v,
+                0.0,
+                0.0,
+                1e-6 * v,
+                ctx,
+            );
+            assert_close(
+                "i at open",
+                at(open).inductor_current_a,
+                i_open,
+                rel,
+                i_abs,
+                ctx,
+            );
+            assert_close(
+                "i at close",
+                at(close).inductor_current_a,
+                0.0,
+                0.0,
+                i_abs,
+                ctx,
+            );
+        }
+        if let Some((tv, vv)) = sim.valley {
+            assert_close(
+                "v at valley",
+                at(tv).switch_voltage_v,
+                vv,
+                0.0,
+                1e-6 * v,
+                ctx,
+            );
+        }
+    }
+    println!("waveform matched the ODE states at {} points", set.len());
 }

@@ -75,6 +75,7 @@ pub mod table;
 mod tank;
 mod timer;
 mod transition;
+pub mod waveform;
 
 pub use adc::{AdcCode, CodeRange};
 pub use cell::{CellPoint, Topology};

@@ -44,6 +44,10 @@ pub trait Real:
     fn sqrt(self) -> Self;
     /// Arc sine in radians (libm; within 1 ulp for both types).
     fn asin(self) -> Self;
+    /// Sine (radians).
+    fn sin(self) -> Self;
+    /// Cosine (radians).
+    fn cos(self) -> Self;
     /// Largest integer value not above `self`.
     fn floor(self) -> Self;
     /// Smallest integer value not below `self`.
@@ -68,7 +72,7 @@ pub trait Real:
 }
 
 macro_rules! impl_real {
-    ($t:ty, $sqrt:path, $asin:path, $floor:path, $ceil:path, $round:path, $fabs:path, $pi:expr, $tau:expr, $pi2:expr) => {
+    ($t:ty, $sqrt:path, $asin:path, $sin:path, $cos:path, $floor:path, $ceil:path, $round:path, $fabs:path, $pi:expr, $tau:expr, $pi2:expr) => {
         impl Real for $t {
             const ZERO: Self = 0.0;
             const ONE: Self = 1.0;
@@ -85,6 +89,14 @@ macro_rules! impl_real {
             #[inline]
             fn asin(self) -> Self {
                 $asin(self)
+            }
+            #[inline]
+            fn sin(self) -> Self {
+                $sin(self)
+            }
+            #[inline]
+            fn cos(self) -> Self {
+                $cos(self)
             }
             #[inline]
             fn floor(self) -> Self {
@@ -136,6 +148,8 @@ impl_real!(
     f32,
     libm::sqrtf,
     libm::asinf,
+    libm::sinf,
+    libm::cosf,
     libm::floorf,
     libm::ceilf,
     libm::roundf,
@@ -148,6 +162,8 @@ impl_real!(
     f64,
     libm::sqrt,
     libm::asin,
+    libm::sin,
+    libm::cos,
     libm::floor,
     libm::ceil,
     libm::round,
