@@ -39,6 +39,39 @@ enum Cmd {
     Size(SizeArgs),
     /// A SPICE deck of the design's switch cell at one point, with the commanded turn-on.
     Netlist(NetlistArgs),
+    /// SVG pictures: delay, window and table-error maps, and one switching transition.
+    Plot(PlotArgs),
+}
+
+#[derive(Args)]
+struct PlotArgs {
+    /// Design file (TOML).
+    design: std::path::PathBuf,
+    /// Output folder for delay_map.svg, window_map.svg, error_map.svg and cycle.svg.
+    #[arg(long)]
+    out: std::path::PathBuf,
+    /// Input voltage of the cycle picture, volt (default: mid-range).
+    #[arg(long, allow_hyphen_values = true)]
+    vin: Option<String>,
+    /// Output current of the cycle picture, ampere (default: J = 1.5 at that voltage).
+    #[arg(long, allow_hyphen_values = true)]
+    io: Option<String>,
+}
+
+fn run_plot(args: &PlotArgs) -> anyhow::Result<()> {
+    let design = host_tool::design::Design::load(&args.design)?;
+    let vin = opt_num("--vin", args.vin.as_ref(), "V")?;
+    let io = opt_num("--io", args.io.as_ref(), "A")?;
+    let point = match (vin, io) {
+        (Some(v), Some(i)) => Some((v, i)),
+        (None, None) => None,
+        _ => anyhow::bail!("give both --vin and --io for the cycle picture, or neither"),
+    };
+    for f in host_tool::plot::write_all(&design, &args.out, point)? {
+        println!("wrote {}", f.display());
+    }
+    println!("{}", host_tool::point::CAUTION);
+    Ok(())
 }
 
 #[derive(Args)]
@@ -496,6 +529,7 @@ fn main() -> ExitCode {
         Cmd::Table(args) => run_table(args),
         Cmd::Size(args) => run_size(args),
         Cmd::Netlist(args) => run_netlist(args),
+        Cmd::Plot(args) => run_plot(args),
         Cmd::Verify(args) => match run_verify(args) {
             Ok(code) => return code,
             Err(e) => Err(e),

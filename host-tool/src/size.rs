@@ -132,8 +132,28 @@ fn tank(z0: f64, f0: f64) -> Result<Tank<f64>, timing_core::Error> {
 /// Output current at which J = 1 for input voltage `vin` with impedance
 /// `z0` (J grows with Io for every cell), by bisection.
 fn zvs_boundary_io(inp: &SizeInput, vin: f64, z0: f64) -> Result<f64, timing_core::Error> {
-    let j = |io: f64| cell(inp, vin, io).map(|c| c.i_amp() * z0 / c.v_volt());
-    let (mut lo, mut hi) = (inp.io_a.0 * 1e-6, inp.io_a.1 * 1e6);
+    zvs_boundary_current_a(inp.topology, inp.vout_v, z0, vin, inp.io_a)
+}
+
+/// The output current at which J = I*Z0/V = 1 for input voltage `vin_v`
+/// in a cell of impedance `z0_ohm` (J grows with Io for every cell), by
+/// bisection over `io_hint` widened a million-fold either way; the ZVS
+/// boundary of maps and of sizing.
+///
+/// # Errors
+/// timing-core's error for an impossible point.
+pub fn zvs_boundary_current_a(
+    topology: Topology,
+    vout_v: Option<f64>,
+    z0_ohm: f64,
+    vin_v: f64,
+    io_hint: (f64, f64),
+) -> Result<f64, timing_core::Error> {
+    let j = |io: f64| {
+        CellPoint::from_converter(topology, vin_v, vout_v.unwrap_or(f64::NAN), io)
+            .map(|c| c.i_amp() * z0_ohm / c.v_volt())
+    };
+    let (mut lo, mut hi) = (io_hint.0 * 1e-6, io_hint.1 * 1e6);
     for _ in 0..200 {
         let mid = (lo * hi).sqrt();
         if j(mid)? >= 1.0 {

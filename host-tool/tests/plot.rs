@@ -1,0 +1,174 @@
+//! `zvs-timing plot`: every SVG renders (resvg) and shows its data: the
+//! maps' colour cells, the boundary and the valley region; the cycle's
+//! traces and the shaded window at the places the model puts them.
+
+#![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)]
+
+use std::path::Path;
+
+use host_tool::design::Design;
+use host_tool::plot::{
+    self, CURRENT_COLOUR, GATE_COLOUR, SIZE, VALLEY_COLOUR, VOLTAGE_COLOUR, WINDOW_COLOUR,
+};
+use plotters::style::RGBColor;
+use resvg::{tiny_skia, usvg};
+
+fn demo() -> Design {
+    Design::load(&Path::new(env!("CARGO_MANIFEST_DIR")).join("../tables/winch_aux.toml")).unwrap()
+}
+
+/// Render an SVG to pixels.
+fn render(svg: &str) -> tiny_skia::Pixmap {
+    let tree = usvg::Tree::from_str(svg, &usvg::Options::default()).unwrap();
+    let mut pix = tiny_skia::Pixmap::new(SIZE.0, SIZE.1).unwrap();
+    pix.fill(tiny_skia::Color::WHITE);
+    resvg::render(&tree, tiny_skia::Transform::default(), &mut pix.as_mut());
+    if let Ok(dir) = std::env::var("ZVS_PLOT_DUMP") {
+        let n = svg.len();
+        let _ = pix.save_png(Path::new(&dir).join(format!("plot-{n}.png")));
+    }
+    pix
+}
+
+fn near(p: tiny_skia::PremultipliedColorU8, c: RGBColor, tol: i32) -> bool {
+    (i32::from(p.red()) - i32::from(c.0)).abs() <= tol
+        && (i32::from(p.green()) - i32::from(c.1)).abs() <= tol
+        && (i32::from(p.blue()) - i32::from(c.2)).abs() <= tol
+}
+
+fn count(pix: &tiny_skia::Pixmap, c: RGBColor, tol: i32) -> usize {
+    pix.pixels().iter().filter(|p| near(**p, c, tol)).count()
+}
+
+#[test]
+fn maps_render_with_their_data() {
+    let d = demo();
+    for (name, svg) in [
+        ("delay", plot::delay_map(&d).unwrap()),
+        ("window", plot::window_map(&d).unwrap()),
+        ("error", plot::error_map(&d).unwrap()),
+    ] {
+        let pix = render(&svg);
+        // Colour-scale cells: many distinct colours that are not grey.
+        let mut colours = std::collections::BTreeSet::new();
+        let mut scale_pixels = 0;
+        for p in pix.pixels() {
+            let (r, g, b) = (p.red(), p.green(), p.blue());
+            if !(r == g && g == b) {
+                colours.insert((r, g, b));
+                scale_pixels += 1;
+            }
+        }
+        println!(
+            "{name} map: {} colours, {scale_pixels} coloured pixels",
+            colours.len()
+        );
+        assert!(colours.len() > 40, "{name}: {} colours", colours.len());
+        assert!(scale_pixels > 100_000, "{name}: {scale_pixels}");
+        // The valley region (below the ZVS boundary) is grey on the delay
+        // and window maps; the boundary is a black line.
+        if name != "error" {
+            assert!(
+                count(&pix, VALLEY_COLOUR, 2) > 20_000,
+                "{name}: valley region missing"
+            );
+        }
+        assert!(
+            count(&pix, RGBColor(0, 0, 0), 40) > 500,
+            "{name}: boundary line missing"
+        );
+    }
+}
+
+#[test]
+fn the_cycle_shows_traces_and_the_window_where_the_model_puts_them() {
+    let d = demo();
+    let (vin, io) = plot::default_point(&d);
+    let pix = render(&plot::cycle(&d, vin, io).unwrap());
+    for (what, c, min) in [
+        ("switch voltage", VOLTAGE_COLOUR, 800),
+        ("inductor current", CURRENT_COLOUR, 800),
+        ("gate command", GATE_COLOUR, 400),
+        ("window shading", WINDOW_COLOUR, 5_000),
+    ] {
+        let n = count(&pix, c, 12);
+        println!("{what}: {n} pixels");
+        assert!(n >= min, "{what}: only {n} pixels");
+    }
+    // The shading sits where the model's window is: its columns span a
+    // fraction of the plot width equal to the window's share of the time axis.
+    // (Rows in the middle of the plot, clear of the legend's swatch.)
+    let cols: Vec<u32> = (0..SIZE.0)
+        .filter(|&x| {
+            (SIZE.1 / 3..2 * SIZE.1 / 3).any(|y| near(pix.pixel(x, y).unwrap(), WINDOW_COLOUR, 6))
+        })
+        .collect();
+    let t = timing_core::Transition::new(&d.tank, &d.cell(vin, io).unwrap()).unwrap();
+    let w = t.window().unwrap();
+    let ramp_end = w.ramp_end_s;
+    let on = d
+        .timer
+        .turn_on_s(d.timer.command(&t, d.position).unwrap().ticks());
+    let span = 1.25 * ramp_end.max(on) + 0.15 * ramp_end;
+    let share = (w.close_s - w.open_s) / span;
+    let width = f64::from(cols.last().unwrap() - cols.first().unwrap());
+    // Plot area: picture width less the two label areas and margins.
+    let plot_width = f64::from(SIZE.0) - 2.0 * 60.0 - 2.0 * 12.0;
+    assert!(
+        (width / plot_width - share).abs() < 0.02,
+        "window shading {width} px of {plot_width}: {} vs {share}",
+        width / plot_width
+    );
+}
+
+#[test]
+fn the_command_writes_four_pictures() {
+    let dir = std::env::temp_dir().join(format!("zvs-plot-{}", std::process::id()));
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_zvs-timing"))
+        .arg("plot")
+        .arg(Path::new(env!("CARGO_MANIFEST_DIR")).join("../tables/winch_aux.toml"))
+        .arg("--out")
+        .arg(&dir)
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    for f in [
+        "delay_map.svg",
+        "window_map.svg",
+        "error_map.svg",
+        "cycle.svg",
+    ] {
+        let text = std::fs::read_to_string(dir.join(f)).unwrap();
+        assert!(text.starts_with("<svg"), "{f}");
+    }
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_zvs-timing"))
+        .arg("plot")
+        .arg(Path::new(env!("CARGO_MANIFEST_DIR")).join("../tables/winch_aux.toml"))
+        .args(["--out", "/tmp/unused", "--vin", "48"])
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(2));
+}
+
+#[test]
+fn the_readme_pictures_are_fresh() {
+    // docs/ holds the README's map and transition of the demo design,
+    // generated by `zvs-timing plot tables/winch_aux.toml --out docs`.
+    let d = demo();
+    let docs = Path::new(env!("CARGO_MANIFEST_DIR")).join("../docs");
+    let (vin, io) = plot::default_point(&d);
+    for (file, fresh) in [
+        ("delay_map.svg", plot::delay_map(&d).unwrap()),
+        ("cycle.svg", plot::cycle(&d, vin, io).unwrap()),
+    ] {
+        let committed = std::fs::read_to_string(docs.join(file)).unwrap();
+        assert!(
+            committed == fresh,
+            "docs/{file} is stale: regenerate with `cargo run --release -p host-tool -- plot tables/winch_aux.toml --out docs` (then remove window_map.svg and error_map.svg)"
+        );
+    }
+}
