@@ -643,27 +643,22 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
     let max_ticks = delay_bounds(design, &model)?;
     let mut pool: Vec<Generated> = Vec::new();
     use crate::design::LayoutChoice as L;
-    if matches!(design.layout, L::Auto | L::Ratio) {
-        let mut n = 4u32;
-        while n <= 32_768 {
-            for frac in (0..=12).step_by(2) {
-                if let Some(g) = ratio_candidate(design, &model, max_ticks, n, frac)? {
-                    if !pool
-                        .iter()
-                        .any(|p| p.layout == g.layout && p.frac_bits == g.frac_bits)
-                    {
-                        pool.push(g);
-                    }
-                }
-            }
-            n *= 2;
+    // The two uniform ratio layouts (with a division, or with reciprocals):
+    // node counts in powers of two, fractional bits in steps of two.
+    type CandidateFn =
+        fn(&Design, &ExactModel<'_>, f64, u32, u32) -> Result<Option<Generated>, GenerateError>;
+    let uniform: [(L, CandidateFn); 2] = [
+        (L::Ratio, ratio_candidate),
+        (L::RecipRatio, recip_ratio_candidate),
+    ];
+    for (choice, candidate) in uniform {
+        if !(design.layout == L::Auto || design.layout == choice) {
+            continue;
         }
-    }
-    if matches!(design.layout, L::Auto | L::RecipRatio) {
         let mut n = 4u32;
         while n <= 32_768 {
             for frac in (0..=12).step_by(2) {
-                if let Some(g) = recip_ratio_candidate(design, &model, max_ticks, n, frac)? {
+                if let Some(g) = candidate(design, &model, max_ticks, n, frac)? {
                     if !pool
                         .iter()
                         .any(|p| p.layout == g.layout && p.frac_bits == g.frac_bits)

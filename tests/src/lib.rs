@@ -141,3 +141,9 @@ pub fn require_program(name: &str, available: bool, install: &str) -> bool {
     );
     false
 }
+
+/// The repository's root (the cross-checks crate sits one level below it).
+#[must_use]
+pub fn repo() -> std::path::PathBuf {
+    std::path::PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("..")
+}

@@ -11,14 +11,10 @@
 
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)]
 
-use std::path::PathBuf;
 
+use cross_checks::repo;
 use host_tool::design::Design;
 use host_tool::verify::verify;
-
-fn repo() -> PathBuf {
-    PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("..")
-}
 
 /// A boost cell with a bipolar current sensor (zero at mid-scale), a
 /// driver with a longer turn-off than turn-on delay, 10-bit ADCs.

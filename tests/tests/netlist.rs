@@ -5,15 +5,10 @@
 
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)]
 
-use std::path::PathBuf;
 
-use cross_checks::require_program;
+use cross_checks::{repo, require_program};
 use host_tool::design::Design;
 use host_tool::spice::{meas, ngspice_available, run_ngspice};
-
-fn repo() -> PathBuf {
-    PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("..")
-}
 
 const BOOST: &str = r#"
 name = "netlist_boost"

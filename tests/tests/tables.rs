@@ -5,21 +5,15 @@
 
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)]
 
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 use std::process::Command;
 
-use cross_checks::require_program;
+use cross_checks::{repo, require_program};
 use host_tool::design::Design;
 use host_tool::{export, generate};
 use timing_core::table::{DelayTable, Entries, TableError};
 use timing_core::AdcCode;
 
-fn repo() -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR"))
-        .parent()
-        .unwrap()
-        .to_path_buf()
-}
 
 fn scratch(name: &str) -> PathBuf {
     let d = std::env::temp_dir().join(format!("zvs-timing-tables-{}-{name}", std::process::id()));

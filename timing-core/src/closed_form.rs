@@ -40,8 +40,8 @@ pub use fixed_point::{FixedPoint, FixedPointParts};
 pub use libm_f32::LibmF32;
 
 use crate::error::{positive, Error, Quantity};
-use crate::table::Fallback;
-use crate::{CodeRange, Tank, Timer, WindowPosition};
+use crate::table::{Fallback, Lookup};
+use crate::{CodeRange, Tank, Ticks, Timer, WindowPosition};
 
 /// How ADC codes map to volts and amperes, with the design's code ranges.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -269,14 +269,27 @@ const fn bad(value: f32) -> Error {
     }
 }
 
-pub(crate) const fn check_f32_parts(p: &F32Parts) -> Result<(), Error> {
-    if p.vin.is_empty() || p.io.is_empty() || p.vin.lo == 0 || p.io.lo <= p.io_zero {
+/// Check the code ranges of a method's parts: non-empty, voltage codes from
+/// 1, current codes above the sensor zero.
+pub(crate) const fn check_codes(
+    vin: &CodeRange,
+    io: &CodeRange,
+    io_zero: u16,
+) -> Result<(), Error> {
+    if vin.is_empty() || io.is_empty() || vin.lo == 0 || io.lo <= io_zero {
         return Err(Error::OutOfRange {
             quantity: Quantity::AdcCode,
-            value: p.io.lo as f64,
-            min: p.io_zero as f64 + 1.0,
-            max: p.io.hi as f64,
+            value: io.lo as f64,
+            min: io_zero as f64 + 1.0,
+            max: io.hi as f64,
         });
+    }
+    Ok(())
+}
+
+pub(crate) const fn check_f32_parts(p: &F32Parts) -> Result<(), Error> {
+    if let Err(e) = check_codes(&p.vin, &p.io, p.io_zero) {
+        return Err(e);
     }
     if !(p.kx.is_finite() && p.kx > 0.0) {
         return Err(bad(p.kx));
@@ -307,6 +320,26 @@ pub(crate) fn round_ticks(raw: f32, max: u32) -> u32 {
         max
     } else {
         t
+    }
+}
+
+/// The delay an f32 method commands from its target and window (ticks):
+/// the nearest tick inside the window (or, where none is, the nearest),
+/// clamped to the counter; below the ZVS boundary the fallback.
+#[inline]
+pub(crate) fn f32_delay(p: &F32Parts, target: f32, window: Option<(f32, f32)>) -> Lookup {
+    match window {
+        Some((open, close)) => Lookup {
+            ticks: Ticks::new(round_into_window(target, open, close, p.max_ticks)),
+            zvs: true,
+        },
+        None => Lookup {
+            ticks: match p.fallback {
+                Fallback::Fixed(t) => t,
+                Fallback::Valley => Ticks::new(round_ticks(target, p.max_ticks)),
+            },
+            zvs: false,
+        },
     }
 }
 

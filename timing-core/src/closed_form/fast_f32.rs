@@ -5,11 +5,11 @@
 //! add, multiply or divide, so the host's exhaustive proof of its error
 //! holds on the target bit for bit.
 
-use super::{check_f32_parts, round_into_window, round_ticks, F32Parts};
+use super::{check_f32_parts, f32_delay, F32Parts};
 use crate::approx::asin_f32::asin_factor_f32;
 use crate::approx::rsqrt_f32::rsqrt_f32;
-use crate::table::{Fallback, Lookup};
-use crate::{AdcCode, Error, Ticks};
+use crate::table::Lookup;
+use crate::{AdcCode, Error};
 
 /// The f32 closed form with fast approximations (validated coefficients).
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -83,19 +83,7 @@ impl FastF32 {
     /// below the ZVS boundary.
     #[inline]
     pub fn delay(&self, vin: AdcCode, io: AdcCode) -> Lookup {
-        let max = self.parts.max_ticks;
-        match self.eval(vin, io) {
-            (target, Some((open, close))) => Lookup {
-                ticks: Ticks::new(round_into_window(target, open, close, max)),
-                zvs: true,
-            },
-            (target, None) => Lookup {
-                ticks: match self.parts.fallback {
-                    Fallback::Fixed(t) => t,
-                    Fallback::Valley => Ticks::new(round_ticks(target, max)),
-                },
-                zvs: false,
-            },
-        }
+        let (target, window) = self.eval(vin, io);
+        f32_delay(&self.parts, target, window)
     }
 }

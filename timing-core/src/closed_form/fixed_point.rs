@@ -176,13 +176,8 @@ impl FixedPoint {
     /// value is the offending bound) or [`Quantity::WindowPosition`].
     pub const fn from_parts(parts: FixedPointParts) -> Result<Self, Error> {
         let p = &parts;
-        if p.vin.is_empty() || p.io.is_empty() || p.vin.lo == 0 || p.io.lo <= p.io_zero {
-            return Err(Error::OutOfRange {
-                quantity: Quantity::AdcCode,
-                value: p.io.lo as f64,
-                min: p.io_zero as f64 + 1.0,
-                max: p.io.hi as f64,
-            });
+        if let Err(e) = super::check_codes(&p.vin, &p.io, p.io_zero) {
+            return Err(e);
         }
         if p.k_mant < 1 << 31 || p.t_mant < 1 << 15 || p.t_shift > 31 {
             return Err(range_error(p.k_mant as f64, u32::MAX as f64));

@@ -4,9 +4,9 @@
 //! costs several hundred instructions (see the firmware example's
 //! ISR-COST lines).
 
-use super::{check_f32_parts, round_into_window, round_ticks, F32Parts};
-use crate::table::{Fallback, Lookup};
-use crate::{AdcCode, Error, Ticks};
+use super::{check_f32_parts, f32_delay, F32Parts};
+use crate::table::Lookup;
+use crate::{AdcCode, Error};
 
 /// The f32 closed form with libm (validated coefficients).
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -69,19 +69,7 @@ impl LibmF32 {
     /// below the ZVS boundary.
     #[inline]
     pub fn delay(&self, vin: AdcCode, io: AdcCode) -> Lookup {
-        let max = self.parts.max_ticks;
-        match self.eval(vin, io) {
-            (target, Some((open, close))) => Lookup {
-                ticks: Ticks::new(round_into_window(target, open, close, max)),
-                zvs: true,
-            },
-            (target, None) => Lookup {
-                ticks: match self.parts.fallback {
-                    Fallback::Fixed(t) => t,
-                    Fallback::Valley => Ticks::new(round_ticks(target, max)),
-                },
-                zvs: false,
-            },
-        }
+        let (target, window) = self.eval(vin, io);
+        f32_delay(&self.parts, target, window)
     }
 }
