@@ -5,7 +5,6 @@
 
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)]
 
-
 use cross_checks::{repo, require_program};
 use host_tool::design::Design;
 use host_tool::spice::{meas, ngspice_available, run_ngspice};

@@ -14,7 +14,6 @@ use host_tool::{export, generate};
 use timing_core::table::{DelayTable, Entries, TableError};
 use timing_core::AdcCode;
 
-
 fn scratch(name: &str) -> PathBuf {
     let d = std::env::temp_dir().join(format!("zvs-timing-tables-{}-{name}", std::process::id()));
     let _ = std::fs::remove_dir_all(&d);
