@@ -19,6 +19,7 @@ pub mod design;
 pub mod export;
 pub mod generate;
 pub mod netlist;
+#[cfg(feature = "plot")]
 pub mod plot;
 pub mod point;
 pub mod render;
