@@ -73,15 +73,15 @@ fn claims() -> Vec<Claim> {
     vec![
         Claim {
             design: Design::load(&repo().join("tables/winch_aux.toml")).unwrap(),
-            approx: [0.001, 0.05],
+            approx: [0.001, 0.02],
         },
         Claim {
             design: Design::parse(HELD_OUT_BOOST, "boost.toml").unwrap(),
-            approx: [0.001, 0.05],
+            approx: [0.001, 0.02],
         },
         Claim {
             design: Design::parse(HELD_OUT_FINE, "fine.toml").unwrap(),
-            approx: [0.02, 0.5],
+            approx: [0.02, 0.15],
         },
     ]
 }
