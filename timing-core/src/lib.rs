@@ -69,6 +69,7 @@ mod conversion;
 mod error;
 pub mod normalized;
 mod real;
+pub mod robust;
 #[cfg(feature = "serde")]
 mod serde_types;
 pub mod table;
