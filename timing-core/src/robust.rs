@@ -132,6 +132,9 @@ pub struct RobustWindow<F> {
     pub close_s: F,
 }
 
+/// A sub-box of (Lr, Cr) with its lower bound on the close.
+type SubBox<F> = ((F, F), (F, F), F);
+
 /// The box in (Lr, Cr, Io/Vin).
 #[derive(Clone, Copy)]
 struct Bounds<F> {
@@ -208,7 +211,6 @@ pub fn robust_window<F: Real>(
 /// ratio handled exactly; returns the proven lower bound.
 fn earliest_close<F: Real>(b: &Bounds<F>) -> F {
     const CAP: usize = 256;
-    type Cell<F> = ((F, F), (F, F), F);
     // A sub-box's lower bound.
     let lower = |l: (F, F), c: (F, F)| {
         let t = (l.0 * c.0).sqrt();
@@ -221,7 +223,7 @@ fn earliest_close<F: Real>(b: &Bounds<F>) -> F {
         let s = (l / c).sqrt();
         (l * c).sqrt() * min_close_angle(b.r.0 * s, b.r.1 * s)
     };
-    let mut boxes: [Option<Cell<F>>; CAP] = [None; CAP];
+    let mut boxes: [Option<SubBox<F>>; CAP] = [None; CAP];
     boxes[0] = Some((b.l, b.c, lower(b.l, b.c)));
     let mut best = at(b.l.0, b.c.0);
     for (l, c) in [(b.l.0, b.c.1), (b.l.1, b.c.0), (b.l.1, b.c.1)] {
@@ -287,7 +289,7 @@ fn earliest_close<F: Real>(b: &Bounds<F>) -> F {
 }
 
 /// The least bound among the open sub-boxes (or `fallback` if none).
-fn global_lower<F: Real>(boxes: &[Option<((F, F), (F, F), F)>], fallback: F) -> F {
+fn global_lower<F: Real>(boxes: &[Option<SubBox<F>>], fallback: F) -> F {
     let mut m = fallback;
     for (_, _, lb) in boxes.iter().flatten() {
         if *lb < m {
