@@ -296,9 +296,43 @@ struct PointArgs {
     /// Fraction of the voltage rating allowed in use.
     #[arg(long, default_value = "0.8", allow_hyphen_values = true)]
     derating: String,
+    /// Tolerance of Lr, a fraction or a percentage (10%): asks for the robust window.
+    #[arg(long, allow_hyphen_values = true)]
+    lr_tol: Option<String>,
+    /// Tolerance of Cr, a fraction or a percentage.
+    #[arg(long, allow_hyphen_values = true)]
+    cr_tol: Option<String>,
+    /// Relative error of the sensed input voltage (gain), a fraction or a percentage.
+    #[arg(long, allow_hyphen_values = true)]
+    vin_err: Option<String>,
+    /// Relative error of the sensed output current (gain), a fraction or a percentage.
+    #[arg(long, allow_hyphen_values = true)]
+    io_err: Option<String>,
+    /// Peak timer jitter, second.
+    #[arg(long, allow_hyphen_values = true)]
+    jitter: Option<String>,
     /// Print one JSON object instead of the table.
     #[arg(long)]
     json: bool,
+}
+
+/// A fraction given as `0.1` or `10%`.
+fn fraction(option: &'static str, text: Option<&String>) -> Result<Option<f64>, InputError> {
+    let Some(t) = text else { return Ok(None) };
+    let (body, scale) = match t.trim().strip_suffix('%') {
+        Some(b) => (b.trim(), 0.01),
+        None => (t.trim(), 1.0),
+    };
+    body.parse::<f64>()
+        .ok()
+        .filter(|v| v.is_finite())
+        .map(|v| Some(v * scale))
+        .ok_or_else(|| {
+            InputError::new(
+                option,
+                format!("expected a fraction or a percentage such as 0.05 or 5%, got `{t}`"),
+            )
+        })
 }
 
 fn num(option: &'static str, text: &str, unit: &'static str) -> Result<f64, InputError> {
@@ -348,7 +382,29 @@ impl PointArgs {
             fs_hz: opt_num("--fs", self.fs.as_ref(), "Hz")?,
             vds_rating_v: opt_num("--vds-rating", self.vds_rating.as_ref(), "V")?,
             derating: num("--derating", &self.derating, "")?,
+            uncertainty: self.uncertainty()?,
         })
+    }
+
+    fn uncertainty(&self) -> Result<Option<point::UncertaintyInput>, InputError> {
+        let parts = [
+            fraction("--lr-tol", self.lr_tol.as_ref())?,
+            fraction("--cr-tol", self.cr_tol.as_ref())?,
+            fraction("--vin-err", self.vin_err.as_ref())?,
+            fraction("--io-err", self.io_err.as_ref())?,
+            opt_num("--jitter", self.jitter.as_ref(), "s")?,
+        ];
+        if parts.iter().all(Option::is_none) {
+            return Ok(None);
+        }
+        let [lr, cr, v, i, j] = parts.map(|p| p.unwrap_or(0.0));
+        Ok(Some(point::UncertaintyInput {
+            lr_rel: lr,
+            cr_rel: cr,
+            vin_rel: v,
+            io_rel: i,
+            jitter_s: j,
+        }))
     }
 }
 

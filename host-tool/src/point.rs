@@ -60,6 +60,23 @@ pub struct PointInput {
     pub vds_rating_v: Option<f64>,
     /// Fraction of the rating allowed in use.
     pub derating: f64,
+    /// Tolerances and sensing errors for the robust window (`None`: not asked).
+    pub uncertainty: Option<UncertaintyInput>,
+}
+
+/// Tolerances and sensing errors of `point` (fractions, second).
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct UncertaintyInput {
+    /// Relative tolerance of Lr (0.1 for 10 %).
+    pub lr_rel: f64,
+    /// Relative tolerance of Cr.
+    pub cr_rel: f64,
+    /// Relative error of the sensed Vin.
+    pub vin_rel: f64,
+    /// Relative error of the sensed Io.
+    pub io_rel: f64,
+    /// Peak timer jitter, second.
+    pub jitter_s: f64,
 }
 
 /// A rejected input: which option and why, in one line.
@@ -189,6 +206,22 @@ pub struct PointReport {
     pub on_time_s: Option<f64>,
     /// Highest switching frequency with a non-negative on-time, Hz.
     pub max_switching_frequency_hz: f64,
+    /// The robust window's opening: the latest true opening over the
+    /// tolerance box plus the jitter, second from gate turn-off (`None`
+    /// where the box reaches below the ZVS boundary, the intersection is
+    /// empty, or no tolerance was given).
+    pub robust_window_open_s: Option<f64>,
+    /// The robust window's close: the earliest true close less the jitter.
+    pub robust_window_close_s: Option<f64>,
+    /// Commanded turn-on (nominal aim) after the robust opening, second
+    /// (negative: before it).
+    pub robust_margin_after_open_s: Option<f64>,
+    /// Robust close after the commanded turn-on, second (negative: after it).
+    pub robust_margin_before_close_s: Option<f64>,
+    /// The delay aimed at `position` inside the robust window, moved to the
+    /// nearest tick inside it, ticks (`None` where no tick lands in it: treat
+    /// the point as ZVS-impossible and apply the fallback).
+    pub robust_delay_ticks: Option<u32>,
     /// Plain-language warnings.
     pub warnings: Vec<String>,
     /// Safety notice.
@@ -346,6 +379,11 @@ pub fn evaluate(input: &PointInput) -> Result<PointReport, InputError> {
         switching_frequency_hz: None,
         on_time_s: None,
         max_switching_frequency_hz: t.max_switching_frequency_hz(),
+        robust_window_open_s: None,
+        robust_window_close_s: None,
+        robust_margin_after_open_s: None,
+        robust_margin_before_close_s: None,
+        robust_delay_ticks: None,
         warnings,
         caution: CAUTION,
     };
@@ -384,6 +422,10 @@ pub fn evaluate(input: &PointInput) -> Result<PointReport, InputError> {
         }
     }
 
+    if let Some(u) = input.uncertainty {
+        robust(input, &tank, &cell, u, &mut report)?;
+    }
+
     let regulation = match (input.topology, input.fs_hz, input.vout_v) {
         (Topology::Buck, Some(fs), _) => Some(t.buck_regulation_at(fs)?),
         (Topology::Buck, None, Some(vout)) => Some(
@@ -412,4 +454,69 @@ pub fn evaluate(input: &PointInput) -> Result<PointReport, InputError> {
         report.on_time_s = Some(r.on_time_s);
     }
     Ok(report)
+}
+
+/// The robust window and the commands against it.
+fn robust(
+    input: &PointInput,
+    tank: &Tank<f64>,
+    cell: &CellPoint<f64>,
+    u: UncertaintyInput,
+    report: &mut PointReport,
+) -> Result<(), InputError> {
+    let unc =
+        timing_core::robust::Uncertainty::new(u.lr_rel, u.cr_rel, u.vin_rel, u.io_rel, u.jitter_s)
+            .map_err(|e| {
+                let option = match e {
+                    timing_core::Error::OutOfRange {
+                        quantity: timing_core::Quantity::ResonantInductance,
+                        ..
+                    } => "--lr-tol",
+                    timing_core::Error::OutOfRange {
+                        quantity: timing_core::Quantity::ResonantCapacitance,
+                        ..
+                    } => "--cr-tol",
+                    timing_core::Error::OutOfRange {
+                        quantity: timing_core::Quantity::InputVoltage,
+                        ..
+                    } => "--vin-err",
+                    timing_core::Error::OutOfRange {
+                        quantity: timing_core::Quantity::OutputCurrent,
+                        ..
+                    } => "--io-err",
+                    _ => "--jitter",
+                };
+                InputError::new(option, e.to_string())
+            })?;
+    let Some(rw) = timing_core::robust::robust_window(tank, cell, &unc)? else {
+        report.warnings.push(
+            "no turn-on is ZVS on every board within the tolerances (the tolerance box reaches below              the ZVS boundary or the true windows do not overlap): treat this point as ZVS-impossible              and use the fallback"
+                .to_owned(),
+        );
+        return Ok(());
+    };
+    report.robust_window_open_s = Some(rw.open_s);
+    report.robust_window_close_s = Some(rw.close_s);
+    if let (Some(ti), Some(on)) = (input.timer, report.commanded_turn_on_s) {
+        report.robust_margin_after_open_s = Some(on - rw.open_s);
+        report.robust_margin_before_close_s = Some(rw.close_s - on);
+        let lead = ti.turn_on_delay_s - ti.turn_off_delay_s;
+        let ticks = |s: f64| (s - lead) * ti.clock_hz;
+        let target = ticks(rw.open_s + input.position * (rw.close_s - rw.open_s)).round();
+        let (lo, hi) = (ticks(rw.open_s).ceil().max(0.0), ticks(rw.close_s).floor());
+        report.robust_delay_ticks = (lo <= hi).then(|| target.clamp(lo, hi) as u32);
+        if report.robust_delay_ticks.is_none() {
+            report.warnings.push(format!(
+                "the robust window is {:.2} ns wide, narrower than a tick ({:.2} ns): no delay is                  reliably ZVS on every board; treat this point as ZVS-impossible",
+                (rw.close_s - rw.open_s) * 1e9,
+                1e9 / ti.clock_hz
+            ));
+        } else if on < rw.open_s || on > rw.close_s {
+            report.warnings.push(
+                "the nominal delay lies outside the robust window: use robust_delay_ticks"
+                    .to_owned(),
+            );
+        }
+    }
+    Ok(())
 }

@@ -87,6 +87,16 @@ pub fn point_text(r: &PointReport) -> String {
             );
         }
     }
+    if let (Some(o), Some(c)) = (r.robust_window_open_s, r.robust_window_close_s) {
+        let _ = writeln!(
+            s,
+            "robust window (every board within the tolerances): {} to {}{}",
+            ns(o),
+            ns(c),
+            r.robust_delay_ticks
+                .map_or_else(String::new, |t| format!("; aim there: {t} ticks"))
+        );
+    }
     if let (Some(fs), Some(m), Some(ton)) =
         (r.switching_frequency_hz, r.conversion_ratio, r.on_time_s)
     {

@@ -232,3 +232,83 @@ fn the_cli_writes_the_deck_and_the_prediction() {
     assert_eq!(out.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&out.stderr).contains("input voltage"));
 }
+
+/// `point --json` with tolerances: the robust window lies inside the true
+/// window (timing-core's f64 transition) at every corner of the box and at
+/// sampled interior points, for held-out inputs.
+#[test]
+fn point_robust_window_lies_inside_every_true_window() {
+    use timing_core::{CellPoint, Tank, Transition};
+    for (lr, cr, vin, io, lt, ct, ve, ie) in [
+        (1.0e-6, 6.8e-9, 48.0, 6.0, 0.10, 0.05, 0.01, 0.02),
+        (2.2e-6, 3.3e-9, 30.0, 2.9, 0.05, 0.05, 0.02, 0.01),
+        (680e-9, 10e-9, 36.0, 14.0, 0.08, 0.10, 0.01, 0.03),
+    ] {
+        let out = std::process::Command::new(env!("CARGO_BIN_EXE_zvs-timing"))
+            .args(["point", "--json"])
+            .args(["--lr", &lr.to_string(), "--cr", &cr.to_string()])
+            .args(["--vin", &vin.to_string(), "--io", &io.to_string()])
+            .args([
+                "--lr-tol",
+                &format!("{}%", lt * 100.0),
+                "--cr-tol",
+                &cr_pct(ct),
+            ])
+            .args(["--vin-err", &ve.to_string(), "--io-err", &ie.to_string()])
+            .output()
+            .unwrap();
+        assert!(
+            out.status.success(),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        let j: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+        let (Some(o), Some(c)) = (
+            j["robust_window_open_s"].as_f64(),
+            j["robust_window_close_s"].as_f64(),
+        ) else {
+            panic!("no robust window at {lr} {cr} {vin} {io}: {j}");
+        };
+        let mut seed = 0x5eed_u64;
+        let mut next = || {
+            seed = seed
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            (seed >> 11) as f64 / (1u64 << 53) as f64
+        };
+        let mut points: Vec<[f64; 4]> = (0..16u32)
+            .map(|k| [0, 1, 2, 3].map(|b| f64::from((k >> b) & 1)))
+            .collect();
+        points.extend((0..400).map(|_| [next(), next(), next(), next()]));
+        for [a, b, v, i] in points {
+            let tank = Tank::new(
+                lr * (1.0 - lt + 2.0 * lt * a),
+                cr * (1.0 - ct + 2.0 * ct * b),
+            )
+            .unwrap();
+            let cell = CellPoint::new(
+                vin * (1.0 - ve + 2.0 * ve * v),
+                io * (1.0 - ie + 2.0 * ie * i),
+            )
+            .unwrap();
+            let w = Transition::new(&tank, &cell).unwrap().window().unwrap();
+            assert!(
+                w.open_s <= o * (1.0 + 1e-12) && w.close_s >= c * (1.0 - 1e-12),
+                "{w:?} vs [{o}, {c}]"
+            );
+        }
+    }
+    // A bad tolerance names its option.
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_zvs-timing"))
+        .args([
+            "point", "--lr", "1u", "--cr", "6.8n", "--vin", "48", "--io", "6", "--lr-tol", "80%",
+        ])
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("--lr-tol"));
+}
+
+fn cr_pct(f: f64) -> String {
+    format!("{}%", f * 100.0)
+}

@@ -36,6 +36,7 @@ fn point_input(s: &Scenario) -> PointInput {
         fs_hz: None,
         vds_rating_v: None,
         derating: 0.8,
+        uncertainty: None,
     }
 }
 

@@ -92,9 +92,13 @@ fn the_close_is_the_dense_grid_minimum() {
     let i0 = 1.272 * v0 / z0;
     let (a, b, ev, ei) = (0.03, 0.02, 0.01, 0.01);
     let u = Uncertainty::new(a, b, ev, ei, 0.0).unwrap();
-    let w = robust_window(&Tank::new(l0, c0).unwrap(), &CellPoint::new(v0, i0).unwrap(), &u)
-        .unwrap()
-        .unwrap();
+    let w = robust_window(
+        &Tank::new(l0, c0).unwrap(),
+        &CellPoint::new(v0, i0).unwrap(),
+        &u,
+    )
+    .unwrap()
+    .unwrap();
     let n = 40;
     let mut least = f64::INFINITY;
     for p in 0..=n {
@@ -113,37 +117,66 @@ fn the_close_is_the_dense_grid_minimum() {
             }
         }
     }
-    println!("robust close {:e}, dense-grid earliest {least:e}", w.close_s);
+    println!(
+        "robust close {:e}, dense-grid earliest {least:e}",
+        w.close_s
+    );
     assert!(w.close_s <= least);
-    assert!(least - w.close_s <= 1e-6 * least, "{} vs {least}", w.close_s);
+    assert!(
+        least - w.close_s <= 1e-6 * least,
+        "{} vs {least}",
+        w.close_s
+    );
 }
 
 #[test]
 fn jitter_shrinks_and_bad_tolerances_are_named() {
     let tank = Tank::new(1.0e-6_f64, 6.8e-9).unwrap();
     let cell = CellPoint::new(48.0_f64, 6.0).unwrap();
-    let a = robust_window(&tank, &cell, &Uncertainty::new(0.05, 0.05, 0.01, 0.01, 0.0).unwrap())
-        .unwrap()
-        .unwrap();
-    let b = robust_window(&tank, &cell, &Uncertainty::new(0.05, 0.05, 0.01, 0.01, 2e-9).unwrap())
-        .unwrap()
-        .unwrap();
-    assert!((b.open_s - a.open_s - 2e-9).abs() < 1e-15 && (a.close_s - b.close_s - 2e-9).abs() < 1e-15);
+    let a = robust_window(
+        &tank,
+        &cell,
+        &Uncertainty::new(0.05, 0.05, 0.01, 0.01, 0.0).unwrap(),
+    )
+    .unwrap()
+    .unwrap();
+    let b = robust_window(
+        &tank,
+        &cell,
+        &Uncertainty::new(0.05, 0.05, 0.01, 0.01, 2e-9).unwrap(),
+    )
+    .unwrap()
+    .unwrap();
+    assert!(
+        (b.open_s - a.open_s - 2e-9).abs() < 1e-15 && (a.close_s - b.close_s - 2e-9).abs() < 1e-15
+    );
     // No uncertainty: the nominal window.
     let t = Transition::new(&tank, &cell).unwrap().window().unwrap();
-    let n = robust_window(&tank, &cell, &Uncertainty::none()).unwrap().unwrap();
+    let n = robust_window(&tank, &cell, &Uncertainty::none())
+        .unwrap()
+        .unwrap();
     assert!((n.open_s - t.open_s).abs() < 1e-18 && (n.close_s - t.close_s).abs() < 1e-15);
     assert!(matches!(
         Uncertainty::new(0.7_f64, 0.0, 0.0, 0.0, 0.0),
-        Err(Error::OutOfRange { quantity: Quantity::ResonantInductance, .. })
+        Err(Error::OutOfRange {
+            quantity: Quantity::ResonantInductance,
+            ..
+        })
     ));
     assert!(matches!(
         Uncertainty::new(0.0_f64, 0.0, 0.0, 0.0, -1.0),
-        Err(Error::Negative { quantity: Quantity::Interval, .. })
+        Err(Error::Negative {
+            quantity: Quantity::Interval,
+            ..
+        })
     ));
     // A box reaching below the ZVS boundary has no robust window.
     let light = CellPoint::new(48.0, 4.2).unwrap(); // J = 1.06
-    assert!(robust_window(&tank, &light, &Uncertainty::new(0.1, 0.1, 0.02, 0.02, 0.0).unwrap())
-        .unwrap()
-        .is_none());
+    assert!(robust_window(
+        &tank,
+        &light,
+        &Uncertainty::new(0.1, 0.1, 0.02, 0.02, 0.0).unwrap()
+    )
+    .unwrap()
+    .is_none());
 }
