@@ -329,6 +329,13 @@ fn ratio_entries(
         .collect()
 }
 
+/// log2 of the node step of a uniform table over `q_lo..=q_hi` with about
+/// `target_nodes` nodes (a power of two, at least 1).
+fn uniform_step(q_lo: u32, q_hi: u32, target_nodes: u32) -> u32 {
+    let per = (f64::from(q_hi - q_lo) / f64::from(target_nodes.max(2) - 1)).max(1.0);
+    per.log2().ceil().max(0.0) as u32
+}
+
 /// The ratio layout with about `target_nodes` nodes and `frac` fractional
 /// bits: the ratio shift is the largest (finest ratio resolution) that
 /// keeps the node step within the fixed-point limit `step + frac <= 16`.
@@ -343,10 +350,7 @@ fn ratio_candidate(
     if bits(max_ticks.ceil() as u32) + frac > 16 {
         return Ok(None);
     }
-    let step_for = |q_lo: u32, q_hi: u32| {
-        let per = (f64::from(q_hi - q_lo) / f64::from(target_nodes.max(2) - 1)).max(1.0);
-        per.log2().ceil().max(0.0) as u32
-    };
+    let step_for = |q_lo: u32, q_hi: u32| uniform_step(q_lo, q_hi, target_nodes);
     let Some((shift, q_lo, q_hi)) = finest_shift(&s, |lo, hi| step_for(lo, hi) + frac <= 16) else {
         return Ok(None);
     };
@@ -407,10 +411,7 @@ fn recip_ratio_candidate(
         u32::from(*recips.last().unwrap_or(&0)),
         u32::from(*recips.first().unwrap_or(&0)),
     );
-    let step_for = |q_lo: u32, q_hi: u32| {
-        let per = (f64::from(q_hi - q_lo) / f64::from(target_nodes.max(2) - 1)).max(1.0);
-        per.log2().ceil().max(0.0) as u32
-    };
+    let step_for = |q_lo: u32, q_hi: u32| uniform_step(q_lo, q_hi, target_nodes);
     // q is increasing in vin and in R, so the corners bound it.
     let Some((ps, q_lo, q_hi)) = (0..=rs).find_map(|ps| {
         let lo = (u32::from(s.vin.lo) * r_min) >> ps;

@@ -7,6 +7,27 @@
 
 use std::process::ExitCode;
 
+/// `println!` that ends the program quietly when standard output is closed
+/// (a reader such as `head` that has seen enough), instead of panicking.
+macro_rules! outln {
+    ($($t:tt)*) => {{
+        use std::io::Write as _;
+        if writeln!(std::io::stdout(), $($t)*).is_err() {
+            std::process::exit(0);
+        }
+    }};
+}
+
+/// `print!` with the same behaviour as [`outln!`].
+macro_rules! out {
+    ($($t:tt)*) => {{
+        use std::io::Write as _;
+        if write!(std::io::stdout(), $($t)*).is_err() {
+            std::process::exit(0);
+        }
+    }};
+}
+
 use clap::{Args, Parser, Subcommand, ValueEnum};
 use host_tool::point::{self, InputError, PointInput, TimerInput};
 use host_tool::units::parse_quantity;
@@ -68,9 +89,9 @@ fn run_plot(args: &PlotArgs) -> anyhow::Result<()> {
         _ => anyhow::bail!("give both --vin and --io for the cycle picture, or neither"),
     };
     for f in host_tool::plot::write_all(&design, &args.out, point)? {
-        println!("wrote {}", f.display());
+        outln!("wrote {}", f.display());
     }
-    println!("{}", host_tool::point::CAUTION);
+    outln!("{}", host_tool::point::CAUTION);
     Ok(())
 }
 
@@ -101,7 +122,7 @@ fn run_netlist(args: &NetlistArgs) -> anyhow::Result<()> {
         Some(path) => std::fs::write(path, &deck)
             .map_err(|e| anyhow::anyhow!("cannot write {}: {e}", path.display()))?,
         None if args.json => anyhow::bail!("--json prints the prediction; give --out for the deck"),
-        None => print!("{deck}"),
+        None => out!("{deck}"),
     }
     if args.json {
         let mut j = serde_json::to_value(&prediction)?;
@@ -111,9 +132,9 @@ fn run_netlist(args: &NetlistArgs) -> anyhow::Result<()> {
                 serde_json::Value::String(host_tool::point::CAUTION.to_owned()),
             );
         }
-        println!("{}", serde_json::to_string_pretty(&j)?);
+        outln!("{}", serde_json::to_string_pretty(&j)?);
     } else if args.out.is_some() {
-        println!("{}", host_tool::point::CAUTION);
+        outln!("{}", host_tool::point::CAUTION);
     }
     Ok(())
 }
@@ -196,9 +217,9 @@ fn run_size(args: &SizeArgs) -> anyhow::Result<()> {
                 serde_json::Value::String(host_tool::point::CAUTION.to_owned()),
             );
         }
-        println!("{}", serde_json::to_string_pretty(&j)?);
+        outln!("{}", serde_json::to_string_pretty(&j)?);
     } else {
-        print!("{}", host_tool::render::size_text(&report));
+        out!("{}", host_tool::render::size_text(&report));
     }
     Ok(())
 }
@@ -411,15 +432,15 @@ impl PointArgs {
 fn run_point(args: &PointArgs) -> anyhow::Result<()> {
     let report = point::evaluate(&args.to_input()?)?;
     if args.json {
-        println!("{}", serde_json::to_string_pretty(&report)?);
+        outln!("{}", serde_json::to_string_pretty(&report)?);
     } else {
-        print!("{}", host_tool::render::point_text(&report));
+        out!("{}", host_tool::render::point_text(&report));
     }
     Ok(())
 }
 
 fn print_verification(v: &host_tool::verify::VerifyReport, clock_hz: f64, w0_rad_s: f64) {
-    println!(
+    outln!(
         "method {}: verified {} code pairs: max error {:.3} ticks at vin code {} ({:.3} V), io code {} ({:.4} A); RMS {:.3} ticks",
         v.method, v.points_checked, v.max_error_ticks, v.worst_vin_code, v.worst_vin_v, v.worst_io_code, v.worst_io_a, v.rms_error_ticks
     );
@@ -427,22 +448,22 @@ fn print_verification(v: &host_tool::verify::VerifyReport, clock_hz: f64, w0_rad
         v.max_approximation_error_ticks,
         v.max_approximation_error_at,
     ) {
-        println!(
+        outln!(
             "approximation error before rounding to whole ticks: at most {e:.4} ticks (vin code {cv}, io code {ci})"
         );
     }
-    println!(
+    outln!(
         "ZVS pairs: {}; commanded turn-ons outside the true window: {} ({} early, {} late); windows narrower than a tick: {}",
         v.zvs_points, v.outside_window, v.early, v.late, v.narrower_than_a_tick
     );
     if let Some(j) = v.outside_window_max_load {
         let width = timing_core::normalized::clamp_angle(j) / w0_rad_s * clock_hz;
-        println!(
+        outln!(
             "every miss is at J <= {j:.4}, where the ZVS window is at most {width:.2} ticks wide"
         );
     }
     if let Some(m) = v.min_margin_s {
-        println!(
+        outln!(
             "smallest margin to a window edge: {} ({:.2} ticks)",
             host_tool::units::format_si(m, "s"),
             m * clock_hz
@@ -469,9 +490,9 @@ fn run_table(args: &TableArgs) -> anyhow::Result<()> {
             "files": written,
             "caution": host_tool::point::CAUTION,
         });
-        println!("{}", serde_json::to_string_pretty(&j)?);
+        outln!("{}", serde_json::to_string_pretty(&j)?);
     } else {
-        println!(
+        outln!(
             "{}: {} layout, {} bytes ({} fractional bits); written to {}",
             design.name,
             out.table.layout_name(),
@@ -498,8 +519,8 @@ fn run_table(args: &TableArgs) -> anyhow::Result<()> {
                 )
             })
             .collect();
-        println!("layouts tried, smallest first:\n  {}", others.join("\n  "));
-        println!("\n{}", host_tool::point::CAUTION);
+        outln!("layouts tried, smallest first:\n  {}", others.join("\n  "));
+        outln!("\n{}", host_tool::point::CAUTION);
     }
     Ok(())
 }
@@ -563,7 +584,7 @@ fn run_verify(args: &VerifyArgs) -> anyhow::Result<ExitCode> {
             "report": v,
             "seconds": start.elapsed().as_secs_f64(),
         });
-        println!("{}", serde_json::to_string_pretty(&j)?);
+        outln!("{}", serde_json::to_string_pretty(&j)?);
     } else {
         print_verification(&v, design.timer.clock_hz(), design.tank.w0_rad_s());
     }
