@@ -9,26 +9,20 @@ use cross_checks::{repo, require_program};
 use host_tool::design::Design;
 use host_tool::spice::{meas, ngspice_available, run_ngspice};
 
-const BOOST: &str = r#"
-name = "netlist_boost"
-topology = "boost"
-lr = "2.2uH"
-cr = 3.3e-9
-vin = [18, 30]
-io = [0.3, 4]
-vout = 48
-[adc]
-bits = 12
-vin_volts_per_code = 0.01
-io_amps_per_code = 0.002
-[timer]
-clock_hz = "100MHz"
-counter_bits = 16
-driver_delay = "20ns"
-position = 0.4
-[table]
-max_error_ticks = 1.0
-"#;
+/// The shared held-out boost with 12-bit sensing from zero and a fast
+/// driver.
+fn boost() -> String {
+    cross_checks::HELD_OUT_BOOST
+        .replace("name = \"held_out_boost\"", "name = \"netlist_boost\"")
+        .replace(
+            "bits = 10\nvin_volts_per_code = 0.04\nio_amps_per_code = 0.01\nio_zero_code = 512",
+            "bits = 12\nvin_volts_per_code = 0.01\nio_amps_per_code = 0.002",
+        )
+        .replace(
+            "driver_delay = \"60ns\"\ndriver_delay_off = \"20ns\"",
+            "driver_delay = \"20ns\"",
+        )
+}
 
 /// Agreement of ngspice's event times with the model: 1 % + 2 ns (the
 /// deck's near-ideal diodes and switch shift the events slightly; the
@@ -43,7 +37,9 @@ fn the_netlist_reproduces_the_window_in_ngspice() {
         return;
     }
     let demo = Design::load(&repo().join("tables/winch_aux.toml")).unwrap();
-    let boost = Design::parse(BOOST, "boost.toml").unwrap();
+    let boost_text = boost();
+    assert!(boost_text.contains("bits = 12") && !boost_text.contains("driver_delay_off"));
+    let boost = Design::parse(&boost_text, "boost.toml").unwrap();
     // Held-out points: ZVS at several loads and voltages, and valley ones.
     let points = [
         (&demo, 41.0, 7.3),

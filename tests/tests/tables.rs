@@ -21,31 +21,8 @@ fn scratch(name: &str) -> PathBuf {
     d
 }
 
-/// A design written for these tests only (not the demo): a boost from a
-/// 24 V nominal input to 48 V, bidirectional 10-bit current sensing, a
-/// 100 MHz timer and a slow isolated driver.
-const HELD_OUT: &str = r#"
-name = "held_out_boost"
-topology = "boost"
-lr = "2.2uH"
-cr = 3.3e-9
-vin = [18, 30]
-io = [0.3, 4]
-vout = 48
-[adc]
-bits = 10
-vin_volts_per_code = 0.04
-io_amps_per_code = 0.01
-io_zero_code = 512
-[timer]
-clock_hz = "100MHz"
-counter_bits = 16
-driver_delay = "60ns"
-driver_delay_off = "20ns"
-position = 0.4
-[table]
-max_error_ticks = 1.0
-"#;
+/// The shared held-out boost design (cross_checks::HELD_OUT_BOOST).
+const HELD_OUT: &str = cross_checks::HELD_OUT_BOOST;
 
 #[test]
 fn committed_demo_tables_are_fresh() {
