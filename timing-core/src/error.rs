@@ -57,6 +57,12 @@ pub enum Quantity {
     AdcCode,
     /// A coefficient of a closed-form method (see `closed_form`).
     MethodCoefficient,
+    /// A voltage point of an output-capacitance curve, volt.
+    CossVoltage,
+    /// A capacitance point of an output-capacitance curve, farad.
+    CossCapacitance,
+    /// Series resistance of the resonant loop, ohm.
+    TankResistance,
 }
 
 impl Quantity {
@@ -87,6 +93,9 @@ impl Quantity {
             Quantity::AmpsPerCode => "output-current ADC scale (A per code)",
             Quantity::AdcCode => "ADC code",
             Quantity::MethodCoefficient => "closed-form method coefficient",
+            Quantity::CossVoltage => "Coss curve voltage (V)",
+            Quantity::CossCapacitance => "Coss curve capacitance (F)",
+            Quantity::TankResistance => "tank series resistance (ohm)",
         }
     }
 }

@@ -66,9 +66,11 @@ pub mod blob;
 mod cell;
 pub mod closed_form;
 mod conversion;
+pub mod coss;
 mod error;
 pub mod normalized;
 mod real;
+pub mod ring;
 pub mod robust;
 #[cfg(feature = "serde")]
 mod serde_types;

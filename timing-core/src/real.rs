@@ -48,6 +48,8 @@ pub trait Real:
     fn sin(self) -> Self;
     /// Cosine (radians).
     fn cos(self) -> Self;
+    /// ln(1 + self), accurate for small arguments (libm `log1p`).
+    fn ln_1p(self) -> Self;
     /// Largest integer value not above `self`.
     fn floor(self) -> Self;
     /// Smallest integer value not below `self`.
@@ -72,7 +74,7 @@ pub trait Real:
 }
 
 macro_rules! impl_real {
-    ($t:ty, $sqrt:path, $asin:path, $sin:path, $cos:path, $floor:path, $ceil:path, $round:path, $fabs:path, $pi:expr, $tau:expr, $pi2:expr) => {
+    ($t:ty, $sqrt:path, $asin:path, $sin:path, $cos:path, $log1p:path, $floor:path, $ceil:path, $round:path, $fabs:path, $pi:expr, $tau:expr, $pi2:expr) => {
         impl Real for $t {
             const ZERO: Self = 0.0;
             const ONE: Self = 1.0;
@@ -97,6 +99,10 @@ macro_rules! impl_real {
             #[inline]
             fn cos(self) -> Self {
                 $cos(self)
+            }
+            #[inline]
+            fn ln_1p(self) -> Self {
+                $log1p(self)
             }
             #[inline]
             fn floor(self) -> Self {
@@ -150,6 +156,7 @@ impl_real!(
     libm::asinf,
     libm::sinf,
     libm::cosf,
+    libm::log1pf,
     libm::floorf,
     libm::ceilf,
     libm::roundf,
@@ -164,6 +171,7 @@ impl_real!(
     libm::asin,
     libm::sin,
     libm::cos,
+    libm::log1p,
     libm::floor,
     libm::ceil,
     libm::round,

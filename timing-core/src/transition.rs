@@ -68,6 +68,53 @@ pub enum TurnOn<F> {
     Valley(Valley<F>),
 }
 
+impl<F: Real> TurnOn<F> {
+    /// Whether zero-voltage turn-on is possible.
+    #[must_use]
+    pub fn is_zvs(&self) -> bool {
+        matches!(self, TurnOn::Zvs(_))
+    }
+
+    /// The ZVS window, `None` below the boundary.
+    #[must_use]
+    pub fn window(&self) -> Option<ZvsWindow<F>> {
+        match *self {
+            TurnOn::Zvs(w) => Some(w),
+            TurnOn::Valley(_) => None,
+        }
+    }
+
+    /// The valley, `None` when ZVS is possible.
+    #[must_use]
+    pub fn valley(&self) -> Option<Valley<F>> {
+        match *self {
+            TurnOn::Zvs(_) => None,
+            TurnOn::Valley(v) => Some(v),
+        }
+    }
+
+    /// End of the current ramp, second from gate turn-off, after a turn-on
+    /// in the window or at the valley.
+    #[must_use]
+    pub fn ramp_end_s(&self) -> F {
+        match *self {
+            TurnOn::Zvs(w) => w.ramp_end_s,
+            TurnOn::Valley(v) => v.ramp_end_s,
+        }
+    }
+
+    /// The instant to aim the switch's turn-on at, second from gate
+    /// turn-off: `position` in the ZVS window, or the valley below the
+    /// boundary (the valley fallback policy).
+    #[must_use]
+    pub fn target_s(&self, position: crate::WindowPosition<F>) -> F {
+        match *self {
+            TurnOn::Zvs(w) => w.at(position),
+            TurnOn::Valley(v) => v.valley_s,
+        }
+    }
+}
+
 /// One turn-off transition of the ideal cell, computed in closed form.
 ///
 /// Accuracy: in `f64` every time is within a few ulp of the exact closed
@@ -164,7 +211,7 @@ impl<F: Real> Transition<F> {
     /// Whether zero-voltage turn-on is possible (J >= 1).
     #[must_use]
     pub fn is_zvs(&self) -> bool {
-        matches!(self.turn_on, TurnOn::Zvs(_))
+        self.turn_on.is_zvs()
     }
 
     /// End of the linear charge T1 = Cr*V/I, second from gate turn-off: the
@@ -195,19 +242,13 @@ impl<F: Real> Transition<F> {
     /// The ZVS window, `None` when J < 1.
     #[must_use]
     pub fn window(&self) -> Option<ZvsWindow<F>> {
-        match self.turn_on {
-            TurnOn::Zvs(w) => Some(w),
-            TurnOn::Valley(_) => None,
-        }
+        self.turn_on.window()
     }
 
     /// The valley, `None` when ZVS is possible.
     #[must_use]
     pub fn valley(&self) -> Option<Valley<F>> {
-        match self.turn_on {
-            TurnOn::Zvs(_) => None,
-            TurnOn::Valley(v) => Some(v),
-        }
+        self.turn_on.valley()
     }
 
     /// End of the current ramp (freewheel diode turns off), second from gate
@@ -215,10 +256,7 @@ impl<F: Real> Transition<F> {
     /// the valley.
     #[must_use]
     pub fn ramp_end_s(&self) -> F {
-        match self.turn_on {
-            TurnOn::Zvs(w) => w.ramp_end_s,
-            TurnOn::Valley(v) => v.ramp_end_s,
-        }
+        self.turn_on.ramp_end_s()
     }
 
     /// The instant to aim the switch's turn-on at, second from gate turn-off:
@@ -226,10 +264,7 @@ impl<F: Real> Transition<F> {
     /// valley fallback policy).
     #[must_use]
     pub fn turn_on_target_s(&self, position: crate::WindowPosition<F>) -> F {
-        match self.turn_on {
-            TurnOn::Zvs(w) => w.at(position),
-            TurnOn::Valley(v) => v.valley_s,
-        }
+        self.turn_on.target_s(position)
     }
 }
 
