@@ -10,7 +10,7 @@ use timing_core::table::Fallback;
 use timing_core::CodeRange;
 
 use crate::design::Design;
-use crate::verify::{verify, VerifyReport};
+use crate::verify::{verify_all, DelayMethod, VerifyReport};
 
 fn range(r: CodeRange) -> String {
     format!("CodeRange {{ lo: {}, hi: {} }}", r.lo, r.hi)
@@ -102,22 +102,43 @@ pub fn closed_form_source(design: &Design) -> Result<String, String> {
         design.io_codes.lo,
         design.io_codes.hi
     );
-    match &fast {
-        Ok(m) => proof_line(&mut s, &verify(design, m, None)),
-        Err(e) => {
-            let _ = writeln!(s, "// closed-form-f32: not available for this design: {e}");
-        }
-    }
-    match &fixed {
-        Ok(m) => proof_line(&mut s, &verify(design, m, None)),
-        Err(e) => {
-            let _ = writeln!(s, "// fixed-point: not available for this design: {e}");
-        }
-    }
-    match &libm {
-        Ok(m) => proof_line(&mut s, &verify(design, m, None)),
-        Err(e) => {
-            let _ = writeln!(s, "// libm-f32: not available for this design: {e}");
+    // One pass over the code pairs for all three methods.
+    let named: [(&str, Result<&dyn DelayMethod, String>); 3] = [
+        (
+            "closed-form-f32",
+            fast.as_ref()
+                .map(|m| m as &dyn DelayMethod)
+                .map_err(ToString::to_string),
+        ),
+        (
+            "fixed-point",
+            fixed
+                .as_ref()
+                .map(|m| m as &dyn DelayMethod)
+                .map_err(ToString::to_string),
+        ),
+        (
+            "libm-f32",
+            libm.as_ref()
+                .map(|m| m as &dyn DelayMethod)
+                .map_err(ToString::to_string),
+        ),
+    ];
+    let available: Vec<&dyn DelayMethod> = named
+        .iter()
+        .filter_map(|(_, m)| m.as_ref().ok().copied())
+        .collect();
+    let mut reports = verify_all(design, &available, None).into_iter();
+    for (name, m) in &named {
+        match m {
+            Ok(_) => {
+                if let Some(r) = reports.next() {
+                    proof_line(&mut s, &r);
+                }
+            }
+            Err(e) => {
+                let _ = writeln!(s, "// {name}: not available for this design: {e}");
+            }
         }
     }
     let _ = writeln!(

@@ -6,6 +6,7 @@
 use serde::{Deserialize, Deserializer};
 use timing_core::{CellPoint, CodeRange, Tank, Timer, Topology, WindowPosition};
 
+use crate::real_tank::RealTank;
 use crate::units::parse_quantity;
 
 macro_rules! si_number {
@@ -37,6 +38,7 @@ si_number!(Volt, "V", "volt");
 si_number!(Amp, "A", "ampere");
 si_number!(Hertz, "Hz", "hertz");
 si_number!(Second, "s", "second");
+si_number!(Ohm, "ohm", "ohm");
 
 /// Which table layouts generation may choose from.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Default)]
@@ -165,8 +167,19 @@ pub struct DesignFile {
     topology: TopologyFile,
     /// Resonant inductance.
     pub lr: Henry,
-    /// Resonant capacitance across the switch (external plus MOSFET Coss).
-    pub cr: Farad,
+    /// Resonant capacitance across the switch: with no `coss`, the whole of
+    /// it (external plus the MOSFET's, taken as constant); with `coss`, the
+    /// fixed part in parallel with the curve (optional).
+    #[serde(default)]
+    pub cr: Option<Farad>,
+    /// CSV file of the MOSFET's Coss curve (`volts,farads`), relative to the
+    /// design file.
+    #[serde(default)]
+    pub coss: Option<String>,
+    /// Series resistance of the resonant loop (inductor, capacitor ESR,
+    /// switch and traces), ohm.
+    #[serde(default)]
+    pub r_tank: Option<Ohm>,
     /// Input-voltage range [min, max].
     pub vin: [Volt; 2],
     /// Output-current range [min, max].
@@ -194,8 +207,20 @@ pub struct Design {
     pub name: String,
     /// Converter.
     pub topology: Topology,
-    /// The tank.
+    /// The ideal tank: Lr and Cr, or with a Coss curve the boundary-
+    /// equivalent constant capacitance at the middle of the cell-voltage
+    /// range. It sets the normalised-load axis of the 1-D layouts and is what
+    /// the closed-form methods assume.
     pub tank: Tank<f64>,
+    /// The tank as built (Coss curve, loop resistance): the exact model.
+    pub real: RealTank,
+    /// The Coss file as named in the design file.
+    pub coss_file: Option<String>,
+    /// Characteristic impedance whose boundary line I*Z0 = V lies on or
+    /// above the exact model's ZVS boundary over the whole voltage range
+    /// (the tables' ZVS test with a fixed fallback), ohm; `tank`'s Z0 for
+    /// an ideal tank.
+    pub zvs_z0_ohm: f64,
     /// Input-voltage range, volt.
     pub vin_v: (f64, f64),
     /// Output-current range, ampere.
@@ -280,10 +305,15 @@ impl Design {
             path: origin.to_owned(),
             message: e.to_string().trim_end().replace('\n', "\n  "),
         })?;
-        file.validate(text).map_err(|message| DesignError::Invalid {
-            path: origin.to_owned(),
-            message,
-        })
+        let base = std::path::Path::new(origin)
+            .parent()
+            .map(std::path::Path::to_path_buf)
+            .unwrap_or_default();
+        file.validate(text, &base)
+            .map_err(|message| DesignError::Invalid {
+                path: origin.to_owned(),
+                message,
+            })
     }
 
     /// The cell quantities at converter input voltage `vin` and output current `io`.
@@ -314,6 +344,35 @@ impl Design {
         )
     }
 
+    /// One line on the model behind the design's timings, e.g. `ideal tank,
+    /// Lr 1 uH, Cr 6.8 nF (closed forms)`.
+    #[must_use]
+    pub fn model_summary(&self) -> String {
+        use crate::units::format_si as q;
+        let r = &self.real;
+        if r.is_ideal() {
+            return format!(
+                "ideal tank, Lr {}, Cr {} (closed forms)",
+                q(r.lr_h, "H"),
+                q(r.cr_fixed_f, "F")
+            );
+        }
+        let mut s = format!("Lr {}", q(r.lr_h, "H"));
+        if let Some(f) = &self.coss_file {
+            s += &format!(
+                ", Coss curve {f} ({} points) in parallel with {}",
+                r.coss.len(),
+                q(r.cr_fixed_f, "F")
+            );
+        } else {
+            s += &format!(", Cr {}", q(r.cr_fixed_f, "F"));
+        }
+        if r.r_tank_ohm > 0.0 {
+            s += &format!(", loop resistance {}", q(r.r_tank_ohm, "ohm"));
+        }
+        s + " (numerical ring)"
+    }
+
     /// Input voltage of code `c`, volt.
     #[must_use]
     pub fn vin_of(&self, c: u16) -> f64 {
@@ -328,7 +387,7 @@ impl Design {
 }
 
 impl DesignFile {
-    fn validate(&self, text: &str) -> Result<Design, String> {
+    fn validate(&self, text: &str, base: &std::path::Path) -> Result<Design, String> {
         let name_ok = self
             .name
             .chars()
@@ -344,7 +403,56 @@ impl DesignFile {
                 self.name
             ));
         }
-        let tank = Tank::new(self.lr.0, self.cr.0).map_err(|e| format!("lr/cr: {e}"))?;
+        let (coss, coss_text) = match &self.coss {
+            Some(f) => {
+                let (points, text) =
+                    crate::coss_csv::load(&base.join(f)).map_err(|e| format!("coss: {e}"))?;
+                (points, Some(text))
+            }
+            None => (Vec::new(), None),
+        };
+        let cr_fixed = match (self.cr, coss.is_empty()) {
+            (Some(c), _) => c.0,
+            (None, false) => 0.0,
+            (None, true) => {
+                return Err("cr is missing: give the resonant capacitance, or a Coss curve (coss = \"FILE.csv\") with cr as the external part".into())
+            }
+        };
+        let r_tank = self.r_tank.map_or(0.0, |r| r.0);
+        let real = RealTank {
+            lr_h: self.lr.0,
+            cr_fixed_f: cr_fixed,
+            coss,
+            r_tank_ohm: r_tank,
+        };
+        real.solver().map_err(|e| {
+            let key = match e {
+                timing_core::Error::NotPositive {
+                    quantity: timing_core::Quantity::ResonantInductance,
+                    ..
+                }
+                | timing_core::Error::NotFinite {
+                    quantity: timing_core::Quantity::ResonantInductance,
+                    ..
+                } => "lr",
+                _ if self.r_tank.is_some()
+                    && matches!(
+                        e,
+                        timing_core::Error::Negative {
+                            quantity: timing_core::Quantity::TankResistance,
+                            ..
+                        } | timing_core::Error::NotFinite {
+                            quantity: timing_core::Quantity::TankResistance,
+                            ..
+                        }
+                    ) =>
+                {
+                    "r_tank"
+                }
+                _ => "cr",
+            };
+            format!("{key}: {e}")
+        })?;
         let topology = match self.topology {
             TopologyFile::Buck => Topology::Buck,
             TopologyFile::Boost => Topology::Boost,
@@ -388,6 +496,29 @@ impl DesignFile {
                 ));
             }
         }
+        // Cell voltages over the range (the boost's is Vout, the others vary).
+        let cell_v = |vin: f64| {
+            CellPoint::from_converter(topology, vin, vout.unwrap_or(f64::NAN), 1.0)
+                .map(|c| c.v_volt())
+                .map_err(|e| format!("vin = {vin}: {e}"))
+        };
+        let tank = real
+            .equivalent_tank(cell_v(0.5 * (vlo + vhi))?)
+            .map_err(|e| format!("lr/cr: {e}"))?;
+        let zvs_z0_ohm = if real.is_ideal() {
+            tank.z0_ohm()
+        } else {
+            let solver = real.solver().map_err(|e| format!("cr: {e}"))?;
+            let mut z = f64::INFINITY;
+            for k in 0..=16 {
+                let v = cell_v(vlo + (vhi - vlo) * f64::from(k) / 16.0)?;
+                let ib = solver
+                    .boundary_current_a(v)
+                    .map_err(|e| format!("r_tank: no ZVS at {v} V cell voltage: {e}"))?;
+                z = z.min(v / ib);
+            }
+            z
+        };
         let a = &self.adc;
         if !(8..=16).contains(&a.bits) {
             return Err(format!("adc.bits = {} must be 8 to 16", a.bits));
@@ -483,6 +614,9 @@ impl DesignFile {
             name: self.name.clone(),
             topology,
             tank,
+            real,
+            coss_file: self.coss.clone(),
+            zvs_z0_ohm,
             vin_v: (vlo, vhi),
             io_a: (ilo, ihi),
             vout_v: vout,
@@ -497,7 +631,17 @@ impl DesignFile {
             layout: tb.layout,
             vin_codes,
             io_codes,
-            hash: timing_core::blob::CRC32.checksum(text.as_bytes()),
+            // The Coss curve is part of the design: its text joins the hash.
+            hash: match &coss_text {
+                None => timing_core::blob::CRC32.checksum(text.as_bytes()),
+                Some(c) => {
+                    let mut d = timing_core::blob::CRC32.digest();
+                    d.update(text.as_bytes());
+                    d.update(b"\0");
+                    d.update(c.as_bytes());
+                    d.finalize()
+                }
+            },
         })
     }
 }

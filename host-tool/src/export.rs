@@ -59,6 +59,7 @@ fn summary_lines(design: &Design, g: &Generated, v: &VerifyReport, comment: &str
         "{comment} range: max error {:.3} ticks, RMS {:.3} ticks; {} of {} ZVS turn-ons outside the window.",
         v.max_error_ticks, v.rms_error_ticks, v.outside_window, v.zvs_points
     );
+    let _ = writeln!(s, "{comment} Model: {}.", design.model_summary());
     let _ = writeln!(
         s,
         "{comment} Timer {:.0} Hz; codes outside vin {}..={} / io {}..={} clamp to the range edge.",

@@ -6,15 +6,20 @@ use timing_core::table::{
     log_index, log_ratio_index, ratio_bounds, DelayTable, Fallback, GridLayout, Layout,
     LogRatioLayout, LogUniformLayout, RatioLayout, RecipRatioLayout, Sensing, LOG_OFFSET,
 };
-use timing_core::{Transition, ZvsWindow};
+use timing_core::ZvsWindow;
 
 use crate::design::Design;
+use crate::real_tank::CellSolver;
 use crate::verify::{verify, VerifyReport};
 
 /// The exact (f64) commanded delay of a design, before quantisation.
 #[derive(Debug, Clone, Copy)]
 pub struct ExactModel<'a> {
     design: &'a Design,
+    solver: CellSolver<'a>,
+    /// Planning only: every point is 0 ticks, no physics is run (candidate
+    /// layouts are sized before their entries are worth computing).
+    dry: bool,
     clock_hz: f64,
     lead_s: f64,
 }
@@ -35,14 +40,27 @@ pub struct ExactPoint {
 }
 
 impl<'a> ExactModel<'a> {
-    /// The model of `design`.
+    /// The model of `design`: the closed forms for an ideal tank, the
+    /// numerical ring with the Coss curve and the loop resistance otherwise.
     #[must_use]
     pub fn new(design: &'a Design) -> Self {
         Self {
             design,
+            // Validated with the design; the fallback cannot be reached.
+            solver: design
+                .real
+                .solver()
+                .unwrap_or(CellSolver::Ideal(design.tank)),
+            dry: false,
             clock_hz: design.timer.clock_hz(),
             lead_s: design.timer.lead_s(),
         }
+    }
+
+    /// The solver behind the model.
+    #[must_use]
+    pub fn solver(&self) -> CellSolver<'a> {
+        self.solver
     }
 
     /// The exact delay at converter input voltage `vin` (V) and output current
@@ -51,10 +69,17 @@ impl<'a> ExactModel<'a> {
     /// # Errors
     /// timing-core's error for an impossible point.
     pub fn at(&self, vin: f64, io: f64) -> Result<ExactPoint, timing_core::Error> {
+        if self.dry {
+            return Ok(ExactPoint {
+                ticks: 0.0,
+                table_ticks: 0.0,
+                window: None,
+            });
+        }
         let cell = self.design.cell(vin, io)?;
-        let t = Transition::new(&self.design.tank, &cell)?;
-        let window = t.window();
-        let table_ticks = (t.turn_on_target_s(self.design.position) - self.lead_s) * self.clock_hz;
+        let t = self.solver.transition(&cell)?;
+        let window = t.turn_on.window();
+        let table_ticks = (t.turn_on.target_s(self.design.position) - self.lead_s) * self.clock_hz;
         let ticks = match (window, self.design.fallback) {
             (None, Fallback::Fixed(n)) => f64::from(n.get()),
             _ => table_ticks,
@@ -84,6 +109,54 @@ impl<'a> ExactModel<'a> {
     pub fn at_load(&self, j: f64) -> Result<ExactPoint, timing_core::Error> {
         let vin = self.design.vin_v.0;
         self.at(vin, j * vin / self.design.tank.z0_ohm())
+    }
+
+    /// What a 1-D table node at normalised load `j` should hold. For an
+    /// ideal tank the delay is a function of J alone ([`ExactModel::at_load`]).
+    /// With a Coss curve or losses it also moves with the voltage along the
+    /// ray Io = J*Vin/Z0; the node then holds the middle of the targets at
+    /// 17 voltages over the design range (those whose current lies in the
+    /// range, or all if none does), which halves the spread the 1-D table
+    /// cannot follow. The spread shows up in verification.
+    ///
+    /// # Errors
+    /// As [`ExactModel::at`].
+    pub fn at_ratio_node(&self, j: f64) -> Result<ExactPoint, timing_core::Error> {
+        let base = self.at_load(j)?;
+        if self.dry || matches!(self.solver, CellSolver::Ideal(_)) {
+            return Ok(base);
+        }
+        let (vlo, vhi) = self.design.vin_v;
+        let (ilo, ihi) = self.design.io_a;
+        let z0 = self.design.tank.z0_ohm();
+        let mut spread: Option<(f64, f64)> = None;
+        let mut any: Option<(f64, f64)> = None;
+        for k in 0..=16 {
+            let vin = vlo + (vhi - vlo) * f64::from(k) / 16.0;
+            let io = j * vin / z0;
+            let p = self.at(vin, io)?;
+            let widen = |s: Option<(f64, f64)>| {
+                Some(s.map_or((p.table_ticks, p.table_ticks), |(a, b)| {
+                    (a.min(p.table_ticks), b.max(p.table_ticks))
+                }))
+            };
+            any = widen(any);
+            if (ilo..=ihi).contains(&io) {
+                spread = widen(spread);
+            }
+        }
+        let (a, b) = spread
+            .or(any)
+            .unwrap_or((base.table_ticks, base.table_ticks));
+        let mid = 0.5 * (a + b);
+        Ok(ExactPoint {
+            ticks: match (base.window, self.design.fallback) {
+                (None, Fallback::Fixed(n)) => f64::from(n.get()),
+                _ => mid,
+            },
+            table_ticks: mid,
+            window: base.window,
+        })
     }
 }
 
@@ -269,7 +342,7 @@ fn delay_bounds(design: &Design, model: &ExactModel<'_>) -> Result<f64, Generate
 /// and Vin = kv*vin reads `(io - zero)*ki*Z0 >= vin*kv`: the multipliers
 /// are ki*Z0 and kv, scaled so the larger is 65535.
 fn zvs_multipliers(design: &Design) -> (u16, u16) {
-    let a = design.io_amps_per_code * design.tank.z0_ohm();
+    let a = design.io_amps_per_code * design.zvs_z0_ohm;
     let b = design.vin_volts_per_code;
     let scale = f64::from(u16::MAX) / a.max(b);
     (
@@ -318,7 +391,7 @@ fn ratio_entries(
         .map(|k| {
             let j = load_at_ratio(design, shift, node_q(k));
             model
-                .at_load(j)
+                .at_ratio_node(j)
                 .map(|p| entry(p.table_ticks, frac))
                 .map_err(|e| GenerateError::Model {
                     vin_v: design.vin_v.0,
@@ -598,39 +671,118 @@ fn grid_candidate(
     }))
 }
 
-/// Worst error of `g` on a sample of the design's code pairs (about
-/// `budget_points` of them, evenly strided, edges included), ticks.
-fn screen(design: &Design, model: &ExactModel<'_>, g: &Generated) -> f64 {
-    let Ok(t) = g.table() else {
-        return f64::INFINITY;
-    };
+/// The exact delays at a sample of the design's code pairs (about 100,000
+/// of them, evenly strided, edges included), computed once for screening
+/// every candidate; rows in parallel.
+fn screening_sample(design: &Design, model: &ExactModel<'_>) -> Vec<(u16, u16, f64)> {
     let (v, i) = (design.vin_codes, design.io_codes);
     let total = f64::from(v.len()) * f64::from(i.len());
     let stride = ((total / 100_000.0).sqrt().floor() as u16).max(1);
-    let mut worst = 0.0f64;
-    let mut cv = v.lo;
-    while cv <= v.hi {
-        let mut ci = i.lo;
-        while ci <= i.hi {
-            if let Ok(p) = model.at_codes(cv, ci) {
-                let got = f64::from(
-                    t.delay(timing_core::AdcCode::new(cv), timing_core::AdcCode::new(ci))
-                        .ticks
-                        .get(),
-                );
-                worst = worst.max((got - p.ticks).abs());
-            }
-            if ci == i.hi {
+    let strided = |r: timing_core::CodeRange| {
+        let mut out = Vec::new();
+        let mut c = r.lo;
+        loop {
+            out.push(c);
+            if c == r.hi {
                 break;
             }
-            ci = ci.saturating_add(stride).min(i.hi);
+            c = c.saturating_add(stride).min(r.hi);
         }
-        if cv == v.hi {
-            break;
+        out
+    };
+    let (rows, cols) = (strided(v), strided(i));
+    let threads = std::thread::available_parallelism().map_or(1, std::num::NonZero::get);
+    let chunk = rows.len().div_ceil(threads.max(1)).max(1);
+    std::thread::scope(|s| {
+        let handles: Vec<_> = rows
+            .chunks(chunk)
+            .map(|part| {
+                let cols = &cols;
+                s.spawn(move || {
+                    let mut out = Vec::with_capacity(part.len() * cols.len());
+                    for &cv in part {
+                        for &ci in cols {
+                            if let Ok(p) = model.at_codes(cv, ci) {
+                                out.push((cv, ci, p.ticks));
+                            }
+                        }
+                    }
+                    out
+                })
+            })
+            .collect();
+        handles
+            .into_iter()
+            .flat_map(|h| h.join().unwrap_or_default())
+            .collect()
+    })
+}
+
+/// Add the exact delays at the 33 x 33 code pairs around (`cv`, `ci`) to
+/// the screening sample.
+fn add_neighbourhood(
+    design: &Design,
+    model: &ExactModel<'_>,
+    sample: &mut Vec<(u16, u16, f64)>,
+    cv: u16,
+    ci: u16,
+) {
+    let (v, i) = (design.vin_codes, design.io_codes);
+    for a in cv.saturating_sub(16).max(v.lo)..=cv.saturating_add(16).min(v.hi) {
+        for b in ci.saturating_sub(16).max(i.lo)..=ci.saturating_add(16).min(i.hi) {
+            if let Ok(p) = model.at_codes(a, b) {
+                sample.push((a, b, p.ticks));
+            }
         }
-        cv = cv.saturating_add(stride).min(v.hi);
     }
-    worst
+}
+
+/// Worst error of `g` on the screening sample, ticks.
+fn screen(sample: &[(u16, u16, f64)], g: &Generated) -> f64 {
+    let Ok(t) = g.table() else {
+        return f64::INFINITY;
+    };
+    sample.iter().fold(0.0f64, |worst, &(cv, ci, exact)| {
+        let got = f64::from(
+            t.delay(timing_core::AdcCode::new(cv), timing_core::AdcCode::new(ci))
+                .ticks
+                .get(),
+        );
+        worst.max((got - exact).abs())
+    })
+}
+
+/// One candidate layout's parameters, to build it on a dry model (for its
+/// size) and again on the real one (for its entries).
+#[derive(Debug, Clone, Copy)]
+enum Plan {
+    /// Uniform ratio: nodes, fractional bits.
+    Ratio(u32, u32),
+    /// Uniform ratio with reciprocals: nodes, fractional bits.
+    RecipRatio(u32, u32),
+    /// Log-spaced ratio: mantissa bits, fractional bits.
+    LogRatio(u32, u32),
+    /// Uniform in log2: step, fractional bits.
+    LogUniform(u32, u32),
+    /// Grid: voltage and current spacing shifts.
+    Grid(u32, u32),
+}
+
+impl Plan {
+    fn build(
+        self,
+        design: &Design,
+        model: &ExactModel<'_>,
+        max_ticks: f64,
+    ) -> Result<Option<Generated>, GenerateError> {
+        match self {
+            Plan::Ratio(n, f) => ratio_candidate(design, model, max_ticks, n, f),
+            Plan::RecipRatio(n, f) => recip_ratio_candidate(design, model, max_ticks, n, f),
+            Plan::LogRatio(m, f) => log_ratio_candidate(design, model, max_ticks, m, f),
+            Plan::LogUniform(st, f) => log_uniform_candidate(design, model, max_ticks, st, f),
+            Plan::Grid(vs, is) => grid_candidate(design, model, max_ticks, vs, is),
+        }
+    }
 }
 
 /// Generate the smallest table of the allowed layouts that meets the
@@ -642,29 +794,28 @@ fn screen(design: &Design, model: &ExactModel<'_>, g: &Generated) -> f64 {
 pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
     let model = ExactModel::new(design);
     let max_ticks = delay_bounds(design, &model)?;
-    let mut pool: Vec<Generated> = Vec::new();
+    // Candidates are sized on a dry model first; entries are computed only
+    // for those screened, smallest first.
+    let dry = ExactModel { dry: true, ..model };
+    let mut pool: Vec<(Generated, Plan)> = Vec::new();
     use crate::design::LayoutChoice as L;
     // The two uniform ratio layouts (with a division, or with reciprocals):
     // node counts in powers of two, fractional bits in steps of two.
-    type CandidateFn =
-        fn(&Design, &ExactModel<'_>, f64, u32, u32) -> Result<Option<Generated>, GenerateError>;
-    let uniform: [(L, CandidateFn); 2] = [
-        (L::Ratio, ratio_candidate),
-        (L::RecipRatio, recip_ratio_candidate),
-    ];
-    for (choice, candidate) in uniform {
+    let uniform: [(L, fn(u32, u32) -> Plan); 2] =
+        [(L::Ratio, Plan::Ratio), (L::RecipRatio, Plan::RecipRatio)];
+    for (choice, plan) in uniform {
         if !(design.layout == L::Auto || design.layout == choice) {
             continue;
         }
         let mut n = 4u32;
         while n <= 32_768 {
             for frac in (0..=12).step_by(2) {
-                if let Some(g) = candidate(design, &model, max_ticks, n, frac)? {
+                if let Some(g) = plan(n, frac).build(design, &dry, max_ticks)? {
                     if !pool
                         .iter()
-                        .any(|p| p.layout == g.layout && p.frac_bits == g.frac_bits)
+                        .any(|(p, _)| p.layout == g.layout && p.frac_bits == g.frac_bits)
                     {
-                        pool.push(g);
+                        pool.push((g, plan(n, frac)));
                     }
                 }
             }
@@ -680,8 +831,8 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
         fracs.dedup();
         for m in 1..=10 {
             for &frac in &fracs {
-                if let Some(g) = log_ratio_candidate(design, &model, max_ticks, m, frac)? {
-                    pool.push(g);
+                if let Some(g) = Plan::LogRatio(m, frac).build(design, &dry, max_ticks)? {
+                    pool.push((g, Plan::LogRatio(m, frac)));
                 }
             }
         }
@@ -691,12 +842,13 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
         for step in 0..=15u32 {
             for frac in [most.min(16 - step), 4, 2] {
                 if frac <= most && step + frac <= 16 {
-                    if let Some(g) = log_uniform_candidate(design, &model, max_ticks, step, frac)? {
+                    let plan = Plan::LogUniform(step, frac);
+                    if let Some(g) = plan.build(design, &dry, max_ticks)? {
                         if !pool
                             .iter()
-                            .any(|p| p.layout == g.layout && p.frac_bits == g.frac_bits)
+                            .any(|(p, _)| p.layout == g.layout && p.frac_bits == g.frac_bits)
                         {
-                            pool.push(g);
+                            pool.push((g, plan));
                         }
                     }
                 }
@@ -706,19 +858,20 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
     if matches!(design.layout, L::Auto | L::Grid) {
         for vs in 0..=10u32 {
             for is in 0..=10u32 {
-                if let Some(g) = grid_candidate(design, &model, max_ticks, vs, is)? {
-                    pool.push(g);
+                if let Some(g) = Plan::Grid(vs, is).build(design, &dry, max_ticks)? {
+                    pool.push((g, Plan::Grid(vs, is)));
                 }
             }
         }
     }
-    pool.sort_by_key(|g| (g.table_bytes(), std::cmp::Reverse(g.frac_bits)));
+    pool.sort_by_key(|(g, _)| (g.table_bytes(), std::cmp::Reverse(g.frac_bits)));
+    let mut sample = screening_sample(design, &model);
     // Leave a margin on the sample for the pairs it skipped.
     let screen_budget = design.max_error_ticks - 0.02;
     let mut candidates = Vec::new();
     let mut best: Option<(f64, usize, &'static str)> = None;
     let mut chosen = None;
-    for g in pool {
+    for (g, plan) in pool {
         // Grids far larger than the best ratio table are not worth screening.
         if chosen.is_some() {
             candidates.push(Candidate {
@@ -730,7 +883,8 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
             });
             continue;
         }
-        let err = screen(design, &model, &g);
+        let g = plan.build(design, &model, max_ticks)?.unwrap_or(g);
+        let err = screen(&sample, &g);
         let meets = err <= screen_budget;
         candidates.push(Candidate {
             layout: g.layout_name(),
@@ -764,9 +918,20 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
             }
             if report.max_error_ticks <= design.max_error_ticks {
                 chosen = Some((g, report));
-            } else if let Some(c) = candidates.last_mut() {
-                c.meets_budget = false;
-                c.screened_error_ticks = Some(report.max_error_ticks);
+            } else {
+                if let Some(c) = candidates.last_mut() {
+                    c.meets_budget = false;
+                    c.screened_error_ticks = Some(report.max_error_ticks);
+                }
+                // The sample missed where this candidate fails: add that
+                // neighbourhood, so the next candidates are screened there.
+                add_neighbourhood(
+                    design,
+                    &model,
+                    &mut sample,
+                    report.worst_vin_code,
+                    report.worst_io_code,
+                );
             }
         }
     }

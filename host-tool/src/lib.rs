@@ -15,6 +15,7 @@
 #![warn(missing_docs)]
 
 pub mod closed_form_source;
+pub mod coss_csv;
 pub mod design;
 pub mod export;
 pub mod generate;
@@ -22,6 +23,7 @@ pub mod netlist;
 #[cfg(feature = "plot")]
 pub mod plot;
 pub mod point;
+pub mod real_tank;
 pub mod render;
 pub mod size;
 pub mod spice;

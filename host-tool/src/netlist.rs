@@ -11,7 +11,7 @@
 
 use std::fmt::Write as _;
 
-use timing_core::{Ticks, Transition};
+use timing_core::Ticks;
 
 use crate::design::Design;
 use crate::spice::CellDeck;
@@ -58,23 +58,23 @@ pub fn netlist(
     io_a: f64,
 ) -> Result<(String, Prediction), NetlistError> {
     let cell = design.cell(vin_v, io_a)?;
-    let t = Transition::new(&design.tank, &cell)?;
+    let model = crate::generate::ExactModel::new(design);
+    let t = model.solver().transition(&cell)?;
     let timer = &design.timer;
-    let ticks: Ticks = match (t.window(), design.fallback) {
+    let ticks: Ticks = match (t.turn_on.window(), design.fallback) {
         (None, timing_core::table::Fallback::Fixed(n)) => n,
-        _ => timer.command(&t, design.position)?.ticks(),
+        _ => timer.command_for(&t.turn_on, design.position)?.ticks(),
     };
     let turn_on_s = timer.turn_on_s(ticks);
     let w0 = design.tank.w0_rad_s();
     let t_off_s = 20.0 / w0;
-    let ramp_end = match t.turn_on() {
-        timing_core::TurnOn::Zvs(w) => w.ramp_end_s,
-        timing_core::TurnOn::Valley(v) => v.ramp_end_s,
-    };
+    let ramp_end = t.turn_on.ramp_end_s();
     let deck = CellDeck {
         topology: design.topology,
-        lr_h: design.tank.lr_h(),
-        cr_f: design.tank.cr_f(),
+        lr_h: design.real.lr_h,
+        cr_f: design.real.cr_fixed_f,
+        coss: design.real.coss.clone(),
+        r_tank_ohm: design.real.r_tank_ohm,
         vin_v,
         vout_v: design.vout_v.unwrap_or(0.0),
         inductor_current_a: cell.i_amp(),
@@ -85,13 +85,16 @@ pub fn netlist(
         average_over_s: None,
     };
     let p = Prediction {
-        normalized_load: t.normalized_load(),
-        window_open_s: t.window().map(|w| w.open_s),
-        window_close_s: t.window().map(|w| w.close_s),
-        valley_s: t.valley().map(|v| v.valley_s),
+        normalized_load: cell.i_amp() * design.tank.z0_ohm() / cell.v_volt(),
+        window_open_s: t.turn_on.window().map(|w| w.open_s),
+        window_close_s: t.turn_on.window().map(|w| w.close_s),
+        valley_s: t.turn_on.valley().map(|v| v.valley_s),
         delay_ticks: ticks.get(),
         turn_on_s,
-        expected_switch_voltage_at_turn_on_v: t.valley().map_or(0.0, |v| v.valley_voltage_v),
+        expected_switch_voltage_at_turn_on_v: t
+            .turn_on
+            .valley()
+            .map_or(0.0, |v| v.valley_voltage_v),
         t_off_s,
     };
     let mut s = String::new();
@@ -103,8 +106,9 @@ pub fn netlist(
     );
     let _ = writeln!(
         s,
-        "* CAUTION: a simulation of an ideal cell; verify on the bench at reduced voltage with a scope."
+        "* CAUTION: a simulation of a model of the cell; verify on the bench at reduced voltage with a scope."
     );
+    let _ = writeln!(s, "* Model: {}.", design.model_summary());
     let _ = writeln!(
         s,
         "* Gate edges are the switch's (driver delays applied): off at {t_off_s:e} s, on {turn_on_s:e} s later"

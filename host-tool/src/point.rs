@@ -18,7 +18,7 @@ pub const HIGH_STRESS_RATIO: f64 = 4.0;
 
 /// Safety notice carried by every report.
 pub const CAUTION: &str = "CAUTION: resonant converters run at lethal voltages and store energy. \
-These figures come from an ideal model: bring the board up at reduced voltage, check the switch \
+These figures come from a model of the cell: bring the board up at reduced voltage, check the switch \
 node with a scope before relying on them, and follow local electrical codes and licensed practice.";
 
 /// The timer and gate driver of a [`PointInput`].

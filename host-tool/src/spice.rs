@@ -26,8 +26,14 @@ pub struct CellDeck {
     pub topology: Topology,
     /// Resonant inductance, henry.
     pub lr_h: f64,
-    /// Resonant capacitance, farad.
+    /// Resonant capacitance (with `coss`, the fixed part in parallel with
+    /// it; may then be 0), farad.
     pub cr_f: f64,
+    /// The MOSFET's Coss curve, written as a behavioural capacitor whose
+    /// capacitance is a function of the switch voltage (empty: none).
+    pub coss: Vec<timing_core::coss::CossPoint<f64>>,
+    /// Series resistance in the resonant loop (in series with Lr), ohm.
+    pub r_tank_ohm: f64,
     /// Converter input voltage, volt.
     pub vin_v: f64,
     /// Converter output voltage (magnitude), volt; unused for the buck.
@@ -71,6 +77,52 @@ pub mod meas {
 }
 
 impl CellDeck {
+    /// The largest capacitance across the switch (fixed part plus the
+    /// curve's largest value), farad: the scale for numerical settings.
+    #[must_use]
+    pub fn capacitance_scale_f(&self) -> f64 {
+        self.cr_f + self.coss.iter().map(|p| p.farads).fold(0.0, f64::max)
+    }
+
+    /// The charge of the Coss curve as an expression of the switch voltage
+    /// `v` (a SPICE expression such as `V(in,a)`), for a behavioural current
+    /// source `I=ddt(Q)`: Q(v) = c0*v + sum of slope changes/2 * max(0, v -
+    /// vk)^2, whose derivative is the curve (linear between the points, flat
+    /// above the last). Charge-based, so charge is conserved exactly, and
+    /// smooth (C continuous), which ngspice's Newton iteration needs: a
+    /// capacitance expression with kinks made it crawl. A curve starting at
+    /// 0 V continues its first piece below zero (the switch sits a few
+    /// millivolts either side of 0 V when on), as the host's ring
+    /// integrator does inside a step.
+    #[must_use]
+    pub fn coss_charge_expression(&self, v: &str) -> Option<String> {
+        let first = self.coss.first()?;
+        let slope_after = |k: usize| match (self.coss.get(k), self.coss.get(k + 1)) {
+            (Some(p), Some(q)) => (q.farads - p.farads) / (q.volts - p.volts),
+            _ => 0.0,
+        };
+        let mut e = format!("({:e})*({v})", first.farads);
+        let mut slope = 0.0;
+        for (k, p) in self.coss.iter().enumerate() {
+            let next = slope_after(k);
+            let change = next - slope;
+            if change != 0.0 {
+                if k == 0 && p.volts <= 0.0 {
+                    let _ = write!(e, " + ({:e})*({v})*({v})", change / 2.0);
+                } else {
+                    let _ = write!(
+                        e,
+                        " + ({:e})*max(0, {v} - ({:e}))**2",
+                        change / 2.0,
+                        p.volts
+                    );
+                }
+            }
+            slope = next;
+        }
+        Some(e)
+    }
+
     /// The clamp voltage V of the cell from the converter voltages
     /// (buck Vin, boost Vout, buck-boost Vin + Vout), volt.
     #[must_use]
@@ -135,7 +187,26 @@ impl CellDeck {
         }
         gate.push(')');
         let _ = writeln!(d, "Vg g 0 {gate}");
-        let (lr, cr, i) = (self.lr_h, self.cr_f, self.inductor_current_a);
+        let (lr, i) = (self.lr_h, self.inductor_current_a);
+        let cr = self.capacitance_scale_f();
+        // Cr (fixed part) and Coss between `p` and `n` (switch voltage
+        // V(p, n)); Lr in series with the loop resistance from `a` to `b`.
+        let caps = |d: &mut String, p: &str, n: &str| {
+            if self.cr_f > 0.0 {
+                let _ = writeln!(d, "Cr {p} {n} {:e}", self.cr_f);
+            }
+            if let Some(q) = self.coss_charge_expression(&format!("V({p},{n})")) {
+                let _ = writeln!(d, "Bcoss {p} {n} I=ddt({q})");
+            }
+        };
+        let tank = |d: &mut String, a: &str, b: &str| {
+            if self.r_tank_ohm > 0.0 {
+                let _ = writeln!(d, "Lr {a} lr_r {lr:e}");
+                let _ = writeln!(d, "Rtank lr_r {b} {:e}", self.r_tank_ohm);
+            } else {
+                let _ = writeln!(d, "Lr {a} {b} {lr:e}");
+            }
+        };
         // A high resistance across the converter diode (it leaks 1e-5 of the
         // cell current at the cell voltage) ties down the diode node while the
         // diode blocks.
@@ -144,11 +215,11 @@ impl CellDeck {
             Topology::Boost => {
                 // Input inductor as a current source into d; switch from a2 to ground.
                 let _ = writeln!(d, "Iin 0 d DC {i:e}");
-                let _ = writeln!(d, "Lr d a {lr:e}");
+                tank(&mut d, "d", "a");
                 let _ = writeln!(d, "Vsense a a2 0");
                 let _ = writeln!(d, "S1 a2 0 g 0 swmod");
                 let _ = writeln!(d, "Dbody 0 a2 dbody");
-                let _ = writeln!(d, "Cr a2 0 {cr:e}");
+                caps(&mut d, "a2", "0");
                 let _ = writeln!(d, "Esw sw 0 a2 0 1");
                 let _ = writeln!(d, "Dout d out dconv");
                 let _ = writeln!(d, "Rleak d out {r_leak:e}");
@@ -158,9 +229,9 @@ impl CellDeck {
                 let _ = writeln!(d, "Vin in 0 DC {:e}", self.vin_v);
                 let _ = writeln!(d, "S1 in a g 0 swmod");
                 let _ = writeln!(d, "Dbody a in dbody");
-                let _ = writeln!(d, "Cr in a {cr:e}");
+                caps(&mut d, "in", "a");
                 let _ = writeln!(d, "Esw sw 0 in a 1");
-                let _ = writeln!(d, "Lr a a2 {lr:e}");
+                tank(&mut d, "a", "a2");
                 let _ = writeln!(d, "Vsense a2 d 0");
                 // Storage inductor as a current sink; inverted output.
                 let _ = writeln!(d, "Istore d 0 DC {i:e}");
@@ -172,9 +243,9 @@ impl CellDeck {
                 let _ = writeln!(d, "Vin in 0 DC {:e}", self.vin_v);
                 let _ = writeln!(d, "S1 in a g 0 swmod");
                 let _ = writeln!(d, "Dbody a in dbody");
-                let _ = writeln!(d, "Cr in a {cr:e}");
+                caps(&mut d, "in", "a");
                 let _ = writeln!(d, "Esw sw 0 in a 1");
-                let _ = writeln!(d, "Lr a a2 {lr:e}");
+                tank(&mut d, "a", "a2");
                 let _ = writeln!(d, "Vsense a2 d 0");
                 let _ = writeln!(d, "Dfw 0 d dconv");
                 let _ = writeln!(d, "Rleak 0 d {r_leak:e}");
@@ -222,7 +293,7 @@ impl CellDeck {
         // RON to ROFF leaves a one-step numerical spike in the Lr current that
         // a zero-crossing search would otherwise take for an event. 1e-3/w0 is
         // far shorter than any interval of the transition.
-        let from = format!("FROM={:e}", t0 + 1e-3 * (self.lr_h * self.cr_f).sqrt());
+        let from = format!("FROM={:e}", t0 + 1e-3 * (self.lr_h * cr).sqrt());
         let _ = writeln!(
             d,
             ".meas tran {} WHEN v(sw)={v:e} RISE=1 {from}",

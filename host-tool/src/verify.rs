@@ -141,21 +141,47 @@ struct Row {
     model_errors: u64,
 }
 
-fn check_row(design: &Design, model: &ExactModel<'_>, m: &dyn DelayMethod, cv: u16) -> Row {
+/// One row for every method: the exact model is evaluated once per pair.
+fn check_row(
+    design: &Design,
+    model: &ExactModel<'_>,
+    methods: &[&dyn DelayMethod],
+    cv: u16,
+) -> Vec<Row> {
+    let i = design.io_codes;
+    let mut rows = vec![
+        Row {
+            worst_ci: i.lo,
+            max_cmd_ci: i.lo,
+            ..Row::default()
+        };
+        methods.len()
+    ];
+    for ci in i.lo..=i.hi {
+        let p = model.at_codes(cv, ci);
+        for (m, r) in methods.iter().zip(rows.iter_mut()) {
+            check_pair(design, *m, cv, ci, p, r);
+        }
+    }
+    rows
+}
+
+fn check_pair(
+    design: &Design,
+    m: &dyn DelayMethod,
+    cv: u16,
+    ci: u16,
+    p: Result<crate::generate::ExactPoint, timing_core::Error>,
+    r: &mut Row,
+) {
     let clock = design.timer.clock_hz();
     let lead = design.timer.lead_s();
     let z0 = design.tank.z0_ohm();
-    let i = design.io_codes;
-    let mut r = Row {
-        worst_ci: i.lo,
-        max_cmd_ci: i.lo,
-        ..Row::default()
-    };
-    for ci in i.lo..=i.hi {
+    {
         r.points += 1;
-        let Ok(p) = model.at_codes(cv, ci) else {
+        let Ok(p) = p else {
             r.model_errors += 1;
-            continue;
+            return;
         };
         let (got, raw) = m.eval(cv, ci);
         if got > r.max_cmd {
@@ -201,7 +227,6 @@ fn check_row(design: &Design, model: &ExactModel<'_>, m: &dyn DelayMethod, cv: u
             }
         }
     }
-    r
 }
 
 /// Check `method` against the exact model of `design` at every code pair
@@ -210,8 +235,20 @@ fn check_row(design: &Design, model: &ExactModel<'_>, m: &dyn DelayMethod, cv: u
 pub fn verify(
     design: &Design,
     method: &dyn DelayMethod,
-    mut progress: Option<&mut dyn FnMut(f64)>,
+    progress: Option<&mut dyn FnMut(f64)>,
 ) -> VerifyReport {
+    let mut all = verify_all(design, &[method], progress);
+    all.swap_remove(0)
+}
+
+/// [`verify`] for several methods in one pass over the code pairs (the
+/// exact model, the expensive part with a Coss curve, runs once per pair).
+/// Reports in the order of `methods`.
+pub fn verify_all(
+    design: &Design,
+    methods: &[&dyn DelayMethod],
+    mut progress: Option<&mut dyn FnMut(f64)>,
+) -> Vec<VerifyReport> {
     let model = ExactModel::new(design);
     let v = design.vin_codes;
     let n_rows = v.len() as usize;
@@ -221,7 +258,7 @@ pub fn verify(
         .min(n_rows.max(1));
     let next = AtomicU32::new(0);
     let done = AtomicU32::new(0);
-    let mut rows: Vec<Row> = vec![Row::default(); n_rows];
+    let mut rows: Vec<Vec<Row>> = vec![Vec::new(); n_rows];
     std::thread::scope(|s| {
         let handles: Vec<_> = (0..threads)
             .map(|_| {
@@ -232,7 +269,7 @@ pub fn verify(
                         if k as usize >= n_rows {
                             break;
                         }
-                        mine.push((k, check_row(design, &model, method, v.lo + k as u16)));
+                        mine.push((k, check_row(design, &model, methods, v.lo + k as u16)));
                         done.fetch_add(1, Ordering::Relaxed);
                     }
                     mine
@@ -254,9 +291,24 @@ pub fn verify(
             }
         }
     });
-    let i = design.io_codes;
+    methods
+        .iter()
+        .enumerate()
+        .map(|(m, method)| merge(design, method.name(), &rows, m, threads))
+        .collect()
+}
+
+/// The report of method number `m` from the rows.
+fn merge(
+    design: &Design,
+    name: &'static str,
+    rows: &[Vec<Row>],
+    m: usize,
+    threads: usize,
+) -> VerifyReport {
+    let (v, i) = (design.vin_codes, design.io_codes);
     let mut r = VerifyReport {
-        method: method.name(),
+        method: name,
         max_error_ticks: 0.0,
         rms_error_ticks: 0.0,
         worst_vin_code: v.lo,
@@ -279,7 +331,9 @@ pub fn verify(
         threads,
     };
     let mut sum_sq = 0.0f64;
-    for (k, row) in rows.iter().enumerate() {
+    let empty = Row::default();
+    for (k, per_method) in rows.iter().enumerate() {
+        let row = per_method.get(m).unwrap_or(&empty);
         let cv = v.lo + k as u16;
         r.points_checked += row.points;
         sum_sq += row.sum_sq;

@@ -35,6 +35,22 @@ pub struct CossPoint<F> {
     pub farads: F,
 }
 
+/// One linear piece of the capacitance: c0 + slope*(v - v0), farad.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub(crate) struct Piece<F> {
+    pub(crate) v0: F,
+    pub(crate) c0: F,
+    pub(crate) slope: F,
+}
+
+impl<F: Real> Piece<F> {
+    /// The capacitance at `v`, farad.
+    #[inline]
+    pub(crate) fn at(&self, v: F) -> F {
+        self.c0 + self.slope * (v - self.v0)
+    }
+}
+
 /// The validated capacitance across the switch: `fixed` farad in parallel
 /// with a piecewise-linear Coss(v) curve (which may be empty).
 ///
@@ -159,27 +175,36 @@ impl<'a, F: Real> SwitchCapacitance<'a, F> {
         self.fixed + coss
     }
 
-    /// [`SwitchCapacitance::at`], continued below 0 V along the slope at 0 V
-    /// (never below the value at 0 V): the integrator's steps may overshoot
-    /// zero inside a step, and a kink there would cost it its order.
-    pub(crate) fn at_continued(&self, v: F) -> F {
-        if v >= F::ZERO {
-            return self.at(v);
-        }
-        let k = self.curve.partition_point(|p| p.volts <= F::ZERO);
-        let slope = match (
+    /// The linear piece of C(v) the voltage `v` is in, or, on a point of
+    /// the curve, the one it is heading into (`rising`). The piece's formula
+    /// continues past its ends, so an integrator step that overshoots a
+    /// little sees no kink; below the first point and above the last the
+    /// piece is flat.
+    pub(crate) fn piece(&self, v: F, rising: bool) -> Piece<F> {
+        let k = if rising {
+            self.curve.partition_point(|p| p.volts <= v)
+        } else {
+            self.curve.partition_point(|p| p.volts < v)
+        };
+        match (
             k.checked_sub(1).and_then(|j| self.curve.get(j)),
             self.curve.get(k),
         ) {
-            (Some(a), Some(b)) => (b.farads - a.farads) / (b.volts - a.volts),
-            _ => F::ZERO,
-        };
-        let c0 = self.at(F::ZERO);
-        let c = c0 + slope * v;
-        if c > c0 {
-            c
-        } else {
-            c0
+            (Some(a), Some(b)) => Piece {
+                v0: a.volts,
+                c0: self.fixed + a.farads,
+                slope: (b.farads - a.farads) / (b.volts - a.volts),
+            },
+            (Some(a), None) | (None, Some(a)) => Piece {
+                v0: a.volts,
+                c0: self.fixed + a.farads,
+                slope: F::ZERO,
+            },
+            (None, None) => Piece {
+                v0: F::ZERO,
+                c0: self.fixed,
+                slope: F::ZERO,
+            },
         }
     }
 

@@ -29,7 +29,7 @@
 //! window width within 5e-5 of itself (10 ps of 200 ns, at J near 4). Against
 //! an independent adaptive solver and ngspice see the cross-checks crate.
 
-use crate::coss::SwitchCapacitance;
+use crate::coss::{Piece, SwitchCapacitance};
 use crate::error::{derived, non_negative, positive, Error, Quantity};
 use crate::transition::{TurnOn, Valley, ZvsWindow};
 use crate::{CellPoint, Real, Tank};
@@ -66,6 +66,7 @@ pub const MAX_STEPS: u32 = 200_000;
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct RingCell<'a, F> {
     lr: F,
+    inv_lr: F,
     cap: SwitchCapacitance<'a, F>,
     r: F,
 }
@@ -119,16 +120,43 @@ fn hermite<F: Real>(y0: F, y1: F, d0: F, d1: F, h: F, s: F) -> F {
 /// of a component, positive at 0 and not at `upto`, crosses zero
 /// (bisection; the interpolant is continuous, so a crossing exists).
 fn crossing<F: Real>(y0: F, y1: F, d0: F, d1: F, h: F, upto: F) -> F {
-    let (mut lo, mut hi) = (F::ZERO, upto);
-    for _ in 0..48 {
-        let mid = (lo + hi) * F::HALF;
-        if hermite(y0, y1, d0, d1, h, mid) > F::ZERO {
-            lo = mid;
+    // Illinois (modified regula falsi): bracketing like bisection,
+    // converging superlinearly; 40 rounds are far more than it needs.
+    let p = |s: F| hermite(y0, y1, d0, d1, h, s);
+    let (mut a, mut b) = (F::ZERO, upto);
+    let (mut fa, mut fb) = (y0, p(upto));
+    let mut side = 0i8;
+    for _ in 0..40 {
+        if fa - fb == F::ZERO {
+            break;
+        }
+        let c = (a * fb - b * fa) / (fb - fa);
+        let c = if c > a && c < b { c } else { (a + b) * F::HALF };
+        let fc = p(c);
+        if fc > F::ZERO {
+            a = c;
+            fa = fc;
+            if side == 1 {
+                fb = fb * F::HALF;
+            }
+            side = 1;
         } else {
-            hi = mid;
+            b = c;
+            fb = fc;
+            if side == -1 {
+                fa = fa * F::HALF;
+            }
+            side = -1;
+        }
+        if b - a <= F::from_f64(1e-12) * upto || fc == F::ZERO {
+            break;
         }
     }
-    (lo + hi) * F::HALF
+    if fa.abs() < fb.abs() {
+        a
+    } else {
+        b
+    }
 }
 
 impl<'a, F: Real> RingCell<'a, F> {
@@ -140,8 +168,10 @@ impl<'a, F: Real> RingCell<'a, F> {
     /// [`Quantity::ResonantInductance`]; [`Error::Negative`] or
     /// [`Error::NotFinite`] naming [`Quantity::TankResistance`].
     pub fn new(lr_h: F, cap: SwitchCapacitance<'a, F>, r_tank_ohm: F) -> Result<Self, Error> {
+        let lr = positive(Quantity::ResonantInductance, lr_h)?;
         Ok(Self {
-            lr: positive(Quantity::ResonantInductance, lr_h)?,
+            lr,
+            inv_lr: derived(Quantity::ResonantInductance, F::ONE / lr)?,
             cap,
             r: non_negative(Quantity::TankResistance, r_tank_ohm)?,
         })
@@ -175,22 +205,22 @@ impl<'a, F: Real> RingCell<'a, F> {
         Tank::new(self.lr, self.cap.boundary_equivalent(v))
     }
 
-    fn slope(&self, v_cell: F, y: State<F>) -> State<F> {
+    fn slope(&self, v_cell: F, c: &Piece<F>, y: State<F>) -> State<F> {
         State {
-            v: y.i / self.cap.at_continued(y.v),
-            i: (v_cell - y.v - self.r * y.i) / self.lr,
+            v: y.i / c.at(y.v),
+            i: (v_cell - y.v - self.r * y.i) * self.inv_lr,
         }
     }
 
-    fn rk4(&self, v_cell: F, y: State<F>, k1: State<F>, h: F) -> State<F> {
+    fn rk4(&self, v_cell: F, c: &Piece<F>, y: State<F>, k1: State<F>, h: F) -> State<F> {
         let at = |k: State<F>, f: F| State {
             v: y.v + k.v * f,
             i: y.i + k.i * f,
         };
         let half = h * F::HALF;
-        let k2 = self.slope(v_cell, at(k1, half));
-        let k3 = self.slope(v_cell, at(k2, half));
-        let k4 = self.slope(v_cell, at(k3, h));
+        let k2 = self.slope(v_cell, c, at(k1, half));
+        let k3 = self.slope(v_cell, c, at(k2, half));
+        let k4 = self.slope(v_cell, c, at(k3, h));
         let six = F::from_u32(6);
         State {
             v: y.v + h / six * (k1.v + F::TWO * (k2.v + k3.v) + k4.v),
@@ -216,7 +246,7 @@ impl<'a, F: Real> RingCell<'a, F> {
         match next {
             Some(p) if k.v != F::ZERO => {
                 let to = (p.volts - y.v) / k.v;
-                if to < h && to > h * F::from_f64(1e-6) {
+                if to < h && to > F::ZERO {
                     (to, Some(p.volts))
                 } else {
                     (h, None)
@@ -270,28 +300,54 @@ impl<'a, F: Real> RingCell<'a, F> {
         };
         let mut t = charge_end_s;
         let mut y = State { v: v1, i: ic };
-        let mut k = self.slope(vc, y);
+        // The piece of C(v) the step runs on (the voltage rises while the
+        // current is positive); steps end on the curve's points, so a step
+        // stays on one piece up to a rounding-size overshoot.
+        let mut piece = self.cap.piece(y.v, true);
+        let mut k = self.slope(vc, &piece, y);
         let mut peak: Option<(F, F)> = None;
         let mut steps = 0u32;
         while steps < MAX_STEPS {
             steps += 1;
-            let local = theta * (self.lr * self.cap.at(y.v)).sqrt();
-            let (mut h, target) =
-                self.step_to_breakpoint(y, k, if local < r_limit { local } else { r_limit });
-            let mut next = self.rk4(vc, y, k, h);
+            let c = self.cap.piece(y.v, y.i > F::ZERO);
+            if c != piece {
+                piece = c;
+                k = self.slope(vc, &piece, y);
+            }
+            let local = theta * (self.lr * piece.at(y.v)).sqrt();
+            let full = if local < r_limit { local } else { r_limit };
+            let (mut h, target) = self.step_to_breakpoint(y, k, full);
+            let mut next = self.rk4(vc, &piece, y, k, h);
             if let Some(p) = target {
                 // Newton on the step length: end on the curve's point to
-                // second order and better.
+                // fourth order and better. Near the voltage peak the point
+                // may be out of reach (the current falls to zero first):
+                // then Newton leaves (0, full] and the plain step is taken.
+                let mut landed = true;
                 for _ in 0..2 {
-                    let d = next.i / self.cap.at(next.v);
-                    if d == F::ZERO {
+                    let d = next.i / piece.at(next.v);
+                    let hn = if d == F::ZERO {
+                        full + full
+                    } else {
+                        h + (p - next.v) / d
+                    };
+                    if !(hn > F::ZERO && hn <= full) {
+                        landed = false;
                         break;
                     }
-                    h = h + (p - next.v) / d;
-                    next = self.rk4(vc, y, k, h);
+                    h = hn;
+                    next = self.rk4(vc, &piece, y, k, h);
+                }
+                if landed {
+                    // On the point exactly (the residual is at rounding
+                    // level), so the next step takes the next piece.
+                    next.v = p;
+                } else {
+                    h = full;
+                    next = self.rk4(vc, &piece, y, k, h);
                 }
             }
-            let kn = self.slope(vc, next);
+            let kn = self.slope(vc, &piece, next);
             match peak {
                 None => {
                     if next.i <= F::ZERO {

@@ -264,10 +264,23 @@ impl<F: Real> Timer<F> {
         transition: &Transition<F>,
         position: WindowPosition<F>,
     ) -> Result<DelayCommand<F>, Error> {
+        self.command_for(&transition.turn_on(), position)
+    }
+
+    /// [`Timer::command`] for a window or valley from any model (the
+    /// closed forms or [`crate::ring`]).
+    ///
+    /// # Errors
+    /// As [`Timer::command`].
+    pub fn command_for(
+        &self,
+        turn_on: &crate::TurnOn<F>,
+        position: WindowPosition<F>,
+    ) -> Result<DelayCommand<F>, Error> {
         let lead = self.lead_s();
-        let target_s = transition.turn_on_target_s(position);
+        let target_s = turn_on.target_s(position);
         let ticks_at = |t: F| (t - lead) * self.clock_hz;
-        let (last_s, nearest) = match transition.window() {
+        let (last_s, nearest) = match turn_on.window() {
             Some(w) => {
                 let nearest = ticks_at(target_s).round();
                 let lo = ticks_at(w.open_s).ceil();
@@ -300,7 +313,7 @@ impl<F: Real> Timer<F> {
         }
         let ticks = Ticks(nearest.to_u32_saturating());
         let turn_on_s = self.turn_on_s(ticks);
-        let in_window = transition
+        let in_window = turn_on
             .window()
             .is_some_and(|w| turn_on_s >= w.open_s && turn_on_s <= w.close_s);
         Ok(DelayCommand {
