@@ -277,9 +277,17 @@ struct PointArgs {
     /// Resonant inductance Lr, henry.
     #[arg(long, allow_hyphen_values = true)]
     lr: String,
-    /// Resonant capacitance Cr across the switch (external plus MOSFET Coss), farad.
+    /// Resonant capacitance Cr across the switch, farad: the whole of it (external plus the
+    /// MOSFET's, taken as constant), or with --coss the external part in parallel with the curve.
     #[arg(long, allow_hyphen_values = true)]
-    cr: String,
+    cr: Option<String>,
+    /// CSV file of the MOSFET's output capacitance curve, `volts,farads` per line (a datasheet
+    /// plot read off by hand): the timings come from the non-linear ring.
+    #[arg(long)]
+    coss: Option<std::path::PathBuf>,
+    /// Series resistance of the resonant loop, ohm: the damped ring.
+    #[arg(long, allow_hyphen_values = true)]
+    tank_resistance: Option<String>,
     /// Input voltage, volt.
     #[arg(long, allow_hyphen_values = true)]
     vin: String,
@@ -394,7 +402,26 @@ impl PointArgs {
         Ok(PointInput {
             topology: topology(self.topology),
             lr_h: num("--lr", &self.lr, "H")?,
-            cr_f: num("--cr", &self.cr, "F")?,
+            cr_f: match (&self.cr, &self.coss) {
+                (Some(c), _) => num("--cr", c, "F")?,
+                (None, Some(_)) => 0.0,
+                (None, None) => {
+                    return Err(InputError::new(
+                        "--cr",
+                        "is needed (the resonant capacitance), or --coss with a Coss curve",
+                    ))
+                }
+            },
+            coss: match &self.coss {
+                Some(path) => {
+                    host_tool::coss_csv::load(path)
+                        .map_err(|e| InputError::new("--coss", e.to_string()))?
+                        .0
+                }
+                None => Vec::new(),
+            },
+            r_tank_ohm: opt_num("--tank-resistance", self.tank_resistance.as_ref(), "ohm")?
+                .unwrap_or(0.0),
             vin_v: num("--vin", &self.vin, "V")?,
             vout_v: opt_num("--vout", self.vout.as_ref(), "V")?,
             io_a: num("--io", &self.io, "A")?,

@@ -11,7 +11,7 @@ use std::path::{Path, PathBuf};
 use plotters::coord::Shift;
 use plotters::prelude::*;
 use timing_core::waveform::Waveform;
-use timing_core::{AdcCode, Transition};
+use timing_core::AdcCode;
 
 use crate::design::Design;
 use crate::generate::ExactModel;
@@ -360,24 +360,51 @@ pub fn default_point(design: &Design) -> (f64, f64) {
 /// [`PlotError`].
 pub fn cycle(design: &Design, vin_v: f64, io_a: f64) -> Result<String, PlotError> {
     let cell = design.cell(vin_v, io_a)?;
-    let t = Transition::new(&design.tank, &cell)?;
-    let ticks = match (t.window(), design.fallback) {
+    let solver = ExactModel::new(design).solver();
+    let t = solver.transition(&cell)?;
+    let ticks = match (t.turn_on.window(), design.fallback) {
         (None, timing_core::table::Fallback::Fixed(n)) => n,
-        _ => design.timer.command(&t, design.position)?.ticks(),
+        _ => design
+            .timer
+            .command_for(&t.turn_on, design.position)?
+            .ticks(),
     };
     let on = design.timer.turn_on_s(ticks);
-    let w = Waveform::new(&design.tank, &cell, on)?;
-    let ramp_end = match t.turn_on() {
-        timing_core::TurnOn::Zvs(z) => z.ramp_end_s,
-        timing_core::TurnOn::Valley(v) => v.ramp_end_s,
-    };
+    let ramp_end = t.turn_on.ramp_end_s();
     let (t0, t1) = (-0.15 * ramp_end, 1.25 * ramp_end.max(on));
     let n = 1200;
     let times: Vec<f64> = (0..=n)
         .map(|k| t0 + (t1 - t0) * f64::from(k) / f64::from(n))
         .collect();
+    // The closed-form waveform of the ideal cell, or the ring's.
+    let samples: Vec<timing_core::waveform::WaveSample<f64>> = match solver {
+        crate::real_tank::CellSolver::Ideal(tank) => {
+            let w = Waveform::new(&tank, &cell, on)?;
+            times.iter().map(|&s| w.at(s)).collect()
+        }
+        crate::real_tank::CellSolver::Ring(ring) => {
+            let mut out = vec![
+                timing_core::waveform::WaveSample {
+                    switch_voltage_v: f64::NAN,
+                    inductor_current_a: f64::NAN,
+                    gate_on: false,
+                };
+                times.len()
+            ];
+            ring.waveform(&cell, on, &times, &mut out)?;
+            out
+        }
+    };
+    let points = |f: fn(&timing_core::waveform::WaveSample<f64>) -> f64| {
+        times
+            .iter()
+            .zip(&samples)
+            .map(move |(&s, w)| (s * 1e9, f(w)))
+            .filter(|p| p.1.is_finite())
+            .collect::<Vec<_>>()
+    };
     let ns = |s: f64| s * 1e9;
-    let v_peak = t.peak_switch_voltage_v();
+    let v_peak = t.peak_switch_voltage_v;
     let v_top = 1.3 * v_peak;
     let i_max = cell.i_amp() * 1.3;
     svg(|root| {
@@ -387,7 +414,7 @@ pub fn cycle(design: &Design, vin_v: f64, io_a: f64) -> Result<String, PlotError
                 format!(
                     "{}: one transition at Vin = {vin_v:.1} V, Io = {io_a:.2} A (J = {:.3}), turn-on after {} ticks",
                     design.name,
-                    t.normalized_load(),
+                    cell.i_amp() * design.tank.z0_ohm() / cell.v_volt(),
                     ticks.get()
                 ),
                 ("sans-serif", 18),
@@ -411,7 +438,7 @@ pub fn cycle(design: &Design, vin_v: f64, io_a: f64) -> Result<String, PlotError
             .y_desc("inductor current (A)")
             .draw()
             .map_err(draw)?;
-        if let Some(win) = t.window() {
+        if let Some(win) = t.turn_on.window() {
             chart
                 .draw_series(std::iter::once(Rectangle::new(
                     [(ns(win.open_s), -0.05 * v_top), (ns(win.close_s), v_top)],
@@ -425,7 +452,7 @@ pub fn cycle(design: &Design, vin_v: f64, io_a: f64) -> Result<String, PlotError
         }
         chart
             .draw_series(LineSeries::new(
-                times.iter().map(|&s| (ns(s), w.at(s).switch_voltage_v)),
+                points(|w| w.switch_voltage_v),
                 VOLTAGE_COLOUR.stroke_width(2),
             ))
             .map_err(draw)?
@@ -439,7 +466,8 @@ pub fn cycle(design: &Design, vin_v: f64, io_a: f64) -> Result<String, PlotError
             .draw_series(LineSeries::new(
                 times
                     .iter()
-                    .map(|&s| (ns(s), if w.at(s).gate_on { g_hi } else { g_lo })),
+                    .zip(&samples)
+                    .map(|(&s, w)| (ns(s), if w.gate_on { g_hi } else { g_lo })),
                 GATE_COLOUR.stroke_width(2),
             ))
             .map_err(draw)?
@@ -449,7 +477,7 @@ pub fn cycle(design: &Design, vin_v: f64, io_a: f64) -> Result<String, PlotError
             });
         chart
             .draw_secondary_series(LineSeries::new(
-                times.iter().map(|&s| (ns(s), w.at(s).inductor_current_a)),
+                points(|w| w.inductor_current_a),
                 CURRENT_COLOUR.stroke_width(2),
             ))
             .map_err(draw)?

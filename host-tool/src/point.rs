@@ -7,6 +7,8 @@ use timing_core::{
     CellPoint, Error as CoreError, Quantity, Tank, Timer, Topology, Transition, WindowPosition,
 };
 
+use crate::real_tank::RealTank;
+
 /// Derating applied to a given switch voltage rating when none is stated:
 /// use at most 80 % of the rated drain-source voltage (common practice, no source).
 pub const DEFAULT_DERATING: f64 = 0.8;
@@ -41,8 +43,13 @@ pub struct PointInput {
     pub topology: Topology,
     /// Resonant inductance, henry.
     pub lr_h: f64,
-    /// Resonant capacitance, farad.
+    /// Resonant capacitance, farad (with `coss`, the fixed part in parallel
+    /// with the curve; may then be 0).
     pub cr_f: f64,
+    /// The MOSFET's Coss curve (empty: none, `cr_f` is the whole Cr).
+    pub coss: Vec<timing_core::coss::CossPoint<f64>>,
+    /// Series resistance of the resonant loop, ohm (0: lossless).
+    pub r_tank_ohm: f64,
     /// Input voltage, volt.
     pub vin_v: f64,
     /// Output voltage, volt (needed for boost and buck-boost; for the buck it
@@ -152,7 +159,10 @@ pub struct PointReport {
     pub cell_voltage_v: f64,
     /// Cell current I the switch carries, ampere.
     pub cell_current_a: f64,
-    /// Characteristic impedance Z0 = sqrt(Lr/Cr), ohm.
+    /// `closed forms` (ideal tank) or `numerical ring` (Coss curve or loss).
+    pub model: &'static str,
+    /// Characteristic impedance Z0 = sqrt(Lr/Cr), ohm (with a Coss curve,
+    /// of the boundary-equivalent capacitance at the cell voltage).
     pub z0_ohm: f64,
     /// Resonant frequency f0, hertz.
     pub f0_hz: f64,
@@ -222,6 +232,22 @@ pub struct PointReport {
     /// nearest tick inside it, ticks (`None` where no tick lands in it: treat
     /// the point as ZVS-impossible and apply the fallback).
     pub robust_delay_ticks: Option<u32>,
+    /// With a Coss curve: the curve's charge-equivalent capacitance Co(tr) =
+    /// Q(V)/V at the cell voltage, farad (MOSFET only, without `cr`).
+    pub coss_charge_equivalent_f: Option<f64>,
+    /// The curve's energy-equivalent capacitance Co(er) = 2E(V)/V^2, farad.
+    pub coss_energy_equivalent_f: Option<f64>,
+    /// The whole capacitance's boundary equivalent cr + 2*Co(tr) - Co(er),
+    /// farad: the constant one with the same lossless ZVS boundary.
+    pub boundary_capacitance_f: Option<f64>,
+    /// Series resistance of the resonant loop, ohm.
+    pub r_tank_ohm: f64,
+    /// With a Coss curve: the window the ideal formulas give with a constant
+    /// cr + Co(tr), as (open, close) second (`None` where they see no ZVS),
+    /// to show what the curve changes.
+    pub ideal_co_tr_window_s: Option<(f64, f64)>,
+    /// The same with a constant cr + Co(er).
+    pub ideal_co_er_window_s: Option<(f64, f64)>,
     /// Plain-language warnings.
     pub warnings: Vec<String>,
     /// Safety notice.
@@ -283,7 +309,27 @@ pub fn evaluate(input: &PointInput) -> Result<PointReport, InputError> {
         plausible("--driver-delay", t.turn_on_delay_s)?;
         plausible("--driver-delay-off", t.turn_off_delay_s)?;
     }
-    let tank = Tank::new(input.lr_h, input.cr_f)?;
+    let real = RealTank {
+        lr_h: input.lr_h,
+        cr_fixed_f: input.cr_f,
+        coss: input.coss.clone(),
+        r_tank_ohm: input.r_tank_ohm,
+    };
+    let solver = real.solver().map_err(|e| match e {
+        CoreError::Negative {
+            quantity: Quantity::TankResistance,
+            ..
+        }
+        | CoreError::NotFinite {
+            quantity: Quantity::TankResistance,
+            ..
+        } => InputError::new("--tank-resistance", e.to_string()),
+        CoreError::NotPositive {
+            quantity: Quantity::ResonantCapacitance,
+            ..
+        } if !input.coss.is_empty() => InputError::new("--cr", e.to_string()),
+        _ => e.into(),
+    })?;
     let vout = match (input.topology.needs_vout(), input.vout_v) {
         (true, None) => {
             return Err(InputError::new(
@@ -297,23 +343,34 @@ pub fn evaluate(input: &PointInput) -> Result<PointReport, InputError> {
         (_, v) => v.unwrap_or(f64::NAN),
     };
     let cell = CellPoint::from_converter(input.topology, input.vin_v, vout, input.io_a)?;
+    // The ideal tank: as given, or with a Coss curve the boundary-equivalent
+    // constant capacitance at this cell voltage (J = 1 is then the lossless
+    // boundary). Its closed forms serve the conversion ratio.
+    let tank = real.equivalent_tank(cell.v_volt())?;
     let t = Transition::new(&tank, &cell)?;
+    let exact = solver.transition(&cell).map_err(|e| match e {
+        CoreError::OutOfRange {
+            quantity: Quantity::TankResistance,
+            ..
+        } => InputError::new("--tank-resistance", e.to_string()),
+        _ => e.into(),
+    })?;
     let position = WindowPosition::new(input.position)?;
-    let window = t.window();
-    let valley = t.valley();
-    let target = t.turn_on_target_s(position);
+    let window = exact.turn_on.window();
+    let valley = exact.turn_on.valley();
+    let target = exact.turn_on.target_s(position);
     let mut warnings = Vec::new();
     let j = t.normalized_load();
-    let boundary_current = cell.v_volt() / tank.z0_ohm();
+    let boundary_current = solver.boundary_current_a(cell.v_volt())?;
     if let Some(v) = valley {
         warnings.push(format!(
-            "ZVS is lost: J = {j:.3} < 1, the ring bottoms out at {:.1} V instead of 0 V. \
+            "ZVS is lost: the ring bottoms out at {:.1} V instead of 0 V (J = {j:.3}). \
              The delay aims at the valley (hard turn-on at reduced voltage). ZVS needs a cell current \
              of at least {:.3} A here, or a larger Z0.",
             v.valley_voltage_v, boundary_current
         ));
     }
-    let peak = t.peak_switch_voltage_v();
+    let peak = exact.peak_switch_voltage_v;
     match input.vds_rating_v {
         Some(rating) => {
             if !(rating.is_finite() && rating > 0.0) {
@@ -348,24 +405,42 @@ pub fn evaluate(input: &PointInput) -> Result<PointReport, InputError> {
         None => {}
     }
 
+    let cap = real.capacitance()?;
+    let v_cell = cell.v_volt();
+    let with_curve = !input.coss.is_empty();
+    let ideal_window = |c: f64| -> Result<Option<(f64, f64)>, InputError> {
+        let tk = Tank::new(input.lr_h, c)?;
+        Ok(Transition::new(&tk, &cell)?
+            .window()
+            .map(|w| (w.open_s, w.close_s)))
+    };
+    let (co_tr, co_er) = (
+        cap.charge_equivalent(v_cell) - input.cr_f,
+        cap.energy_equivalent(v_cell) - input.cr_f,
+    );
     let mut report = PointReport {
         topology: input.topology.name(),
         cell_voltage_v: cell.v_volt(),
         cell_current_a: cell.i_amp(),
+        model: if real.is_ideal() {
+            "closed forms"
+        } else {
+            "numerical ring"
+        },
         z0_ohm: tank.z0_ohm(),
         f0_hz: tank.f0_hz(),
-        zvs: t.is_zvs(),
+        zvs: exact.turn_on.is_zvs(),
         normalized_load: j,
         zvs_boundary_current_a: boundary_current,
-        charge_end_s: t.charge_end_s(),
-        peak_s: t.peak_s(),
+        charge_end_s: exact.charge_end_s,
+        peak_s: exact.peak_s,
         peak_switch_voltage_v: peak,
         window_open_s: window.map(|w| w.open_s),
         window_close_s: window.map(|w| w.close_s),
         window_width_s: window.map(|w| w.width_s()),
         valley_s: valley.map(|v| v.valley_s),
         valley_voltage_v: valley.map(|v| v.valley_voltage_v),
-        current_ramp_end_s: t.ramp_end_s(),
+        current_ramp_end_s: exact.turn_on.ramp_end_s(),
         turn_on_target_s: target,
         window_position: position.get(),
         delay_ticks: None,
@@ -378,12 +453,27 @@ pub fn evaluate(input: &PointInput) -> Result<PointReport, InputError> {
         conversion_ratio: None,
         switching_frequency_hz: None,
         on_time_s: None,
-        max_switching_frequency_hz: t.max_switching_frequency_hz(),
+        // The on-interval is what the period leaves after the transition.
+        max_switching_frequency_hz: 1.0 / exact.turn_on.ramp_end_s(),
         robust_window_open_s: None,
         robust_window_close_s: None,
         robust_margin_after_open_s: None,
         robust_margin_before_close_s: None,
         robust_delay_ticks: None,
+        coss_charge_equivalent_f: with_curve.then_some(co_tr),
+        coss_energy_equivalent_f: with_curve.then_some(co_er),
+        boundary_capacitance_f: with_curve.then(|| cap.boundary_equivalent(v_cell)),
+        r_tank_ohm: input.r_tank_ohm,
+        ideal_co_tr_window_s: if with_curve {
+            ideal_window(input.cr_f + co_tr)?
+        } else {
+            None
+        },
+        ideal_co_er_window_s: if with_curve {
+            ideal_window(input.cr_f + co_er)?
+        } else {
+            None
+        },
         warnings,
         caution: CAUTION,
     };
@@ -395,7 +485,7 @@ pub fn evaluate(input: &PointInput) -> Result<PointReport, InputError> {
             ti.turn_on_delay_s,
             ti.turn_off_delay_s,
         )?;
-        let cmd = timer.command(&t, position)?;
+        let cmd = timer.command_for(&exact.turn_on, position)?;
         let on = cmd.turn_on_s();
         report.delay_ticks = Some(cmd.ticks().get());
         report.delay_s = Some(f64::from(cmd.ticks().get()) / timer.clock_hz());
@@ -423,7 +513,25 @@ pub fn evaluate(input: &PointInput) -> Result<PointReport, InputError> {
     }
 
     if let Some(u) = input.uncertainty {
-        robust(input, &tank, &cell, u, &mut report)?;
+        if real.is_ideal() {
+            robust(input, &tank, &cell, u, &mut report)?;
+        } else {
+            report.warnings.push(
+                "the robust window is proven for the ideal tank only; with a Coss curve or a lossy \
+                 loop it is not computed (run without --coss/--tank-resistance, with cr the \
+                 boundary-equivalent capacitance, for an estimate)"
+                    .to_owned(),
+            );
+        }
+    }
+    if !real.is_ideal()
+        && (input.fs_hz.is_some() || input.vout_v.is_some())
+        && input.topology == Topology::Buck
+    {
+        report.warnings.push(format!(
+            "the conversion ratio comes from the ideal cell with the boundary-equivalent {:.4} nF",
+            tank.cr_f() * 1e9
+        ));
     }
 
     let regulation = match (input.topology, input.fs_hz, input.vout_v) {

@@ -22,6 +22,27 @@ pub fn point_text(r: &PointReport) -> String {
         format_si(r.z0_ohm, "Ω"),
         format_si(r.f0_hz, "Hz"),
     );
+    if let (Some(tr), Some(er), Some(b)) = (
+        r.coss_charge_equivalent_f,
+        r.coss_energy_equivalent_f,
+        r.boundary_capacitance_f,
+    ) {
+        let _ = writeln!(
+            s,
+            "Coss at {}: Co(tr) = {}   Co(er) = {}   boundary-equivalent Cr = {} (cr + 2*Co(tr) - Co(er))",
+            format_si(r.cell_voltage_v, "V"),
+            format_si(tr, "F"),
+            format_si(er, "F"),
+            format_si(b, "F")
+        );
+    }
+    if r.r_tank_ohm > 0.0 {
+        let _ = writeln!(
+            s,
+            "resonant loop resistance {}",
+            format_si(r.r_tank_ohm, "Ω")
+        );
+    }
     let _ = writeln!(
         s,
         "normalised load J = {:.4}   ({}; boundary at I = {})",
@@ -57,6 +78,27 @@ pub fn point_text(r: &PointReport) -> String {
         row(&mut s, &format!("valley at {}", format_si(vv, "V")), v);
     }
     row(&mut s, "current ramp ends", r.current_ramp_end_s);
+    if r.coss_charge_equivalent_f.is_some() {
+        // What the constant-capacitance formulas would have said.
+        let show = |s: &mut String, what: &str, w: Option<(f64, f64)>| {
+            let text = match (w, r.window_open_s, r.window_close_s) {
+                (Some((o, c)), Some(eo), Some(ec)) => format!(
+                    "{} to {} (opens {:+.1} ns, closes {:+.1} ns off the curve's)",
+                    ns(o),
+                    ns(c),
+                    (o - eo) * 1e9,
+                    (c - ec) * 1e9
+                ),
+                (Some((o, c)), _, _) => format!("{} to {} (the curve gives no ZVS)", ns(o), ns(c)),
+                (None, Some(_), _) => "no ZVS (the curve gives a window)".to_owned(),
+                (None, None, _) => "no ZVS".to_owned(),
+            };
+            let _ = writeln!(s, "  ideal formulas with cr + {what}: {text}");
+        };
+        let _ = writeln!(s);
+        show(&mut s, "Co(tr)", r.ideal_co_tr_window_s);
+        show(&mut s, "Co(er)", r.ideal_co_er_window_s);
+    }
     let _ = writeln!(s);
     if r.zvs {
         let _ = writeln!(

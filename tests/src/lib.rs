@@ -152,6 +152,23 @@ pub fn repo() -> std::path::PathBuf {
 /// 24 V nominal input to 48 V, bidirectional 10-bit current sensing (zero
 /// at mid-scale), a 100 MHz timer and a slow isolated driver. Tests derive
 /// their variants from it by replacing lines.
+/// The demo design with its Coss curve and loop resistance replaced by the
+/// constant 6.8 nF of an ideal tank (the same Lr, range, sensing and timer):
+/// for checks of the closed-form methods, which model the ideal cell.
+#[must_use]
+pub fn ideal_demo() -> host_tool::design::Design {
+    let text = std::fs::read_to_string(repo().join("tables/winch_aux.toml")).unwrap_or_default();
+    let ideal = text
+        .replace("coss = \"winch_aux_coss.csv\"\n", "")
+        .replace("r_tank = \"80m\"", "")
+        .replace("cr = \"5.6n\"", "cr = \"6.8n\"")
+        .replace("max_error_ticks = 2.5", "max_error_ticks = 1.0");
+    match host_tool::design::Design::parse(&ideal, "winch_aux_ideal.toml") {
+        Ok(d) if d.real.is_ideal() => d,
+        other => panic!("the ideal demo variant does not parse as an ideal tank: {other:?}"),
+    }
+}
+
 pub const HELD_OUT_BOOST: &str = r#"
 name = "held_out_boost"
 topology = "boost"

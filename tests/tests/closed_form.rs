@@ -57,7 +57,7 @@ fn claims() -> Vec<Claim> {
     assert!(held_out_boost().contains("driver_delay_off = \"60ns\""));
     vec![
         Claim {
-            design: Design::load(&repo().join("tables/winch_aux.toml")).unwrap(),
+            design: cross_checks::ideal_demo(),
             approx: [0.001, 0.02],
         },
         Claim {
@@ -112,8 +112,9 @@ fn closed_forms_meet_their_bounds_at_every_code_pair() {
 #[test]
 fn the_demo_closed_form_f32_is_within_half_a_tick() {
     // The proof obligation: closed-form-f32 against the f64 model,
-    // exhaustively over the demo design's ADC code pairs.
-    let d = Design::load(&repo().join("tables/winch_aux.toml")).unwrap();
+    // exhaustively over the demo design's ADC code pairs (with the ideal
+    // tank the closed forms model).
+    let d = cross_checks::ideal_demo();
     let r = verify(&d, &d.closed_form().unwrap().fast_f32().unwrap(), None);
     assert_eq!(
         r.points_checked,

@@ -55,17 +55,28 @@ fn committed_demo_tables_are_fresh() {
 
 #[test]
 fn demo_table_meets_its_budget_in_2_kib() {
-    let design = Design::load(&repo().join("tables/winch_aux.toml")).unwrap();
-    let out = generate::generate(&design).unwrap();
-    assert!(
-        out.table.table_bytes() <= 2048,
-        "{} bytes",
-        out.table.table_bytes()
-    );
-    assert!(out.verification.max_error_ticks <= 1.0);
-    let pairs = u64::from(design.vin_codes.len()) * u64::from(design.io_codes.len());
-    assert_eq!(out.verification.points_checked, pairs);
-    assert_eq!(out.verification.model_errors, 0);
+    // The demo with its Coss curve (budget 2.5 ticks: a table indexed by the
+    // code ratio cannot follow the curve's voltage dependence), and the same
+    // tank with a constant capacitance (1 tick).
+    let real = Design::load(&repo().join("tables/winch_aux.toml")).unwrap();
+    for (design, budget) in [(real, 2.5), (cross_checks::ideal_demo(), 1.0)] {
+        let out = generate::generate(&design).unwrap();
+        println!(
+            "{}: {} B, {:.3} ticks",
+            design.model_summary(),
+            out.table.table_bytes(),
+            out.verification.max_error_ticks
+        );
+        assert!(
+            out.table.table_bytes() <= 2048,
+            "{} bytes",
+            out.table.table_bytes()
+        );
+        assert!(out.verification.max_error_ticks <= budget);
+        let pairs = u64::from(design.vin_codes.len()) * u64::from(design.io_codes.len());
+        assert_eq!(out.verification.points_checked, pairs);
+        assert_eq!(out.verification.model_errors, 0);
+    }
 }
 
 #[test]

@@ -50,6 +50,8 @@ pub trait Real:
     fn cos(self) -> Self;
     /// ln(1 + self), accurate for small arguments (libm `log1p`).
     fn ln_1p(self) -> Self;
+    /// e^self (libm `exp`).
+    fn exp(self) -> Self;
     /// Largest integer value not above `self`.
     fn floor(self) -> Self;
     /// Smallest integer value not below `self`.
@@ -74,7 +76,7 @@ pub trait Real:
 }
 
 macro_rules! impl_real {
-    ($t:ty, $sqrt:path, $asin:path, $sin:path, $cos:path, $log1p:path, $floor:path, $ceil:path, $round:path, $fabs:path, $pi:expr, $tau:expr, $pi2:expr) => {
+    ($t:ty, $sqrt:path, $asin:path, $sin:path, $cos:path, $log1p:path, $exp:path, $floor:path, $ceil:path, $round:path, $fabs:path, $pi:expr, $tau:expr, $pi2:expr) => {
         impl Real for $t {
             const ZERO: Self = 0.0;
             const ONE: Self = 1.0;
@@ -103,6 +105,10 @@ macro_rules! impl_real {
             #[inline]
             fn ln_1p(self) -> Self {
                 $log1p(self)
+            }
+            #[inline]
+            fn exp(self) -> Self {
+                $exp(self)
             }
             #[inline]
             fn floor(self) -> Self {
@@ -157,6 +163,7 @@ impl_real!(
     libm::sinf,
     libm::cosf,
     libm::log1pf,
+    libm::expf,
     libm::floorf,
     libm::ceilf,
     libm::roundf,
@@ -172,6 +179,7 @@ impl_real!(
     libm::sin,
     libm::cos,
     libm::log1p,
+    libm::exp,
     libm::floor,
     libm::ceil,
     libm::round,

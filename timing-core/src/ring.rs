@@ -85,6 +85,9 @@ pub struct RingTransition<F> {
     /// The ZVS window (times in the same sense as the ideal cell's), or the
     /// valley: the instant of the voltage minimum and that voltage.
     pub turn_on: TurnOn<F>,
+    /// Lr current when the window opens, ampere (negative; 0 below the
+    /// boundary): where the body-diode clamp starts.
+    pub clamp_start_current_a: F,
     /// Integration steps taken.
     pub steps: u32,
 }
@@ -102,6 +105,11 @@ impl<F: Real> RingTransition<F> {
 struct State<F> {
     v: F,
     i: F,
+}
+
+/// Switch voltage at the end of the linear charge: V - R*I, volt.
+fn v1_of<F: Real>(v: F, r: F, i: F) -> F {
+    v - r * i
 }
 
 /// Cubic Hermite interpolation on one step at fraction `s` of it.
@@ -280,8 +288,32 @@ impl<'a, F: Real> RingCell<'a, F> {
     /// when a time does not fit the float type or the ring does not settle
     /// within [`MAX_STEPS`].
     pub fn transition(&self, cell: &CellPoint<F>) -> Result<RingTransition<F>, Error> {
+        self.run(cell, None)
+    }
+
+    /// [`RingCell::transition`], calling `visit(t, switch voltage, Lr
+    /// current)` at the start of the ring and after every integration step
+    /// up to the window's opening or the valley (for plots of the waveform;
+    /// steps are 1/20 of a radian of the ring, so straight lines between the
+    /// points draw it smoothly).
+    ///
+    /// # Errors
+    /// As [`RingCell::transition`].
+    pub fn trace(
+        &self,
+        cell: &CellPoint<F>,
+        visit: &mut dyn FnMut(F, F, F),
+    ) -> Result<RingTransition<F>, Error> {
+        self.run(cell, Some(visit))
+    }
+
+    fn run(
+        &self,
+        cell: &CellPoint<F>,
+        mut visit: Option<&mut dyn FnMut(F, F, F)>,
+    ) -> Result<RingTransition<F>, Error> {
         let (vc, ic) = (cell.v_volt(), cell.i_amp());
-        let v1 = vc - self.r * ic;
+        let v1 = v1_of(vc, self.r, ic);
         if v1 <= F::ZERO {
             return Err(Error::OutOfRange {
                 quantity: Quantity::TankResistance,
@@ -307,6 +339,9 @@ impl<'a, F: Real> RingCell<'a, F> {
         let mut k = self.slope(vc, &piece, y);
         let mut peak: Option<(F, F)> = None;
         let mut steps = 0u32;
+        if let Some(f) = visit.as_mut() {
+            f(t, y.v, y.i);
+        }
         while steps < MAX_STEPS {
             steps += 1;
             let c = self.cap.piece(y.v, y.i > F::ZERO);
@@ -377,9 +412,11 @@ impl<'a, F: Real> RingCell<'a, F> {
                     };
                     if let Some((is_zvs, s)) = done {
                         let at = t + s * h;
+                        let mut clamp_start = F::ZERO;
                         let turn_on = if is_zvs {
                             let i0 = hermite(y.i, next.i, k.i, kn.i, h, s);
                             let i0 = if i0 < F::ZERO { i0 } else { F::ZERO };
+                            clamp_start = i0;
                             let close_s = at + self.clamp_time(vc, i0, F::ZERO);
                             TurnOn::Zvs(ZvsWindow {
                                 open_s: derived(Quantity::Interval, at)?,
@@ -399,6 +436,7 @@ impl<'a, F: Real> RingCell<'a, F> {
                             peak_s,
                             peak_switch_voltage_v: peak_v,
                             turn_on,
+                            clamp_start_current_a: clamp_start,
                             steps,
                         });
                     }
@@ -407,6 +445,9 @@ impl<'a, F: Real> RingCell<'a, F> {
             t = t + h;
             y = next;
             k = kn;
+            if let Some(f) = visit.as_mut() {
+                f(t, y.v, y.i);
+            }
             if !t.is_finite() {
                 break;
             }
@@ -414,6 +455,163 @@ impl<'a, F: Real> RingCell<'a, F> {
         Err(Error::Overflow {
             quantity: Quantity::Interval,
         })
+    }
+
+    /// The waveform of one transition with the switch turned on at
+    /// `turn_on_s` (second from gate turn-off), sampled at `times` (second,
+    /// rising) into `out` (as many as both hold): the linear charge (the
+    /// voltage from the charge, Q(v) = I*t), the ring (straight lines
+    /// between integration steps, 1/20 radian apart), the body-diode clamp,
+    /// and after the turn-on the current ramp to I at zero volts (a turn-on
+    /// before the window drops the voltage to zero at once: hard switching).
+    /// Where the model does not follow the circuit (the switch still off
+    /// after the window closed or the valley passed: the tank rings again),
+    /// voltage and current are NaN.
+    ///
+    /// # Errors
+    /// As [`RingCell::transition`].
+    pub fn waveform(
+        &self,
+        cell: &CellPoint<F>,
+        turn_on_s: F,
+        times: &[F],
+        out: &mut [crate::waveform::WaveSample<F>],
+    ) -> Result<RingTransition<F>, Error> {
+        use crate::waveform::WaveSample;
+        let (vc, ic) = (cell.v_volt(), cell.i_amp());
+        let nan = F::from_f64(f64::NAN);
+        // The ring from the trace: samples inside it, and the state at the
+        // turn-on if it falls inside it.
+        let mut ring: Option<(F, F)> = None;
+        let mut at_on: Option<F> = None;
+        let mut last: Option<(F, F, F)> = None;
+        let mut k = 0usize;
+        let rt = {
+            let mut visit = |t: F, v: F, i: F| {
+                if let Some((t0, v0, i0)) = last {
+                    let lerp = |tq: F| {
+                        let f = if t > t0 { (tq - t0) / (t - t0) } else { F::ONE };
+                        (v0 + (v - v0) * f, i0 + (i - i0) * f)
+                    };
+                    while let (Some(&tq), Some(slot)) = (times.get(k), out.get_mut(k)) {
+                        if tq > t {
+                            break;
+                        }
+                        if tq >= t0 {
+                            let (vq, iq) = lerp(tq);
+                            *slot = WaveSample {
+                                switch_voltage_v: vq,
+                                inductor_current_a: iq,
+                                gate_on: false,
+                            };
+                        }
+                        k += 1;
+                    }
+                    if turn_on_s > t0 && turn_on_s <= t {
+                        at_on = Some(lerp(turn_on_s).1);
+                    }
+                } else {
+                    // Samples before the ring are filled below.
+                    while let Some(&tq) = times.get(k) {
+                        if tq >= t {
+                            break;
+                        }
+                        k += 1;
+                    }
+                }
+                ring = Some(ring.map_or((t, t), |(a, _)| (a, t)));
+                last = Some((t, v, i));
+            };
+            self.trace(cell, &mut visit)?
+        };
+        let (ring_start, ring_end) = ring.unwrap_or((rt.charge_end_s, rt.charge_end_s));
+        // Lr*i' = V - R*i at zero switch voltage, from i0 for dt.
+        let clamp = |i0: F, dt: F| {
+            if self.r > F::ZERO {
+                let a = vc / self.r;
+                a - (a - i0) * (-(self.r * dt / self.lr)).exp()
+            } else {
+                i0 + vc * dt / self.lr
+            }
+        };
+        let window = rt.turn_on.window();
+        // The switch-off state after the last ring step: straight on to the
+        // event (the window's opening or the valley), then the clamp.
+        let (t_last, v_last, i_last) = last.unwrap_or((ring_end, v1_of(vc, self.r, ic), ic));
+        let toward = |t: F, te: F, ve: F, ie: F| {
+            let f = if te > t_last {
+                (t - t_last) / (te - t_last)
+            } else {
+                F::ONE
+            };
+            (v_last + (ve - v_last) * f, i_last + (ie - i_last) * f)
+        };
+        let after_ring = |t: F| -> (F, F) {
+            match rt.turn_on {
+                TurnOn::Zvs(w) if t < w.open_s => {
+                    toward(t, w.open_s, F::ZERO, rt.clamp_start_current_a)
+                }
+                TurnOn::Zvs(w) if t <= w.close_s => {
+                    (F::ZERO, clamp(rt.clamp_start_current_a, t - w.open_s))
+                }
+                TurnOn::Valley(vl) if t <= vl.valley_s => {
+                    toward(t, vl.valley_s, vl.valley_voltage_v, F::ZERO)
+                }
+                _ => (nan, nan),
+            }
+        };
+        let i_on = if turn_on_s < ring_start {
+            Some(ic)
+        } else if turn_on_s <= ring_end {
+            at_on
+        } else {
+            Some(after_ring(turn_on_s).1).filter(|i| i.is_finite())
+        };
+        let v1 = v1_of(vc, self.r, ic);
+        let n = if times.len() < out.len() {
+            times.len()
+        } else {
+            out.len()
+        };
+        let _ = window;
+        for (q, slot) in times.iter().zip(out.iter_mut()).take(n) {
+            let t = *q;
+            let gate_on = t < F::ZERO || t >= turn_on_s;
+            let (v, i) = if t < F::ZERO {
+                (F::ZERO, ic)
+            } else if gate_on {
+                match i_on {
+                    Some(i0) => {
+                        let i = clamp(i0, t - turn_on_s);
+                        (F::ZERO, if i < ic { i } else { ic })
+                    }
+                    None => (nan, nan),
+                }
+            } else if t < ring_start {
+                // Linear charge: Q(v) = I*t, by bisection.
+                let q = ic * t;
+                let (mut lo, mut hi) = (F::ZERO, v1);
+                for _ in 0..48 {
+                    let m = (lo + hi) * F::HALF;
+                    if self.cap.charge(m) < q {
+                        lo = m;
+                    } else {
+                        hi = m;
+                    }
+                }
+                ((lo + hi) * F::HALF, ic)
+            } else if t <= ring_end {
+                (slot.switch_voltage_v, slot.inductor_current_a)
+            } else {
+                after_ring(t)
+            };
+            *slot = WaveSample {
+                switch_voltage_v: v,
+                inductor_current_a: i,
+                gate_on,
+            };
+        }
+        Ok(rt)
     }
 
     /// Smallest cell current with ZVS at cell voltage `v` (volt), ampere.

@@ -379,3 +379,46 @@ fn f32_follows_f64() {
     println!("f32 vs f64 target: {worst:.2e}");
     assert!(worst < 2e-6, "{worst}");
 }
+
+#[test]
+fn the_waveform_follows_the_closed_form_one_for_a_constant_capacitance() {
+    // timing-core's closed-form waveform (the ideal cell's piecewise
+    // solution) as the reference; the ring's is straight lines between
+    // steps of 1/20 radian, so within 0.05^2/8 of the swing.
+    let (lr, cr) = (1.0e-6, 6.8e-9);
+    let tank = Tank::new(lr, cr).unwrap();
+    let cell = RingCell::new(lr, SwitchCapacitance::new(cr, &[]).unwrap(), 0.0).unwrap();
+    for &(v, i) in &[(48.0, 6.0), (36.0, 9.0), (60.0, 6.5)] {
+        let p = CellPoint::new(v, i).unwrap();
+        let w = Transition::new(&tank, &p).unwrap().window().unwrap();
+        for &on in &[w.open_s + 0.3 * w.width_s(), w.open_s - 20e-9] {
+            let reference = timing_core::waveform::Waveform::new(&tank, &p, on).unwrap();
+            let times: Vec<f64> = (0..400).map(|k| -50e-9 + 2e-9 * f64::from(k)).collect();
+            let mut out = vec![reference.at(0.0); times.len()];
+            cell.waveform(&p, on, &times, &mut out).unwrap();
+            let mut checked = 0;
+            for (t, got) in times.iter().zip(&out) {
+                let r = reference.at(*t);
+                if *t > on + 600e-9 {
+                    break;
+                }
+                assert!(got.switch_voltage_v.is_finite(), "NaN at {t}");
+                assert!(
+                    (got.switch_voltage_v - r.switch_voltage_v).abs() < 1e-3 * v * 2.0,
+                    "v at {t}: {} vs {}",
+                    got.switch_voltage_v,
+                    r.switch_voltage_v
+                );
+                assert!(
+                    (got.inductor_current_a - r.inductor_current_a).abs() < 2e-3 * i,
+                    "i at {t}: {} vs {}",
+                    got.inductor_current_a,
+                    r.inductor_current_a
+                );
+                assert_eq!(got.gate_on, r.gate_on);
+                checked += 1;
+            }
+            assert!(checked > 200);
+        }
+    }
+}
