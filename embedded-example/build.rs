@@ -26,6 +26,15 @@ fn main() {
     let closed = host_tool::closed_form_source::closed_form_source(&design_data)
         .unwrap_or_else(|e| panic!("{e}"));
     std::fs::write(out.join("winch_aux_closed_form.rs"), closed).expect("write closed-form source");
+    std::fs::write(
+        out.join("winch_aux_model.rs"),
+        host_tool::export::model_source(&design_data),
+    )
+    .expect("write model source");
+    println!(
+        "cargo:rerun-if-changed={}",
+        manifest.join("../tables/winch_aux_coss.csv").display()
+    );
     std::fs::copy(manifest.join("memory.x"), out.join("memory.x")).expect("copy memory.x");
     println!("cargo:rustc-link-search={}", out.display());
 }

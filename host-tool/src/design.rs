@@ -4,7 +4,7 @@
 //! physically impossible or inconsistent designs in plain sentences.
 
 use serde::{Deserialize, Deserializer};
-use timing_core::{CellPoint, CodeRange, Tank, Timer, Topology, WindowPosition};
+use timing_core::{CellPoint, CodeRange, Tank, Timer, Topology, Transition, WindowPosition};
 
 use crate::real_tank::RealTank;
 use crate::units::parse_quantity;
@@ -207,10 +207,11 @@ pub struct Design {
     pub name: String,
     /// Converter.
     pub topology: Topology,
-    /// The ideal tank: Lr and Cr, or with a Coss curve the boundary-
-    /// equivalent constant capacitance at the middle of the cell-voltage
-    /// range. It sets the normalised-load axis of the 1-D layouts and is what
-    /// the closed-form methods assume.
+    /// The ideal tank: Lr and Cr as given, or for a real tank (Coss curve,
+    /// losses) the constant-capacitance stand-in fitted to it: Z0 from the
+    /// real ZVS boundary at the middle of the voltage range, w0 the
+    /// least-squares fit of the turn-on targets. It sets the normalised-load
+    /// axis of the 1-D layouts and is what the closed-form methods assume.
     pub tank: Tank<f64>,
     /// The tank as built (Coss curve, loop resistance): the exact model.
     pub real: RealTank,
@@ -386,6 +387,62 @@ impl Design {
     }
 }
 
+fn t_position(t: &TimerFile) -> f64 {
+    t.position
+}
+
+/// The ideal tank that stands in for a real one (Coss curve, losses) where
+/// a constant-capacitance model is needed (the 1-D layouts' load axis, the
+/// closed-form methods): its Z0 puts J = 1 on the real ZVS boundary at the
+/// middle of the voltage range, and its w0 is the least-squares fit of the
+/// closed-form turn-on targets to the real model's over a 9 x 17 grid of the
+/// design range (the targets scale with 1/w0 at fixed J).
+fn fitted_tank(
+    real: &RealTank,
+    topology: Topology,
+    vout: Option<f64>,
+    vin: (f64, f64),
+    io: (f64, f64),
+    position: f64,
+) -> Result<Tank<f64>, String> {
+    let solver = real.solver().map_err(|e| format!("cr: {e}"))?;
+    let position = WindowPosition::new(position).map_err(|e| format!("timer.position: {e}"))?;
+    let cell = |v: f64, i: f64| {
+        CellPoint::from_converter(topology, v, vout.unwrap_or(f64::NAN), i)
+            .map_err(|e| format!("vin = {v}, io = {i}: {e}"))
+    };
+    let mid = cell(0.5 * (vin.0 + vin.1), 1.0)?.v_volt();
+    let z0 = mid
+        / solver
+            .boundary_current_a(mid)
+            .map_err(|e| format!("r_tank: no ZVS at {mid} V cell voltage: {e}"))?;
+    let reference = real
+        .equivalent_tank(mid)
+        .map_err(|e| format!("lr/cr: {e}"))?;
+    let w_ref = reference.w0_rad_s();
+    let unit = Tank::new(z0 / w_ref, 1.0 / (z0 * w_ref)).map_err(|e| format!("lr/cr: {e}"))?;
+    let (mut num, mut den) = (0.0, 0.0);
+    for a in 0..9 {
+        for b in 0..17 {
+            let v = vin.0 + (vin.1 - vin.0) * f64::from(a) / 8.0;
+            let i = io.0 + (io.1 - io.0) * f64::from(b) / 16.0;
+            let c = cell(v, i)?;
+            let exact = solver
+                .transition(&c)
+                .map_err(|e| format!("at {v} V, {i} A: {e}"))?;
+            let ideal = Transition::new(&unit, &c).map_err(|e| format!("at {v} V, {i} A: {e}"))?;
+            let (te, ti) = (
+                exact.turn_on.target_s(position),
+                ideal.turn_on_target_s(position),
+            );
+            num += te * ti;
+            den += ti * ti;
+        }
+    }
+    let w = w_ref * den / num;
+    Tank::new(z0 / w, 1.0 / (z0 * w)).map_err(|e| format!("lr/cr: {e}"))
+}
+
 impl DesignFile {
     fn validate(&self, text: &str, base: &std::path::Path) -> Result<Design, String> {
         let name_ok = self
@@ -502,9 +559,19 @@ impl DesignFile {
                 .map(|c| c.v_volt())
                 .map_err(|e| format!("vin = {vin}: {e}"))
         };
-        let tank = real
-            .equivalent_tank(cell_v(0.5 * (vlo + vhi))?)
-            .map_err(|e| format!("lr/cr: {e}"))?;
+        let tank = if real.is_ideal() {
+            real.equivalent_tank(cell_v(0.5 * (vlo + vhi))?)
+                .map_err(|e| format!("lr/cr: {e}"))?
+        } else {
+            fitted_tank(
+                &real,
+                topology,
+                vout,
+                (vlo, vhi),
+                (ilo, ihi),
+                t_position(&self.timer),
+            )?
+        };
         let zvs_z0_ohm = if real.is_ideal() {
             tank.z0_ohm()
         } else {
