@@ -2,12 +2,12 @@
 // regenerate with `zvs-timing table <design>.toml --out <dir>`.
 // timing-core's closed-form methods for this design, verified against the exact model at all
 // 2749050 code pairs (codes outside vin 2237..=3726 / io 205..=2049 clamp to the range edge):
-// closed-form-f32: approximation error at most 7.6507 ticks before rounding; commanded error at most 8.123 ticks (RMS 3.910);
-//   64737 of 1835198 ZVS turn-ons outside the window.
-// fixed-point: approximation error at most 7.6512 ticks before rounding; commanded error at most 8.123 ticks (RMS 3.911);
-//   64782 of 1835198 ZVS turn-ons outside the window.
-// libm-f32: approximation error at most 7.6507 ticks before rounding; commanded error at most 8.123 ticks (RMS 3.910);
-//   64737 of 1835198 ZVS turn-ons outside the window.
+// closed-form-f32: approximation error at most 2.4260 ticks before rounding; commanded error at most 2.787 ticks (RMS 0.472);
+//   14666 of 1835198 ZVS turn-ons outside the window.
+// fixed-point: approximation error at most 2.4262 ticks before rounding; commanded error at most 2.793 ticks (RMS 0.472);
+//   14770 of 1835198 ZVS turn-ons outside the window.
+// libm-f32: approximation error at most 2.4260 ticks before rounding; commanded error at most 2.787 ticks (RMS 0.472);
+//   14666 of 1835198 ZVS turn-ons outside the window.
 // CAUTION: verify every delay at reduced voltage with a scope before full-voltage operation.
 #[allow(unused_imports)]
 use timing_core::closed_form::{F32Parts, FastF32, FixedPoint, FixedPointParts, LibmF32};
@@ -21,8 +21,8 @@ pub const F32_PARTS: F32Parts = F32Parts {
     vin: CodeRange { lo: 2237, hi: 3726 },
     io: CodeRange { lo: 205, hi: 2049 },
     io_zero: 0,
-    kx: f32::from_bits(0x3e8a72ae) /* 2.704062e-1 */,
-    ticks_per_rad: f32::from_bits(0x415eef85) /* 1.3933476e1 */,
+    kx: f32::from_bits(0x3e8c7cb3) /* 2.7438888e-1 */,
+    ticks_per_rad: f32::from_bits(0x4152c64a) /* 1.317341e1 */,
     lead_ticks: f32::from_bits(0x40880000) /* 4.25e0 */,
     position: f32::from_bits(0x3e800000) /* 2.5e-1 */,
     max_ticks: 65535,
@@ -34,9 +34,9 @@ pub const FIXED_POINT_PARTS: FixedPointParts = FixedPointParts {
     vin: CodeRange { lo: 2237, hi: 3726 },
     io: CodeRange { lo: 205, hi: 2049 },
     io_zero: 0,
-    k_mant: 2322771469,
+    k_mant: 2356982516,
     k_shift: 33,
-    t_mant: 57072,
+    t_mant: 53958,
     t_shift: 12,
     position_q15: 8192,
     lead_q8: 1088,

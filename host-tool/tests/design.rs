@@ -209,15 +209,15 @@ fn coss_curves_in_design_files() {
         .model_summary()
         .contains("Coss curve winch_aux_coss.csv (13 points)"));
     assert!(d.model_summary().contains("numerical ring"));
-    // The boundary-equivalent tank at 48 V: 5.6 nF + 2*Co(tr) - Co(er).
+    // The ideal stand-in: its Z0 puts J = 1 on the real boundary at the
+    // middle of the range (48 V), its w0 lies within the ring's range of
+    // local resonant frequencies.
     let c = d.real.capacitance().unwrap();
-    let ceq =
-        5.6e-9 + 2.0 * (c.charge_equivalent(48.0) - 5.6e-9) - (c.energy_equivalent(48.0) - 5.6e-9);
-    assert!(
-        (d.tank.cr_f() - ceq).abs() < 1e-20,
-        "{} vs {ceq}",
-        d.tank.cr_f()
-    );
+    let solver = d.real.solver().unwrap();
+    let ib = solver.boundary_current_a(48.0).unwrap();
+    assert!((ib * d.tank.z0_ohm() / 48.0 - 1.0).abs() < 1e-9);
+    let w = |cap: f64| 1.0 / (1e-6 * cap).sqrt();
+    assert!(d.tank.w0_rad_s() < w(c.min_f()) && d.tank.w0_rad_s() > w(c.max_f()));
     // The curve is part of the design hash.
     std::fs::write(
         dir.join("winch_aux_coss.csv"),
