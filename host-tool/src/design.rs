@@ -106,6 +106,120 @@ pub struct TimerFile {
     pub position: f64,
 }
 
+/// A fraction written as a number (`0.05`) or a percentage (`"5%"`).
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct Fraction(pub f64);
+
+impl<'de> Deserialize<'de> for Fraction {
+    fn deserialize<D: Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        #[derive(Deserialize)]
+        #[serde(untagged)]
+        enum Raw {
+            N(f64),
+            S(String),
+        }
+        match Raw::deserialize(d)? {
+            Raw::N(v) => Ok(Fraction(v)),
+            Raw::S(s) => {
+                let (body, scale) = match s.trim().strip_suffix('%') {
+                    Some(b) => (b.trim().to_owned(), 0.01),
+                    None => (s.trim().to_owned(), 1.0),
+                };
+                body.parse::<f64>()
+                    .map(|v| Fraction(v * scale))
+                    .map_err(|_| {
+                        serde::de::Error::custom(format!(
+                            "`{s}` is not a fraction (write 0.05 or \"5%\")"
+                        ))
+                    })
+            }
+        }
+    }
+}
+
+/// The `[tolerance]` table: what varies from board to board and cycle to
+/// cycle, for `zvs-timing montecarlo`. Each bound is a half-width (a value
+/// lies within nominal plus or minus it).
+#[derive(Debug, Clone, Copy, PartialEq, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ToleranceFile {
+    /// Relative tolerance of Lr.
+    #[serde(default)]
+    pub lr: Fraction,
+    /// Relative tolerance of the whole switch capacitance (the external
+    /// capacitor and the Coss curve scale together).
+    #[serde(default)]
+    pub cr: Fraction,
+    /// Gain error of the input-voltage channel, relative.
+    #[serde(default)]
+    pub vin_gain: Fraction,
+    /// Gain error of the output-current channel, relative.
+    #[serde(default)]
+    pub io_gain: Fraction,
+    /// Offset error of the input-voltage channel, codes.
+    #[serde(default)]
+    pub vin_offset_codes: f64,
+    /// Offset error of the output-current channel, codes.
+    #[serde(default)]
+    pub io_offset_codes: f64,
+    /// Sensing noise, codes (peak, each channel, each conversion).
+    #[serde(default)]
+    pub noise_codes: f64,
+    /// Timer and driver jitter, second (peak).
+    #[serde(default = "zero_s")]
+    pub jitter: Second,
+}
+
+/// Validated tolerances (fractions, codes, second).
+#[derive(Debug, Clone, Copy, PartialEq, Default, serde::Serialize)]
+pub struct Tolerance {
+    /// Relative tolerance of Lr.
+    pub lr_rel: f64,
+    /// Relative tolerance of the switch capacitance.
+    pub cr_rel: f64,
+    /// Gain error of the voltage channel, relative.
+    pub vin_gain_rel: f64,
+    /// Gain error of the current channel, relative.
+    pub io_gain_rel: f64,
+    /// Offset of the voltage channel, codes.
+    pub vin_offset_codes: f64,
+    /// Offset of the current channel, codes.
+    pub io_offset_codes: f64,
+    /// Peak sensing noise, codes.
+    pub noise_codes: f64,
+    /// Peak jitter, second.
+    pub jitter_s: f64,
+}
+
+impl ToleranceFile {
+    fn validate(&self) -> Result<Tolerance, String> {
+        for (key, v, max) in [
+            ("tolerance.lr", self.lr.0, 0.5),
+            ("tolerance.cr", self.cr.0, 0.5),
+            ("tolerance.vin_gain", self.vin_gain.0, 0.5),
+            ("tolerance.io_gain", self.io_gain.0, 0.5),
+            ("tolerance.vin_offset_codes", self.vin_offset_codes, 4096.0),
+            ("tolerance.io_offset_codes", self.io_offset_codes, 4096.0),
+            ("tolerance.noise_codes", self.noise_codes, 4096.0),
+            ("tolerance.jitter", self.jitter.0, 1e-6),
+        ] {
+            if !(v.is_finite() && (0.0..=max).contains(&v)) {
+                return Err(format!("{key} = {v} must lie in [0, {max}] (a half-width)"));
+            }
+        }
+        Ok(Tolerance {
+            lr_rel: self.lr.0,
+            cr_rel: self.cr.0,
+            vin_gain_rel: self.vin_gain.0,
+            io_gain_rel: self.io_gain.0,
+            vin_offset_codes: self.vin_offset_codes,
+            io_offset_codes: self.io_offset_codes,
+            noise_codes: self.noise_codes,
+            jitter_s: self.jitter.0,
+        })
+    }
+}
+
 /// The `[table]` table.
 #[derive(Debug, Clone, Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -194,6 +308,9 @@ pub struct DesignFile {
     /// Table requirements.
     #[serde(default)]
     pub table: TableFile,
+    /// Board-to-board and cycle-to-cycle variation (for `montecarlo`).
+    #[serde(default)]
+    pub tolerance: Option<ToleranceFile>,
 }
 
 fn default_topology() -> TopologyFile {
@@ -252,6 +369,9 @@ pub struct Design {
     pub io_codes: CodeRange,
     /// CRC-32 of the design file's text: the design hash in table headers.
     pub hash: u32,
+    /// Variation for `montecarlo` (`None`: the design file has no
+    /// `[tolerance]`).
+    pub tolerance: Option<Tolerance>,
 }
 
 /// A design that cannot be used.
@@ -698,6 +818,7 @@ impl DesignFile {
             layout: tb.layout,
             vin_codes,
             io_codes,
+            tolerance: self.tolerance.map(|t| t.validate()).transpose()?,
             // The Coss curve is part of the design: its text joins the hash.
             hash: match &coss_text {
                 None => timing_core::blob::CRC32.checksum(text.as_bytes()),

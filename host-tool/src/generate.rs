@@ -801,8 +801,8 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
     use crate::design::LayoutChoice as L;
     // The two uniform ratio layouts (with a division, or with reciprocals):
     // node counts in powers of two, fractional bits in steps of two.
-    let uniform: [(L, fn(u32, u32) -> Plan); 2] =
-        [(L::Ratio, Plan::Ratio), (L::RecipRatio, Plan::RecipRatio)];
+    type PlanFn = fn(u32, u32) -> Plan;
+    let uniform: [(L, PlanFn); 2] = [(L::Ratio, Plan::Ratio), (L::RecipRatio, Plan::RecipRatio)];
     for (choice, plan) in uniform {
         if !(design.layout == L::Auto || design.layout == choice) {
             continue;

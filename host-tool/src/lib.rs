@@ -19,6 +19,7 @@ pub mod coss_csv;
 pub mod design;
 pub mod export;
 pub mod generate;
+pub mod montecarlo;
 pub mod netlist;
 #[cfg(feature = "plot")]
 pub mod plot;

@@ -62,6 +62,33 @@ enum Cmd {
     Netlist(NetlistArgs),
     /// SVG pictures: delay, window and table-error maps, and one switching transition.
     Plot(PlotArgs),
+    /// Monte Carlo over boards and cycles with the design's [tolerance]: how often the turn-on
+    /// lands in the true window.
+    Montecarlo(MonteCarloArgs),
+}
+
+#[derive(Args)]
+struct MonteCarloArgs {
+    /// Design file (TOML) with a [tolerance] table.
+    design: std::path::PathBuf,
+    /// Table blob written by `table` (<name>.bin); needed for `--method table`.
+    #[arg(long)]
+    table: Option<std::path::PathBuf>,
+    /// The runtime method to check.
+    #[arg(long, value_enum, default_value = "table")]
+    method: MethodArg,
+    /// Boards drawn (parts and sensing errors within the tolerances).
+    #[arg(long, default_value_t = 200)]
+    boards: u32,
+    /// Switching cycles per board (operating point, noise and jitter drawn each time).
+    #[arg(long, default_value_t = 500)]
+    cycles: u32,
+    /// Random seed (the same seed gives the same draws).
+    #[arg(long, default_value_t = 1)]
+    seed: u64,
+    /// Print one JSON object instead of the summary.
+    #[arg(long)]
+    json: bool,
 }
 
 #[derive(Args)]
@@ -552,36 +579,114 @@ fn run_table(args: &TableArgs) -> anyhow::Result<()> {
     Ok(())
 }
 
-fn run_verify(args: &VerifyArgs) -> anyhow::Result<ExitCode> {
-    use host_tool::design::Design;
-    use host_tool::verify::DelayMethod;
-    let design = Design::load(&args.design)?;
-    let cf = design.closed_form()?;
-    let blob = match (&args.table, args.method) {
-        (Some(path), MethodArg::Table) => std::fs::read(path)
-            .map_err(|e| anyhow::anyhow!("cannot read {}: {e}", path.display()))?,
-        (None, MethodArg::Table) => {
-            anyhow::bail!("--method table needs --table <name>.bin (written by `zvs-timing table`)")
-        }
-        _ => Vec::new(),
-    };
-    let method: Box<dyn DelayMethod + '_> = match args.method {
+/// The runtime method `which` of `design`: the table in `blob` (read from
+/// `table`) or one of the closed forms.
+fn open_method<'a>(
+    design: &host_tool::design::Design,
+    cf: &timing_core::closed_form::ClosedForm,
+    blob: &'a [u8],
+    table: Option<&std::path::Path>,
+    which: MethodArg,
+) -> anyhow::Result<Box<dyn host_tool::verify::DelayMethod + 'a>> {
+    Ok(match which {
         MethodArg::Table => {
-            let (_, table) = timing_core::blob::open(&blob, Some(design.hash)).map_err(|e| {
+            let (_, t) = timing_core::blob::open(blob, Some(design.hash)).map_err(|e| {
                 anyhow::anyhow!(
                     "{}: integrity check failed: {e}",
-                    args.table
-                        .as_deref()
-                        .unwrap_or(std::path::Path::new(""))
-                        .display()
+                    table.unwrap_or(std::path::Path::new("")).display()
                 )
             })?;
-            Box::new(table)
+            Box::new(t)
         }
         MethodArg::ClosedFormF32 => Box::new(cf.fast_f32()?),
         MethodArg::FixedPoint => Box::new(cf.fixed_point()?),
         MethodArg::LibmF32 => Box::new(cf.libm_f32()?),
-    };
+    })
+}
+
+fn read_blob(table: Option<&std::path::Path>, which: MethodArg) -> anyhow::Result<Vec<u8>> {
+    match (table, which) {
+        (Some(path), MethodArg::Table) => {
+            std::fs::read(path).map_err(|e| anyhow::anyhow!("cannot read {}: {e}", path.display()))
+        }
+        (None, MethodArg::Table) => {
+            anyhow::bail!("--method table needs --table <name>.bin (written by `zvs-timing table`)")
+        }
+        _ => Ok(Vec::new()),
+    }
+}
+
+fn run_montecarlo(args: &MonteCarloArgs) -> anyhow::Result<()> {
+    let design = host_tool::design::Design::load(&args.design)?;
+    let cf = design.closed_form()?;
+    let blob = read_blob(args.table.as_deref(), args.method)?;
+    let method = open_method(&design, &cf, &blob, args.table.as_deref(), args.method)?;
+    let bar = indicatif::ProgressBar::new(u64::from(args.boards));
+    bar.set_style(
+        indicatif::ProgressStyle::with_template("boards {bar:40} {pos}/{len} ({eta} left)")
+            .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
+    );
+    if args.json {
+        bar.set_draw_target(indicatif::ProgressDrawTarget::hidden());
+    }
+    let boards = u64::from(args.boards);
+    let mut tick = |f: f64| bar.set_position((f * boards as f64).round() as u64);
+    let r = host_tool::montecarlo::run(
+        &design,
+        method.as_ref(),
+        args.boards,
+        args.cycles,
+        args.seed,
+        Some(&mut tick),
+    )?;
+    bar.finish_and_clear();
+    if args.json {
+        let mut v = serde_json::to_value(&r)?;
+        if let Some(o) = v.as_object_mut() {
+            o.insert(
+                "caution".into(),
+                serde_json::Value::String(host_tool::point::CAUTION.to_owned()),
+            );
+        }
+        outln!("{}", serde_json::to_string_pretty(&v)?);
+    } else {
+        outln!(
+            "method {}: {} boards x {} cycles (seed {}): {} of {} ZVS turn-ons inside the true window ({:.3} %), {} early, {} late; worst board {:.3} %; {} cycles below the boundary",
+            r.method,
+            r.boards,
+            r.cycles_per_board,
+            r.seed,
+            r.inside,
+            r.zvs_cycles,
+            100.0 * r.inside_fraction,
+            r.early,
+            r.late,
+            100.0 * r.worst_board_inside_fraction,
+            r.valley_cycles
+        );
+        let t = r.tolerance;
+        outln!(
+            "tolerances: Lr ±{:.1} %, C ±{:.1} %, gain ±{:.1} % / ±{:.1} %, offset ±{} / ±{} codes, noise ±{} codes, jitter ±{}",
+            100.0 * t.lr_rel,
+            100.0 * t.cr_rel,
+            100.0 * t.vin_gain_rel,
+            100.0 * t.io_gain_rel,
+            t.vin_offset_codes,
+            t.io_offset_codes,
+            t.noise_codes,
+            host_tool::units::format_si(t.jitter_s, "s")
+        );
+        outln!("\n{}", host_tool::point::CAUTION);
+    }
+    Ok(())
+}
+
+fn run_verify(args: &VerifyArgs) -> anyhow::Result<ExitCode> {
+    use host_tool::design::Design;
+    let design = Design::load(&args.design)?;
+    let cf = design.closed_form()?;
+    let blob = read_blob(args.table.as_deref(), args.method)?;
+    let method = open_method(&design, &cf, &blob, args.table.as_deref(), args.method)?;
     let total = u64::from(design.vin_codes.len());
     let bar = indicatif::ProgressBar::new(total);
     bar.set_style(
@@ -633,6 +738,7 @@ fn main() -> ExitCode {
         Cmd::Table(args) => run_table(args),
         Cmd::Size(args) => run_size(args),
         Cmd::Netlist(args) => run_netlist(args),
+        Cmd::Montecarlo(args) => run_montecarlo(args),
         Cmd::Plot(args) => run_plot(args),
         Cmd::Verify(args) => match run_verify(args) {
             Ok(code) => return code,

@@ -148,10 +148,6 @@ pub fn repo() -> std::path::PathBuf {
     std::path::PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("..")
 }
 
-/// A design written for these tests only (not the demo): a boost from a
-/// 24 V nominal input to 48 V, bidirectional 10-bit current sensing (zero
-/// at mid-scale), a 100 MHz timer and a slow isolated driver. Tests derive
-/// their variants from it by replacing lines.
 /// The demo design with its Coss curve and loop resistance replaced by the
 /// constant 6.8 nF of an ideal tank (the same Lr, range, sensing and timer):
 /// for checks of the closed-form methods, which model the ideal cell.
@@ -169,6 +165,10 @@ pub fn ideal_demo() -> host_tool::design::Design {
     }
 }
 
+/// A design written for these tests only (not the demo): a boost from a
+/// 24 V nominal input to 48 V, bidirectional 10-bit current sensing (zero
+/// at mid-scale), a 100 MHz timer and a slow isolated driver. Tests derive
+/// their variants from it by replacing lines.
 pub const HELD_OUT_BOOST: &str = r#"
 name = "held_out_boost"
 topology = "boost"

@@ -11,7 +11,6 @@
 
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)]
 
-use cross_checks::repo;
 use host_tool::design::Design;
 use host_tool::verify::verify;
 

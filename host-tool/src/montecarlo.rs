@@ -1,0 +1,195 @@
+//! Monte Carlo over boards and cycles: how often a runtime method (the
+//! flash table or a closed form) turns the switch on inside the *true*
+//! window of a board whose parts and sensing differ from the design's
+//! nominal ones.
+//!
+//! Each board draws, uniformly within the design's `[tolerance]`
+//! half-widths, its Lr, its switch capacitance (the external capacitor and
+//! the Coss curve scale together), and the gain and offset errors of both
+//! ADC channels. Each cycle draws a true operating point uniformly over the
+//! design range, the sensing noise of both channels and the timer jitter;
+//! the method commands a delay from the sensed codes, and the board's own
+//! model (timing-core's closed forms or ring with the drawn parts) says
+//! whether the turn-on falls inside its window. Uniform draws within the
+//! tolerance bands put more weight at the band edges than a normal
+//! distribution would (our choice: a tolerance is a band, not a spread).
+
+use rand::{Rng, SeedableRng};
+use serde::Serialize;
+
+use crate::design::{Design, Tolerance};
+use crate::real_tank::RealTank;
+use crate::verify::DelayMethod;
+
+/// What the run found.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct MonteCarloReport {
+    /// Method checked.
+    pub method: &'static str,
+    /// Boards drawn.
+    pub boards: u32,
+    /// Cycles per board.
+    pub cycles_per_board: u32,
+    /// Random seed.
+    pub seed: u64,
+    /// The tolerances used.
+    pub tolerance: Tolerance,
+    /// Cycles whose true operating point allows ZVS on its board.
+    pub zvs_cycles: u64,
+    /// Of those, turn-ons inside the true window.
+    pub inside: u64,
+    /// Turn-ons before the window opened.
+    pub early: u64,
+    /// Turn-ons after the window closed.
+    pub late: u64,
+    /// `inside / zvs_cycles`.
+    pub inside_fraction: f64,
+    /// The worst board's inside fraction.
+    pub worst_board_inside_fraction: f64,
+    /// Cycles below the true ZVS boundary (valley territory).
+    pub valley_cycles: u64,
+    /// Cycles whose board model refused the point (should be 0).
+    pub model_errors: u64,
+}
+
+/// Why a run could not start.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum MonteCarloError {
+    /// The design has no `[tolerance]` table.
+    #[error("the design has no [tolerance] table: add lr, cr, vin_gain, io_gain, vin_offset_codes, io_offset_codes, noise_codes or jitter")]
+    NoTolerance,
+    /// A count of zero.
+    #[error("{what} must be at least 1")]
+    Zero {
+        /// `--boards` or `--cycles`.
+        what: &'static str,
+    },
+}
+
+/// Run `boards` x `cycles` draws of `method` on `design` with `seed`;
+/// `progress` gets the fraction of boards done.
+///
+/// # Errors
+/// [`MonteCarloError`].
+pub fn run(
+    design: &Design,
+    method: &dyn DelayMethod,
+    boards: u32,
+    cycles: u32,
+    seed: u64,
+    mut progress: Option<&mut dyn FnMut(f64)>,
+) -> Result<MonteCarloReport, MonteCarloError> {
+    let tol = design.tolerance.ok_or(MonteCarloError::NoTolerance)?;
+    if boards == 0 {
+        return Err(MonteCarloError::Zero { what: "--boards" });
+    }
+    if cycles == 0 {
+        return Err(MonteCarloError::Zero { what: "--cycles" });
+    }
+    let mut rng = rand::rngs::StdRng::seed_from_u64(seed);
+    let max_code = f64::from((1u32 << design.adc_bits) - 1);
+    let timer = &design.timer;
+    let mut r = MonteCarloReport {
+        method: method.name(),
+        boards,
+        cycles_per_board: cycles,
+        seed,
+        tolerance: tol,
+        zvs_cycles: 0,
+        inside: 0,
+        early: 0,
+        late: 0,
+        inside_fraction: 0.0,
+        worst_board_inside_fraction: 1.0,
+        valley_cycles: 0,
+        model_errors: 0,
+    };
+    let spread = |rng: &mut rand::rngs::StdRng, half: f64| {
+        if half > 0.0 {
+            rng.random_range(-half..=half)
+        } else {
+            0.0
+        }
+    };
+    for b in 0..boards {
+        let (dl, dc) = (spread(&mut rng, tol.lr_rel), spread(&mut rng, tol.cr_rel));
+        let (gv, gi) = (
+            spread(&mut rng, tol.vin_gain_rel),
+            spread(&mut rng, tol.io_gain_rel),
+        );
+        let (ov, oi) = (
+            spread(&mut rng, tol.vin_offset_codes),
+            spread(&mut rng, tol.io_offset_codes),
+        );
+        let real = RealTank {
+            lr_h: design.real.lr_h * (1.0 + dl),
+            cr_fixed_f: design.real.cr_fixed_f * (1.0 + dc),
+            coss: design
+                .real
+                .coss
+                .iter()
+                .map(|p| timing_core::coss::CossPoint {
+                    volts: p.volts,
+                    farads: p.farads * (1.0 + dc),
+                })
+                .collect(),
+            r_tank_ohm: design.real.r_tank_ohm,
+        };
+        let Ok(solver) = real.solver() else {
+            r.model_errors += u64::from(cycles);
+            continue;
+        };
+        let (mut zvs, mut inside) = (0u64, 0u64);
+        for _ in 0..cycles {
+            let vin = rng.random_range(design.vin_v.0..=design.vin_v.1);
+            let io = rng.random_range(design.io_a.0..=design.io_a.1);
+            let (nv, ni) = (
+                spread(&mut rng, tol.noise_codes),
+                spread(&mut rng, tol.noise_codes),
+            );
+            let jitter = spread(&mut rng, tol.jitter_s);
+            let code = |x: f64| x.round().clamp(0.0, max_code) as u16;
+            let vin_code = code(vin * (1.0 + gv) / design.vin_volts_per_code + ov + nv);
+            let io_code = code(
+                io * (1.0 + gi) / design.io_amps_per_code
+                    + f64::from(design.io_zero_code)
+                    + oi
+                    + ni,
+            );
+            let Ok(t) = design.cell(vin, io).and_then(|c| solver.transition(&c)) else {
+                r.model_errors += 1;
+                continue;
+            };
+            let Some(w) = t.turn_on.window() else {
+                r.valley_cycles += 1;
+                continue;
+            };
+            zvs += 1;
+            let (ticks, _) = method.eval(vin_code, io_code);
+            let on = timer.turn_on_s(timing_core::Ticks::new(ticks)) + jitter;
+            if on < w.open_s {
+                r.early += 1;
+            } else if on > w.close_s {
+                r.late += 1;
+            } else {
+                inside += 1;
+            }
+        }
+        r.zvs_cycles += zvs;
+        r.inside += inside;
+        if zvs > 0 {
+            r.worst_board_inside_fraction = r
+                .worst_board_inside_fraction
+                .min(inside as f64 / zvs as f64);
+        }
+        if let Some(f) = progress.as_mut() {
+            f(f64::from(b + 1) / f64::from(boards));
+        }
+    }
+    r.inside_fraction = if r.zvs_cycles > 0 {
+        r.inside as f64 / r.zvs_cycles as f64
+    } else {
+        0.0
+    };
+    Ok(r)
+}
