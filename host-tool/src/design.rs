@@ -120,19 +120,13 @@ impl<'de> Deserialize<'de> for Fraction {
         }
         match Raw::deserialize(d)? {
             Raw::N(v) => Ok(Fraction(v)),
-            Raw::S(s) => {
-                let (body, scale) = match s.trim().strip_suffix('%') {
-                    Some(b) => (b.trim().to_owned(), 0.01),
-                    None => (s.trim().to_owned(), 1.0),
-                };
-                body.parse::<f64>()
-                    .map(|v| Fraction(v * scale))
-                    .map_err(|_| {
-                        serde::de::Error::custom(format!(
-                            "`{s}` is not a fraction (write 0.05 or \"5%\")"
-                        ))
-                    })
-            }
+            Raw::S(s) => crate::units::parse_fraction(&s)
+                .map(Fraction)
+                .ok_or_else(|| {
+                    serde::de::Error::custom(format!(
+                        "`{s}` is not a fraction (write 0.05 or \"5%\")"
+                    ))
+                }),
         }
     }
 }

@@ -375,14 +375,8 @@ struct PointArgs {
 /// A fraction given as `0.1` or `10%`.
 fn fraction(option: &'static str, text: Option<&String>) -> Result<Option<f64>, InputError> {
     let Some(t) = text else { return Ok(None) };
-    let (body, scale) = match t.trim().strip_suffix('%') {
-        Some(b) => (b.trim(), 0.01),
-        None => (t.trim(), 1.0),
-    };
-    body.parse::<f64>()
-        .ok()
-        .filter(|v| v.is_finite())
-        .map(|v| Some(v * scale))
+    host_tool::units::parse_fraction(t)
+        .map(Some)
         .ok_or_else(|| {
             InputError::new(
                 option,

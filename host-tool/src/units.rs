@@ -154,6 +154,25 @@ fn numeric_prefix_len(t: &str) -> usize {
     i
 }
 
+/// Parse a fraction written as a number (`0.05`) or a percentage (`5%`).
+///
+/// ```
+/// assert_eq!(host_tool::units::parse_fraction("5%"), Some(0.05));
+/// assert_eq!(host_tool::units::parse_fraction("0.1"), Some(0.1));
+/// assert_eq!(host_tool::units::parse_fraction("lots"), None);
+/// ```
+#[must_use]
+pub fn parse_fraction(text: &str) -> Option<f64> {
+    let (body, scale) = match text.trim().strip_suffix('%') {
+        Some(b) => (b.trim(), 0.01),
+        None => (text.trim(), 1.0),
+    };
+    body.parse::<f64>()
+        .ok()
+        .filter(|v| v.is_finite())
+        .map(|v| v * scale)
+}
+
 /// Format `value` with an engineering prefix and `unit`, 4 significant
 /// digits: `3.729e-7, "s"` gives `"372.9 ns"`.
 #[must_use]

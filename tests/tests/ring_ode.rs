@@ -160,25 +160,16 @@ fn reference(lr: f64, fixed: f64, r: f64, v: f64, i: f64) -> (bool, f64, f64) {
         period,
         dx,
     );
+    let clamp = |i0: f64| {
+        if r > 0.0 {
+            lr / r * (1.0 + r * (-i0) / v).ln()
+        } else {
+            lr * (-i0) / v
+        }
+    };
     match (to_zero, valley) {
-        (Some((to, yo)), None) => {
-            let i0 = yo[1];
-            let t3a = if r > 0.0 {
-                lr / r * (1.0 + r * (-i0) / v).ln()
-            } else {
-                lr * (-i0) / v
-            };
-            (true, to, to + t3a)
-        }
-        (Some((to, yo)), Some((tv, _))) if to < tv => {
-            let i0 = yo[1];
-            let t3a = if r > 0.0 {
-                lr / r * (1.0 + r * (-i0) / v).ln()
-            } else {
-                lr * (-i0) / v
-            };
-            (true, to, to + t3a)
-        }
+        (Some((to, yo)), None) => (true, to, to + clamp(yo[1])),
+        (Some((to, yo)), Some((tv, _))) if to < tv => (true, to, to + clamp(yo[1])),
         (_, Some((tv, yv))) => (false, tv, yv[0]),
         (None, None) => panic!("no event at {v} V {i} A"),
     }
