@@ -513,16 +513,7 @@ pub fn evaluate(input: &PointInput) -> Result<PointReport, InputError> {
     }
 
     if let Some(u) = input.uncertainty {
-        if real.is_ideal() {
-            robust(input, &tank, &cell, u, &mut report)?;
-        } else {
-            report.warnings.push(
-                "the robust window is proven for the ideal tank only; with a Coss curve or a lossy \
-                 loop it is not computed (run without --coss/--tank-resistance, with cr the \
-                 boundary-equivalent capacitance, for an estimate)"
-                    .to_owned(),
-            );
-        }
+        robust(input, &real, &tank, &cell, u, &mut report)?;
     }
     if !real.is_ideal()
         && (input.fs_hz.is_some() || input.vout_v.is_some())
@@ -567,6 +558,7 @@ pub fn evaluate(input: &PointInput) -> Result<PointReport, InputError> {
 /// The robust window and the commands against it.
 fn robust(
     input: &PointInput,
+    real: &RealTank,
     tank: &Tank<f64>,
     cell: &CellPoint<f64>,
     u: UncertaintyInput,
@@ -596,9 +588,16 @@ fn robust(
                 };
                 InputError::new(option, e.to_string())
             })?;
-    let Some(rw) = timing_core::robust::robust_window(tank, cell, &unc)? else {
+    let found = if real.is_ideal() {
+        timing_core::robust::robust_window(tank, cell, &unc)?
+    } else {
+        real_robust_window(input, real, u)?
+    };
+    let Some(rw) = found else {
         report.warnings.push(
-            "no turn-on is ZVS on every board within the tolerances (the tolerance box reaches below              the ZVS boundary or the true windows do not overlap): treat this point as ZVS-impossible              and use the fallback"
+            "no turn-on is ZVS on every board within the tolerances (the tolerance box reaches below \
+             the ZVS boundary or the true windows do not overlap): treat this point as ZVS-impossible \
+             and use the fallback"
                 .to_owned(),
         );
         return Ok(());
@@ -615,7 +614,8 @@ fn robust(
         report.robust_delay_ticks = (lo <= hi).then(|| target.clamp(lo, hi) as u32);
         if report.robust_delay_ticks.is_none() {
             report.warnings.push(format!(
-                "the robust window is {:.2} ns wide, narrower than a tick ({:.2} ns): no delay is                  reliably ZVS on every board; treat this point as ZVS-impossible",
+                "the robust window is {:.2} ns wide, narrower than a tick ({:.2} ns): no delay is \
+                 reliably ZVS on every board; treat this point as ZVS-impossible",
                 (rw.close_s - rw.open_s) * 1e9,
                 1e9 / ti.clock_hz
             ));
@@ -627,4 +627,30 @@ fn robust(
         }
     }
     Ok(())
+}
+
+/// The robust window of a tank with a Coss curve or a lossy loop: the box
+/// of sensed Vin and Io mapped to the cell (the mapping is monotonic in
+/// each, so its corners bound it) and the model gridded over it
+/// ([`crate::robust_grid`]).
+fn real_robust_window(
+    input: &PointInput,
+    real: &RealTank,
+    u: UncertaintyInput,
+) -> Result<Option<timing_core::robust::RobustWindow<f64>>, InputError> {
+    use crate::robust_grid::{true_range, TankSpread, WindowGrid};
+    let vin = true_range(input.vin_v, u.vin_rel, 0.0);
+    let io = true_range(input.io_a, u.io_rel, 0.0);
+    let (mut v, mut i) = ((f64::INFINITY, 0.0f64), (f64::INFINITY, 0.0f64));
+    for x in [vin.0, vin.1] {
+        for y in [io.0, io.1] {
+            let c =
+                CellPoint::from_converter(input.topology, x, input.vout_v.unwrap_or(f64::NAN), y)?;
+            v = (v.0.min(c.v_volt()), v.1.max(c.v_volt()));
+            i = (i.0.min(c.i_amp()), i.1.max(c.i_amp()));
+        }
+    }
+    let spread = TankSpread::new(u.lr_rel, u.cr_rel);
+    let grid = WindowGrid::new(real, &spread, v, i)?;
+    Ok(grid.robust(v, i, &spread, u.jitter_s))
 }

@@ -312,3 +312,79 @@ fn point_robust_window_lies_inside_every_true_window() {
 fn cr_pct(f: f64) -> String {
     format!("{}%", f * 100.0)
 }
+
+/// The same for a tank with the demo's Coss curve and a lossy loop: the
+/// robust window lies inside the ring's true window (each board's tank
+/// scaled and solved afresh) at every corner and at sampled interior
+/// points of the box, for held-out inputs.
+#[test]
+fn point_robust_window_of_a_real_tank_lies_inside_every_true_window() {
+    use host_tool::real_tank::RealTank;
+    let csv = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("../tables/winch_aux_coss.csv");
+    let (curve, _) = host_tool::coss_csv::load(&csv).unwrap();
+    for (cr, r, vin, io, lt, ct, ve, ie) in [
+        (5.6e-9, 0.08, 44.0, 7.5, 0.05, 0.05, 0.01, 0.02),
+        (2.2e-9, 0.25, 58.0, 9.0, 0.08, 0.04, 0.02, 0.03),
+        (4.7e-9, 0.0, 38.0, 6.2, 0.03, 0.08, 0.01, 0.01),
+    ] {
+        let out = std::process::Command::new(env!("CARGO_BIN_EXE_zvs-timing"))
+            .args(["point", "--json", "--lr", "1u", "--cr", &cr.to_string()])
+            .arg("--coss")
+            .arg(&csv)
+            .args(["--tank-resistance", &r.to_string()])
+            .args(["--vin", &vin.to_string(), "--io", &io.to_string()])
+            .args(["--lr-tol", &cr_pct(lt), "--cr-tol", &cr_pct(ct)])
+            .args(["--vin-err", &ve.to_string(), "--io-err", &ie.to_string()])
+            .output()
+            .unwrap();
+        assert!(
+            out.status.success(),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        let j: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+        let (Some(o), Some(c)) = (
+            j["robust_window_open_s"].as_f64(),
+            j["robust_window_close_s"].as_f64(),
+        ) else {
+            panic!("no robust window at {cr} {r} {vin} {io}: {j}");
+        };
+        let mut seed = 0xc055_u64;
+        let mut next = || {
+            seed = seed
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            (seed >> 11) as f64 / (1u64 << 53) as f64
+        };
+        let mut points: Vec<[f64; 4]> = (0..16u32)
+            .map(|k| [0, 1, 2, 3].map(|b| f64::from((k >> b) & 1)))
+            .collect();
+        points.extend((0..150).map(|_| [next(), next(), next(), next()]));
+        for [a, b, v, i] in points {
+            let k = 1.0 - ct + 2.0 * ct * b;
+            let tank = RealTank {
+                lr_h: 1e-6 * (1.0 - lt + 2.0 * lt * a),
+                cr_fixed_f: cr * k,
+                coss: curve
+                    .iter()
+                    .map(|p| timing_core::coss::CossPoint {
+                        volts: p.volts,
+                        farads: p.farads * k,
+                    })
+                    .collect(),
+                r_tank_ohm: r,
+            };
+            let cell = timing_core::CellPoint::new(
+                vin * (1.0 - ve + 2.0 * ve * v),
+                io * (1.0 - ie + 2.0 * ie * i),
+            )
+            .unwrap();
+            let t = tank.solver().unwrap().transition(&cell).unwrap();
+            let w = t.turn_on.window().unwrap();
+            assert!(
+                w.open_s <= o && w.close_s >= c,
+                "{w:?} vs [{o}, {c}] at {cell:?}"
+            );
+        }
+    }
+}
