@@ -269,18 +269,7 @@ fn point_robust_window_lies_inside_every_true_window() {
         ) else {
             panic!("no robust window at {lr} {cr} {vin} {io}: {j}");
         };
-        let mut seed = 0x5eed_u64;
-        let mut next = || {
-            seed = seed
-                .wrapping_mul(6364136223846793005)
-                .wrapping_add(1442695040888963407);
-            (seed >> 11) as f64 / (1u64 << 53) as f64
-        };
-        let mut points: Vec<[f64; 4]> = (0..16u32)
-            .map(|k| [0, 1, 2, 3].map(|b| f64::from((k >> b) & 1)))
-            .collect();
-        points.extend((0..400).map(|_| [next(), next(), next(), next()]));
-        for [a, b, v, i] in points {
+        for [a, b, v, i] in box_points(0x5eed, 400) {
             let tank = Tank::new(
                 lr * (1.0 - lt + 2.0 * lt * a),
                 cr * (1.0 - ct + 2.0 * ct * b),
@@ -307,6 +296,22 @@ fn point_robust_window_lies_inside_every_true_window() {
         .unwrap();
     assert_eq!(out.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&out.stderr).contains("--lr-tol"));
+}
+
+/// The 16 corners of the unit 4-box and `n` interior points from a
+/// seeded LCG (positions 0..1 along Lr, C, Vin, Io).
+fn box_points(mut seed: u64, n: usize) -> Vec<[f64; 4]> {
+    let mut next = || {
+        seed = seed
+            .wrapping_mul(6364136223846793005)
+            .wrapping_add(1442695040888963407);
+        (seed >> 11) as f64 / (1u64 << 53) as f64
+    };
+    let mut points: Vec<[f64; 4]> = (0..16u32)
+        .map(|k| [0, 1, 2, 3].map(|b| f64::from((k >> b) & 1)))
+        .collect();
+    points.extend((0..n).map(|_| [next(), next(), next(), next()]));
+    points
 }
 
 fn cr_pct(f: f64) -> String {
@@ -349,18 +354,7 @@ fn point_robust_window_of_a_real_tank_lies_inside_every_true_window() {
         ) else {
             panic!("no robust window at {cr} {r} {vin} {io}: {j}");
         };
-        let mut seed = 0xc055_u64;
-        let mut next = || {
-            seed = seed
-                .wrapping_mul(6364136223846793005)
-                .wrapping_add(1442695040888963407);
-            (seed >> 11) as f64 / (1u64 << 53) as f64
-        };
-        let mut points: Vec<[f64; 4]> = (0..16u32)
-            .map(|k| [0, 1, 2, 3].map(|b| f64::from((k >> b) & 1)))
-            .collect();
-        points.extend((0..150).map(|_| [next(), next(), next(), next()]));
-        for [a, b, v, i] in points {
+        for [a, b, v, i] in box_points(0xc055, 150) {
             let k = 1.0 - ct + 2.0 * ct * b;
             let tank = RealTank {
                 lr_h: 1e-6 * (1.0 - lt + 2.0 * lt * a),
