@@ -7,34 +7,104 @@
 //! compact `ratio` layout, one division; ARMv6-M, which has no divide
 //! instruction: `recip-ratio`, a reciprocal table and one multiplication).
 //! The closed-form methods' coefficients come from the same design.
+//!
+//! Generation over the demo's Coss curve takes seconds, and every feature
+//! set (the scenario build and six panic-free proof builds per core) runs
+//! this script again. The outputs are therefore kept in
+//! `target/generated-cache/<key>/`, keyed by a CRC-64 of everything they
+//! follow from: the design and its Coss curve, the layout, the sources of
+//! host-tool and timing-core and this crate's `Cargo.lock`. Any change to
+//! one of those is a new key, so a stale table cannot be picked up.
 
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
+
+const OUTPUTS: [&str; 4] = [
+    "winch_aux_table.rs",
+    "winch_aux.bin",
+    "winch_aux_closed_form.rs",
+    "winch_aux_model.rs",
+];
 
 fn main() {
     let out = PathBuf::from(std::env::var("OUT_DIR").expect("OUT_DIR"));
     let manifest = PathBuf::from(std::env::var("CARGO_MANIFEST_DIR").expect("manifest dir"));
     let target = std::env::var("TARGET").expect("TARGET");
     let design = manifest.join("../tables/winch_aux.toml");
-    println!("cargo:rerun-if-changed={}", design.display());
-    println!("cargo:rerun-if-changed=memory.x");
+    let coss = manifest.join("../tables/winch_aux_coss.csv");
+    for p in [&design, &coss, &manifest.join("memory.x")] {
+        println!("cargo:rerun-if-changed={}", p.display());
+    }
     let layout = host_tool::export::firmware_layout(&target);
-    let (source, blob) =
-        host_tool::export::firmware_table(&design, Some(layout)).unwrap_or_else(|e| panic!("{e}"));
-    std::fs::write(out.join("winch_aux_table.rs"), source).expect("write table source");
-    std::fs::write(out.join("winch_aux.bin"), blob).expect("write table blob");
-    let design_data = host_tool::design::Design::load(&design).unwrap_or_else(|e| panic!("{e}"));
-    let closed = host_tool::closed_form_source::closed_form_source(&design_data)
-        .unwrap_or_else(|e| panic!("{e}"));
-    std::fs::write(out.join("winch_aux_closed_form.rs"), closed).expect("write closed-form source");
-    std::fs::write(
-        out.join("winch_aux_model.rs"),
-        host_tool::export::model_source(&design_data),
-    )
-    .expect("write model source");
-    println!(
-        "cargo:rerun-if-changed={}",
-        manifest.join("../tables/winch_aux_coss.csv").display()
-    );
+
+    let key = cache_key(&manifest, &[&design, &coss], &format!("{layout:?}"));
+    let cache = manifest.join("target/generated-cache").join(format!("{key:016x}"));
+    if !OUTPUTS.iter().all(|f| cache.join(f).is_file()) {
+        generate(&design, layout, &cache);
+    }
+    for f in OUTPUTS {
+        std::fs::copy(cache.join(f), out.join(f)).expect("copy generated file");
+    }
     std::fs::copy(manifest.join("memory.x"), out.join("memory.x")).expect("copy memory.x");
     println!("cargo:rustc-link-search={}", out.display());
+}
+
+/// Generate the four outputs into `dir` (written to a temporary directory
+/// first and renamed, so a build stopped half-way leaves no partial entry).
+fn generate(design: &Path, layout: host_tool::design::LayoutChoice, dir: &Path) {
+    let (source, blob) =
+        host_tool::export::firmware_table(design, Some(layout)).unwrap_or_else(|e| panic!("{e}"));
+    let design_data = host_tool::design::Design::load(design).unwrap_or_else(|e| panic!("{e}"));
+    let closed = host_tool::closed_form_source::closed_form_source(&design_data)
+        .unwrap_or_else(|e| panic!("{e}"));
+    let model = host_tool::export::model_source(&design_data);
+    let tmp = dir.with_extension(format!("tmp{}", std::process::id()));
+    std::fs::create_dir_all(&tmp).expect("create cache directory");
+    let contents: [&[u8]; 4] = [
+        source.as_bytes(),
+        &blob,
+        closed.as_bytes(),
+        model.as_bytes(),
+    ];
+    for (f, c) in OUTPUTS.iter().zip(contents) {
+        std::fs::write(tmp.join(f), c).expect("write generated file");
+    }
+    // Another build may have filled the same key meanwhile: same contents.
+    if std::fs::rename(&tmp, dir).is_err() {
+        let _ = std::fs::remove_dir_all(&tmp);
+    }
+}
+
+/// CRC-64 of the inputs, the layout and every file under the generator's
+/// and the core's sources (in sorted order, names included).
+fn cache_key(manifest: &Path, inputs: &[&Path], layout: &str) -> u64 {
+    let crc = crc::Crc::<u64>::new(&crc::CRC_64_ECMA_182);
+    let mut digest = crc.digest();
+    digest.update(layout.as_bytes());
+    let mut files: Vec<PathBuf> = inputs.iter().map(|p| p.to_path_buf()).collect();
+    files.push(manifest.join("Cargo.lock"));
+    for krate in ["host-tool", "timing-core"] {
+        let root = manifest.join("..").join(krate);
+        files.push(root.join("Cargo.toml"));
+        collect(&root.join("src"), &mut files);
+    }
+    for f in &files {
+        digest.update(f.to_string_lossy().as_bytes());
+        digest.update(&std::fs::read(f).unwrap_or_else(|e| panic!("{}: {e}", f.display())));
+    }
+    digest.finalize()
+}
+
+fn collect(dir: &Path, files: &mut Vec<PathBuf>) {
+    let mut entries: Vec<PathBuf> = std::fs::read_dir(dir)
+        .unwrap_or_else(|e| panic!("{}: {e}", dir.display()))
+        .map(|e| e.expect("directory entry").path())
+        .collect();
+    entries.sort();
+    for p in entries {
+        if p.is_dir() {
+            collect(&p, files);
+        } else {
+            files.push(p);
+        }
+    }
 }
