@@ -2,11 +2,11 @@
 // regenerate with `zvs-timing table <design>.toml --out <dir>`.
 // timing-core's closed-form methods for this design, verified against the exact model at all
 // 2749050 code pairs (codes outside vin 2237..=3726 / io 205..=2049 clamp to the range edge):
-// closed-form-f32: approximation error at most 2.4260 ticks before rounding; commanded error at most 2.787 ticks (RMS 0.472);
+// closed-form-f32: approximation error at most 2.4260 ticks before rounding; commanded error at most 3.843 ticks (RMS 1.368);
 //   14666 of 1835198 ZVS turn-ons outside the window.
-// fixed-point: approximation error at most 2.4262 ticks before rounding; commanded error at most 2.793 ticks (RMS 0.472);
+// fixed-point: approximation error at most 2.4262 ticks before rounding; commanded error at most 3.832 ticks (RMS 1.366);
 //   14770 of 1835198 ZVS turn-ons outside the window.
-// libm-f32: approximation error at most 2.4260 ticks before rounding; commanded error at most 2.787 ticks (RMS 0.472);
+// libm-f32: approximation error at most 2.4260 ticks before rounding; commanded error at most 3.843 ticks (RMS 1.368);
 //   14666 of 1835198 ZVS turn-ons outside the window.
 // CAUTION: verify every delay at reduced voltage with a scope before full-voltage operation.
 #[allow(unused_imports)]

@@ -132,7 +132,10 @@ impl<'de> Deserialize<'de> for Fraction {
 }
 
 /// The `[tolerance]` table: what varies from board to board and cycle to
-/// cycle, for `zvs-timing montecarlo`. Each bound is a half-width (a value
+/// cycle. Tables aim inside the window every board within it shares
+/// ([`crate::robust_aim`]), verification measures the margins to that
+/// window, and `zvs-timing montecarlo` draws boards and cycles from it.
+/// Each bound is a half-width (a value
 /// lies within nominal plus or minus it).
 #[derive(Debug, Clone, Copy, PartialEq, Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -363,9 +366,11 @@ pub struct Design {
     pub io_codes: CodeRange,
     /// CRC-32 of the design file's text: the design hash in table headers.
     pub hash: u32,
-    /// Variation for `montecarlo` (`None`: the design file has no
-    /// `[tolerance]`).
+    /// Board-to-board and cycle-to-cycle variation (`None`: the design
+    /// file has no `[tolerance]`).
     pub tolerance: Option<Tolerance>,
+    /// The robust windows of the readings, built on first use.
+    aim: crate::robust_aim::AimCache,
 }
 
 /// A design that cannot be used.
@@ -399,6 +404,17 @@ pub enum DesignError {
 }
 
 impl Design {
+    /// The robust windows of the design's readings under its `[tolerance]`
+    /// table (`None` without one), built on the first call (about a second
+    /// on two cores with a Coss curve) and kept. Change the design's tank,
+    /// ranges, timer or tolerances only before the first call.
+    ///
+    /// # Errors
+    /// timing-core's error for a point the model refuses.
+    pub fn robust_aim(&self) -> Result<Option<&crate::robust_aim::RobustAim>, timing_core::Error> {
+        self.aim.get(self)
+    }
+
     /// Read and validate a design file.
     ///
     /// # Errors
@@ -813,6 +829,7 @@ impl DesignFile {
             vin_codes,
             io_codes,
             tolerance: self.tolerance.map(|t| t.validate()).transpose()?,
+            aim: crate::robust_aim::AimCache::default(),
             // The Coss curve is part of the design: its text joins the hash.
             hash: match &coss_text {
                 None => timing_core::blob::CRC32.checksum(text.as_bytes()),

@@ -2,6 +2,7 @@
 //! candidate layouts, and the choice of the smallest that meets the error
 //! budget. All physics comes from timing-core.
 
+use timing_core::robust::RobustWindow;
 use timing_core::table::{
     log_index, log_ratio_index, ratio_bounds, DelayTable, Fallback, GridLayout, Layout,
     LogRatioLayout, LogUniformLayout, RatioLayout, RecipRatioLayout, Sensing, LOG_OFFSET,
@@ -10,6 +11,7 @@ use timing_core::ZvsWindow;
 
 use crate::design::Design;
 use crate::real_tank::CellSolver;
+use crate::robust_aim::RobustAim;
 use crate::verify::{verify, VerifyReport};
 
 /// The exact (f64) commanded delay of a design, before quantisation.
@@ -17,6 +19,8 @@ use crate::verify::{verify, VerifyReport};
 pub struct ExactModel<'a> {
     design: &'a Design,
     solver: CellSolver<'a>,
+    /// The robust windows of the readings, when the design has tolerances.
+    aim: Option<&'a RobustAim>,
     /// Planning only: every point is 0 ticks, no physics is run (candidate
     /// layouts are sized before their entries are worth computing).
     dry: bool,
@@ -24,24 +28,37 @@ pub struct ExactModel<'a> {
     lead_s: f64,
 }
 
-/// The exact model at one operating point.
+/// The exact model at one operating point (a reading: the values of a
+/// code pair).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct ExactPoint {
-    /// Ideal delay from the turn-off command, ticks (not rounded), with the
-    /// design's fallback.
+    /// The delay the design asks for, from the turn-off command, ticks (not
+    /// rounded): the aim point inside the robust window where the design's
+    /// tolerances leave one a tick wide or more, inside the nominal window
+    /// elsewhere, with the design's fallback below the ZVS boundary.
     pub ticks: f64,
     /// The same with the valley fallback, which is continuous across the
     /// ZVS boundary: what table entries hold, so interpolation near the
     /// boundary never blends in a fixed fallback delay (a fixed fallback is
     /// applied by the lookup's ZVS test instead).
     pub table_ticks: f64,
+    /// The aim point inside the nominal window (the valley below the
+    /// boundary), ticks: what the closed-form methods compute, whose
+    /// approximation error is measured against it.
+    pub nominal_ticks: f64,
     /// The ZVS window, `None` below the boundary.
     pub window: Option<ZvsWindow<f64>>,
+    /// The robust window behind the reading ([`crate::robust_aim`]),
+    /// `None` without tolerances or where it is not reliably hittable.
+    pub robust: Option<RobustWindow<f64>>,
 }
 
 impl<'a> ExactModel<'a> {
     /// The model of `design`: the closed forms for an ideal tank, the
-    /// numerical ring with the Coss curve and the loop resistance otherwise.
+    /// numerical ring with the Coss curve and the loop resistance otherwise;
+    /// aimed inside the robust windows when the design has tolerances (see
+    /// [`Design::robust_aim`], which reports a failure to build them; the
+    /// model then aims at the nominal windows).
     #[must_use]
     pub fn new(design: &'a Design) -> Self {
         Self {
@@ -51,6 +68,7 @@ impl<'a> ExactModel<'a> {
                 .real
                 .solver()
                 .unwrap_or(CellSolver::Ideal(design.tank)),
+            aim: design.robust_aim().ok().flatten(),
             dry: false,
             clock_hz: design.timer.clock_hz(),
             lead_s: design.timer.lead_s(),
@@ -73,13 +91,23 @@ impl<'a> ExactModel<'a> {
             return Ok(ExactPoint {
                 ticks: 0.0,
                 table_ticks: 0.0,
+                nominal_ticks: 0.0,
                 window: None,
+                robust: None,
             });
         }
         let cell = self.design.cell(vin, io)?;
         let t = self.solver.transition(&cell)?;
         let window = t.turn_on.window();
-        let table_ticks = (t.turn_on.target_s(self.design.position) - self.lead_s) * self.clock_hz;
+        let to_ticks = |s: f64| (s - self.lead_s) * self.clock_hz;
+        let nominal_ticks = to_ticks(t.turn_on.target_s(self.design.position));
+        let robust = match (self.aim, window) {
+            (Some(aim), Some(_)) => aim.window(self.design, vin, io),
+            _ => None,
+        };
+        let table_ticks = robust.map_or(nominal_ticks, |r| {
+            to_ticks(r.open_s + self.design.position.get() * (r.close_s - r.open_s))
+        });
         let ticks = match (window, self.design.fallback) {
             (None, Fallback::Fixed(n)) => f64::from(n.get()),
             _ => table_ticks,
@@ -87,7 +115,9 @@ impl<'a> ExactModel<'a> {
         Ok(ExactPoint {
             ticks,
             table_ticks,
+            nominal_ticks,
             window,
+            robust,
         })
     }
 
@@ -155,7 +185,7 @@ impl<'a> ExactModel<'a> {
                 _ => mid,
             },
             table_ticks: mid,
-            window: base.window,
+            ..base
         })
     }
 }
@@ -792,6 +822,11 @@ impl Plan {
 /// # Errors
 /// [`GenerateError`].
 pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
+    design.robust_aim().map_err(|e| GenerateError::Model {
+        vin_v: design.vin_v.0,
+        io_a: design.io_a.0,
+        message: format!("the robust windows of the tolerances: {e}"),
+    })?;
     let model = ExactModel::new(design);
     let max_ticks = delay_bounds(design, &model)?;
     // Candidates are sized on a dry model first; entries are computed only

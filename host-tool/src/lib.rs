@@ -26,6 +26,7 @@ pub mod plot;
 pub mod point;
 pub mod real_tank;
 pub mod render;
+pub mod robust_aim;
 pub mod robust_grid;
 pub mod size;
 pub mod spice;

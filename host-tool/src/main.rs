@@ -517,6 +517,20 @@ fn print_verification(v: &host_tool::verify::VerifyReport, clock_hz: f64, w0_rad
             m * clock_hz
         );
     }
+    if v.robust_points + v.zvs_unreliable > 0 {
+        outln!(
+            "tolerances: {} ZVS pairs have a robust window a tick wide or more, {} outside it; {} are treated as ZVS-impossible (no window every board shares, a tick wide)",
+            v.robust_points, v.outside_robust_window, v.zvs_unreliable
+        );
+        if let Some(m) = v.min_robust_margin_s {
+            outln!(
+                "worst margin to a robust-window edge: {} ({:.2} ticks{})",
+                host_tool::units::format_si(m, "s"),
+                m * clock_hz,
+                if m < 0.0 { ", outside" } else { "" }
+            );
+        }
+    }
 }
 
 fn run_table(args: &TableArgs) -> anyhow::Result<()> {

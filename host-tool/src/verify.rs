@@ -108,6 +108,20 @@ pub struct VerifyReport {
     /// Smallest margin of a commanded turn-on inside its window to the nearer
     /// edge, second (`None` when no turn-on is inside).
     pub min_margin_s: Option<f64>,
+    /// ZVS pairs with a robust window a tick wide or more (the design's
+    /// tolerances; 0 without a `[tolerance]` table).
+    pub robust_points: u64,
+    /// Of those, pairs whose commanded turn-on lies outside the robust
+    /// window: some board within the tolerances may miss its window there.
+    pub outside_robust_window: u64,
+    /// The worst margin of a commanded turn-on to the nearer edge of its
+    /// robust window over those pairs, second (negative: outside; `None`
+    /// when there are none).
+    pub min_robust_margin_s: Option<f64>,
+    /// ZVS pairs where the tolerances leave no reliably hittable window
+    /// (treated as ZVS-impossible: the fallback aim applies); 0 without a
+    /// `[tolerance]` table.
+    pub zvs_unreliable: u64,
     /// Largest normalised load J among the pairs whose turn-on missed the
     /// window (`None` when none did): how far above the ZVS boundary misses
     /// reach.
@@ -135,6 +149,10 @@ struct Row {
     late: u64,
     narrow: u64,
     min_margin: Option<f64>,
+    robust: u64,
+    robust_out: u64,
+    robust_margin: Option<f64>,
+    unreliable: u64,
     miss_load: Option<f64>,
     max_cmd: u32,
     max_cmd_ci: u16,
@@ -200,7 +218,7 @@ fn check_pair(
         let fixed = matches!(design.fallback, timing_core::table::Fallback::Fixed(_));
         if let Some(raw) = raw {
             if !fixed || p.window.is_some() {
-                let e = (raw - p.table_ticks).abs();
+                let e = (raw - p.nominal_ticks).abs();
                 if r.approx.is_none_or(|(w, _)| e > w) {
                     r.approx = Some((e, ci));
                 }
@@ -216,6 +234,18 @@ fn check_pair(
                 r.early += 1;
             } else if on > w.close_s {
                 r.late += 1;
+            }
+            match p.robust {
+                Some(rw) => {
+                    r.robust += 1;
+                    let mg = (on - rw.open_s).min(rw.close_s - on);
+                    if mg < 0.0 {
+                        r.robust_out += 1;
+                    }
+                    r.robust_margin = Some(r.robust_margin.map_or(mg, |x: f64| x.min(mg)));
+                }
+                None if design.tolerance.is_some() => r.unreliable += 1,
+                None => {}
             }
             if on < w.open_s || on > w.close_s {
                 // J = Io*Z0/Vin for every cell.
@@ -324,6 +354,10 @@ fn merge(
         late: 0,
         narrower_than_a_tick: 0,
         min_margin_s: None,
+        robust_points: 0,
+        outside_robust_window: 0,
+        min_robust_margin_s: None,
+        zvs_unreliable: 0,
         outside_window_max_load: None,
         max_commanded_ticks: 0,
         max_commanded_at: (v.lo, i.lo),
@@ -359,6 +393,12 @@ fn merge(
         r.model_errors += row.model_errors;
         if let Some(m) = row.min_margin {
             r.min_margin_s = Some(r.min_margin_s.map_or(m, |x| x.min(m)));
+        }
+        r.robust_points += row.robust;
+        r.outside_robust_window += row.robust_out;
+        r.zvs_unreliable += row.unreliable;
+        if let Some(m) = row.robust_margin {
+            r.min_robust_margin_s = Some(r.min_robust_margin_s.map_or(m, |x| x.min(m)));
         }
         if let Some(j) = row.miss_load {
             r.outside_window_max_load = Some(r.outside_window_max_load.map_or(j, |x| x.max(j)));

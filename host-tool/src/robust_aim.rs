@@ -1,0 +1,159 @@
+//! What a design's tolerances leave of the ZVS window at each reading: the
+//! robust window behind a pair of ADC codes, over every board (Lr and the
+//! switch capacitance within their tolerances) and every conversion (gain
+//! and offset errors, noise and the code's own rounding), less the timer
+//! jitter. Tables aim inside it, and verification measures how far each
+//! commanded turn-on lies from its edges.
+//!
+//! # The box behind a reading
+//! A channel reads `code = round(x*(1 + g)/lsb + offset + noise)` (the
+//! model `zvs-timing montecarlo` draws boards and cycles from), so the
+//! true value behind the reading `m = code*lsb` lies in
+//! [`true_range`]`(m, g, (0.5 + offset + noise)*lsb)`. The converter box
+//! maps to the cell through its corners (the mapping is monotonic in
+//! each quantity) and [`WindowGrid::robust`] bounds the window over it.
+//!
+//! A reading whose robust window is narrower than one timer tick (or
+//! empty, or reaching below the ZVS boundary) cannot be hit reliably: it
+//! is treated as ZVS-impossible there and the design's fallback aim
+//! applies (the nominal window's aim point, which joins the valley
+//! continuously at the boundary).
+
+use std::sync::OnceLock;
+
+use timing_core::robust::RobustWindow;
+
+use crate::design::{Design, Tolerance};
+use crate::robust_grid::{true_range, TankSpread, WindowGrid};
+
+/// The robust windows of a design's readings.
+#[derive(Debug, Clone)]
+pub struct RobustAim {
+    grid: WindowGrid,
+    spread: TankSpread,
+    tol: Tolerance,
+    /// One timer tick, second: the narrowest window a rounded command can
+    /// be sure to hit.
+    min_width_s: f64,
+}
+
+impl RobustAim {
+    /// The robust windows of `design`'s code range under its
+    /// `[tolerance]` table (`None` without one), the grid computed on all
+    /// cores.
+    ///
+    /// # Errors
+    /// timing-core's error for a point the model refuses.
+    pub fn new(design: &Design) -> Result<Option<Self>, timing_core::Error> {
+        let Some(tol) = design.tolerance else {
+            return Ok(None);
+        };
+        let spread = TankSpread::new(tol.lr_rel, tol.cr_rel);
+        let (vv, iv) = (design.vin_codes, design.io_codes);
+        let vin = (
+            sensed_vin(design, &tol, design.vin_of(vv.lo)).0,
+            sensed_vin(design, &tol, design.vin_of(vv.hi)).1,
+        );
+        let io_hi = sensed_io(design, &tol, design.io_of(iv.hi)).1;
+        // Readings whose box reaches 0 A have no robust window; the grid's
+        // current range starts below every ZVS boundary anyway.
+        let io = (
+            sensed_io(design, &tol, design.io_of(iv.lo))
+                .0
+                .max(1e-3 * io_hi),
+            io_hi,
+        );
+        let (v, i) = cell_box(design, vin, io).ok_or(timing_core::Error::NotPositive {
+            quantity: timing_core::Quantity::OutputCurrent,
+            value: io.1,
+        })?;
+        Ok(Some(Self {
+            grid: WindowGrid::new(&design.real, &spread, v, i)?,
+            spread,
+            tol,
+            min_width_s: 1.0 / design.timer.clock_hz(),
+        }))
+    }
+
+    /// The robust window behind the reading (`vin_v` volt, `io_a` ampere,
+    /// the values of a code pair), second from gate turn-off, with the
+    /// jitter taken off both ends; `None` where no turn-on is reliably ZVS
+    /// on every board (the box reaches below the ZVS boundary, the true
+    /// windows do not overlap, or what they share is narrower than a
+    /// tick). Bounded as [`WindowGrid::robust`] states: never later
+    /// (opening) or earlier (close) than the model allows.
+    #[must_use]
+    pub fn window(&self, design: &Design, vin_v: f64, io_a: f64) -> Option<RobustWindow<f64>> {
+        let vin = sensed_vin(design, &self.tol, vin_v);
+        let io = sensed_io(design, &self.tol, io_a);
+        if !(io.0 > 0.0 && vin.0 > 0.0) {
+            return None;
+        }
+        let (v, i) = cell_box(design, vin, io)?;
+        self.grid
+            .robust(v, i, &self.spread, self.tol.jitter_s)
+            .filter(|w| w.close_s - w.open_s >= self.min_width_s)
+    }
+}
+
+/// The true input voltage behind the reading `vin_v`, volt.
+fn sensed_vin(design: &Design, tol: &Tolerance, vin_v: f64) -> (f64, f64) {
+    let abs = (0.5 + tol.vin_offset_codes + tol.noise_codes) * design.vin_volts_per_code;
+    true_range(vin_v, tol.vin_gain_rel, abs)
+}
+
+/// The true output current behind the reading `io_a`, ampere.
+fn sensed_io(design: &Design, tol: &Tolerance, io_a: f64) -> (f64, f64) {
+    let abs = (0.5 + tol.io_offset_codes + tol.noise_codes) * design.io_amps_per_code;
+    true_range(io_a, tol.io_gain_rel, abs)
+}
+
+/// Cell voltage and current ranges of a converter box (through its
+/// corners), `None` where a corner is not a valid operating point.
+fn cell_box(design: &Design, vin: (f64, f64), io: (f64, f64)) -> Option<((f64, f64), (f64, f64))> {
+    let (mut v, mut i) = ((f64::INFINITY, 0.0f64), (f64::INFINITY, 0.0f64));
+    for x in [vin.0, vin.1] {
+        for y in [io.0, io.1] {
+            let c = design.cell(x, y).ok()?;
+            v = (v.0.min(c.v_volt()), v.1.max(c.v_volt()));
+            i = (i.0.min(c.i_amp()), i.1.max(c.i_amp()));
+        }
+    }
+    Some((v, i))
+}
+
+/// A design's [`RobustAim`], built on first use. A clone starts empty (a
+/// clone may be changed before use); change a design's tank, ranges,
+/// timer or tolerances only before its first table or verification.
+#[derive(Default)]
+pub struct AimCache(OnceLock<Result<Option<RobustAim>, timing_core::Error>>);
+
+impl Clone for AimCache {
+    fn clone(&self) -> Self {
+        Self::default()
+    }
+}
+
+impl AimCache {
+    /// The aim of `design` (whose cache this is), building it the first time.
+    ///
+    /// # Errors
+    /// As [`RobustAim::new`].
+    pub fn get(&self, design: &Design) -> Result<Option<&RobustAim>, timing_core::Error> {
+        match self.0.get_or_init(|| RobustAim::new(design)) {
+            Ok(a) => Ok(a.as_ref()),
+            Err(e) => Err(*e),
+        }
+    }
+}
+
+impl std::fmt::Debug for AimCache {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(match self.0.get() {
+            None => "AimCache(not built)",
+            Some(Ok(Some(_))) => "AimCache(built)",
+            Some(Ok(None)) => "AimCache(no tolerances)",
+            Some(Err(_)) => "AimCache(failed)",
+        })
+    }
+}
