@@ -76,6 +76,20 @@ fn demo_table_meets_its_budget_in_2_kib() {
         let pairs = u64::from(design.vin_codes.len()) * u64::from(design.io_codes.len());
         assert_eq!(out.verification.points_checked, pairs);
         assert_eq!(out.verification.model_errors, 0);
+        // Every ZVS pair is either aimed inside its robust window or
+        // treated as ZVS-impossible under the tolerances; without a
+        // [tolerance] table neither is counted.
+        let v = &out.verification;
+        if design.tolerance.is_some() {
+            assert_eq!(v.robust_points + v.zvs_unreliable, v.zvs_points);
+            assert!(v.outside_robust_window < v.robust_points / 5);
+            assert_eq!(
+                v.min_robust_margin_s.is_some_and(|m| m < 0.0),
+                v.outside_robust_window > 0
+            );
+        } else {
+            assert_eq!((v.robust_points, v.zvs_unreliable), (0, 0));
+        }
     }
 }
 
