@@ -364,6 +364,12 @@ struct PointArgs {
     /// Relative error of the sensed output current (gain), a fraction or a percentage.
     #[arg(long, allow_hyphen_values = true)]
     io_err: Option<String>,
+    /// Absolute error of the sensed input voltage (offset plus peak noise), volt.
+    #[arg(long, allow_hyphen_values = true)]
+    vin_offset: Option<String>,
+    /// Absolute error of the sensed output current (offset plus peak noise), ampere.
+    #[arg(long, allow_hyphen_values = true)]
+    io_offset: Option<String>,
     /// Peak timer jitter, second.
     #[arg(long, allow_hyphen_values = true)]
     jitter: Option<String>,
@@ -462,17 +468,21 @@ impl PointArgs {
             fraction("--vin-err", self.vin_err.as_ref())?,
             fraction("--io-err", self.io_err.as_ref())?,
             opt_num("--jitter", self.jitter.as_ref(), "s")?,
+            opt_num("--vin-offset", self.vin_offset.as_ref(), "V")?,
+            opt_num("--io-offset", self.io_offset.as_ref(), "A")?,
         ];
         if parts.iter().all(Option::is_none) {
             return Ok(None);
         }
-        let [lr, cr, v, i, j] = parts.map(|p| p.unwrap_or(0.0));
+        let [lr, cr, v, i, j, va, ia] = parts.map(|p| p.unwrap_or(0.0));
         Ok(Some(point::UncertaintyInput {
             lr_rel: lr,
             cr_rel: cr,
             vin_rel: v,
             io_rel: i,
             jitter_s: j,
+            vin_abs_v: va,
+            io_abs_a: ia,
         }))
     }
 }

@@ -84,6 +84,10 @@ pub struct UncertaintyInput {
     pub io_rel: f64,
     /// Peak timer jitter, second.
     pub jitter_s: f64,
+    /// Absolute error of the sensed Vin (offset plus peak noise), volt.
+    pub vin_abs_v: f64,
+    /// Absolute error of the sensed Io (offset plus peak noise), ampere.
+    pub io_abs_a: f64,
 }
 
 /// A rejected input: which option and why, in one line.
@@ -564,8 +568,27 @@ fn robust(
     u: UncertaintyInput,
     report: &mut PointReport,
 ) -> Result<(), InputError> {
+    // Absolute errors join the relative ones at the sensed point: a true
+    // value within m*(1 +- g) +- a lies within m*(1 +- (g + a/m)).
+    for (option, a, m) in [
+        ("--vin-offset", u.vin_abs_v, input.vin_v),
+        ("--io-offset", u.io_abs_a, input.io_a),
+    ] {
+        if !(a.is_finite() && a >= 0.0 && a < m) {
+            return Err(InputError::new(
+                option,
+                format!(
+                    "the absolute sensing error must lie in [0, {m}) (below the sensed value), got {a}"
+                ),
+            ));
+        }
+    }
+    let (vin_rel, io_rel) = (
+        u.vin_rel + u.vin_abs_v / input.vin_v,
+        u.io_rel + u.io_abs_a / input.io_a,
+    );
     let unc =
-        timing_core::robust::Uncertainty::new(u.lr_rel, u.cr_rel, u.vin_rel, u.io_rel, u.jitter_s)
+        timing_core::robust::Uncertainty::new(u.lr_rel, u.cr_rel, vin_rel, io_rel, u.jitter_s)
             .map_err(|e| {
                 let option = match e {
                     timing_core::Error::OutOfRange {
@@ -639,8 +662,8 @@ fn real_robust_window(
     u: UncertaintyInput,
 ) -> Result<Option<timing_core::robust::RobustWindow<f64>>, InputError> {
     use crate::robust_grid::{true_range, TankSpread, WindowGrid};
-    let vin = true_range(input.vin_v, u.vin_rel, 0.0);
-    let io = true_range(input.io_a, u.io_rel, 0.0);
+    let vin = true_range(input.vin_v, u.vin_rel, u.vin_abs_v);
+    let io = true_range(input.io_a, u.io_rel, u.io_abs_a);
     let (mut v, mut i) = ((f64::INFINITY, 0.0f64), (f64::INFINITY, 0.0f64));
     for x in [vin.0, vin.1] {
         for y in [io.0, io.1] {

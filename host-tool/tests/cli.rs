@@ -382,3 +382,74 @@ fn point_robust_window_of_a_real_tank_lies_inside_every_true_window() {
         }
     }
 }
+
+/// `--vin-offset` and `--io-offset` (absolute sensing errors: offset plus
+/// peak noise) widen the box: the robust window still lies inside the true
+/// window at every corner and sampled interior point of the wider box, is
+/// narrower than without them, and a bad value names its option.
+#[test]
+fn point_absolute_sensing_errors_widen_the_box() {
+    use timing_core::{CellPoint, Tank, Transition};
+    let (lr, cr, vin, io, ve, ie, va, ia) = (1.5e-6, 4.7e-9, 42.0, 5.5, 0.01, 0.02, 0.4, 0.15);
+    let robust = |extra: &[&str]| {
+        let mut args = vec![
+            "point",
+            "--json",
+            "--lr",
+            "1.5u",
+            "--cr",
+            "4.7n",
+            "--vin",
+            "42",
+            "--io",
+            "5.5",
+            "--lr-tol",
+            "4%",
+            "--cr-tol",
+            "4%",
+            "--vin-err",
+            "1%",
+            "--io-err",
+            "2%",
+        ];
+        args.extend_from_slice(extra);
+        let (code, out, err) = run(&args);
+        assert_eq!(code, 0, "{err}");
+        let j: serde_json::Value = serde_json::from_str(&out).unwrap();
+        (
+            j["robust_window_open_s"].as_f64().unwrap(),
+            j["robust_window_close_s"].as_f64().unwrap(),
+        )
+    };
+    let plain = robust(&[]);
+    let (o, c) = robust(&["--vin-offset", "0.4", "--io-offset", "150m"]);
+    assert!(o > plain.0 && c < plain.1, "[{o}, {c}] vs {plain:?}");
+    for [a, b, v, i] in box_points(0x0ff5, 300) {
+        let tank = Tank::new(lr * (0.96 + 0.08 * a), cr * (0.96 + 0.08 * b)).unwrap();
+        let true_v = vin * (1.0 - ve + 2.0 * ve * v) - va + 2.0 * va * v;
+        let true_i = io * (1.0 - ie + 2.0 * ie * i) - ia + 2.0 * ia * i;
+        let w = Transition::new(&tank, &CellPoint::new(true_v, true_i).unwrap())
+            .unwrap()
+            .window()
+            .unwrap();
+        assert!(
+            w.open_s <= o * (1.0 + 1e-12) && w.close_s >= c * (1.0 - 1e-12),
+            "{w:?} vs [{o}, {c}]"
+        );
+    }
+    let (code, _, err) = run(&[
+        "point",
+        "--lr",
+        "1u",
+        "--cr",
+        "6.8n",
+        "--vin",
+        "48",
+        "--io",
+        "6",
+        "--io-offset",
+        "-0.1",
+    ]);
+    assert_eq!(code, 2);
+    assert!(err.contains("--io-offset") && err.contains("-0.1"), "{err}");
+}
