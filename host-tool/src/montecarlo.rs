@@ -18,7 +18,6 @@ use rand::{Rng, SeedableRng};
 use serde::Serialize;
 
 use crate::design::{Design, Tolerance};
-use crate::real_tank::RealTank;
 use crate::verify::DelayMethod;
 
 /// What the run found.
@@ -121,20 +120,7 @@ pub fn run(
             spread(&mut rng, tol.vin_offset_codes),
             spread(&mut rng, tol.io_offset_codes),
         );
-        let real = RealTank {
-            lr_h: design.real.lr_h * (1.0 + dl),
-            cr_fixed_f: design.real.cr_fixed_f * (1.0 + dc),
-            coss: design
-                .real
-                .coss
-                .iter()
-                .map(|p| timing_core::coss::CossPoint {
-                    volts: p.volts,
-                    farads: p.farads * (1.0 + dc),
-                })
-                .collect(),
-            r_tank_ohm: design.real.r_tank_ohm,
-        };
+        let real = design.real.scaled(1.0 + dl, 1.0 + dc);
         let Ok(solver) = real.solver() else {
             r.model_errors += u64::from(cycles);
             continue;

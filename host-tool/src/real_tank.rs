@@ -88,6 +88,26 @@ impl CellSolver<'_> {
 }
 
 impl RealTank {
+    /// This tank on another board: Lr times `l`, the whole switch
+    /// capacitance (the fixed capacitor and the Coss curve together) times
+    /// `k`, the loop resistance unchanged.
+    #[must_use]
+    pub fn scaled(&self, l: f64, k: f64) -> Self {
+        Self {
+            lr_h: self.lr_h * l,
+            cr_fixed_f: self.cr_fixed_f * k,
+            coss: self
+                .coss
+                .iter()
+                .map(|p| CossPoint {
+                    volts: p.volts,
+                    farads: p.farads * k,
+                })
+                .collect(),
+            r_tank_ohm: self.r_tank_ohm,
+        }
+    }
+
     /// The ideal tank of `lr_h` and `cr_f`.
     #[must_use]
     pub fn ideal(lr_h: f64, cr_f: f64) -> Self {

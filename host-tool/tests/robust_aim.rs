@@ -10,28 +10,10 @@ use std::path::Path;
 
 use host_tool::design::Design;
 use host_tool::generate::ExactModel;
-use host_tool::real_tank::RealTank;
 use rand::{Rng, SeedableRng};
-use timing_core::coss::CossPoint;
 
 fn demo() -> Design {
     Design::load(&Path::new(env!("CARGO_MANIFEST_DIR")).join("../tables/winch_aux.toml")).unwrap()
-}
-
-fn scaled(t: &RealTank, l: f64, k: f64) -> RealTank {
-    RealTank {
-        lr_h: t.lr_h * l,
-        cr_fixed_f: t.cr_fixed_f * k,
-        coss: t
-            .coss
-            .iter()
-            .map(|p| CossPoint {
-                volts: p.volts,
-                farads: p.farads * k,
-            })
-            .collect(),
-        r_tank_ohm: t.r_tank_ohm,
-    }
 }
 
 /// The true value behind a code: `code = round(x*(1 + g)/lsb + e)` with
@@ -78,7 +60,7 @@ fn robust_windows_of_readings_lie_inside_every_true_window() {
         let mut check = |gv: f64, ev: f64, rv: f64, gi: f64, ei: f64, ri: f64, l: f64, k: f64| {
             let vin = true_value(f64::from(cv), 0.0, design.vin_volts_per_code, gv, ev, rv);
             let io = true_value(f64::from(ci), zero, design.io_amps_per_code, gi, ei, ri);
-            let tank = scaled(&design.real, l, k);
+            let tank = design.real.scaled(l, k);
             let t = tank
                 .solver()
                 .unwrap()

@@ -25,25 +25,9 @@ fn curve() -> Vec<CossPoint<f64>> {
     .collect()
 }
 
-fn scaled(t: &RealTank, l: f64, k: f64) -> RealTank {
-    RealTank {
-        lr_h: t.lr_h * l,
-        cr_fixed_f: t.cr_fixed_f * k,
-        coss: t
-            .coss
-            .iter()
-            .map(|p| CossPoint {
-                volts: p.volts,
-                farads: p.farads * k,
-            })
-            .collect(),
-        r_tank_ohm: t.r_tank_ohm,
-    }
-}
-
 /// The true window at one point of the box (None: no ZVS).
 fn truth(t: &RealTank, v: f64, i: f64, l: f64, k: f64) -> Option<(f64, f64)> {
-    let s = scaled(t, l, k);
+    let s = t.scaled(l, k);
     let solver = s.solver().unwrap();
     let tr = solver.transition(&CellPoint::new(v, i).unwrap()).unwrap();
     tr.turn_on.window().map(|w| (w.open_s, w.close_s))
