@@ -58,6 +58,9 @@ pub enum LayoutChoice {
     /// Only the 1-D code-ratio layout with a reciprocal table instead of
     /// the division (fastest on cores without a divide instruction).
     RecipRatio,
+    /// Only the 2-D layout of log(code ratio) by voltage code (division-free;
+    /// follows the voltage dependence a Coss curve adds).
+    LogVolt,
 }
 
 /// What to command below the ZVS boundary.

@@ -33,6 +33,10 @@ fn layout_rs(l: &Layout) -> String {
             "Layout::Grid(GridLayout {{ vin_shift: {}, io_shift: {}, rows: {}, cols: {} }})",
             g.vin_shift, g.io_shift, g.rows, g.cols
         ),
+        Layout::LogVolt(g) => format!(
+            "Layout::LogVolt(LogVoltLayout {{ lambda_lo: {}, step_shift: {}, cols: {}, vin_shift: {}, rows: {} }})",
+            g.lambda_lo, g.step_shift, g.cols, g.vin_shift, g.rows
+        ),
     }
 }
 
@@ -81,7 +85,7 @@ pub fn rust_source(design: &Design, g: &Generated, v: &VerifyReport) -> String {
     let _ = writeln!(s, "#[allow(unused_imports)]");
     let _ = writeln!(
         s,
-        "use timing_core::table::{{DelayTable, Fallback, GridLayout, Layout, LogRatioLayout, LogUniformLayout, RatioLayout, RecipRatioLayout, Sensing, TableError}};"
+        "use timing_core::table::{{DelayTable, Fallback, GridLayout, Layout, LogRatioLayout, LogUniformLayout, LogVoltLayout, RatioLayout, RecipRatioLayout, Sensing, TableError}};"
     );
     let _ = writeln!(
         s,
@@ -172,7 +176,7 @@ pub fn c_header(design: &Design, g: &Generated, v: &VerifyReport) -> String {
         let _ = write!(s, " {e}u,");
     }
     s.push_str("\n};\n\n");
-    if let Layout::LogUniform(_) = g.layout {
+    if let Layout::LogUniform(_) | Layout::LogVolt(_) = g.layout {
         let _ = write!(s, "/* round(2^15 * log2(1 + k/64)), k = 0..64 */\nstatic const uint16_t {n}_log2_table_[65] = {{");
         for (k, e) in timing_core::table::log2::LOG2_Q15.iter().enumerate() {
             if k % 13 == 0 {
@@ -377,6 +381,66 @@ pub fn c_header(design: &Design, g: &Generated, v: &VerifyReport) -> String {
             let half = (1u32 << total) >> 1;
             let _ = writeln!(s, "    return (uint16_t)((y + {half}u) >> {total}u);");
         }
+        Layout::LogVolt(gr) => {
+            let (st, vs) = (u32::from(gr.step_shift), u32::from(gr.vin_shift));
+            let _ = writeln!(
+                s,
+                "    uint32_t l = {n}_log2_q15_(v) + {}u - {n}_log2_q15_(i);",
+                timing_core::table::LOG_OFFSET
+            );
+            let _ = writeln!(
+                s,
+                "    uint32_t d = l > {lo}u ? l - {lo}u : 0u;",
+                lo = gr.lambda_lo
+            );
+            let _ = writeln!(
+                s,
+                "    uint32_t k = d >> {st}u, fl = d & {}u;",
+                (1u32 << st) - 1
+            );
+            let _ = writeln!(
+                s,
+                "    if (k > {0}u) {{ k = {0}u; fl = {1}u; }}",
+                gr.cols - 2,
+                1u32 << st
+            );
+            let _ = writeln!(s, "    uint32_t dv = v - {}u;", sn.vin.lo);
+            let _ = writeln!(
+                s,
+                "    uint32_t r = dv >> {vs}u, fr = dv & {}u;",
+                (1u32 << vs) - 1
+            );
+            let _ = writeln!(
+                s,
+                "    if (r > {0}u) {{ r = {0}u; fr = {1}u; }}",
+                gr.rows - 2,
+                1u32 << vs
+            );
+            let _ = writeln!(s, "    uint32_t b = r * {}u + k;", gr.cols);
+            let _ = writeln!(s, "    /* Along lambda in the two rows, each rounded to entry units. */");
+            let _ = writeln!(
+                s,
+                "    uint32_t y0 = ((uint32_t){n}_entries[b] * ({one}u - fl) + (uint32_t){n}_entries[b + 1u] * fl + {h}u) >> {st}u;",
+                one = 1u32 << st,
+                h = (1u32 << st) >> 1
+            );
+            let _ = writeln!(
+                s,
+                "    uint32_t y1 = ((uint32_t){n}_entries[b + {c}u] * ({one}u - fl) + (uint32_t){n}_entries[b + {c1}u] * fl + {h}u) >> {st}u;",
+                c = gr.cols,
+                c1 = u32::from(gr.cols) + 1,
+                one = 1u32 << st,
+                h = (1u32 << st) >> 1
+            );
+            let _ = writeln!(
+                s,
+                "    uint32_t y = y0 * ({}u - fr) + y1 * fr;",
+                1u32 << vs
+            );
+            let total = vs + f;
+            let half = (1u32 << total) >> 1;
+            let _ = writeln!(s, "    return (uint16_t)((y + {half}u) >> {total}u);");
+        }
     }
     let _ = writeln!(s, "}}\n\n#endif /* {up}_DELAY_TABLE_H */");
     s
@@ -485,6 +549,27 @@ pub fn csv(design: &Design, g: &Generated) -> String {
         Layout::LogRatio(r) => one_d(&mut s, r.ratio_shift, &|k| {
             crate::generate::log_node_q(k, u32::from(r.e_lo), u32::from(r.mant_bits))
         }),
+        Layout::LogVolt(gr) => {
+            s.push_str("row,col,vin_code,vin_v,vin_over_io_codes,io_a,exact_ticks,entry,entry_ticks\n");
+            for r in 0..u32::from(gr.rows) {
+                for c in 0..u32::from(gr.cols) {
+                    let cv = u32::from(g.sensing.vin.lo) + (r << gr.vin_shift);
+                    let lambda =
+                        f64::from(gr.lambda_lo) + f64::from(c) * f64::from(1u32 << gr.step_shift);
+                    let ratio =
+                        2f64.powf((lambda - f64::from(timing_core::table::LOG_OFFSET)) / 32768.0);
+                    let vin = f64::from(cv) * design.vin_volts_per_code;
+                    let io = f64::from(cv) / ratio * design.io_amps_per_code;
+                    let exact = model.at(vin, io).map_or(f64::NAN, |p| p.ticks);
+                    let e = g.entries[(r * u32::from(gr.cols) + c) as usize];
+                    let _ = writeln!(
+                        s,
+                        "{r},{c},{cv},{vin:.4},{ratio:.6},{io:.5},{exact:.4},{e},{:.4}",
+                        f64::from(e) / scale_f
+                    );
+                }
+            }
+        }
         Layout::Grid(gr) => {
             s.push_str("row,col,vin_code,io_code,vin_v,io_a,exact_ticks,entry,entry_ticks\n");
             for r in 0..u32::from(gr.rows) {

@@ -5,7 +5,7 @@
 use timing_core::robust::RobustWindow;
 use timing_core::table::{
     log_index, log_ratio_index, ratio_bounds, DelayTable, Fallback, GridLayout, Layout,
-    LogRatioLayout, LogUniformLayout, RatioLayout, RecipRatioLayout, Sensing, LOG_OFFSET,
+    LogRatioLayout, LogUniformLayout, LogVoltLayout, RatioLayout, RecipRatioLayout, Sensing, LOG_OFFSET,
 };
 use timing_core::ZvsWindow;
 
@@ -51,6 +51,11 @@ pub struct ExactPoint {
     /// The robust window behind the reading ([`crate::robust_aim`]),
     /// `None` without tolerances or where it is not reliably hittable.
     pub robust: Option<RobustWindow<f64>>,
+    /// The interval the command must hit, ticks (not rounded): the robust
+    /// window where one a tick wide exists, else the nominal window where
+    /// that is a tick wide; `None` where neither is (near and below the
+    /// ZVS boundary, where only the aim and the error budget apply).
+    pub required_ticks: Option<(f64, f64)>,
 }
 
 impl<'a> ExactModel<'a> {
@@ -94,6 +99,7 @@ impl<'a> ExactModel<'a> {
                 nominal_ticks: 0.0,
                 window: None,
                 robust: None,
+                required_ticks: None,
             });
         }
         let cell = self.design.cell(vin, io)?;
@@ -105,9 +111,16 @@ impl<'a> ExactModel<'a> {
             (Some(aim), Some(_)) => aim.window(self.design, vin, io),
             _ => None,
         };
-        let table_ticks = robust.map_or(nominal_ticks, |r| {
-            to_ticks(r.open_s + self.design.position.get() * (r.close_s - r.open_s))
+        // The continuous aim of the tolerances where the design has them.
+        let table_ticks = self.aim.map_or(nominal_ticks, |aim| {
+            to_ticks(aim.aim_s(self.design, vin, io, &t.turn_on))
         });
+        let tick_wide = |o: f64, c: f64| (c - o) * self.clock_hz >= 1.0;
+        let required_ticks = robust
+            .map(|r| (r.open_s, r.close_s))
+            .or(window.map(|w| (w.open_s, w.close_s)))
+            .filter(|&(o, c)| tick_wide(o, c))
+            .map(|(o, c)| (to_ticks(o), to_ticks(c)));
         let ticks = match (window, self.design.fallback) {
             (None, Fallback::Fixed(n)) => f64::from(n.get()),
             _ => table_ticks,
@@ -118,6 +131,7 @@ impl<'a> ExactModel<'a> {
             nominal_ticks,
             window,
             robust,
+            required_ticks,
         })
     }
 
@@ -235,6 +249,7 @@ impl Generated {
             Layout::LogUniform(_) => "log-uniform",
             Layout::Grid(_) => "grid",
             Layout::RecipRatio(_) => "recip-ratio",
+            Layout::LogVolt(_) => "log-volt",
         }
     }
 }
@@ -274,15 +289,15 @@ pub enum GenerateError {
         /// timing-core's message.
         message: String,
     },
-    /// No candidate layout meets the error budget.
-    #[error("no table layout meets max_error_ticks = {budget}: the best reached {best:.3} ticks with {bytes} bytes ({layout}); raise max_error_ticks or use a faster timer")]
+    /// No candidate layout meets the error budget and every pair's window.
+    #[error("no table layout of up to 16 KiB meets max_error_ticks = {budget} with every command inside its window: the best ({layout}) reached {best:.3} ticks with {misses} code pairs outside their window; widen max_error_ticks, narrow the design range, or allow another layout")]
     NoLayout {
         /// Budget.
         budget: f64,
-        /// Best error found.
+        /// Best error found, ticks, checked at every code pair.
         best: f64,
-        /// Its size.
-        bytes: usize,
+        /// Code pairs of that candidate commanded outside their interval.
+        misses: usize,
         /// Its layout.
         layout: &'static str,
     },
@@ -295,9 +310,12 @@ pub struct Candidate {
     pub layout: &'static str,
     /// Entry bytes.
     pub table_bytes: usize,
-    /// Worst error on the screening sample, ticks (`None` when the layout
-    /// could not be built within the fixed-point limits).
+    /// Worst error against the aim at every code pair, ticks (`None` when
+    /// the candidate was not evaluated: a smaller one was chosen).
     pub screened_error_ticks: Option<f64>,
+    /// Code pairs commanded outside their interval (robust or nominal
+    /// window a tick wide, within the budget around the aim).
+    pub misses: Option<usize>,
     /// Whether it met the budget on the sample.
     pub meets_budget: bool,
     /// Shape: `nodes=...` or `rows x cols`.
@@ -653,6 +671,63 @@ pub fn log_node_q(k: u32, e_lo: u32, m: u32) -> f64 {
     f64::from((1u32 << m) + mant) * 2f64.powi(e as i32 - m as i32)
 }
 
+/// The log-volt layout (log ratio by voltage code) with steps `2^step`
+/// in lambda and `2^vs` voltage codes, and the most fractional bits the
+/// largest delay and the voltage step leave. Its entries start as the aim
+/// at each node; generation then fits them to the pairs' intervals
+/// ([`crate::fit`]).
+fn log_volt_candidate(
+    design: &Design,
+    model: &ExactModel<'_>,
+    max_ticks: f64,
+    step: u32,
+    vs: u32,
+) -> Result<Option<Generated>, GenerateError> {
+    let s = sensing(design);
+    let tick_bits = bits(max_ticks.ceil() as u32);
+    if step > 15 || vs + tick_bits > 16 {
+        return Ok(None);
+    }
+    let frac = (16 - tick_bits).min(16 - vs).min(12);
+    let l_lo = log_ratio_index(u32::from(s.vin.lo), u32::from(s.io.hi - s.io_zero));
+    let l_hi = log_ratio_index(u32::from(s.vin.hi), u32::from(s.io.lo - s.io_zero));
+    let lambda_lo = (l_lo >> step) << step;
+    let cols = ((l_hi - lambda_lo).div_ceil(1 << step) + 1).max(2);
+    let rows = (u32::from(s.vin.hi - s.vin.lo).div_ceil(1 << vs) + 1).max(2);
+    if rows * cols > 8192 {
+        return Ok(None);
+    }
+    let mut entries = Vec::with_capacity((rows * cols) as usize);
+    for r in 0..rows {
+        let cv = f64::from(u32::from(s.vin.lo) + (r << vs));
+        for c in 0..cols {
+            let lambda = f64::from(lambda_lo) + f64::from(c) * f64::from(1u32 << step);
+            let ratio = 2f64.powf((lambda - f64::from(LOG_OFFSET)) / 32768.0);
+            let vin = cv * design.vin_volts_per_code;
+            let io = cv / ratio * design.io_amps_per_code;
+            let p = model.at(vin, io).map_err(|e| GenerateError::Model {
+                vin_v: vin,
+                io_a: io,
+                message: e.to_string(),
+            })?;
+            entries.push(entry(p.table_ticks, frac));
+        }
+    }
+    Ok(Some(Generated {
+        sensing: s,
+        layout: Layout::LogVolt(LogVoltLayout {
+            lambda_lo,
+            step_shift: step as u8,
+            cols: cols as u16,
+            vin_shift: vs as u8,
+            rows: rows as u16,
+        }),
+        frac_bits: frac as u8,
+        fallback: design.fallback,
+        entries,
+    }))
+}
+
 /// The grid layout with spacings `2^vs` x `2^is`.
 fn grid_candidate(
     design: &Design,
@@ -701,87 +776,6 @@ fn grid_candidate(
     }))
 }
 
-/// The exact delays at a sample of the design's code pairs (about 100,000
-/// of them, evenly strided, edges included), computed once for screening
-/// every candidate; rows in parallel.
-fn screening_sample(design: &Design, model: &ExactModel<'_>) -> Vec<(u16, u16, f64)> {
-    let (v, i) = (design.vin_codes, design.io_codes);
-    let total = f64::from(v.len()) * f64::from(i.len());
-    let stride = ((total / 100_000.0).sqrt().floor() as u16).max(1);
-    let strided = |r: timing_core::CodeRange| {
-        let mut out = Vec::new();
-        let mut c = r.lo;
-        loop {
-            out.push(c);
-            if c == r.hi {
-                break;
-            }
-            c = c.saturating_add(stride).min(r.hi);
-        }
-        out
-    };
-    let (rows, cols) = (strided(v), strided(i));
-    let threads = std::thread::available_parallelism().map_or(1, std::num::NonZero::get);
-    let chunk = rows.len().div_ceil(threads.max(1)).max(1);
-    std::thread::scope(|s| {
-        let handles: Vec<_> = rows
-            .chunks(chunk)
-            .map(|part| {
-                let cols = &cols;
-                s.spawn(move || {
-                    let mut out = Vec::with_capacity(part.len() * cols.len());
-                    for &cv in part {
-                        for &ci in cols {
-                            if let Ok(p) = model.at_codes(cv, ci) {
-                                out.push((cv, ci, p.ticks));
-                            }
-                        }
-                    }
-                    out
-                })
-            })
-            .collect();
-        handles
-            .into_iter()
-            .flat_map(|h| h.join().unwrap_or_default())
-            .collect()
-    })
-}
-
-/// Add the exact delays at the 33 x 33 code pairs around (`cv`, `ci`) to
-/// the screening sample.
-fn add_neighbourhood(
-    design: &Design,
-    model: &ExactModel<'_>,
-    sample: &mut Vec<(u16, u16, f64)>,
-    cv: u16,
-    ci: u16,
-) {
-    let (v, i) = (design.vin_codes, design.io_codes);
-    for a in cv.saturating_sub(16).max(v.lo)..=cv.saturating_add(16).min(v.hi) {
-        for b in ci.saturating_sub(16).max(i.lo)..=ci.saturating_add(16).min(i.hi) {
-            if let Ok(p) = model.at_codes(a, b) {
-                sample.push((a, b, p.ticks));
-            }
-        }
-    }
-}
-
-/// Worst error of `g` on the screening sample, ticks.
-fn screen(sample: &[(u16, u16, f64)], g: &Generated) -> f64 {
-    let Ok(t) = g.table() else {
-        return f64::INFINITY;
-    };
-    sample.iter().fold(0.0f64, |worst, &(cv, ci, exact)| {
-        let got = f64::from(
-            t.delay(timing_core::AdcCode::new(cv), timing_core::AdcCode::new(ci))
-                .ticks
-                .get(),
-        );
-        worst.max((got - exact).abs())
-    })
-}
-
 /// One candidate layout's parameters, to build it on a dry model (for its
 /// size) and again on the real one (for its entries).
 #[derive(Debug, Clone, Copy)]
@@ -796,6 +790,8 @@ enum Plan {
     LogUniform(u32, u32),
     /// Grid: voltage and current spacing shifts.
     Grid(u32, u32),
+    /// Log ratio by voltage: lambda step and voltage-row step shifts.
+    LogVolt(u32, u32),
 }
 
 impl Plan {
@@ -811,6 +807,7 @@ impl Plan {
             Plan::LogRatio(m, f) => log_ratio_candidate(design, model, max_ticks, m, f),
             Plan::LogUniform(st, f) => log_uniform_candidate(design, model, max_ticks, st, f),
             Plan::Grid(vs, is) => grid_candidate(design, model, max_ticks, vs, is),
+            Plan::LogVolt(st, vs) => log_volt_candidate(design, model, max_ticks, st, vs),
         }
     }
 }
@@ -899,37 +896,61 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
             }
         }
     }
+    if matches!(design.layout, L::Auto | L::LogVolt) {
+        for step in 6..=15u32 {
+            for vs in 3..=12u32 {
+                if let Some(g) = Plan::LogVolt(step, vs).build(design, &dry, max_ticks)? {
+                    pool.push((g, Plan::LogVolt(step, vs)));
+                }
+            }
+        }
+    }
     pool.sort_by_key(|(g, _)| (g.table_bytes(), std::cmp::Reverse(g.frac_bits)));
-    let mut sample = screening_sample(design, &model);
-    // Leave a margin on the sample for the pairs it skipped.
-    let screen_budget = design.max_error_ticks - 0.02;
+    // What every code pair asks of the command, computed once; each
+    // candidate is checked against all of it before the independent
+    // exhaustive verification.
+    let zvs_table = pool.first().map(|(g, _)| g.sensing);
+    let zvs = move |cv: u16, ci: u16| {
+        zvs_table.is_none_or(|s| {
+            let i = u32::from(ci.clamp(s.io.lo, s.io.hi) - s.io_zero);
+            let v = u32::from(cv.clamp(s.vin.lo, s.vin.hi));
+            i * u32::from(s.zvs_io_mul) >= v * u32::from(s.zvs_vin_mul)
+        })
+    };
+    let req = crate::fit::Requirements::new(design, &model, &zvs);
     let mut candidates = Vec::new();
     let mut best: Option<(f64, usize, &'static str)> = None;
     let mut chosen = None;
     for (g, plan) in pool {
-        // Grids far larger than the best ratio table are not worth screening.
         if chosen.is_some() {
             candidates.push(Candidate {
                 layout: g.layout_name(),
                 table_bytes: g.table_bytes(),
                 screened_error_ticks: None,
+                misses: None,
                 meets_budget: false,
                 shape: shape(&g),
             });
             continue;
         }
-        let g = plan.build(design, &model, max_ticks)?.unwrap_or(g);
-        let err = screen(&sample, &g);
-        let meets = err <= screen_budget;
+        let mut g = plan.build(design, &model, max_ticks)?.unwrap_or(g);
+        let fitted = if crate::fit::serves(&g) {
+            crate::fit::fit(&req, &g).map(|e| g.entries = e)
+        } else {
+            Some(())
+        };
+        let (miss, err) = req.misses(&g);
+        let meets = fitted.is_some() && miss.is_empty() && err <= design.max_error_ticks;
         candidates.push(Candidate {
             layout: g.layout_name(),
             table_bytes: g.table_bytes(),
             screened_error_ticks: Some(err),
+            misses: Some(miss.len()),
             meets_budget: meets,
             shape: shape(&g),
         });
-        if best.is_none_or(|b| err < b.0) {
-            best = Some((err, g.table_bytes(), g.layout_name()));
+        if best.is_none_or(|b| (miss.len() == 0, -err) > (b.1 == 0, -b.0)) {
+            best = Some((err, miss.len(), g.layout_name()));
         }
         if meets {
             let report = verify(
@@ -953,20 +974,9 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
             }
             if report.max_error_ticks <= design.max_error_ticks {
                 chosen = Some((g, report));
-            } else {
-                if let Some(c) = candidates.last_mut() {
-                    c.meets_budget = false;
-                    c.screened_error_ticks = Some(report.max_error_ticks);
-                }
-                // The sample missed where this candidate fails: add that
-                // neighbourhood, so the next candidates are screened there.
-                add_neighbourhood(
-                    design,
-                    &model,
-                    &mut sample,
-                    report.worst_vin_code,
-                    report.worst_io_code,
-                );
+            } else if let Some(c) = candidates.last_mut() {
+                c.meets_budget = false;
+                c.screened_error_ticks = Some(report.max_error_ticks);
             }
         }
     }
@@ -977,11 +987,11 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
             candidates,
         }),
         None => {
-            let (best, bytes, layout) = best.unwrap_or((f64::INFINITY, 0, "none"));
+            let (best, misses, layout) = best.unwrap_or((f64::INFINITY, 0, "none"));
             Err(GenerateError::NoLayout {
                 budget: design.max_error_ticks,
                 best,
-                bytes,
+                misses,
                 layout,
             })
         }
@@ -996,6 +1006,10 @@ fn shape(g: &Generated) -> String {
         Layout::Grid(gr) => format!(
             "{} x {} nodes, steps 2^{} x 2^{} codes",
             gr.rows, gr.cols, gr.vin_shift, gr.io_shift
+        ),
+        Layout::LogVolt(gr) => format!(
+            "{} x {} nodes, steps 2^{} codes x 2^{} in Q15 log2",
+            gr.rows, gr.cols, gr.vin_shift, gr.step_shift
         ),
         Layout::RecipRatio(r) => format!(
             "{} nodes, q step 2^{}, {} reciprocals",

@@ -14,10 +14,12 @@
 )]
 #![warn(missing_docs)]
 
+pub mod aim_grid;
 pub mod closed_form_source;
 pub mod coss_csv;
 pub mod design;
 pub mod export;
+pub mod fit;
 pub mod generate;
 pub mod montecarlo;
 pub mod netlist;

@@ -511,8 +511,8 @@ fn print_verification(v: &host_tool::verify::VerifyReport, clock_hz: f64, w0_rad
         );
     }
     outln!(
-        "ZVS pairs: {}; commanded turn-ons outside the true window: {} ({} early, {} late); windows narrower than a tick: {}",
-        v.zvs_points, v.outside_window, v.early, v.late, v.narrower_than_a_tick
+        "ZVS pairs: {}; commanded turn-ons outside the true window: {} ({} early, {} late), {} of them where the window is a tick wide or more; windows narrower than a tick: {}",
+        v.zvs_points, v.outside_window, v.early, v.late, v.outside_window_wide, v.narrower_than_a_tick
     );
     if let Some(j) = v.outside_window_max_load {
         let width = timing_core::normalized::clamp_angle(j) / w0_rad_s * clock_hz;
@@ -577,21 +577,32 @@ fn run_table(args: &TableArgs) -> anyhow::Result<()> {
             design.timer.clock_hz(),
             design.tank.w0_rad_s(),
         );
-        let others: Vec<String> = out
+        // One line per layout family: its largest candidate evaluated
+        // (the whole list is in --json's "alternatives").
+        let mut families: Vec<&host_tool::generate::Candidate> = Vec::new();
+        for c in out.candidates.iter().filter(|c| c.screened_error_ticks.is_some()) {
+            match families.iter_mut().find(|f| f.layout == c.layout) {
+                Some(f) => *f = c,
+                None => families.push(c),
+            }
+        }
+        let evaluated = out
             .candidates
             .iter()
             .filter(|c| c.screened_error_ticks.is_some())
-            .map(|c| {
-                format!(
-                    "{} {} B ({}): {:.3} ticks",
-                    c.layout,
-                    c.table_bytes,
-                    c.shape,
-                    c.screened_error_ticks.unwrap_or(f64::NAN)
-                )
-            })
-            .collect();
-        outln!("layouts tried, smallest first:\n  {}", others.join("\n  "));
+            .count();
+        outln!("{evaluated} smaller candidates evaluated (all in --json); the largest of each layout:");
+        for c in families {
+            outln!(
+                "  {} {} B ({}): {:.3} ticks, {} code pairs outside their window{}",
+                c.layout,
+                c.table_bytes,
+                c.shape,
+                c.screened_error_ticks.unwrap_or(f64::NAN),
+                c.misses.unwrap_or(0),
+                if c.meets_budget { " (chosen)" } else { "" }
+            );
+        }
         outln!("\n{}", host_tool::point::CAUTION);
     }
     Ok(())

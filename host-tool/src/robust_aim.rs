@@ -23,6 +23,7 @@ use std::sync::OnceLock;
 
 use timing_core::robust::RobustWindow;
 
+use crate::aim_grid::{interval, minimax, AimGrid};
 use crate::design::{Design, Tolerance};
 use crate::robust_grid::{true_range, TankSpread, WindowGrid};
 
@@ -30,6 +31,8 @@ use crate::robust_grid::{true_range, TankSpread, WindowGrid};
 #[derive(Debug, Clone)]
 pub struct RobustAim {
     grid: WindowGrid,
+    /// The nominal model's intervals, for the continuous aim.
+    aim_grid: AimGrid,
     spread: TankSpread,
     tol: Tolerance,
     /// One timer tick, second: the narrowest window a rounded command can
@@ -67,8 +70,10 @@ impl RobustAim {
             quantity: timing_core::Quantity::OutputCurrent,
             value: io.1,
         })?;
+        let u = spread.current_range(i);
         Ok(Some(Self {
             grid: WindowGrid::new(&design.real, &spread, v, i)?,
+            aim_grid: AimGrid::new(&design.real.solver()?, v, u)?,
             spread,
             tol,
             min_width_s: 1.0 / design.timer.clock_hz(),
@@ -93,6 +98,47 @@ impl RobustAim {
         self.grid
             .robust(v, i, &self.spread, self.tol.jitter_s)
             .filter(|w| w.close_s - w.open_s >= self.min_width_s)
+    }
+}
+
+impl RobustAim {
+    /// The continuous aim behind the reading (`vin_v` volt, `io_a` ampere),
+    /// second from gate turn-off ([`crate::aim_grid`]'s minimax point over
+    /// the corners of the box, one smooth estimate everywhere), kept inside
+    /// the proven robust window where one exists and inside `nominal`,
+    /// the reading's own transition (its window, or its valley below the
+    /// boundary, which is therefore the aim there).
+    #[must_use]
+    pub fn aim_s(
+        &self,
+        design: &Design,
+        vin_v: f64,
+        io_a: f64,
+        nominal: &timing_core::TurnOn<f64>,
+    ) -> f64 {
+        let [n_lo, n_hi] = interval(nominal);
+        let position = design.position.get();
+        let vin = sensed_vin(design, &self.tol, vin_v);
+        let io = sensed_io(design, &self.tol, io_a);
+        let boxed = (vin.0 > 0.0 && io.0 > 0.0)
+            .then(|| cell_box(design, vin, io))
+            .flatten();
+        let Some((v, i)) = boxed else {
+            return n_lo + position.clamp(0.25, 0.75) * (n_hi - n_lo);
+        };
+        let jitter = self.tol.jitter_s;
+        let (lo, hi) = self.aim_grid.extremes(v, i, &self.spread);
+        let mut aim = minimax(lo + jitter, hi - jitter, position);
+        if let Some((lo, hi)) = self.grid.bounds(v, i, &self.spread, jitter) {
+            if lo <= hi {
+                aim = aim.clamp(lo, hi);
+            }
+        }
+        // Off the nominal window's edges by a quarter of its width (the
+        // nominal board is the likeliest one), continuous as the window
+        // closes onto the valley.
+        let q = 0.25 * (n_hi - n_lo);
+        aim.clamp(n_lo + q, n_hi - q)
     }
 }
 

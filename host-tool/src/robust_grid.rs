@@ -449,6 +449,25 @@ impl WindowGrid {
         spread: &TankSpread,
         jitter_s: f64,
     ) -> Option<RobustWindow<f64>> {
+        let (open, close) = self.bounds(v, i, spread, jitter_s)?;
+        (close >= open).then_some(RobustWindow {
+            open_s: open,
+            close_s: close,
+        })
+    }
+
+    /// The bounds behind [`WindowGrid::robust`]: the latest opening and the
+    /// earliest close over the box with the jitter applied, second, also
+    /// where they cross (`close < open`: the windows share nothing); `None`
+    /// where some point of the box may lack ZVS or the box leaves the grid.
+    #[must_use]
+    pub fn bounds(
+        &self,
+        v: (f64, f64),
+        i: (f64, f64),
+        spread: &TankSpread,
+        jitter_s: f64,
+    ) -> Option<(f64, f64)> {
         if !(v.0 > 0.0 && i.0 > 0.0 && v.0 <= v.1 && i.0 <= i.1) {
             return None;
         }
@@ -551,10 +570,7 @@ impl WindowGrid {
             }
         }
         let (open, close) = (open + jitter_s, close - jitter_s);
-        (open.is_finite() && close.is_finite() && close >= open).then_some(RobustWindow {
-            open_s: open,
-            close_s: close,
-        })
+        (open.is_finite() && close.is_finite()).then_some((open, close))
     }
 
     /// Grid nodes (voltage, current), for reports.
@@ -571,7 +587,7 @@ struct RowOut {
 }
 
 /// `f(a)` for `a` in `0..n` on all cores, in order.
-fn parallel_rows<T: Send>(n: usize, f: impl Fn(usize) -> T + Sync) -> Vec<T> {
+pub(crate) fn parallel_rows<T: Send>(n: usize, f: impl Fn(usize) -> T + Sync) -> Vec<T> {
     let threads = std::thread::available_parallelism()
         .map_or(1, std::num::NonZero::get)
         .clamp(1, 16)

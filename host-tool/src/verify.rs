@@ -105,6 +105,9 @@ pub struct VerifyReport {
     pub late: u64,
     /// ZVS pairs whose window is narrower than one tick (no tick can hit it).
     pub narrower_than_a_tick: u64,
+    /// ZVS pairs whose window is a tick wide or more and whose commanded
+    /// turn-on lies outside it: misses no rounding excuses.
+    pub outside_window_wide: u64,
     /// Smallest margin of a commanded turn-on inside its window to the nearer
     /// edge, second (`None` when no turn-on is inside).
     pub min_margin_s: Option<f64>,
@@ -148,6 +151,7 @@ struct Row {
     early: u64,
     late: u64,
     narrow: u64,
+    wide_out: u64,
     min_margin: Option<f64>,
     robust: u64,
     robust_out: u64,
@@ -246,6 +250,9 @@ fn check_pair(
                 }
                 None if design.tolerance.is_some() => r.unreliable += 1,
                 None => {}
+            }
+            if (on < w.open_s || on > w.close_s) && w.width_s() * clock >= 1.0 {
+                r.wide_out += 1;
             }
             if on < w.open_s || on > w.close_s {
                 // J = Io*Z0/Vin for every cell.
@@ -353,6 +360,7 @@ fn merge(
         early: 0,
         late: 0,
         narrower_than_a_tick: 0,
+        outside_window_wide: 0,
         min_margin_s: None,
         robust_points: 0,
         outside_robust_window: 0,
@@ -390,6 +398,7 @@ fn merge(
         r.early += row.early;
         r.late += row.late;
         r.narrower_than_a_tick += row.narrow;
+        r.outside_window_wide += row.wide_out;
         r.model_errors += row.model_errors;
         if let Some(m) = row.min_margin {
             r.min_margin_s = Some(r.min_margin_s.map_or(m, |x| x.min(m)));

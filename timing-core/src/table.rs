@@ -37,7 +37,8 @@ pub const fn log_ratio_index(vin: u32, io: u32) -> u32 {
 
 /// Version of the `.bin` blob layout this build writes and reads
 /// (see the `blob` module, feature `blob`).
-pub const FORMAT_VERSION: u16 = 1;
+/// Version 2 added [`Layout::LogVolt`].
+pub const FORMAT_VERSION: u16 = 2;
 
 /// Table entries: commanded delay in ticks times `2^frac_bits`, one `u16`
 /// per node.
@@ -192,6 +193,31 @@ pub struct GridLayout {
     pub cols: u16,
 }
 
+/// Two dimensions: the log-domain code ratio of [`LogUniformLayout`]
+/// along the columns (no division) and the raw voltage code along the rows,
+/// so a table can follow what the switch's voltage-dependent capacitance
+/// adds to the delay at one Vin/Io ratio (the ZVS boundary moves with the
+/// voltage). Node (r, k) sits at `vin = vin.lo + r * 2^vin_shift` and
+/// `lambda = lambda_lo + k * 2^step_shift`, stored row-major
+/// (`r * cols + k`). The lookup interpolates along lambda in the two rows
+/// around the voltage (each rounded back to entry units, at most half a
+/// unit of `2^-frac_bits` ticks), then linearly between them.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+pub struct LogVoltLayout {
+    /// Index at column 0.
+    pub lambda_lo: u32,
+    /// Column spacing is `2^step_shift` in lambda (`2^15` is one octave).
+    pub step_shift: u8,
+    /// Number of columns (at least 2).
+    pub cols: u16,
+    /// Row spacing, `2^vin_shift` voltage codes.
+    pub vin_shift: u8,
+    /// Number of rows (at least 2).
+    pub rows: u16,
+}
+
 /// How a table is indexed.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
@@ -209,6 +235,8 @@ pub enum Layout {
     /// 1-D over the code ratio, the division done by a reciprocal table
     /// (no division, one multiplication).
     RecipRatio(RecipRatioLayout),
+    /// 2-D: log(code ratio) by voltage code (no division).
+    LogVolt(LogVoltLayout),
 }
 
 /// What to command where ZVS is impossible (J < 1).
@@ -486,6 +514,32 @@ const fn check(
             }
             (r.nodes as u32) + s.io.len()
         }
+        Layout::LogVolt(g) => {
+            // Each row's interpolation: <= 65535 * 2^step + 2^(step - 1);
+            // between rows <= 65535 * 2^vs plus the final rounding.
+            if g.cols < 2
+                || g.rows < 2
+                || g.step_shift > 15
+                || (g.vin_shift as u32) + (frac_bits as u32) > 16
+            {
+                return Err(TableError::Layout(
+                    "log-volt table needs 2+ rows and columns, step_shift <= 15 and vin_shift + frac_bits <= 16",
+                ));
+            }
+            let l_min = log_ratio_index(s.vin.lo as u32, (s.io.hi - s.io_zero) as u32);
+            let l_max = log_ratio_index(s.vin.hi as u32, (s.io.lo - s.io_zero) as u32);
+            let span = ((g.cols - 1) as u32) << g.step_shift;
+            let cover_v = ((g.rows - 1) as u32) << g.vin_shift;
+            if g.lambda_lo > l_min
+                || (g.lambda_lo as u64) + (span as u64) < (l_max as u64)
+                || cover_v < ((s.vin.hi - s.vin.lo) as u32)
+            {
+                return Err(TableError::Layout(
+                    "log-volt nodes do not cover the design range",
+                ));
+            }
+            (g.rows as u32) * (g.cols as u32)
+        }
     };
     if frac_bits > 15 {
         return Err(TableError::Layout("frac_bits must be at most 15"));
@@ -711,6 +765,41 @@ impl<E: Entries> DelayTable<E> {
                     .wrapping_mul(one_v.wrapping_sub(fr))
                     .wrapping_add(bot.wrapping_mul(fr));
                 (y, vs.wrapping_add(is))
+            }
+            Layout::LogVolt(g) => {
+                let st = u32::from(g.step_shift);
+                let one = 1u32.wrapping_shl(st);
+                let d = log_ratio_index(v, i).saturating_sub(g.lambda_lo);
+                let (mut k, mut fl) = (d.wrapping_shr(st), d & one.wrapping_sub(1));
+                let last_k = u32::from(g.cols).wrapping_sub(2);
+                if k > last_k {
+                    k = last_k;
+                    fl = one;
+                }
+                let vs = u32::from(g.vin_shift);
+                let one_v = 1u32.wrapping_shl(vs);
+                let dv = v.wrapping_sub(u32::from(s.vin.lo));
+                let (mut r, mut fr) = (dv.wrapping_shr(vs), dv & one_v.wrapping_sub(1));
+                let last_r = u32::from(g.rows).wrapping_sub(2);
+                if r > last_r {
+                    r = last_r;
+                    fr = one_v;
+                }
+                let cols = u32::from(g.cols);
+                let base = r.wrapping_mul(cols).wrapping_add(k);
+                let e = |k: u32| u32::from(self.entries.at(k as usize));
+                let half = one >> 1;
+                let along = |b: u32| {
+                    e(b).wrapping_mul(one.wrapping_sub(fl))
+                        .wrapping_add(e(b.wrapping_add(1)).wrapping_mul(fl))
+                        .wrapping_add(half)
+                        .wrapping_shr(st)
+                };
+                let (y0, y1) = (along(base), along(base.wrapping_add(cols)));
+                let y = y0
+                    .wrapping_mul(one_v.wrapping_sub(fr))
+                    .wrapping_add(y1.wrapping_mul(fr));
+                (y, vs)
             }
         };
         let total = shift.wrapping_add(f);
