@@ -90,7 +90,9 @@ impl AimGrid {
             (0..ni)
                 .map(|b| {
                     let ib = (ln_i0 + b as f64 * d_ln_i).exp();
-                    Ok(interval(&solver.transition(&CellPoint::new(va, ib)?)?.turn_on))
+                    Ok(interval(
+                        &solver.transition(&CellPoint::new(va, ib)?)?.turn_on,
+                    ))
                 })
                 .collect()
         });

@@ -417,7 +417,10 @@ pub fn c_header(design: &Design, g: &Generated, v: &VerifyReport) -> String {
                 1u32 << vs
             );
             let _ = writeln!(s, "    uint32_t b = r * {}u + k;", gr.cols);
-            let _ = writeln!(s, "    /* Along lambda in the two rows, each rounded to entry units. */");
+            let _ = writeln!(
+                s,
+                "    /* Along lambda in the two rows, each rounded to entry units. */"
+            );
             let _ = writeln!(
                 s,
                 "    uint32_t y0 = ((uint32_t){n}_entries[b] * ({one}u - fl) + (uint32_t){n}_entries[b + 1u] * fl + {h}u) >> {st}u;",
@@ -432,11 +435,7 @@ pub fn c_header(design: &Design, g: &Generated, v: &VerifyReport) -> String {
                 one = 1u32 << st,
                 h = (1u32 << st) >> 1
             );
-            let _ = writeln!(
-                s,
-                "    uint32_t y = y0 * ({}u - fr) + y1 * fr;",
-                1u32 << vs
-            );
+            let _ = writeln!(s, "    uint32_t y = y0 * ({}u - fr) + y1 * fr;", 1u32 << vs);
             let total = vs + f;
             let half = (1u32 << total) >> 1;
             let _ = writeln!(s, "    return (uint16_t)((y + {half}u) >> {total}u);");
@@ -550,7 +549,9 @@ pub fn csv(design: &Design, g: &Generated) -> String {
             crate::generate::log_node_q(k, u32::from(r.e_lo), u32::from(r.mant_bits))
         }),
         Layout::LogVolt(gr) => {
-            s.push_str("row,col,vin_code,vin_v,vin_over_io_codes,io_a,exact_ticks,entry,entry_ticks\n");
+            s.push_str(
+                "row,col,vin_code,vin_v,vin_over_io_codes,io_a,exact_ticks,entry,entry_ticks\n",
+            );
             for r in 0..u32::from(gr.rows) {
                 for c in 0..u32::from(gr.cols) {
                     let cv = u32::from(g.sensing.vin.lo) + (r << gr.vin_shift);
@@ -650,17 +651,14 @@ pub fn rust_source_for_design_file(path: &std::path::Path) -> Result<String, Str
 }
 
 /// The table layout a firmware build for the target triple `target` asks
-/// for: ARMv6-M has no divide instruction (a division is a library call of
-/// about a hundred instructions), so `recip-ratio`, which trades two bytes
-/// of flash per current code for one multiplication; cores with a divider
-/// get the compact `ratio` layout (one division).
+/// for: `log-volt` on every core. It follows the voltage as well as the
+/// current-to-voltage ratio (which a Coss curve needs to stay within a
+/// tick) and has no division, which ARMv6-M lacks (a library call of about
+/// a hundred instructions). The target stays a parameter so that a core
+/// with other needs can get another layout.
 #[must_use]
-pub fn firmware_layout(target: &str) -> crate::design::LayoutChoice {
-    if target.starts_with("thumbv6m") {
-        crate::design::LayoutChoice::RecipRatio
-    } else {
-        crate::design::LayoutChoice::Ratio
-    }
+pub fn firmware_layout(_target: &str) -> crate::design::LayoutChoice {
+    crate::design::LayoutChoice::LogVolt
 }
 
 /// The Rust source and the `.bin` blob of the table for the design file at

@@ -72,7 +72,11 @@ impl Requirements {
     /// all cores; `zvs` is the lookup's ZVS test (used with a fixed
     /// fallback only).
     #[must_use]
-    pub fn new(design: &Design, model: &ExactModel<'_>, zvs: &(dyn Fn(u16, u16) -> bool + Sync)) -> Self {
+    pub fn new(
+        design: &Design,
+        model: &ExactModel<'_>,
+        zvs: &(dyn Fn(u16, u16) -> bool + Sync),
+    ) -> Self {
         let (v, i) = (design.vin_codes, design.io_codes);
         let budget = design.max_error_ticks;
         let fixed = matches!(design.fallback, Fallback::Fixed(_));
@@ -306,8 +310,7 @@ fn solve(
         .max_iter(200)
         .build()
         .ok()?;
-    let mut solver =
-        DefaultSolver::new(pm, q, &a, &b, &[NonnegativeConeT(row)], settings).ok()?;
+    let mut solver = DefaultSolver::new(pm, q, &a, &b, &[NonnegativeConeT(row)], settings).ok()?;
     solver.solve();
     matches!(
         solver.solution.status,

@@ -497,7 +497,7 @@ fn run_point(args: &PointArgs) -> anyhow::Result<()> {
     Ok(())
 }
 
-fn print_verification(v: &host_tool::verify::VerifyReport, clock_hz: f64, w0_rad_s: f64) {
+fn print_verification(v: &host_tool::verify::VerifyReport, clock_hz: f64) {
     outln!(
         "method {}: verified {} code pairs: max error {:.3} ticks at vin code {} ({:.3} V), io code {} ({:.4} A); RMS {:.3} ticks",
         v.method, v.points_checked, v.max_error_ticks, v.worst_vin_code, v.worst_vin_v, v.worst_io_code, v.worst_io_a, v.rms_error_ticks
@@ -514,8 +514,7 @@ fn print_verification(v: &host_tool::verify::VerifyReport, clock_hz: f64, w0_rad
         "ZVS pairs: {}; commanded turn-ons outside the true window: {} ({} early, {} late), {} of them where the window is a tick wide or more; windows narrower than a tick: {}",
         v.zvs_points, v.outside_window, v.early, v.late, v.outside_window_wide, v.narrower_than_a_tick
     );
-    if let Some(j) = v.outside_window_max_load {
-        let width = timing_core::normalized::clamp_angle(j) / w0_rad_s * clock_hz;
+    if let (Some(j), Some(width)) = (v.outside_window_max_load, v.outside_window_max_width_ticks) {
         outln!(
             "every miss is at J <= {j:.4}, where the ZVS window is at most {width:.2} ticks wide"
         );
@@ -572,15 +571,22 @@ fn run_table(args: &TableArgs) -> anyhow::Result<()> {
             out.table.frac_bits,
             args.out.display()
         );
-        print_verification(
-            &out.verification,
-            design.timer.clock_hz(),
-            design.tank.w0_rad_s(),
-        );
+        print_verification(&out.verification, design.timer.clock_hz());
+        let v = &out.verification;
+        if v.outside_window_wide + v.outside_robust_window > 0 {
+            outln!(
+                "WARNING: no layout up to 16 KiB put every command inside its window; this is the smallest within max_error_ticks, with {} commands outside a window a tick wide and {} outside a robust window (typically where the window opens from zero width at the ZVS boundary): check them on the board, or narrow the range",
+                v.outside_window_wide, v.outside_robust_window
+            );
+        }
         // One line per layout family: its largest candidate evaluated
         // (the whole list is in --json's "alternatives").
         let mut families: Vec<&host_tool::generate::Candidate> = Vec::new();
-        for c in out.candidates.iter().filter(|c| c.screened_error_ticks.is_some()) {
+        for c in out
+            .candidates
+            .iter()
+            .filter(|c| c.screened_error_ticks.is_some())
+        {
             match families.iter_mut().find(|f| f.layout == c.layout) {
                 Some(f) => *f = c,
                 None => families.push(c),
@@ -591,7 +597,7 @@ fn run_table(args: &TableArgs) -> anyhow::Result<()> {
             .iter()
             .filter(|c| c.screened_error_ticks.is_some())
             .count();
-        outln!("{evaluated} smaller candidates evaluated (all in --json); the largest of each layout:");
+        outln!("{evaluated} candidates evaluated (all in --json); the largest of each layout:");
         for c in families {
             outln!(
                 "  {} {} B ({}): {:.3} ticks, {} code pairs outside their window{}",
@@ -600,7 +606,11 @@ fn run_table(args: &TableArgs) -> anyhow::Result<()> {
                 c.shape,
                 c.screened_error_ticks.unwrap_or(f64::NAN),
                 c.misses.unwrap_or(0),
-                if c.meets_budget { " (chosen)" } else { "" }
+                if c.layout == out.table.layout_name() && c.table_bytes == out.table.table_bytes() {
+                    " (chosen)"
+                } else {
+                    ""
+                }
             );
         }
         outln!("\n{}", host_tool::point::CAUTION);
@@ -747,7 +757,7 @@ fn run_verify(args: &VerifyArgs) -> anyhow::Result<ExitCode> {
         });
         outln!("{}", serde_json::to_string_pretty(&j)?);
     } else {
-        print_verification(&v, design.timer.clock_hz(), design.tank.w0_rad_s());
+        print_verification(&v, design.timer.clock_hz());
     }
     if ok {
         Ok(ExitCode::SUCCESS)

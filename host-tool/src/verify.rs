@@ -129,6 +129,9 @@ pub struct VerifyReport {
     /// window (`None` when none did): how far above the ZVS boundary misses
     /// reach.
     pub outside_window_max_load: Option<f64>,
+    /// Widest true window among the pairs whose turn-on missed it, ticks
+    /// (`None` when none did): measured at each miss, not estimated.
+    pub outside_window_max_width_ticks: Option<f64>,
     /// Largest delay the method commands, ticks (must fit the timer counter).
     pub max_commanded_ticks: u32,
     /// Voltage and current codes where it is commanded.
@@ -158,6 +161,7 @@ struct Row {
     robust_margin: Option<f64>,
     unreliable: u64,
     miss_load: Option<f64>,
+    miss_width: Option<f64>,
     max_cmd: u32,
     max_cmd_ci: u16,
     model_errors: u64,
@@ -258,6 +262,8 @@ fn check_pair(
                 // J = Io*Z0/Vin for every cell.
                 let j = design.io_of(ci) * z0 / design.vin_of(cv);
                 r.miss_load = Some(r.miss_load.map_or(j, |x: f64| x.max(j)));
+                let wt = w.width_s() * clock;
+                r.miss_width = Some(r.miss_width.map_or(wt, |x: f64| x.max(wt)));
             } else {
                 let mg = (on - w.open_s).min(w.close_s - on);
                 r.min_margin = Some(r.min_margin.map_or(mg, |x: f64| x.min(mg)));
@@ -367,6 +373,7 @@ fn merge(
         min_robust_margin_s: None,
         zvs_unreliable: 0,
         outside_window_max_load: None,
+        outside_window_max_width_ticks: None,
         max_commanded_ticks: 0,
         max_commanded_at: (v.lo, i.lo),
         model_errors: 0,
@@ -411,6 +418,10 @@ fn merge(
         }
         if let Some(j) = row.miss_load {
             r.outside_window_max_load = Some(r.outside_window_max_load.map_or(j, |x| x.max(j)));
+        }
+        if let Some(w) = row.miss_width {
+            r.outside_window_max_width_ticks =
+                Some(r.outside_window_max_width_ticks.map_or(w, |x| x.max(w)));
         }
     }
     r.outside_window = r.early + r.late;
