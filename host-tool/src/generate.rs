@@ -936,6 +936,11 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
             continue;
         }
         let mut g = plan.build(design, &model, max_ticks)?.unwrap_or(g);
+        if g.table().is_err() {
+            // Entries the lookup's checks refuse (e.g. beyond 16 bits):
+            // not a candidate.
+            continue;
+        }
         let fitted = if crate::fit::serves(&g) {
             crate::fit::fit(&req, &g).map(|e| g.entries = e)
         } else {

@@ -703,6 +703,12 @@ fn run_montecarlo(args: &MonteCarloArgs) -> anyhow::Result<()> {
             100.0 * r.worst_board_inside_fraction,
             r.valley_cycles
         );
+        outln!(
+            "readings with a robust window a tick wide: {} cycles, {} of them inside the true window{}",
+            r.robust_cycles,
+            r.robust_cycles_inside,
+            if r.robust_cycles_inside == r.robust_cycles { "" } else { " (WARNING: the method misses where the tolerances promise a window)" }
+        );
         let t = r.tolerance;
         outln!(
             "tolerances: Lr ±{:.1} %, C ±{:.1} %, gain ±{:.1} % / ±{:.1} %, offset ±{} / ±{} codes, noise ±{} codes, jitter ±{}",

@@ -41,6 +41,13 @@ pub struct MonteCarloReport {
     pub early: u64,
     /// Turn-ons after the window closed.
     pub late: u64,
+    /// ZVS cycles whose reading has a robust window a tick wide (the
+    /// design's tolerances leave every board in the reading's box a common
+    /// window there, which the tables aim into).
+    pub robust_cycles: u64,
+    /// Of those, turn-ons inside the true window: equal to `robust_cycles`
+    /// when the method keeps the tables' promise.
+    pub robust_cycles_inside: u64,
     /// `inside / zvs_cycles`.
     pub inside_fraction: f64,
     /// The worst board's inside fraction.
@@ -57,6 +64,9 @@ pub enum MonteCarloError {
     /// The design has no `[tolerance]` table.
     #[error("the design has no [tolerance] table: add lr, cr, vin_gain, io_gain, vin_offset_codes, io_offset_codes, noise_codes or jitter")]
     NoTolerance,
+    /// The design's robust windows could not be built.
+    #[error("the robust windows of the tolerances: {0}")]
+    Model(String),
     /// A count of zero.
     #[error("{what} must be at least 1")]
     Zero {
@@ -85,6 +95,9 @@ pub fn run(
     if cycles == 0 {
         return Err(MonteCarloError::Zero { what: "--cycles" });
     }
+    let aim = design
+        .robust_aim()
+        .map_err(|e| MonteCarloError::Model(e.to_string()))?;
     let mut rng = rand::rngs::StdRng::seed_from_u64(seed);
     let max_code = f64::from((1u32 << design.adc_bits) - 1);
     let timer = &design.timer;
@@ -96,6 +109,8 @@ pub fn run(
         tolerance: tol,
         zvs_cycles: 0,
         inside: 0,
+        robust_cycles: 0,
+        robust_cycles_inside: 0,
         early: 0,
         late: 0,
         inside_fraction: 0.0,
@@ -159,6 +174,16 @@ pub fn run(
                 r.late += 1;
             } else {
                 inside += 1;
+            }
+            let robust = aim.as_ref().is_some_and(|a| {
+                a.window(design, design.vin_of(vin_code), design.io_of(io_code))
+                    .is_some()
+            });
+            if robust {
+                r.robust_cycles += 1;
+                if on >= w.open_s && on <= w.close_s {
+                    r.robust_cycles_inside += 1;
+                }
             }
         }
         r.zvs_cycles += zvs;

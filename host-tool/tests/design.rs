@@ -97,7 +97,7 @@ fn impossible_designs_get_a_plain_sentence() {
             "position",
         ),
         (
-            demo_text().replace("max_error_ticks = 2.5", "max_error_ticks = 0.2"),
+            demo_text().replace("max_error_ticks = 1.0", "max_error_ticks = 0.2"),
             "at least 0.5",
         ),
         (
@@ -136,7 +136,7 @@ fn table_and_verify_commands() {
     // The demo design with the layout left to `auto`, so every layout is tried.
     std::fs::create_dir_all(&dir).unwrap();
     let design = dir.join("winch_aux.toml");
-    std::fs::write(&design, demo_text().replace("layout = \"log-uniform\"", "")).unwrap();
+    std::fs::write(&design, demo_text().replace("layout = \"log-volt\"", "")).unwrap();
     std::fs::copy(
         Path::new(env!("CARGO_MANIFEST_DIR")).join("../tables/winch_aux_coss.csv"),
         dir.join("winch_aux_coss.csv"),
@@ -148,9 +148,16 @@ fn table_and_verify_commands() {
     assert_eq!(code, 0, "{err}");
     let j: serde_json::Value = serde_json::from_str(&stdout).unwrap();
     assert!(j["table_bytes"].as_u64().unwrap() <= 2048);
-    assert!(j["max_error_ticks"].as_f64().unwrap() <= 2.5);
-    assert!(["ratio", "log-ratio", "log-uniform", "grid", "recip-ratio"]
-        .contains(&j["layout"].as_str().unwrap()));
+    assert!(j["max_error_ticks"].as_f64().unwrap() <= 1.0);
+    assert!([
+        "ratio",
+        "log-ratio",
+        "log-uniform",
+        "grid",
+        "recip-ratio",
+        "log-volt"
+    ]
+    .contains(&j["layout"].as_str().unwrap()));
     let alts = j["alternatives"].as_array().unwrap();
     assert!(
         alts.iter().any(|a| a["layout"] == "grid"),
@@ -164,7 +171,17 @@ fn table_and_verify_commands() {
     assert_eq!(code, 0);
     let j: serde_json::Value = serde_json::from_str(&stdout).unwrap();
     assert_eq!(j["points_checked"].as_u64().unwrap(), 1490 * 1845);
-    assert!(j["max_error_ticks"].as_f64().unwrap() <= 2.5);
+    assert!(j["max_error_ticks"].as_f64().unwrap() <= 1.0);
+    assert_eq!(
+        j["report"]["outside_window_wide"].as_u64(),
+        Some(0),
+        "{stdout}"
+    );
+    assert_eq!(
+        j["report"]["outside_robust_window"].as_u64(),
+        Some(0),
+        "{stdout}"
+    );
 
     // A flipped byte: refused with a message that says so.
     let mut blob = std::fs::read(&bin).unwrap();

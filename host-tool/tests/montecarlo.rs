@@ -39,6 +39,17 @@ fn monte_carlo_runs() {
     assert_eq!(a.zvs_cycles + a.valley_cycles, 40 * 200);
     assert_eq!(a.inside + a.early + a.late, a.zvs_cycles);
     assert_eq!(a.model_errors, 0);
+    // The tables' promise under the demo's own tolerances: every cycle
+    // whose reading has a robust window a tick wide lands inside its true
+    // window (every board and operating point the draws can produce lies
+    // in the box behind the reading).
+    println!(
+        "demo: {} of {} ZVS cycles inside; {} of {} robust cycles",
+        a.inside, a.zvs_cycles, a.robust_cycles_inside, a.robust_cycles
+    );
+    assert!(a.robust_cycles > a.zvs_cycles / 2, "{a:?}");
+    assert_eq!(a.robust_cycles_inside, a.robust_cycles, "{a:?}");
+    assert!(a.inside_fraction > 0.969, "{a:?}");
 
     // Nothing varies: misses only where exhaustive verification finds them
     // (0.37 % of the ZVS pairs, all just above the boundary) and from the

@@ -219,3 +219,69 @@ fn log2_q15_against_libm() {
     }
     assert_eq!(timing_core::table::log2::floor_log2(u32::MAX), 31);
 }
+
+#[test]
+fn log_volt_lookup_interpolates_bilinear_data_exactly() {
+    use timing_core::table::{log_ratio_index, LogVoltLayout};
+    let s = sensing();
+    // lambda over the range: corners (log2_q15 is non-decreasing).
+    let l_min = log_ratio_index(2000, 2000 - 100);
+    let l_max = log_ratio_index(3000, 300 - 100);
+    let step = 12u32;
+    let lambda_lo = l_min - 100;
+    let cols = ((l_max - lambda_lo) >> step) as u16 + 2;
+    let g = LogVoltLayout {
+        lambda_lo,
+        step_shift: step as u8,
+        cols,
+        vin_shift: 6,
+        rows: 17, // 16 * 64 = 1024 >= 1000
+    };
+    // ticks = 30 + 3 k + r/2 at node (r, k), frac_bits 4: linear in lambda
+    // and in the voltage code, so interpolation reproduces it up to the
+    // rounding of each row (half an entry unit) and the final rounding.
+    let mut entries = Vec::new();
+    for r in 0..g.rows {
+        for k in 0..g.cols {
+            entries.push(16 * (30 + 3 * k) + 8 * r);
+        }
+    }
+    let t = DelayTable::new(
+        s,
+        Layout::LogVolt(g),
+        4,
+        Fallback::Valley,
+        entries.as_slice(),
+    )
+    .unwrap();
+    for v in (2000u16..=3000).step_by(11) {
+        for i in (300u16..=2000).step_by(13) {
+            let l = log_ratio_index(u32::from(v), u32::from(i - 100));
+            let k = f64::from(l - lambda_lo) / f64::from(1u32 << step);
+            let expect = 30.0 + 3.0 * k + f64::from(v - 2000) / 64.0 / 2.0;
+            let got = t.delay(AdcCode::new(v), AdcCode::new(i)).ticks.get();
+            assert!(
+                (f64::from(got) - expect).abs() <= 0.5 + 1.0 / 32.0 + 1e-9,
+                "v {v} i {i}: {got} vs {expect}"
+            );
+        }
+    }
+    // A layout whose rows stop short of the range is refused.
+    let short = LogVoltLayout { rows: 16, ..g };
+    let e = vec![0u16; usize::from(short.rows) * usize::from(cols)];
+    assert!(matches!(
+        DelayTable::new(s, Layout::LogVolt(short), 4, Fallback::Valley, e.as_slice()),
+        Err(TableError::Layout(_))
+    ));
+    // vin_shift + frac_bits > 16 could overflow 32 bits: refused.
+    assert!(matches!(
+        DelayTable::new(
+            s,
+            Layout::LogVolt(g),
+            11,
+            Fallback::Valley,
+            entries.as_slice()
+        ),
+        Err(TableError::Layout(_))
+    ));
+}
