@@ -3,9 +3,9 @@
 //! on the target core, writes its `.bin` blob for the flash copy, and puts
 //! `memory.x` on the linker path.
 //!
-//! Layout per core: `host_tool::export::firmware_layout` (ARMv7E-M: the
-//! compact `ratio` layout, one division; ARMv6-M, which has no divide
-//! instruction: `recip-ratio`, a reciprocal table and one multiplication).
+//! Layout per core: `host_tool::export::firmware_layout` (`log-volt` on
+//! both: it follows the Coss curve's voltage dependence within a tick and
+//! needs no division, which ARMv6-M lacks).
 //! The closed-form methods' coefficients come from the same design.
 //!
 //! Generation over the demo's Coss curve takes seconds, and every feature

@@ -393,29 +393,9 @@ pub fn c_header(design: &Design, g: &Generated, v: &VerifyReport) -> String {
                 "    uint32_t d = l > {lo}u ? l - {lo}u : 0u;",
                 lo = gr.lambda_lo
             );
-            let _ = writeln!(
-                s,
-                "    uint32_t k = d >> {st}u, fl = d & {}u;",
-                (1u32 << st) - 1
-            );
-            let _ = writeln!(
-                s,
-                "    if (k > {0}u) {{ k = {0}u; fl = {1}u; }}",
-                gr.cols - 2,
-                1u32 << st
-            );
+            c_cell_index(&mut s, ("k", "fl"), "d", st, gr.cols);
             let _ = writeln!(s, "    uint32_t dv = v - {}u;", sn.vin.lo);
-            let _ = writeln!(
-                s,
-                "    uint32_t r = dv >> {vs}u, fr = dv & {}u;",
-                (1u32 << vs) - 1
-            );
-            let _ = writeln!(
-                s,
-                "    if (r > {0}u) {{ r = {0}u; fr = {1}u; }}",
-                gr.rows - 2,
-                1u32 << vs
-            );
+            c_cell_index(&mut s, ("r", "fr"), "dv", vs, gr.rows);
             let _ = writeln!(s, "    uint32_t b = r * {}u + k;", gr.cols);
             let _ = writeln!(
                 s,
@@ -648,6 +628,25 @@ pub fn write_all(
 /// The design, generation or verification error as a sentence.
 pub fn rust_source_for_design_file(path: &std::path::Path) -> Result<String, String> {
     firmware_table(path, None).map(|(source, _)| source)
+}
+
+/// C lines that split the offset `d` (nodes `2^shift` apart, `nodes` of
+/// them) into the cell index and the fraction named by `names`, the last
+/// cell taking everything beyond it with a full fraction (as timing-core's
+/// lookup clamps).
+fn c_cell_index(s: &mut String, names: (&str, &str), d: &str, shift: u32, nodes: u16) {
+    let (k, f) = names;
+    let _ = writeln!(
+        s,
+        "    uint32_t {k} = {d} >> {shift}u, {f} = {d} & {}u;",
+        (1u32 << shift) - 1
+    );
+    let _ = writeln!(
+        s,
+        "    if ({k} > {last}u) {{ {k} = {last}u; {f} = {one}u; }}",
+        last = nodes - 2,
+        one = 1u32 << shift
+    );
 }
 
 /// The table layout a firmware build for the target triple `target` asks

@@ -698,22 +698,15 @@ fn log_volt_candidate(
     if rows * cols > 8192 {
         return Ok(None);
     }
-    let mut entries = Vec::with_capacity((rows * cols) as usize);
-    for r in 0..rows {
+    let entries = node_entries(model, rows, cols, frac, |r, c| {
         let cv = f64::from(u32::from(s.vin.lo) + (r << vs));
-        for c in 0..cols {
-            let lambda = f64::from(lambda_lo) + f64::from(c) * f64::from(1u32 << step);
-            let ratio = 2f64.powf((lambda - f64::from(LOG_OFFSET)) / 32768.0);
-            let vin = cv * design.vin_volts_per_code;
-            let io = cv / ratio * design.io_amps_per_code;
-            let p = model.at(vin, io).map_err(|e| GenerateError::Model {
-                vin_v: vin,
-                io_a: io,
-                message: e.to_string(),
-            })?;
-            entries.push(entry(p.table_ticks, frac));
-        }
-    }
+        let lambda = f64::from(lambda_lo) + f64::from(c) * f64::from(1u32 << step);
+        let ratio = 2f64.powf((lambda - f64::from(LOG_OFFSET)) / 32768.0);
+        (
+            cv * design.vin_volts_per_code,
+            cv / ratio * design.io_amps_per_code,
+        )
+    })?;
     Ok(Some(Generated {
         sensing: s,
         layout: Layout::LogVolt(LogVoltLayout {
@@ -727,6 +720,30 @@ fn log_volt_candidate(
         fallback: design.fallback,
         entries,
     }))
+}
+
+/// The entries of a 2-D layout, row-major: the table aim at the operating
+/// point (volt, ampere) that `at` gives for node (row, column).
+fn node_entries(
+    model: &ExactModel<'_>,
+    rows: u32,
+    cols: u32,
+    frac: u32,
+    at: impl Fn(u32, u32) -> (f64, f64),
+) -> Result<Vec<u16>, GenerateError> {
+    let mut entries = Vec::with_capacity((rows * cols) as usize);
+    for r in 0..rows {
+        for c in 0..cols {
+            let (vin, io) = at(r, c);
+            let p = model.at(vin, io).map_err(|e| GenerateError::Model {
+                vin_v: vin,
+                io_a: io,
+                message: e.to_string(),
+            })?;
+            entries.push(entry(p.table_ticks, frac));
+        }
+    }
+    Ok(entries)
 }
 
 /// The grid layout with spacings `2^vs` x `2^is`.
@@ -748,21 +765,14 @@ fn grid_candidate(
     if rows * cols > 1 << 16 {
         return Ok(None);
     }
-    let mut entries = Vec::with_capacity((rows * cols) as usize);
-    for r in 0..rows {
-        for c in 0..cols {
-            let cv = f64::from(s.vin.lo) + f64::from(r << vs);
-            let ci = f64::from(s.io.lo) + f64::from(c << is);
-            let vin = cv * design.vin_volts_per_code;
-            let io = (ci - f64::from(s.io_zero)) * design.io_amps_per_code;
-            let p = model.at(vin, io).map_err(|e| GenerateError::Model {
-                vin_v: vin,
-                io_a: io,
-                message: e.to_string(),
-            })?;
-            entries.push(entry(p.table_ticks, frac));
-        }
-    }
+    let entries = node_entries(model, rows, cols, frac, |r, c| {
+        let cv = f64::from(s.vin.lo) + f64::from(r << vs);
+        let ci = f64::from(s.io.lo) + f64::from(c << is);
+        (
+            cv * design.vin_volts_per_code,
+            (ci - f64::from(s.io_zero)) * design.io_amps_per_code,
+        )
+    })?;
     Ok(Some(Generated {
         sensing: s,
         layout: Layout::Grid(GridLayout {
@@ -956,7 +966,7 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
             meets_budget: meets,
             shape: shape(&g),
         });
-        if best.is_none_or(|b| (miss.len() == 0, -err) > (b.1 == 0, -b.0)) {
+        if best.is_none_or(|b| err < b.0) {
             best = Some((err, miss.len(), g.layout_name()));
         }
         if meets {

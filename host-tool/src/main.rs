@@ -261,6 +261,9 @@ struct TableArgs {
     /// Print one JSON object instead of the summary.
     #[arg(long)]
     json: bool,
+    /// List every candidate evaluated, not one line per layout family.
+    #[arg(long)]
+    verbose: bool,
 }
 
 #[derive(Args)]
@@ -588,8 +591,8 @@ fn run_table(args: &TableArgs) -> anyhow::Result<()> {
             .filter(|c| c.screened_error_ticks.is_some())
         {
             match families.iter_mut().find(|f| f.layout == c.layout) {
-                Some(f) => *f = c,
-                None => families.push(c),
+                Some(f) if !args.verbose => *f = c,
+                _ => families.push(c),
             }
         }
         let evaluated = out
@@ -597,7 +600,11 @@ fn run_table(args: &TableArgs) -> anyhow::Result<()> {
             .iter()
             .filter(|c| c.screened_error_ticks.is_some())
             .count();
-        outln!("{evaluated} candidates evaluated (all in --json); the largest of each layout:");
+        if args.verbose {
+            outln!("{evaluated} candidates evaluated:");
+        } else {
+            outln!("{evaluated} candidates evaluated (all with --verbose or --json); the largest of each layout:");
+        }
         for c in families {
             outln!(
                 "  {} {} B ({}): {:.3} ticks, {} code pairs outside their window{}",
