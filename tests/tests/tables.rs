@@ -337,3 +337,34 @@ fn every_flipped_byte_of_the_blob_is_refused() {
     let other = timing_core::blob::open(&blob, Some(design.hash ^ 1)).unwrap_err();
     assert!(other.to_string().contains("another design"), "{other}");
 }
+
+/// Blob version policy: a reader opens only its own format version and
+/// names both versions when it refuses (version 2 added the log-volt
+/// layout, which a version-1 reader cannot decode; a version-1 blob may
+/// hold a table a version-2 reader would misread if it guessed).
+#[test]
+fn a_blob_of_another_format_version_is_refused_by_name() {
+    let mut blob = std::fs::read(repo().join("tables/winch_aux.bin")).unwrap();
+    // The header is postcard: the 4-byte magic, then the version as a
+    // one-byte varint (values below 128).
+    assert_eq!(
+        blob[4],
+        u8::try_from(timing_core::blob::FORMAT_VERSION).unwrap()
+    );
+    for old in [1u8, 3] {
+        blob[4] = old;
+        let e = timing_core::blob::open(&blob, None).unwrap_err();
+        assert_eq!(
+            e,
+            TableError::UnsupportedVersion {
+                found: u16::from(old)
+            }
+        );
+        let m = e.to_string();
+        assert!(
+            m.contains(&format!("version {old}"))
+                && m.contains(&format!("version {}", timing_core::blob::FORMAT_VERSION)),
+            "{m}"
+        );
+    }
+}
