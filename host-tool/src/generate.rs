@@ -624,6 +624,26 @@ fn log_ratio_candidate(
     }))
 }
 
+/// The log-domain axis of the log-uniform and log-volt layouts for node
+/// step `2^step`: node 0 on a multiple of the step at or below the design
+/// range's smallest lambda, and the node count that covers its largest.
+fn log_axis(s: &Sensing, step: u32) -> (u32, u32) {
+    let l_lo = log_ratio_index(u32::from(s.vin.lo), u32::from(s.io.hi - s.io_zero));
+    let l_hi = log_ratio_index(u32::from(s.vin.hi), u32::from(s.io.lo - s.io_zero));
+    let lambda_lo = (l_lo >> step) << step;
+    (
+        lambda_lo,
+        ((l_hi - lambda_lo).div_ceil(1 << step) + 1).max(2),
+    )
+}
+
+/// The code ratio vin/io at node `k` of a log-domain axis from `lambda_lo`
+/// in steps of `2^step` (the inverse of [`log_ratio_index`]).
+fn log_node_ratio(lambda_lo: u32, step: u32, k: u32) -> f64 {
+    let lambda = f64::from(lambda_lo) + f64::from(k) * f64::from(1u32 << step);
+    2f64.powf((lambda - f64::from(LOG_OFFSET)) / 32768.0)
+}
+
 /// The log-uniform layout with node step `2^step` in lambda and `frac`
 /// fractional bits.
 fn log_uniform_candidate(
@@ -637,18 +657,13 @@ fn log_uniform_candidate(
     if bits(max_ticks.ceil() as u32) + frac > 16 || step + frac > 16 || step > 15 {
         return Ok(None);
     }
-    let l_lo = log_ratio_index(u32::from(s.vin.lo), u32::from(s.io.hi - s.io_zero));
-    let l_hi = log_ratio_index(u32::from(s.vin.hi), u32::from(s.io.lo - s.io_zero));
-    // Node 0 on a multiple of the step at or below the range.
-    let lambda_lo = (l_lo >> step) << step;
-    let nodes = ((l_hi - lambda_lo).div_ceil(1 << step) + 1).max(2);
+    let (lambda_lo, nodes) = log_axis(&s, step);
     if nodes > 4096 {
         return Ok(None);
     }
+    // The ratio vin/io at node k, as the q of a zero-shift ratio table.
     let entries = ratio_entries(design, model, 0, frac, nodes, |k| {
-        // The ratio vin/io at node k, as the q of a zero-shift ratio table.
-        let lambda = f64::from(lambda_lo) + f64::from(k) * f64::from(1u32 << step);
-        2f64.powf((lambda - f64::from(LOG_OFFSET)) / 32768.0)
+        log_node_ratio(lambda_lo, step, k)
     })?;
     Ok(Some(Generated {
         sensing: s,
@@ -690,18 +705,14 @@ fn log_volt_candidate(
         return Ok(None);
     }
     let frac = (16 - tick_bits).min(16 - vs).min(12);
-    let l_lo = log_ratio_index(u32::from(s.vin.lo), u32::from(s.io.hi - s.io_zero));
-    let l_hi = log_ratio_index(u32::from(s.vin.hi), u32::from(s.io.lo - s.io_zero));
-    let lambda_lo = (l_lo >> step) << step;
-    let cols = ((l_hi - lambda_lo).div_ceil(1 << step) + 1).max(2);
+    let (lambda_lo, cols) = log_axis(&s, step);
     let rows = (u32::from(s.vin.hi - s.vin.lo).div_ceil(1 << vs) + 1).max(2);
     if rows * cols > 8192 {
         return Ok(None);
     }
     let entries = node_entries(model, rows, cols, frac, |r, c| {
         let cv = f64::from(u32::from(s.vin.lo) + (r << vs));
-        let lambda = f64::from(lambda_lo) + f64::from(c) * f64::from(1u32 << step);
-        let ratio = 2f64.powf((lambda - f64::from(LOG_OFFSET)) / 32768.0);
+        let ratio = log_node_ratio(lambda_lo, step, c);
         (
             cv * design.vin_volts_per_code,
             cv / ratio * design.io_amps_per_code,

@@ -555,6 +555,23 @@ const fn check(
     Ok(())
 }
 
+/// The cell and the fraction into it of offset `d` along an axis whose
+/// `nodes` nodes lie `2^shift` apart: `(d >> shift, d mod 2^shift)`, and
+/// past the last cell the last one with a full fraction (so the lookup
+/// clamps to the far node). Wrapping operations that cannot wrap for the
+/// shifts [`DelayTable::new`] accepts.
+#[inline(always)]
+const fn cell(d: u32, shift: u32, nodes: u16) -> (u32, u32) {
+    let one = 1u32.wrapping_shl(shift);
+    let last = (nodes as u32).wrapping_sub(2);
+    let k = d.wrapping_shr(shift);
+    if k > last {
+        (last, one)
+    } else {
+        (k, d & one.wrapping_sub(1))
+    }
+}
+
 impl DelayTable<&'static [u16]> {
     /// [`DelayTable::new`] for entries in a `static`, in `const` context:
     /// generated firmware sources build their table as a `const` item, so
@@ -736,20 +753,8 @@ impl<E: Entries> DelayTable<E> {
                     .wrapping_add(u32::from(s.io_zero))
                     .wrapping_sub(u32::from(s.io.lo));
                 let (one_v, one_i) = (1u32.wrapping_shl(vs), 1u32.wrapping_shl(is));
-                let (mut r, mut fr) = (dv.wrapping_shr(vs), dv & one_v.wrapping_sub(1));
-                let (mut c, mut fc) = (di.wrapping_shr(is), di & one_i.wrapping_sub(1));
-                let (last_r, last_c) = (
-                    u32::from(g.rows).wrapping_sub(2),
-                    u32::from(g.cols).wrapping_sub(2),
-                );
-                if r > last_r {
-                    r = last_r;
-                    fr = one_v;
-                }
-                if c > last_c {
-                    c = last_c;
-                    fc = one_i;
-                }
+                let (r, fr) = cell(dv, vs, g.rows);
+                let (c, fc) = cell(di, is, g.cols);
                 let cols = u32::from(g.cols);
                 let base = r.wrapping_mul(cols).wrapping_add(c);
                 let e = |k: u32| u32::from(self.entries.at(k as usize));
@@ -770,21 +775,11 @@ impl<E: Entries> DelayTable<E> {
                 let st = u32::from(g.step_shift);
                 let one = 1u32.wrapping_shl(st);
                 let d = log_ratio_index(v, i).saturating_sub(g.lambda_lo);
-                let (mut k, mut fl) = (d.wrapping_shr(st), d & one.wrapping_sub(1));
-                let last_k = u32::from(g.cols).wrapping_sub(2);
-                if k > last_k {
-                    k = last_k;
-                    fl = one;
-                }
+                let (k, fl) = cell(d, st, g.cols);
                 let vs = u32::from(g.vin_shift);
                 let one_v = 1u32.wrapping_shl(vs);
                 let dv = v.wrapping_sub(u32::from(s.vin.lo));
-                let (mut r, mut fr) = (dv.wrapping_shr(vs), dv & one_v.wrapping_sub(1));
-                let last_r = u32::from(g.rows).wrapping_sub(2);
-                if r > last_r {
-                    r = last_r;
-                    fr = one_v;
-                }
+                let (r, fr) = cell(dv, vs, g.rows);
                 let cols = u32::from(g.cols);
                 let base = r.wrapping_mul(cols).wrapping_add(k);
                 let e = |k: u32| u32::from(self.entries.at(k as usize));
