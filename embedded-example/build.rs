@@ -3,9 +3,10 @@
 //! on the target core, writes its `.bin` blob for the flash copy, and puts
 //! `memory.x` on the linker path.
 //!
-//! Layout per core: `host_tool::export::firmware_layout` (`log-volt` on
-//! both: it follows the Coss curve's voltage dependence within a tick and
-//! needs no division, which ARMv6-M lacks).
+//! Layout per core: `host_tool::export::firmware_layout` (`ratio-volt` on
+//! the Cortex-M4F, which divides in one instruction; `margin` on the
+//! Cortex-M0, which has no divide instruction). Both follow the Coss
+//! curve's voltage dependence within a tick.
 //! The closed-form methods' coefficients come from the same design.
 //!
 //! Generation over the demo's Coss curve takes seconds, and every feature

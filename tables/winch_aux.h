@@ -75,8 +75,8 @@ static inline uint16_t winch_aux_delay_ticks(uint16_t vin_code, uint16_t io_code
     uint32_t r = dv >> 8u, fr = dv & 255u;
     if (r > 5u) { r = 5u; fr = 256u; }
     uint32_t b = r * 18u + k;
-    /* Along lambda in the two rows, each rounded to entry units. */
-    uint32_t y0 = ((uint32_t)winch_aux_entries[b] * (8192u - fl) + (uint32_t)winch_aux_entries[b + 1u] * fl + 4096u) >> 13u;
+    /* Along the columns in the two rows, each rounded to entry units. */
+    uint32_t y0 = ((uint32_t)winch_aux_entries[b + 0u] * (8192u - fl) + (uint32_t)winch_aux_entries[b + 1u] * fl + 4096u) >> 13u;
     uint32_t y1 = ((uint32_t)winch_aux_entries[b + 18u] * (8192u - fl) + (uint32_t)winch_aux_entries[b + 19u] * fl + 4096u) >> 13u;
     uint32_t y = y0 * (256u - fr) + y1 * fr;
     return (uint16_t)((y + 32768u) >> 16u);

@@ -6,7 +6,7 @@
 // Timer 170000000 Hz; codes outside vin 2237..=3726 / io 205..=2049 clamp to the range edge.
 // CAUTION: verify every delay at reduced voltage with a scope before full-voltage operation.
 #[allow(unused_imports)]
-use timing_core::table::{DelayTable, Fallback, GridLayout, Layout, LogRatioLayout, LogUniformLayout, LogVoltLayout, RatioLayout, RecipRatioLayout, Sensing, TableError};
+use timing_core::table::{DelayTable, Fallback, GridLayout, Layout, LogRatioLayout, LogUniformLayout, LogVoltLayout, MarginLayout, RatioLayout, RatioVoltLayout, RecipRatioLayout, Sensing, TableError};
 #[allow(unused_imports)]
 use timing_core::{CodeRange, Ticks};
 

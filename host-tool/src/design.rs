@@ -61,6 +61,12 @@ pub enum LayoutChoice {
     /// Only the 2-D layout of log(code ratio) by voltage code (division-free;
     /// follows the voltage dependence a Coss curve adds).
     LogVolt,
+    /// Only the 2-D layout of the current's margin over the ZVS boundary by
+    /// voltage code (no division, no logarithm; the boundary on a column).
+    Margin,
+    /// Only the 2-D layout of the code ratio by voltage code (one division,
+    /// a single instruction on cores with a divide instruction).
+    RatioVolt,
 }
 
 /// What to command below the ZVS boundary.

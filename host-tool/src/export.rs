@@ -37,6 +37,14 @@ fn layout_rs(l: &Layout) -> String {
             "Layout::LogVolt(LogVoltLayout {{ lambda_lo: {}, step_shift: {}, cols: {}, vin_shift: {}, rows: {} }})",
             g.lambda_lo, g.step_shift, g.cols, g.vin_shift, g.rows
         ),
+        Layout::RatioVolt(g) => format!(
+            "Layout::RatioVolt(RatioVoltLayout {{ ratio_shift: {}, q_lo: {}, step_shift: {}, cols: {}, vin_shift: {}, rows: {} }})",
+            g.ratio_shift, g.q_lo, g.step_shift, g.cols, g.vin_shift, g.rows
+        ),
+        Layout::Margin(g) => format!(
+            "Layout::Margin(MarginLayout {{ io_mul: {}, vin_mul: {}, offset: {}, step_shift: {}, cols: {}, vin_shift: {}, rows: {} }})",
+            g.io_mul, g.vin_mul, g.offset, g.step_shift, g.cols, g.vin_shift, g.rows
+        ),
     }
 }
 
@@ -85,7 +93,7 @@ pub fn rust_source(design: &Design, g: &Generated, v: &VerifyReport) -> String {
     let _ = writeln!(s, "#[allow(unused_imports)]");
     let _ = writeln!(
         s,
-        "use timing_core::table::{{DelayTable, Fallback, GridLayout, Layout, LogRatioLayout, LogUniformLayout, LogVoltLayout, RatioLayout, RecipRatioLayout, Sensing, TableError}};"
+        "use timing_core::table::{{DelayTable, Fallback, GridLayout, Layout, LogRatioLayout, LogUniformLayout, LogVoltLayout, MarginLayout, RatioLayout, RatioVoltLayout, RecipRatioLayout, Sensing, TableError}};"
     );
     let _ = writeln!(
         s,
@@ -393,36 +401,78 @@ pub fn c_header(design: &Design, g: &Generated, v: &VerifyReport) -> String {
                 "    uint32_t d = l > {lo}u ? l - {lo}u : 0u;",
                 lo = gr.lambda_lo
             );
-            c_cell_index(&mut s, ("k", "fl"), "d", st, gr.cols);
-            let _ = writeln!(s, "    uint32_t dv = v - {}u;", sn.vin.lo);
-            c_cell_index(&mut s, ("r", "fr"), "dv", vs, gr.rows);
-            let _ = writeln!(s, "    uint32_t b = r * {}u + k;", gr.cols);
+            c_rows_then_volts(&mut s, n, sn.vin.lo, (st, gr.cols), (vs, gr.rows), f);
+        }
+        Layout::RatioVolt(gr) => {
+            let _ = writeln!(s, "    uint32_t q = (v << {}u) / i;", gr.ratio_shift);
             let _ = writeln!(
                 s,
-                "    /* Along lambda in the two rows, each rounded to entry units. */"
+                "    uint32_t d = q > {lo}u ? q - {lo}u : 0u;",
+                lo = gr.q_lo
             );
+            c_rows_then_volts(
+                &mut s,
+                n,
+                sn.vin.lo,
+                (u32::from(gr.step_shift), gr.cols),
+                (u32::from(gr.vin_shift), gr.rows),
+                f,
+            );
+        }
+        Layout::Margin(gr) => {
+            // The wrapping arithmetic of timing-core's MarginLayout::margin
+            // (exact over the range of a validated table).
             let _ = writeln!(
                 s,
-                "    uint32_t y0 = ((uint32_t){n}_entries[b] * ({one}u - fl) + (uint32_t){n}_entries[b + 1u] * fl + {h}u) >> {st}u;",
-                one = 1u32 << st,
-                h = (1u32 << st) >> 1
+                "    uint32_t d = i * {}u + {}u - v * (uint32_t)({}L);",
+                gr.io_mul, gr.offset, gr.vin_mul
             );
-            let _ = writeln!(
-                s,
-                "    uint32_t y1 = ((uint32_t){n}_entries[b + {c}u] * ({one}u - fl) + (uint32_t){n}_entries[b + {c1}u] * fl + {h}u) >> {st}u;",
-                c = gr.cols,
-                c1 = u32::from(gr.cols) + 1,
-                one = 1u32 << st,
-                h = (1u32 << st) >> 1
+            c_rows_then_volts(
+                &mut s,
+                n,
+                sn.vin.lo,
+                (u32::from(gr.step_shift), gr.cols),
+                (u32::from(gr.vin_shift), gr.rows),
+                f,
             );
-            let _ = writeln!(s, "    uint32_t y = y0 * ({}u - fr) + y1 * fr;", 1u32 << vs);
-            let total = vs + f;
-            let half = (1u32 << total) >> 1;
-            let _ = writeln!(s, "    return (uint16_t)((y + {half}u) >> {total}u);");
         }
     }
     let _ = writeln!(s, "}}\n\n#endif /* {up}_DELAY_TABLE_H */");
     s
+}
+
+/// C for the tail of the 2-D row layouts (log-volt and margin), from the
+/// column coordinate `d` (`(shift, nodes)` of the columns and of the
+/// rows): along `d` in the two rows around the voltage, each rounded to
+/// entry units, then between the rows, as timing-core's lookup.
+fn c_rows_then_volts(
+    s: &mut String,
+    n: &str,
+    vin_lo: u16,
+    (st, cols): (u32, u16),
+    (vs, rows): (u32, u16),
+    f: u32,
+) {
+    c_cell_index(s, ("k", "fl"), "d", st, cols);
+    let _ = writeln!(s, "    uint32_t dv = v - {vin_lo}u;");
+    c_cell_index(s, ("r", "fr"), "dv", vs, rows);
+    let _ = writeln!(s, "    uint32_t b = r * {cols}u + k;");
+    let _ = writeln!(
+        s,
+        "    /* Along the columns in the two rows, each rounded to entry units. */"
+    );
+    let (one, h) = (1u32 << st, (1u32 << st) >> 1);
+    for (y, at) in [("y0", 0u32), ("y1", u32::from(cols))] {
+        let _ = writeln!(
+            s,
+            "    uint32_t {y} = ((uint32_t){n}_entries[b + {at}u] * ({one}u - fl) + (uint32_t){n}_entries[b + {at1}u] * fl + {h}u) >> {st}u;",
+            at1 = at + 1
+        );
+    }
+    let _ = writeln!(s, "    uint32_t y = y0 * ({}u - fr) + y1 * fr;", 1u32 << vs);
+    let total = vs + f;
+    let half = (1u32 << total) >> 1;
+    let _ = writeln!(s, "    return (uint16_t)((y + {half}u) >> {total}u);");
 }
 
 /// C for `uint32_t e = floor(log2(var))` by the five-step binary search of
@@ -551,6 +601,48 @@ pub fn csv(design: &Design, g: &Generated) -> String {
                 }
             }
         }
+        Layout::RatioVolt(gr) => {
+            s.push_str("row,col,vin_code,q,io_code,vin_v,io_a,exact_ticks,entry,entry_ticks\n");
+            for r in 0..u32::from(gr.rows) {
+                for c in 0..u32::from(gr.cols) {
+                    let cv = u32::from(g.sensing.vin.lo) + (r << gr.vin_shift);
+                    let q = f64::from(gr.q_lo) + f64::from(c) * f64::from(1u32 << gr.step_shift);
+                    let i = f64::from(cv) * f64::from(1u32 << gr.ratio_shift) / q;
+                    let ci = i + f64::from(g.sensing.io_zero);
+                    let vin = f64::from(cv) * design.vin_volts_per_code;
+                    let io = i * design.io_amps_per_code;
+                    let exact = model.at(vin, io).map_or(f64::NAN, |p| p.ticks);
+                    let e = g.entries[(r * u32::from(gr.cols) + c) as usize];
+                    let _ = writeln!(
+                        s,
+                        "{r},{c},{cv},{q},{ci:.2},{vin:.4},{io:.5},{exact:.4},{e},{:.4}",
+                        f64::from(e) / scale_f
+                    );
+                }
+            }
+        }
+        Layout::Margin(gr) => {
+            s.push_str("row,col,vin_code,io_code,vin_v,io_a,exact_ticks,entry,entry_ticks\n");
+            for r in 0..u32::from(gr.rows) {
+                for c in 0..u32::from(gr.cols) {
+                    let cv = u32::from(g.sensing.vin.lo) + (r << gr.vin_shift);
+                    // The node's current code (after the zero) from d.
+                    let d = f64::from(c) * f64::from(1u32 << gr.step_shift);
+                    let i = (d - f64::from(gr.offset) + f64::from(cv) * f64::from(gr.vin_mul))
+                        / f64::from(gr.io_mul);
+                    let ci = i + f64::from(g.sensing.io_zero);
+                    let vin = f64::from(cv) * design.vin_volts_per_code;
+                    let io = i * design.io_amps_per_code;
+                    let exact = model.at(vin, io).map_or(f64::NAN, |p| p.ticks);
+                    let e = g.entries[(r * u32::from(gr.cols) + c) as usize];
+                    let _ = writeln!(
+                        s,
+                        "{r},{c},{cv},{ci:.2},{vin:.4},{io:.5},{exact:.4},{e},{:.4}",
+                        f64::from(e) / scale_f
+                    );
+                }
+            }
+        }
         Layout::Grid(gr) => {
             s.push_str("row,col,vin_code,io_code,vin_v,io_a,exact_ticks,entry,entry_ticks\n");
             for r in 0..u32::from(gr.rows) {
@@ -650,14 +742,23 @@ fn c_cell_index(s: &mut String, names: (&str, &str), d: &str, shift: u32, nodes:
 }
 
 /// The table layout a firmware build for the target triple `target` asks
-/// for: `log-volt` on every core. It follows the voltage as well as the
-/// current-to-voltage ratio (which a Coss curve needs to stay within a
-/// tick) and has no division, which ARMv6-M lacks (a library call of about
-/// a hundred instructions). The target stays a parameter so that a core
-/// with other needs can get another layout.
+/// for, the one with the fewest instructions per lookup on its core (both
+/// follow the voltage as well as the current, which a Coss curve needs to
+/// stay within a tick):
+/// - `ratio-volt` where the core divides in one instruction (ARMv7-M and
+///   later): the division linearises the charging term, so the table stays
+///   small;
+/// - `margin` on ARMv6-M, which has no divide instruction (a library call of
+///   about a hundred instructions) and no leading-zero count: no division
+///   and no logarithm, at the price of more flash (uniform current columns
+///   must follow the charging term's 1/Io curvature at the lowest current).
 #[must_use]
-pub fn firmware_layout(_target: &str) -> crate::design::LayoutChoice {
-    crate::design::LayoutChoice::LogVolt
+pub fn firmware_layout(target: &str) -> crate::design::LayoutChoice {
+    if target.starts_with("thumbv6m") {
+        crate::design::LayoutChoice::Margin
+    } else {
+        crate::design::LayoutChoice::RatioVolt
+    }
 }
 
 /// The Rust source and the `.bin` blob of the table for the design file at

@@ -148,35 +148,44 @@ pub fn stencil(g: &Generated, vin: u16, io: u16) -> Option<[(usize, f64); 4]> {
     let s = &g.sensing;
     let v = u32::from(s.vin.clamp(AdcCode::new(vin)));
     let i = u32::from(s.io.clamp(AdcCode::new(io)).wrapping_sub(s.io_zero));
-    match g.layout {
-        Layout::LogVolt(l) => {
-            let st = u32::from(l.step_shift);
-            let d = log_ratio_index(v, i).saturating_sub(l.lambda_lo);
-            let (mut k, mut fl) = (d >> st, d & ((1 << st) - 1));
-            if k > u32::from(l.cols) - 2 {
-                k = u32::from(l.cols) - 2;
-                fl = 1 << st;
-            }
-            let vs = u32::from(l.vin_shift);
-            let dv = v - u32::from(s.vin.lo);
-            let (mut r, mut fr) = (dv >> vs, dv & ((1 << vs) - 1));
-            if r > u32::from(l.rows) - 2 {
-                r = u32::from(l.rows) - 2;
-                fr = 1 << vs;
-            }
-            let tl = f64::from(fl) / f64::from(1u32 << st);
-            let tv = f64::from(fr) / f64::from(1u32 << vs);
-            let cols = usize::from(l.cols);
-            let b = r as usize * cols + k as usize;
-            Some([
-                (b, (1.0 - tl) * (1.0 - tv)),
-                (b + 1, tl * (1.0 - tv)),
-                (b + cols, (1.0 - tl) * tv),
-                (b + cols + 1, tl * tv),
-            ])
+    let (d, st, cols, vs, rows) = match g.layout {
+        Layout::LogVolt(l) => (
+            log_ratio_index(v, i).saturating_sub(l.lambda_lo),
+            l.step_shift,
+            l.cols,
+            l.vin_shift,
+            l.rows,
+        ),
+        Layout::Margin(l) => (l.margin(v, i), l.step_shift, l.cols, l.vin_shift, l.rows),
+        Layout::RatioVolt(l) => (
+            ((v << l.ratio_shift) / i).saturating_sub(l.q_lo),
+            l.step_shift,
+            l.cols,
+            l.vin_shift,
+            l.rows,
+        ),
+        _ => return None,
+    };
+    let cell = |d: u32, shift: u8, nodes: u16| {
+        let (k, f) = (d >> shift, d & ((1 << shift) - 1));
+        if k > u32::from(nodes) - 2 {
+            (u32::from(nodes) - 2, 1u32 << shift)
+        } else {
+            (k, f)
         }
-        _ => None,
-    }
+    };
+    let (k, fl) = cell(d, st, cols);
+    let (r, fr) = cell(v - u32::from(s.vin.lo), vs, rows);
+    let tl = f64::from(fl) / f64::from(1u32 << st);
+    let tv = f64::from(fr) / f64::from(1u32 << vs);
+    let cols = usize::from(cols);
+    let b = r as usize * cols + k as usize;
+    Some([
+        (b, (1.0 - tl) * (1.0 - tv)),
+        (b + 1, tl * (1.0 - tv)),
+        (b + cols, (1.0 - tl) * tv),
+        (b + cols + 1, tl * tv),
+    ])
 }
 
 /// Sub-cells per axis of a table cell when picking the starting pairs.
@@ -323,5 +332,8 @@ fn solve(
 /// layout whose lookup [`stencil`] describes).
 #[must_use]
 pub fn serves(g: &Generated) -> bool {
-    matches!(g.layout, Layout::LogVolt(_))
+    matches!(
+        g.layout,
+        Layout::LogVolt(_) | Layout::Margin(_) | Layout::RatioVolt(_)
+    )
 }

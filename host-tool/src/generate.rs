@@ -5,8 +5,8 @@
 use timing_core::robust::RobustWindow;
 use timing_core::table::{
     log_index, log_ratio_index, ratio_bounds, DelayTable, Fallback, GridLayout, Layout,
-    LogRatioLayout, LogUniformLayout, LogVoltLayout, RatioLayout, RecipRatioLayout, Sensing,
-    LOG_OFFSET,
+    LogRatioLayout, LogUniformLayout, LogVoltLayout, MarginLayout, RatioLayout, RatioVoltLayout,
+    RecipRatioLayout, Sensing, LOG_OFFSET,
 };
 use timing_core::ZvsWindow;
 
@@ -251,6 +251,8 @@ impl Generated {
             Layout::Grid(_) => "grid",
             Layout::RecipRatio(_) => "recip-ratio",
             Layout::LogVolt(_) => "log-volt",
+            Layout::Margin(_) => "margin",
+            Layout::RatioVolt(_) => "ratio-volt",
         }
     }
 }
@@ -733,6 +735,205 @@ fn log_volt_candidate(
     }))
 }
 
+/// A straight line through the nominal ZVS boundary in code space: the
+/// boundary's current code (after the sensor zero) at the lowest and the
+/// highest voltage code of the range. Found by bisection on the model's
+/// window at the two voltages; where the range holds no boundary at a
+/// voltage, the line J = 1 of the lookup's ZVS test stands in there.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct BoundaryLine {
+    /// Current code at `vin.lo`.
+    pub at_lo: f64,
+    /// Current code at `vin.hi`.
+    pub at_hi: f64,
+}
+
+impl BoundaryLine {
+    /// The line of `design`, from `model`.
+    #[must_use]
+    pub fn of(design: &Design, model: &ExactModel<'_>) -> Self {
+        let s = sensing(design);
+        let on_zvs_line =
+            |cv: u16| f64::from(cv) * f64::from(s.zvs_vin_mul) / f64::from(s.zvs_io_mul);
+        let at = |cv: u16| {
+            let vin = design.vin_of(cv);
+            let zvs = |ci: f64| {
+                model
+                    .at(vin, ci * design.io_amps_per_code)
+                    .is_ok_and(|p| p.window.is_some())
+            };
+            let (mut lo, mut hi) = (0.5, 4.0 * f64::from(s.io.hi - s.io_zero));
+            if model.dry || zvs(lo) || !zvs(hi) {
+                return on_zvs_line(cv);
+            }
+            while hi - lo > 0.05 {
+                let mid = 0.5 * (lo + hi);
+                if zvs(mid) {
+                    hi = mid;
+                } else {
+                    lo = mid;
+                }
+            }
+            hi
+        };
+        Self {
+            at_lo: at(s.vin.lo),
+            at_hi: at(s.vin.hi),
+        }
+    }
+}
+
+/// The margin layout (the current's margin over `line` by voltage code)
+/// with columns `2^c` current codes apart and rows `2^vs` voltage codes
+/// apart, and the fractional bits of [`log_volt_candidate`]. `d` steps
+/// `2^15` per column, so `io_mul = 2^(15 - c)`; the line's slope sets
+/// `vin_mul`, and the offset puts the boundary at the lowest voltage on a
+/// column line (the rounding of the slope moves it by at most a
+/// 2^-16 column per voltage code elsewhere).
+fn margin_candidate(
+    design: &Design,
+    model: &ExactModel<'_>,
+    max_ticks: f64,
+    line: BoundaryLine,
+    c: u32,
+    vs: u32,
+) -> Result<Option<Generated>, GenerateError> {
+    const ST: u32 = 15;
+    let s = sensing(design);
+    let tick_bits = bits(max_ticks.ceil() as u32);
+    if c > ST || vs + tick_bits > 16 {
+        return Ok(None);
+    }
+    let frac = (16 - tick_bits).min(16 - vs).min(12);
+    let a = ST - c;
+    let io_mul = 1i64 << a;
+    let (v0, v1) = (i64::from(s.vin.lo), i64::from(s.vin.hi));
+    let slope = (line.at_hi - line.at_lo) / (v1 - v0).max(1) as f64;
+    let vin_mul = (slope * io_mul as f64).round();
+    if !(f64::from(i16::MIN)..=f64::from(i16::MAX)).contains(&vin_mul) {
+        return Ok(None);
+    }
+    let vin_mul = vin_mul as i64;
+    // d at the boundary at v0 before the offset, and the offset: a
+    // multiple of the column step past it, large enough for d >= 0.
+    let b = (line.at_lo * io_mul as f64).round() as i64 - v0 * vin_mul;
+    let i0 = i64::from(s.io.lo - s.io_zero);
+    let i1 = i64::from(s.io.hi - s.io_zero);
+    let most_sub = if vin_mul > 0 {
+        v1 * vin_mul
+    } else {
+        v0 * vin_mul
+    };
+    let least_sub = if vin_mul > 0 {
+        v0 * vin_mul
+    } else {
+        v1 * vin_mul
+    };
+    let step = 1i64 << ST;
+    let k = (b + most_sub - i0 * io_mul).div_euclid(step) + 1;
+    let k = k.max(b.div_euclid(step) + 1);
+    let offset = k * step - b;
+    let hi = i1 * io_mul + offset - least_sub;
+    let Ok(offset) = u32::try_from(offset) else {
+        return Ok(None);
+    };
+    if hi > i64::from(u32::MAX) {
+        return Ok(None);
+    }
+    let cols = (hi.div_euclid(step) + 2).max(2) as u32;
+    let rows = (u32::from(s.vin.hi - s.vin.lo).div_ceil(1 << vs) + 1).max(2);
+    if rows * cols > 8192 || cols > u32::from(u16::MAX) {
+        return Ok(None);
+    }
+    let (i_lo, i_hi) = (i0 as f64, i1 as f64);
+    let entries = node_entries(model, rows, cols, frac, |r, col| {
+        let cv = i64::from(s.vin.lo) + (i64::from(r) << vs);
+        let d = i64::from(col) * step;
+        // Nodes beyond the range hold the aim at the nearest current.
+        let ci = ((d - i64::from(offset) + cv * vin_mul) as f64 / io_mul as f64).clamp(i_lo, i_hi);
+        (
+            cv as f64 * design.vin_volts_per_code,
+            ci * design.io_amps_per_code,
+        )
+    })?;
+    Ok(Some(Generated {
+        sensing: s,
+        layout: Layout::Margin(MarginLayout {
+            io_mul: io_mul as u16,
+            vin_mul: vin_mul as i16,
+            offset,
+            step_shift: ST as u8,
+            cols: cols as u16,
+            vin_shift: vs as u8,
+            rows: rows as u16,
+        }),
+        frac_bits: frac as u8,
+        fallback: design.fallback,
+        entries,
+    }))
+}
+
+/// The ratio-volt layout (code ratio by voltage code) with ratio shift
+/// `sh`, columns `2^15` apart in the ratio, rows `2^vs` voltage codes apart
+/// and the fractional bits of [`log_volt_candidate`]. Column 0 sits so that
+/// a column line passes through the boundary `line` at the lowest voltage.
+fn ratio_volt_candidate(
+    design: &Design,
+    model: &ExactModel<'_>,
+    max_ticks: f64,
+    line: BoundaryLine,
+    sh: u32,
+    vs: u32,
+) -> Result<Option<Generated>, GenerateError> {
+    const ST: u32 = 15;
+    let s = sensing(design);
+    let tick_bits = bits(max_ticks.ceil() as u32);
+    if vs + tick_bits > 16 {
+        return Ok(None);
+    }
+    let frac = (16 - tick_bits).min(16 - vs).min(12);
+    let Ok((q_min, q_max)) = ratio_bounds(&s, sh as u8) else {
+        return Ok(None);
+    };
+    let step = 1u64 << ST;
+    let q_b = (f64::from(u32::from(s.vin.lo) << sh) / line.at_lo.max(1e-3)).round() as u64;
+    let q_lo = q_b
+        .checked_sub(q_b.saturating_sub(u64::from(q_min)).div_ceil(step) * step)
+        .filter(|&q| q <= u64::from(q_min))
+        .unwrap_or(u64::from(q_min)) as u32;
+    let cols = ((u64::from(q_max) - u64::from(q_lo)).div_ceil(step) + 1).max(2);
+    let rows = (u32::from(s.vin.hi - s.vin.lo).div_ceil(1 << vs) + 1).max(2);
+    if cols * u64::from(rows) > 8192 {
+        return Ok(None);
+    }
+    let cols = cols as u32;
+    let (i_lo, i_hi) = (
+        f64::from(s.io.lo - s.io_zero),
+        f64::from(s.io.hi - s.io_zero),
+    );
+    let entries = node_entries(model, rows, cols, frac, |r, c| {
+        let cv = f64::from(u32::from(s.vin.lo) + (r << vs));
+        let q = f64::from(q_lo) + f64::from(c) * step as f64;
+        // Nodes beyond the range hold the aim at the nearest current.
+        let ci = (cv * f64::from(1u32 << sh) / q).clamp(i_lo, i_hi);
+        (cv * design.vin_volts_per_code, ci * design.io_amps_per_code)
+    })?;
+    Ok(Some(Generated {
+        sensing: s,
+        layout: Layout::RatioVolt(RatioVoltLayout {
+            ratio_shift: sh as u8,
+            q_lo,
+            step_shift: ST as u8,
+            cols: cols as u16,
+            vin_shift: vs as u8,
+            rows: rows as u16,
+        }),
+        frac_bits: frac as u8,
+        fallback: design.fallback,
+        entries,
+    }))
+}
+
 /// The entries of a 2-D layout, row-major: the table aim at the operating
 /// point (volt, ampere) that `at` gives for node (row, column).
 fn node_entries(
@@ -814,6 +1015,11 @@ enum Plan {
     Grid(u32, u32),
     /// Log ratio by voltage: lambda step and voltage-row step shifts.
     LogVolt(u32, u32),
+    /// Margin over the boundary line by voltage: column and row spacing
+    /// shifts, in codes.
+    Margin(BoundaryLine, u32, u32),
+    /// Ratio by voltage: ratio shift and row spacing shift.
+    RatioVolt(BoundaryLine, u32, u32),
 }
 
 impl Plan {
@@ -830,6 +1036,10 @@ impl Plan {
             Plan::LogUniform(st, f) => log_uniform_candidate(design, model, max_ticks, st, f),
             Plan::Grid(vs, is) => grid_candidate(design, model, max_ticks, vs, is),
             Plan::LogVolt(st, vs) => log_volt_candidate(design, model, max_ticks, st, vs),
+            Plan::Margin(line, c, vs) => margin_candidate(design, model, max_ticks, line, c, vs),
+            Plan::RatioVolt(line, sh, vs) => {
+                ratio_volt_candidate(design, model, max_ticks, line, sh, vs)
+            }
         }
     }
 }
@@ -923,6 +1133,26 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
             for vs in 3..=12u32 {
                 if let Some(g) = Plan::LogVolt(step, vs).build(design, &dry, max_ticks)? {
                     pool.push((g, Plan::LogVolt(step, vs)));
+                }
+            }
+        }
+    }
+    if matches!(design.layout, L::Auto | L::Margin | L::RatioVolt) {
+        let line = BoundaryLine::of(design, &model);
+        for vs in 3..=12u32 {
+            if matches!(design.layout, L::Auto | L::Margin) {
+                for c in 0..=12u32 {
+                    if let Some(g) = Plan::Margin(line, c, vs).build(design, &dry, max_ticks)? {
+                        pool.push((g, Plan::Margin(line, c, vs)));
+                    }
+                }
+            }
+            if matches!(design.layout, L::Auto | L::RatioVolt) {
+                for sh in 0..=(32 - bits(u32::from(design.vin_codes.hi))) {
+                    let plan = Plan::RatioVolt(line, sh, vs);
+                    if let Some(g) = plan.build(design, &dry, max_ticks)? {
+                        pool.push((g, plan));
+                    }
                 }
             }
         }
@@ -1066,6 +1296,17 @@ fn shape(g: &Generated) -> String {
         Layout::Grid(gr) => format!(
             "{} x {} nodes, steps 2^{} x 2^{} codes",
             gr.rows, gr.cols, gr.vin_shift, gr.io_shift
+        ),
+        Layout::RatioVolt(gr) => format!(
+            "{} x {} nodes, steps 2^{} voltage codes x 2^{} in the code ratio << {}",
+            gr.rows, gr.cols, gr.vin_shift, gr.step_shift, gr.ratio_shift
+        ),
+        Layout::Margin(gr) => format!(
+            "{} x {} nodes, steps 2^{} voltage codes x 2^{} current codes over the boundary line",
+            gr.rows,
+            gr.cols,
+            gr.vin_shift,
+            u32::from(gr.step_shift) - gr.io_mul.trailing_zeros()
         ),
         Layout::LogVolt(gr) => format!(
             "{} x {} nodes, steps 2^{} codes x 2^{} in Q15 log2",

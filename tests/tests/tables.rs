@@ -214,9 +214,9 @@ fn c_header_matches_the_rust_lookup() {
         return;
     }
     // The demo (log-volt layout), the held-out design, and the held-out
-    // design forced to the grid layout with a fixed fallback, to the
-    // log-spaced and the uniform ratio layouts, and to the reciprocal-ratio
-    // layout (every C branch).
+    // design forced to the margin and the ratio-volt layouts, to the grid
+    // layout with a fixed fallback, to the log-spaced and the uniform ratio
+    // layouts, and to the reciprocal-ratio layout (every C branch).
     let demo = Design::load(&repo().join("tables/winch_aux.toml")).unwrap();
     let grid_text = HELD_OUT
         .replace("name = \"held_out_boost\"", "name = \"held_out_grid\"")
@@ -244,8 +244,21 @@ fn c_header_matches_the_rust_lookup() {
             "max_error_ticks = 1.0",
             "max_error_ticks = 1.0\nlayout = \"recip-ratio\"",
         );
+    let forced = |name: &str, layout: &str| {
+        HELD_OUT
+            .replace(
+                "name = \"held_out_boost\"",
+                &format!("name = \"held_out_{name}\""),
+            )
+            .replace(
+                "max_error_ticks = 1.0",
+                &format!("max_error_ticks = 1.0\nlayout = \"{layout}\""),
+            )
+    };
     let designs = [
         demo,
+        Design::parse(&forced("margin", "margin"), "margin.toml").unwrap(),
+        Design::parse(&forced("ratio_volt", "ratio-volt"), "ratio_volt.toml").unwrap(),
         Design::parse(&recip_text, "recip.toml").unwrap(),
         Design::parse(&log_text, "log.toml").unwrap(),
         Design::parse(HELD_OUT, "held_out.toml").unwrap(),

@@ -37,8 +37,8 @@ pub const fn log_ratio_index(vin: u32, io: u32) -> u32 {
 
 /// Version of the `.bin` blob layout this build writes and reads
 /// (see the `blob` module, feature `blob`).
-/// Version 2 added [`Layout::LogVolt`].
-pub const FORMAT_VERSION: u16 = 2;
+/// Version 2 added [`Layout::LogVolt`], version 3 [`Layout::Margin`].
+pub const FORMAT_VERSION: u16 = 3;
 
 /// Table entries: commanded delay in ticks times `2^frac_bits`, one `u16`
 /// per node.
@@ -218,6 +218,76 @@ pub struct LogVoltLayout {
     pub rows: u16,
 }
 
+/// Two dimensions, no division and no logarithm: along the columns the
+/// current code's margin over a straight line through the ZVS boundary,
+/// `d = (io - zero) * io_mul + offset - vin * vin_mul` (an affine function
+/// of the two codes, so the boundary's kink lies on a column line at every
+/// voltage the line passes through it), and along the rows the voltage
+/// code. Node (r, k) sits at `vin = vin.lo + r * 2^vin_shift` and
+/// `d = k * 2^step_shift`, stored row-major (`r * cols + k`). The lookup
+/// interpolates along `d` in the two rows around the voltage (each rounded
+/// back to entry units, at most half a unit of `2^-frac_bits` ticks), then
+/// linearly between them, as [`LogVoltLayout`] does.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+pub struct MarginLayout {
+    /// Weight of the current code (after the sensor zero) in `d`.
+    pub io_mul: u16,
+    /// Weight of the voltage code in `d` (the line's slope, current codes
+    /// per voltage code, times `io_mul`; negative where the boundary
+    /// current falls with the voltage).
+    pub vin_mul: i16,
+    /// Constant of `d`, so that `d >= 0` over the design range.
+    pub offset: u32,
+    /// Column spacing is `2^step_shift` in `d`.
+    pub step_shift: u8,
+    /// Number of columns (at least 2).
+    pub cols: u16,
+    /// Row spacing, `2^vin_shift` voltage codes.
+    pub vin_shift: u8,
+    /// Number of rows (at least 2).
+    pub rows: u16,
+}
+
+impl MarginLayout {
+    /// The column coordinate `d` of a code pair (`io` already offset by the
+    /// sensor zero), in the lookup's wrapping arithmetic (exact for the
+    /// design range of a validated table).
+    #[inline(always)]
+    #[must_use]
+    pub const fn margin(&self, vin: u32, io: u32) -> u32 {
+        io.wrapping_mul(self.io_mul as u32)
+            .wrapping_add(self.offset)
+            .wrapping_sub(vin.wrapping_mul(self.vin_mul as i32 as u32))
+    }
+}
+
+/// Two dimensions: the code ratio `q = (vin << ratio_shift) / (io - zero)`
+/// along the columns (one division: a single instruction on cores that
+/// have one) and the raw voltage code along the rows. The dominant term of
+/// the delay above the ZVS boundary, charging the switch node's charge at
+/// the load current, is linear in `q` at each voltage. Node (r, k) sits at
+/// `vin = vin.lo + r * 2^vin_shift` and `q = q_lo + k * 2^step_shift`,
+/// stored row-major; interpolated as [`LogVoltLayout`].
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+pub struct RatioVoltLayout {
+    /// Left shift of the voltage code before the division.
+    pub ratio_shift: u8,
+    /// Ratio at column 0.
+    pub q_lo: u32,
+    /// Column spacing is `2^step_shift` in `q`.
+    pub step_shift: u8,
+    /// Number of columns (at least 2).
+    pub cols: u16,
+    /// Row spacing, `2^vin_shift` voltage codes.
+    pub vin_shift: u8,
+    /// Number of rows (at least 2).
+    pub rows: u16,
+}
+
 /// How a table is indexed.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
@@ -237,6 +307,11 @@ pub enum Layout {
     RecipRatio(RecipRatioLayout),
     /// 2-D: log(code ratio) by voltage code (no division).
     LogVolt(LogVoltLayout),
+    /// 2-D: the current's margin over a line through the ZVS boundary by
+    /// voltage code (no division, no logarithm).
+    Margin(MarginLayout),
+    /// 2-D: code ratio by voltage code (one division).
+    RatioVolt(RatioVoltLayout),
 }
 
 /// What to command where ZVS is impossible (J < 1).
@@ -540,6 +615,59 @@ const fn check(
             }
             (g.rows as u32) * (g.cols as u32)
         }
+        Layout::RatioVolt(g) => {
+            if g.cols < 2
+                || g.rows < 2
+                || g.step_shift > 15
+                || (g.vin_shift as u32) + (frac_bits as u32) > 16
+            {
+                return Err(TableError::Layout(
+                    "ratio-volt table needs 2+ rows and columns, step_shift <= 15 and vin_shift + frac_bits <= 16",
+                ));
+            }
+            let (q_min, q_max) = match ratio_bounds(s, g.ratio_shift) {
+                Ok(b) => b,
+                Err(e) => return Err(e),
+            };
+            let span = ((g.cols - 1) as u64) << g.step_shift;
+            let cover_v = ((g.rows - 1) as u32) << g.vin_shift;
+            if g.q_lo > q_min
+                || (g.q_lo as u64) + span < (q_max as u64)
+                || cover_v < ((s.vin.hi - s.vin.lo) as u32)
+            {
+                return Err(TableError::Layout(
+                    "ratio-volt nodes do not cover the design range",
+                ));
+            }
+            (g.rows as u32) * (g.cols as u32)
+        }
+        Layout::Margin(g) => {
+            // Rows as for log-volt; d is affine in the codes, so its
+            // extremes over the range lie at the corners, each computed
+            // exactly in 64 bits and required to fit 32.
+            if g.cols < 2
+                || g.rows < 2
+                || g.step_shift > 15
+                || (g.vin_shift as u32) + (frac_bits as u32) > 16
+            {
+                return Err(TableError::Layout(
+                    "margin table needs 2+ rows and columns, step_shift <= 15 and vin_shift + frac_bits <= 16",
+                ));
+            }
+            let (lo, hi) = margin_bounds(s, &g);
+            let span = ((g.cols - 1) as i64) << g.step_shift;
+            let cover_v = ((g.rows - 1) as u32) << g.vin_shift;
+            if lo < 0
+                || hi > span
+                || hi > u32::MAX as i64
+                || cover_v < ((s.vin.hi - s.vin.lo) as u32)
+            {
+                return Err(TableError::Layout(
+                    "margin nodes do not cover the design range, or d leaves 0..2^32",
+                ));
+            }
+            (g.rows as u32) * (g.cols as u32)
+        }
     };
     if frac_bits > 15 {
         return Err(TableError::Layout("frac_bits must be at most 15"));
@@ -553,6 +681,18 @@ const fn check(
         return Err(TableError::EntryCount { expected, found });
     }
     Ok(())
+}
+
+/// The smallest and largest exact `d` of a margin layout over the design
+/// range (`d` is affine in the codes: its extremes lie at the corners).
+const fn margin_bounds(s: &Sensing, g: &MarginLayout) -> (i64, i64) {
+    let (v0, v1) = (s.vin.lo as i64, s.vin.hi as i64);
+    let (i0, i1) = ((s.io.lo - s.io_zero) as i64, (s.io.hi - s.io_zero) as i64);
+    let (a, b, c) = (g.io_mul as i64, g.vin_mul as i64, g.offset as i64);
+    // Smallest: the least current with the voltage that subtracts most.
+    let lo = i0 * a + c - if b > 0 { v1 * b } else { v0 * b };
+    let hi = i1 * a + c - if b > 0 { v0 * b } else { v1 * b };
+    (lo, hi)
 }
 
 /// The cell and the fraction into it of offset `d` along an axis whose
@@ -695,6 +835,36 @@ impl<E: Entries> DelayTable<E> {
         )
     }
 
+    /// The 2-D interpolation of [`LogVoltLayout`] and [`MarginLayout`]:
+    /// along the column coordinate `d` (nodes `2^st` apart) in the two rows
+    /// around voltage code `v` (rows `2^vs` codes apart), each rounded back
+    /// to entry units, then linearly between the rows: `(y, vs)`.
+    #[inline(always)]
+    fn rows_then_volts(&self, d: u32, st: u8, cols: u16, v: u32, vs: u8, rows: u16) -> (u32, u32) {
+        let st = u32::from(st);
+        let one = 1u32.wrapping_shl(st);
+        let (k, fl) = cell(d, st, cols);
+        let vs = u32::from(vs);
+        let one_v = 1u32.wrapping_shl(vs);
+        let dv = v.wrapping_sub(u32::from(self.sensing.vin.lo));
+        let (r, fr) = cell(dv, vs, rows);
+        let cols = u32::from(cols);
+        let base = r.wrapping_mul(cols).wrapping_add(k);
+        let e = |k: u32| u32::from(self.entries.at(k as usize));
+        let half = one >> 1;
+        let along = |b: u32| {
+            e(b).wrapping_mul(one.wrapping_sub(fl))
+                .wrapping_add(e(b.wrapping_add(1)).wrapping_mul(fl))
+                .wrapping_add(half)
+                .wrapping_shr(st)
+        };
+        let (y0, y1) = (along(base), along(base.wrapping_add(cols)));
+        let y = y0
+            .wrapping_mul(one_v.wrapping_sub(fr))
+            .wrapping_add(y1.wrapping_mul(fr));
+        (y, vs)
+    }
+
     /// The delay for the sensed codes: clamps both codes to the design
     /// range, applies the fallback where J < 1, and otherwise interpolates
     /// the table. Integer-only; no division in the grid layout, one 32-bit
@@ -772,29 +942,20 @@ impl<E: Entries> DelayTable<E> {
                 (y, vs.wrapping_add(is))
             }
             Layout::LogVolt(g) => {
-                let st = u32::from(g.step_shift);
-                let one = 1u32.wrapping_shl(st);
                 let d = log_ratio_index(v, i).saturating_sub(g.lambda_lo);
-                let (k, fl) = cell(d, st, g.cols);
-                let vs = u32::from(g.vin_shift);
-                let one_v = 1u32.wrapping_shl(vs);
-                let dv = v.wrapping_sub(u32::from(s.vin.lo));
-                let (r, fr) = cell(dv, vs, g.rows);
-                let cols = u32::from(g.cols);
-                let base = r.wrapping_mul(cols).wrapping_add(k);
-                let e = |k: u32| u32::from(self.entries.at(k as usize));
-                let half = one >> 1;
-                let along = |b: u32| {
-                    e(b).wrapping_mul(one.wrapping_sub(fl))
-                        .wrapping_add(e(b.wrapping_add(1)).wrapping_mul(fl))
-                        .wrapping_add(half)
-                        .wrapping_shr(st)
-                };
-                let (y0, y1) = (along(base), along(base.wrapping_add(cols)));
-                let y = y0
-                    .wrapping_mul(one_v.wrapping_sub(fr))
-                    .wrapping_add(y1.wrapping_mul(fr));
-                (y, vs)
+                self.rows_then_volts(d, g.step_shift, g.cols, v, g.vin_shift, g.rows)
+            }
+            Layout::RatioVolt(g) => {
+                let q = v
+                    .wrapping_shl(u32::from(g.ratio_shift))
+                    .checked_div(i)
+                    .unwrap_or(u32::MAX);
+                let d = q.saturating_sub(g.q_lo);
+                self.rows_then_volts(d, g.step_shift, g.cols, v, g.vin_shift, g.rows)
+            }
+            Layout::Margin(g) => {
+                let d = g.margin(v, i);
+                self.rows_then_volts(d, g.step_shift, g.cols, v, g.vin_shift, g.rows)
             }
         };
         let total = shift.wrapping_add(f);

@@ -285,3 +285,157 @@ fn log_volt_lookup_interpolates_bilinear_data_exactly() {
         Err(TableError::Layout(_))
     ));
 }
+
+#[test]
+fn margin_lookup_interpolates_bilinear_data_exactly() {
+    use timing_core::table::MarginLayout;
+    let s = sensing();
+    // d = (i - zero) * 16 + offset - v * 5: the line i - zero = 5 v / 16
+    // (625 codes at v = 2000) is d = offset, the column line k = 12 for the
+    // offset 12 * 1024, the least multiple of the step with d >= 0 at the
+    // smallest current and highest voltage.
+    let mut g = MarginLayout {
+        io_mul: 16,
+        vin_mul: 5,
+        offset: 0,
+        step_shift: 10,
+        cols: 2,
+        vin_shift: 6,
+        rows: 17,
+    };
+    g.offset = 12 * 1024;
+    let d = |v: u16, i: u16| i64::from(i - 100) * 16 + i64::from(g.offset) - i64::from(v) * 5;
+    assert!(d(3000, 300) >= 0);
+    g.cols = (d(2000, 2000) >> 10) as u16 + 2;
+    assert_eq!(
+        d(2000, 725) % 1024,
+        0,
+        "the line sits on a column at v = 2000"
+    );
+    // ticks = 30 + 3 k + r/2 at node (r, k), frac_bits 4: linear in d and
+    // in the voltage code, so interpolation reproduces it up to the
+    // rounding of each row (half an entry unit) and the final rounding.
+    let mut entries = Vec::new();
+    for r in 0..g.rows {
+        for k in 0..g.cols {
+            entries.push(16 * (30 + 3 * k) + 8 * r);
+        }
+    }
+    let t = DelayTable::new(
+        s,
+        Layout::Margin(g),
+        4,
+        Fallback::Valley,
+        entries.as_slice(),
+    )
+    .unwrap();
+    for v in (2000u16..=3000).step_by(11) {
+        for i in (300u16..=2000).step_by(13) {
+            assert_eq!(
+                i64::from(g.margin(u32::from(v), u32::from(i - 100))),
+                d(v, i)
+            );
+            let k = d(v, i) as f64 / 1024.0;
+            let expect = 30.0 + 3.0 * k + f64::from(v - 2000) / 64.0 / 2.0;
+            let got = t.delay(AdcCode::new(v), AdcCode::new(i)).ticks.get();
+            assert!(
+                (f64::from(got) - expect).abs() <= 0.5 + 1.0 / 32.0 + 1e-9,
+                "v {v} i {i}: {got} vs {expect}"
+            );
+        }
+    }
+    // A negative slope works the same way (wrapping arithmetic, exact).
+    let neg = MarginLayout {
+        vin_mul: -5,
+        offset: 0,
+        cols: ((1900 * 16 + 3000 * 5) >> 10) + 2,
+        ..g
+    };
+    let e = vec![160u16; usize::from(neg.rows) * usize::from(neg.cols)];
+    let tn = DelayTable::new(s, Layout::Margin(neg), 4, Fallback::Valley, e.as_slice()).unwrap();
+    assert_eq!(
+        tn.delay(AdcCode::new(2500), AdcCode::new(900)).ticks.get(),
+        10
+    );
+    // d below zero somewhere in the range: refused.
+    let low = MarginLayout {
+        offset: g.offset - 1024,
+        ..g
+    };
+    assert!(matches!(
+        DelayTable::new(
+            s,
+            Layout::Margin(low),
+            4,
+            Fallback::Valley,
+            entries.as_slice()
+        ),
+        Err(TableError::Layout(_))
+    ));
+    // Columns that stop short of the range: refused.
+    let short = MarginLayout {
+        cols: g.cols - 1,
+        ..g
+    };
+    let e = vec![0u16; usize::from(short.rows) * usize::from(short.cols)];
+    assert!(matches!(
+        DelayTable::new(s, Layout::Margin(short), 4, Fallback::Valley, e.as_slice()),
+        Err(TableError::Layout(_))
+    ));
+}
+
+#[test]
+fn ratio_volt_lookup_interpolates_bilinear_data_exactly() {
+    use timing_core::table::{ratio_bounds, RatioVoltLayout};
+    let s = sensing();
+    let (q_min, q_max) = ratio_bounds(&s, 12).unwrap();
+    let g = RatioVoltLayout {
+        ratio_shift: 12,
+        q_lo: q_min - 50,
+        step_shift: 11,
+        cols: ((q_max - (q_min - 50)) >> 11) as u16 + 2,
+        vin_shift: 6,
+        rows: 17,
+    };
+    let mut entries = Vec::new();
+    for r in 0..g.rows {
+        for k in 0..g.cols {
+            entries.push(16 * (30 + k) + 8 * r);
+        }
+    }
+    let t = DelayTable::new(
+        s,
+        Layout::RatioVolt(g),
+        4,
+        Fallback::Valley,
+        entries.as_slice(),
+    )
+    .unwrap();
+    for v in (2000u16..=3000).step_by(11) {
+        for i in (300u16..=2000).step_by(13) {
+            let q = (u32::from(v) << 12) / u32::from(i - 100);
+            let k = f64::from(q - g.q_lo) / 2048.0;
+            let expect = 30.0 + k + f64::from(v - 2000) / 64.0 / 2.0;
+            let got = t.delay(AdcCode::new(v), AdcCode::new(i)).ticks.get();
+            assert!(
+                (f64::from(got) - expect).abs() <= 0.5 + 1.0 / 32.0 + 1e-9,
+                "v {v} i {i}: {got} vs {expect}"
+            );
+        }
+    }
+    // Column 0 above the smallest ratio: refused.
+    let late = RatioVoltLayout {
+        q_lo: q_min + 1,
+        ..g
+    };
+    assert!(matches!(
+        DelayTable::new(
+            s,
+            Layout::RatioVolt(late),
+            4,
+            Fallback::Valley,
+            entries.as_slice()
+        ),
+        Err(TableError::Layout(_))
+    ));
+}
