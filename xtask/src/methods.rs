@@ -156,7 +156,9 @@ fn table_text(root: &Path) -> Result<String, String> {
         "\nWorst errors are proven on the host at all {points} code pairs of the demo design \
          against the exact model (the numerical ring over the demo's Coss curve and loop \
          resistance), for the code each core runs (the table in the layout its \
-         build asks for: `log-volt` on both cores), and against the design's aim (inside the \
+         build asks for: `ratio-volt` on the Cortex-M4F, whose division is one instruction, \
+         and `margin` on the Cortex-M0, which has none and trades flash for instructions), \
+         and against the design's aim (inside the \
          robust window of its `[tolerance]` table where one a tick wide exists, and the \
          continuous minimax aim elsewhere), which the table follows; the closed forms aim at \
          the nominal window. The table is fitted to each code pair's interval: every command \
