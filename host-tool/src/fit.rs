@@ -120,6 +120,22 @@ impl Requirements {
         }
     }
 
+    /// The pairs whose codes are both multiples of `every`: a sample for
+    /// screening layouts (a layout that misses a sample's interval misses
+    /// the full set's).
+    #[must_use]
+    pub fn sample(&self, every: u16) -> Self {
+        let every = every.max(1);
+        Self {
+            pairs: self
+                .pairs
+                .iter()
+                .filter(|r| r.vin % every == 0 && r.io % every == 0)
+                .copied()
+                .collect(),
+        }
+    }
+
     /// The pairs whose command by `g` misses its interval, and the worst
     /// |command - aim| over all pairs, ticks.
     #[must_use]
@@ -199,6 +215,25 @@ const ROUNDS: usize = 8;
 /// too coarse) or the loop did not close.
 #[must_use]
 pub fn fit(req: &Requirements, g: &Generated) -> Option<Vec<u16>> {
+    fit_or_why(req, g).ok()
+}
+
+/// Why [`fit`] found no entries.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum NoFit {
+    /// The solver proved the programme infeasible: no entries of this
+    /// layout meet the selected pairs' intervals, so none meet all.
+    Infeasible,
+    /// The solver stopped without an answer, or the cutting-plane loop did
+    /// not close within its rounds.
+    Unsettled,
+}
+
+/// [`fit`], saying why when it finds no entries.
+///
+/// # Errors
+/// [`NoFit`].
+pub fn fit_or_why(req: &Requirements, g: &Generated) -> Result<Vec<u16>, NoFit> {
     let n = g.entries.len();
     let scale = f64::from(1u32 << g.frac_bits);
     // The entries' own rounding moves the interpolant by at most half a
@@ -209,7 +244,8 @@ pub fn fit(req: &Requirements, g: &Generated) -> Option<Vec<u16>> {
         .pairs
         .iter()
         .map(|r| stencil(g, r.vin, r.io))
-        .collect::<Option<_>>()?;
+        .collect::<Option<_>>()
+        .ok_or(NoFit::Unsettled)?;
     // Least squares to the aim over every pair, plus the pull.
     let pull = 1e-3 * (req.pairs.len() as f64 / n as f64).max(1.0);
     let mut p = std::collections::BTreeMap::<(usize, usize), f64>::new();
@@ -245,9 +281,7 @@ pub fn fit(req: &Requirements, g: &Generated) -> Option<Vec<u16>> {
     // with the highest lower bound and the one with the lowest upper.
     let mut pick = std::collections::HashMap::<(usize, u32), (usize, usize)>::new();
     for (k, (st, r)) in stencils.iter().zip(&req.pairs).enumerate() {
-        let (tl, tv) = (st[1].1 + st[3].1, st[2].1 + st[3].1);
-        let sub = ((tl * SUB).min(SUB - 1.0) as u32) * 16 + (tv * SUB).min(SUB - 1.0) as u32;
-        let e = pick.entry((st[0].0, sub)).or_insert((k, k));
+        let e = pick.entry(sub_cell(st)).or_insert((k, k));
         if r.lo > req.pairs[e.0].lo {
             e.0 = k;
         }
@@ -267,13 +301,22 @@ pub fn fit(req: &Requirements, g: &Generated) -> Option<Vec<u16>> {
             .collect();
         let (miss, _) = req.misses(&out);
         if miss.is_empty() {
-            return Some(out.entries);
+            return Ok(out.entries);
         }
         chosen.extend(miss);
         chosen.sort_unstable();
         chosen.dedup();
     }
-    None
+    Err(NoFit::Unsettled)
+}
+
+/// The table cell of a stencil (its first node) and the sub-cell of its
+/// weights, `SUB` per axis: the groups the starting selection and the
+/// cutting planes pick their pairs from.
+fn sub_cell(st: &[(usize, f64); 4]) -> (usize, u32) {
+    let (tl, tv) = (st[1].1 + st[3].1, st[2].1 + st[3].1);
+    let sub = ((tl * SUB).min(SUB - 1.0) as u32) * 16 + (tv * SUB).min(SUB - 1.0) as u32;
+    (st[0].0, sub)
 }
 
 /// One solve of the programme over the `chosen` pairs' intervals.
@@ -285,7 +328,7 @@ fn solve(
     req: &Requirements,
     margin: f64,
     top: f64,
-) -> Option<Vec<f64>> {
+) -> Result<Vec<f64>, NoFit> {
     let n = q.len();
     let (mut ai, mut aj, mut av, mut b) = (Vec::new(), Vec::new(), Vec::new(), Vec::new());
     let mut row = 0;
@@ -318,14 +361,17 @@ fn solve(
         .verbose(false)
         .max_iter(200)
         .build()
-        .ok()?;
-    let mut solver = DefaultSolver::new(pm, q, &a, &b, &[NonnegativeConeT(row)], settings).ok()?;
+        .map_err(|_| NoFit::Unsettled)?;
+    let mut solver = DefaultSolver::new(pm, q, &a, &b, &[NonnegativeConeT(row)], settings)
+        .map_err(|_| NoFit::Unsettled)?;
     solver.solve();
-    matches!(
-        solver.solution.status,
-        SolverStatus::Solved | SolverStatus::AlmostSolved
-    )
-    .then(|| solver.solution.x.clone())
+    match solver.solution.status {
+        SolverStatus::Solved | SolverStatus::AlmostSolved => Ok(solver.solution.x.clone()),
+        SolverStatus::PrimalInfeasible | SolverStatus::AlmostPrimalInfeasible => {
+            Err(NoFit::Infeasible)
+        }
+        _ => Err(NoFit::Unsettled),
+    }
 }
 
 /// Whether the layouts of `design` may be fitted to intervals (every

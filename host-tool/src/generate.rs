@@ -1148,10 +1148,15 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
                 }
             }
             if matches!(design.layout, L::Auto | L::RatioVolt) {
-                for sh in 0..=(32 - bits(u32::from(design.vin_codes.hi))) {
+                // Finest shift first; a coarser shift with the same node
+                // count covers more ratio per column and is left out.
+                let mut counts = std::collections::HashSet::new();
+                for sh in (0..=(32 - bits(u32::from(design.vin_codes.hi)))).rev() {
                     let plan = Plan::RatioVolt(line, sh, vs);
                     if let Some(g) = plan.build(design, &dry, max_ticks)? {
-                        pool.push((g, plan));
+                        if counts.insert(g.entries.len()) {
+                            pool.push((g, plan));
+                        }
                     }
                 }
             }
@@ -1170,6 +1175,7 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
         })
     };
     let req = crate::fit::Requirements::new(design, &model, &zvs);
+    let sample = req.sample(4);
     let mut candidates = Vec::new();
     let mut best: Option<(f64, usize, &'static str)> = None;
     let mut chosen = None;
@@ -1192,8 +1198,17 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
             // not a candidate.
             continue;
         }
+        // A layout the solver proves infeasible on a sixteenth of the pairs
+        // cannot serve them all (the sample's intervals are a subset):
+        // screened on the sample first, fitted to every pair unless that
+        // proof comes.
         let fitted = if crate::fit::serves(&g) {
-            crate::fit::fit(&req, &g).map(|e| g.entries = e)
+            let screened =
+                crate::fit::fit_or_why(&sample, &g) != Err(crate::fit::NoFit::Infeasible);
+            screened
+                .then(|| crate::fit::fit(&req, &g))
+                .flatten()
+                .map(|e| g.entries = e)
         } else {
             Some(())
         };
