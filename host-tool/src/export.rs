@@ -601,40 +601,24 @@ pub fn csv(design: &Design, g: &Generated) -> String {
                 }
             }
         }
-        Layout::RatioVolt(gr) => {
-            s.push_str("row,col,vin_code,q,io_code,vin_v,io_a,exact_ticks,entry,entry_ticks\n");
-            for r in 0..u32::from(gr.rows) {
-                for c in 0..u32::from(gr.cols) {
-                    let cv = u32::from(g.sensing.vin.lo) + (r << gr.vin_shift);
-                    let q = f64::from(gr.q_lo) + f64::from(c) * f64::from(1u32 << gr.step_shift);
-                    let i = f64::from(cv) * f64::from(1u32 << gr.ratio_shift) / q;
-                    let ci = i + f64::from(g.sensing.io_zero);
-                    let vin = f64::from(cv) * design.vin_volts_per_code;
-                    let io = i * design.io_amps_per_code;
-                    let exact = model.at(vin, io).map_or(f64::NAN, |p| p.ticks);
-                    let e = g.entries[(r * u32::from(gr.cols) + c) as usize];
-                    let _ = writeln!(
-                        s,
-                        "{r},{c},{cv},{q},{ci:.2},{vin:.4},{io:.5},{exact:.4},{e},{:.4}",
-                        f64::from(e) / scale_f
-                    );
-                }
-            }
-        }
-        Layout::Margin(gr) => {
+        Layout::RatioVolt(_) | Layout::Margin(_) => {
             s.push_str("row,col,vin_code,io_code,vin_v,io_a,exact_ticks,entry,entry_ticks\n");
-            for r in 0..u32::from(gr.rows) {
-                for c in 0..u32::from(gr.cols) {
-                    let cv = u32::from(g.sensing.vin.lo) + (r << gr.vin_shift);
-                    // The node's current code (after the zero) from d.
-                    let d = f64::from(c) * f64::from(1u32 << gr.step_shift);
-                    let i = (d - f64::from(gr.offset) + f64::from(cv) * f64::from(gr.vin_mul))
-                        / f64::from(gr.io_mul);
+            let (rows, cols) = match g.layout {
+                Layout::RatioVolt(gr) => (gr.rows, gr.cols),
+                Layout::Margin(gr) => (gr.rows, gr.cols),
+                _ => (0, 0),
+            };
+            for r in 0..u32::from(rows) {
+                for c in 0..u32::from(cols) {
+                    let Some((cv, i)) = crate::generate::row_node(&g.sensing, &g.layout, r, c)
+                    else {
+                        continue;
+                    };
                     let ci = i + f64::from(g.sensing.io_zero);
-                    let vin = f64::from(cv) * design.vin_volts_per_code;
+                    let vin = cv * design.vin_volts_per_code;
                     let io = i * design.io_amps_per_code;
                     let exact = model.at(vin, io).map_or(f64::NAN, |p| p.ticks);
-                    let e = g.entries[(r * u32::from(gr.cols) + c) as usize];
+                    let e = g.entries[(r * u32::from(cols) + c) as usize];
                     let _ = writeln!(
                         s,
                         "{r},{c},{cv},{ci:.2},{vin:.4},{io:.5},{exact:.4},{e},{:.4}",

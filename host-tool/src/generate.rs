@@ -845,32 +845,16 @@ fn margin_candidate(
     if rows * cols > 8192 || cols > u32::from(u16::MAX) {
         return Ok(None);
     }
-    let (i_lo, i_hi) = (i0 as f64, i1 as f64);
-    let entries = node_entries(model, rows, cols, frac, |r, col| {
-        let cv = i64::from(s.vin.lo) + (i64::from(r) << vs);
-        let d = i64::from(col) * step;
-        // Nodes beyond the range hold the aim at the nearest current.
-        let ci = ((d - i64::from(offset) + cv * vin_mul) as f64 / io_mul as f64).clamp(i_lo, i_hi);
-        (
-            cv as f64 * design.vin_volts_per_code,
-            ci * design.io_amps_per_code,
-        )
-    })?;
-    Ok(Some(Generated {
-        sensing: s,
-        layout: Layout::Margin(MarginLayout {
-            io_mul: io_mul as u16,
-            vin_mul: vin_mul as i16,
-            offset,
-            step_shift: ST as u8,
-            cols: cols as u16,
-            vin_shift: vs as u8,
-            rows: rows as u16,
-        }),
-        frac_bits: frac as u8,
-        fallback: design.fallback,
-        entries,
-    }))
+    let layout = Layout::Margin(MarginLayout {
+        io_mul: io_mul as u16,
+        vin_mul: vin_mul as i16,
+        offset,
+        step_shift: ST as u8,
+        cols: cols as u16,
+        vin_shift: vs as u8,
+        rows: rows as u16,
+    });
+    clamped_row_table(design, model, s, layout, frac).map(Some)
 }
 
 /// The ratio-volt layout (code ratio by voltage code) with ratio shift
@@ -906,32 +890,74 @@ fn ratio_volt_candidate(
     if cols * u64::from(rows) > 8192 {
         return Ok(None);
     }
-    let cols = cols as u32;
+    let layout = Layout::RatioVolt(RatioVoltLayout {
+        ratio_shift: sh as u8,
+        q_lo,
+        step_shift: ST as u8,
+        cols: cols as u16,
+        vin_shift: vs as u8,
+        rows: rows as u16,
+    });
+    clamped_row_table(design, model, s, layout, frac).map(Some)
+}
+
+/// Where node (row `r`, column `c`) of a `ratio-volt` or `margin` layout
+/// sits: its voltage code and its current code after the sensor zero (not
+/// rounded; beyond the design range where the columns overhang it).
+/// `None` for the other layouts.
+#[must_use]
+pub fn row_node(s: &Sensing, layout: &Layout, r: u32, c: u32) -> Option<(f64, f64)> {
+    match *layout {
+        Layout::RatioVolt(g) => {
+            let cv = f64::from(u32::from(s.vin.lo) + (r << g.vin_shift));
+            let q = f64::from(g.q_lo) + f64::from(c) * f64::from(1u32 << g.step_shift);
+            Some((cv, cv * f64::from(1u32 << g.ratio_shift) / q))
+        }
+        Layout::Margin(g) => {
+            let cv = f64::from(u32::from(s.vin.lo) + (r << g.vin_shift));
+            let d = f64::from(c) * f64::from(1u32 << g.step_shift);
+            Some((
+                cv,
+                (d - f64::from(g.offset) + cv * f64::from(g.vin_mul)) / f64::from(g.io_mul),
+            ))
+        }
+        _ => None,
+    }
+}
+
+/// A `ratio-volt` or `margin` table over `layout` whose entries start as
+/// the aim at each node ([`row_node`]); nodes beyond the design range hold
+/// the aim at the nearest current of the range (the fit then moves them).
+fn clamped_row_table(
+    design: &Design,
+    model: &ExactModel<'_>,
+    s: Sensing,
+    layout: Layout,
+    frac: u32,
+) -> Result<Generated, GenerateError> {
+    let (rows, cols) = match layout {
+        Layout::RatioVolt(g) => (g.rows, g.cols),
+        Layout::Margin(g) => (g.rows, g.cols),
+        _ => (0, 0),
+    };
     let (i_lo, i_hi) = (
         f64::from(s.io.lo - s.io_zero),
         f64::from(s.io.hi - s.io_zero),
     );
-    let entries = node_entries(model, rows, cols, frac, |r, c| {
-        let cv = f64::from(u32::from(s.vin.lo) + (r << vs));
-        let q = f64::from(q_lo) + f64::from(c) * step as f64;
-        // Nodes beyond the range hold the aim at the nearest current.
-        let ci = (cv * f64::from(1u32 << sh) / q).clamp(i_lo, i_hi);
-        (cv * design.vin_volts_per_code, ci * design.io_amps_per_code)
+    let entries = node_entries(model, rows.into(), cols.into(), frac, |r, c| {
+        let (cv, ci) = row_node(&s, &layout, r, c).unwrap_or((f64::from(s.vin.lo), i_lo));
+        (
+            cv * design.vin_volts_per_code,
+            ci.clamp(i_lo, i_hi) * design.io_amps_per_code,
+        )
     })?;
-    Ok(Some(Generated {
+    Ok(Generated {
         sensing: s,
-        layout: Layout::RatioVolt(RatioVoltLayout {
-            ratio_shift: sh as u8,
-            q_lo,
-            step_shift: ST as u8,
-            cols: cols as u16,
-            vin_shift: vs as u8,
-            rows: rows as u16,
-        }),
+        layout,
         frac_bits: frac as u8,
         fallback: design.fallback,
         entries,
-    }))
+    })
 }
 
 /// The entries of a 2-D layout, row-major: the table aim at the operating
