@@ -352,9 +352,10 @@ fn every_flipped_byte_of_the_blob_is_refused() {
 }
 
 /// Blob version policy: a reader opens only its own format version and
-/// names both versions when it refuses (version 2 added the log-volt
-/// layout, which a version-1 reader cannot decode; a version-1 blob may
-/// hold a table a version-2 reader would misread if it guessed).
+/// names both versions when it refuses (each version added layouts an
+/// older reader cannot decode, version 2 log-volt and version 3 ratio-volt
+/// and margin; an older blob may hold a table a newer reader would misread
+/// if it guessed).
 #[test]
 fn a_blob_of_another_format_version_is_refused_by_name() {
     let mut blob = std::fs::read(repo().join("tables/winch_aux.bin")).unwrap();
@@ -364,7 +365,8 @@ fn a_blob_of_another_format_version_is_refused_by_name() {
         blob[4],
         u8::try_from(timing_core::blob::FORMAT_VERSION).unwrap()
     );
-    for old in [1u8, 3] {
+    let v = u8::try_from(timing_core::blob::FORMAT_VERSION).unwrap();
+    for old in [1u8, v - 1, v + 1] {
         blob[4] = old;
         let e = timing_core::blob::open(&blob, None).unwrap_err();
         assert_eq!(
