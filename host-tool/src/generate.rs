@@ -689,6 +689,21 @@ pub fn log_node_q(k: u32, e_lo: u32, m: u32) -> f64 {
     f64::from((1u32 << m) + mant) * 2f64.powi(e as i32 - m as i32)
 }
 
+/// The voltage rows shared by the 2-D row layouts (log-volt, ratio-volt,
+/// margin) for rows `2^vs` codes apart: the most fractional bits the
+/// largest delay and the row step leave (at most 12), and the rows that
+/// cover the voltage range; `None` when the largest delay and the row step
+/// together exceed the lookup's 16 bits.
+fn voltage_rows(s: &Sensing, max_ticks: f64, vs: u32) -> Option<(u32, u32)> {
+    let tick_bits = bits(max_ticks.ceil() as u32);
+    (vs + tick_bits <= 16).then(|| {
+        (
+            (16 - tick_bits).min(16 - vs).min(12),
+            (u32::from(s.vin.hi - s.vin.lo).div_ceil(1 << vs) + 1).max(2),
+        )
+    })
+}
+
 /// The log-volt layout (log ratio by voltage code) with steps `2^step`
 /// in lambda and `2^vs` voltage codes, and the most fractional bits the
 /// largest delay and the voltage step leave. Its entries start as the aim
@@ -702,13 +717,10 @@ fn log_volt_candidate(
     vs: u32,
 ) -> Result<Option<Generated>, GenerateError> {
     let s = sensing(design);
-    let tick_bits = bits(max_ticks.ceil() as u32);
-    if step > 15 || vs + tick_bits > 16 {
+    let Some((frac, rows)) = voltage_rows(&s, max_ticks, vs).filter(|_| step <= 15) else {
         return Ok(None);
-    }
-    let frac = (16 - tick_bits).min(16 - vs).min(12);
+    };
     let (lambda_lo, cols) = log_axis(&s, step);
-    let rows = (u32::from(s.vin.hi - s.vin.lo).div_ceil(1 << vs) + 1).max(2);
     if rows * cols > 8192 {
         return Ok(None);
     }
@@ -800,11 +812,9 @@ fn margin_candidate(
 ) -> Result<Option<Generated>, GenerateError> {
     const ST: u32 = 15;
     let s = sensing(design);
-    let tick_bits = bits(max_ticks.ceil() as u32);
-    if c > ST || vs + tick_bits > 16 {
+    let Some((frac, rows)) = voltage_rows(&s, max_ticks, vs).filter(|_| c <= ST) else {
         return Ok(None);
-    }
-    let frac = (16 - tick_bits).min(16 - vs).min(12);
+    };
     let a = ST - c;
     let io_mul = 1i64 << a;
     let (v0, v1) = (i64::from(s.vin.lo), i64::from(s.vin.hi));
@@ -841,7 +851,6 @@ fn margin_candidate(
         return Ok(None);
     }
     let cols = (hi.div_euclid(step) + 2).max(2) as u32;
-    let rows = (u32::from(s.vin.hi - s.vin.lo).div_ceil(1 << vs) + 1).max(2);
     if rows * cols > 8192 || cols > u32::from(u16::MAX) {
         return Ok(None);
     }
@@ -871,11 +880,9 @@ fn ratio_volt_candidate(
 ) -> Result<Option<Generated>, GenerateError> {
     const ST: u32 = 15;
     let s = sensing(design);
-    let tick_bits = bits(max_ticks.ceil() as u32);
-    if vs + tick_bits > 16 {
+    let Some((frac, rows)) = voltage_rows(&s, max_ticks, vs) else {
         return Ok(None);
-    }
-    let frac = (16 - tick_bits).min(16 - vs).min(12);
+    };
     let Ok((q_min, q_max)) = ratio_bounds(&s, sh as u8) else {
         return Ok(None);
     };
@@ -886,7 +893,6 @@ fn ratio_volt_candidate(
         .filter(|&q| q <= u64::from(q_min))
         .unwrap_or(u64::from(q_min)) as u32;
     let cols = ((u64::from(q_max) - u64::from(q_lo)).div_ceil(step) + 1).max(2);
-    let rows = (u32::from(s.vin.hi - s.vin.lo).div_ceil(1 << vs) + 1).max(2);
     if cols * u64::from(rows) > 8192 {
         return Ok(None);
     }
