@@ -85,7 +85,7 @@ impl AimGrid {
         let (ln_v0, ln_i0) = (v.0.ln(), i.0.ln());
         let d_ln_v = ((v.1 / v.0).ln() / (nv - 1) as f64).max(1e-12);
         let d_ln_i = ((i.1 / i.0).ln() / (ni - 1) as f64).max(1e-12);
-        let rows = crate::robust_grid::parallel_rows(nv, |a| -> Result<Vec<[f64; 2]>, Error> {
+        let rows = crate::par::map_rows(nv, |a| -> Result<Vec<[f64; 2]>, Error> {
             let va = (ln_v0 + a as f64 * d_ln_v).exp();
             (0..ni)
                 .map(|b| {

@@ -380,6 +380,31 @@ pub struct Design {
     pub tolerance: Option<Tolerance>,
     /// The robust windows of the readings, built on first use.
     aim: crate::robust_aim::AimCache,
+    /// The ring's events over the design range, built on first use.
+    events: EventCache,
+}
+
+/// A design's [`EventGrid`](crate::event_grid::EventGrid) over its cell
+/// range, built on first use (`None`: an ideal tank, whose closed forms
+/// are fast already, or a tank the grid cannot serve; the ring answers
+/// then). A clone starts empty, as [`crate::robust_aim::AimCache`].
+#[derive(Default)]
+struct EventCache(std::sync::OnceLock<Option<crate::event_grid::EventGrid>>);
+
+impl Clone for EventCache {
+    fn clone(&self) -> Self {
+        Self::default()
+    }
+}
+
+impl std::fmt::Debug for EventCache {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(match self.0.get() {
+            None => "EventCache(not built)",
+            Some(Some(_)) => "EventCache(built)",
+            Some(None) => "EventCache(none)",
+        })
+    }
 }
 
 /// A design that cannot be used.
@@ -422,6 +447,36 @@ impl Design {
     /// timing-core's error for a point the model refuses.
     pub fn robust_aim(&self) -> Result<Option<&crate::robust_aim::RobustAim>, timing_core::Error> {
         self.aim.get(self)
+    }
+
+    /// The ring's events tabulated over the design's cell range
+    /// ([`crate::event_grid`]), built on the first call (about 0.1 s on two
+    /// cores) and kept; `None` for an ideal tank or where the grid cannot
+    /// be built (the ring then answers every point).
+    #[must_use]
+    pub fn event_grid(&self) -> Option<&crate::event_grid::EventGrid> {
+        self.events
+            .0
+            .get_or_init(|| {
+                let Ok(crate::real_tank::CellSolver::Ring(ring)) = self.real.solver() else {
+                    return None;
+                };
+                let (v, i) = (self.vin_codes, self.io_codes);
+                let io_hi = self.io_of(i.hi);
+                // Codes at or below the sensor zero read no current: the
+                // model refuses them whatever the grid holds.
+                let io_lo = self.io_of(i.lo).max(1e-3 * io_hi);
+                let (mut cv, mut ci) = ((f64::INFINITY, 0.0f64), (f64::INFINITY, 0.0f64));
+                for vin in [self.vin_of(v.lo), self.vin_of(v.hi)] {
+                    for io in [io_lo, io_hi] {
+                        let c = self.cell(vin, io).ok()?;
+                        cv = (cv.0.min(c.v_volt()), cv.1.max(c.v_volt()));
+                        ci = (ci.0.min(c.i_amp()), ci.1.max(c.i_amp()));
+                    }
+                }
+                crate::event_grid::EventGrid::new(&ring, cv, ci).ok()
+            })
+            .as_ref()
     }
 
     /// Read and validate a design file.
@@ -839,6 +894,7 @@ impl DesignFile {
             io_codes,
             tolerance: self.tolerance.map(|t| t.validate()).transpose()?,
             aim: crate::robust_aim::AimCache::default(),
+            events: EventCache::default(),
             // The Coss curve is part of the design: its text joins the hash.
             hash: match &coss_text {
                 None => timing_core::blob::CRC32.checksum(text.as_bytes()),

@@ -80,7 +80,7 @@ impl Requirements {
         let (v, i) = (design.vin_codes, design.io_codes);
         let budget = design.max_error_ticks;
         let fixed = matches!(design.fallback, Fallback::Fixed(_));
-        let rows = crate::robust_grid::parallel_rows(v.len() as usize, |k| {
+        let rows = crate::par::map_rows(v.len() as usize, |k| {
             let cv = v.lo + k as u16;
             let mut out = Vec::with_capacity(i.len() as usize);
             for ci in i.lo..=i.hi {

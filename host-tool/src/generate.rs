@@ -22,6 +22,12 @@ pub struct ExactModel<'a> {
     solver: CellSolver<'a>,
     /// The robust windows of the readings, when the design has tolerances.
     aim: Option<&'a RobustAim>,
+    /// The ring's events tabulated over the design range, when the tank
+    /// needs the ring ([`crate::event_grid`]); `None`: every point from
+    /// `solver`.
+    grid: Option<&'a crate::event_grid::EventGrid>,
+    /// Largest grid bound accepted, second; beyond it the ring answers.
+    max_grid_eps_s: f64,
     /// Planning only: every point is 0 ticks, no physics is run (candidate
     /// layouts are sized before their entries are worth computing).
     dry: bool,
@@ -56,8 +62,18 @@ pub struct ExactPoint {
     /// window where one a tick wide exists, else the nominal window where
     /// that is a tick wide; `None` where neither is (near and below the
     /// ZVS boundary, where only the aim and the error budget apply).
+    /// Where the nominal window sets it, it is that window less the
+    /// model's bound at both ends.
     pub required_ticks: Option<(f64, f64)>,
+    /// Bound on the difference of every time above (window, aim) from the
+    /// ring's at this point, ticks: 0 where the ring or the closed forms
+    /// answered, the event grid's bound where it did.
+    pub model_eps_ticks: f64,
 }
+
+/// Largest event-grid bound the exact model accepts, ticks; a point whose
+/// bound is wider is computed with the ring.
+pub const MAX_GRID_EPS_TICKS: f64 = 0.01;
 
 impl<'a> ExactModel<'a> {
     /// The model of `design`: the closed forms for an ideal tank, the
@@ -75,10 +91,38 @@ impl<'a> ExactModel<'a> {
                 .solver()
                 .unwrap_or(CellSolver::Ideal(design.tank)),
             aim: design.robust_aim().ok().flatten(),
+            grid: design.event_grid(),
+            max_grid_eps_s: MAX_GRID_EPS_TICKS / design.timer.clock_hz(),
             dry: false,
             clock_hz: design.timer.clock_hz(),
             lead_s: design.timer.lead_s(),
         }
+    }
+
+    /// The same model with every point from the ring (or the closed
+    /// forms): for the points where a decision falls within the grid's
+    /// bound.
+    #[must_use]
+    pub fn exact(&self) -> Self {
+        Self {
+            grid: None,
+            ..*self
+        }
+    }
+
+    /// The turn-on at `cell` and the bound of its times, second: from the
+    /// grid where it answers within [`MAX_GRID_EPS_TICKS`], else from the
+    /// solver (bound 0).
+    fn turn_on(
+        &self,
+        cell: &timing_core::CellPoint<f64>,
+    ) -> Result<(timing_core::TurnOn<f64>, f64), timing_core::Error> {
+        if let Some(g) = self.grid.and_then(|g| g.at(cell)) {
+            if g.eps_s <= self.max_grid_eps_s {
+                return Ok((g.turn_on, g.eps_s));
+            }
+        }
+        Ok((self.solver.transition(cell)?.turn_on, 0.0))
     }
 
     /// The solver behind the model.
@@ -101,25 +145,26 @@ impl<'a> ExactModel<'a> {
                 window: None,
                 robust: None,
                 required_ticks: None,
+                model_eps_ticks: 0.0,
             });
         }
         let cell = self.design.cell(vin, io)?;
-        let t = self.solver.transition(&cell)?;
-        let window = t.turn_on.window();
+        let (turn_on, eps_s) = self.turn_on(&cell)?;
+        let window = turn_on.window();
         let to_ticks = |s: f64| (s - self.lead_s) * self.clock_hz;
-        let nominal_ticks = to_ticks(t.turn_on.target_s(self.design.position));
+        let nominal_ticks = to_ticks(turn_on.target_s(self.design.position));
         let robust = match (self.aim, window) {
             (Some(aim), Some(_)) => aim.window(self.design, vin, io),
             _ => None,
         };
         // The continuous aim of the tolerances where the design has them.
         let table_ticks = self.aim.map_or(nominal_ticks, |aim| {
-            to_ticks(aim.aim_s(self.design, vin, io, &t.turn_on))
+            to_ticks(aim.aim_s(self.design, vin, io, &turn_on))
         });
         let tick_wide = |o: f64, c: f64| (c - o) * self.clock_hz >= 1.0;
         let required_ticks = robust
             .map(|r| (r.open_s, r.close_s))
-            .or(window.map(|w| (w.open_s, w.close_s)))
+            .or(window.map(|w| (w.open_s + eps_s, w.close_s - eps_s)))
             .filter(|&(o, c)| tick_wide(o, c))
             .map(|(o, c)| (to_ticks(o), to_ticks(c)));
         let ticks = match (window, self.design.fallback) {
@@ -133,6 +178,7 @@ impl<'a> ExactModel<'a> {
             window,
             robust,
             required_ticks,
+            model_eps_ticks: eps_s * self.clock_hz,
         })
     }
 

@@ -18,11 +18,13 @@ pub mod aim_grid;
 pub mod closed_form_source;
 pub mod coss_csv;
 pub mod design;
+pub mod event_grid;
 pub mod export;
 pub mod fit;
 pub mod generate;
 pub mod montecarlo;
 pub mod netlist;
+pub mod par;
 #[cfg(feature = "plot")]
 pub mod plot;
 pub mod point;

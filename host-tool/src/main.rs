@@ -502,8 +502,8 @@ fn run_point(args: &PointArgs) -> anyhow::Result<()> {
 
 fn print_verification(v: &host_tool::verify::VerifyReport, clock_hz: f64) {
     outln!(
-        "method {}: verified {} code pairs: max error {:.3} ticks at vin code {} ({:.3} V), io code {} ({:.4} A); RMS {:.3} ticks",
-        v.method, v.points_checked, v.max_error_ticks, v.worst_vin_code, v.worst_vin_v, v.worst_io_code, v.worst_io_a, v.rms_error_ticks
+        "method {}: verified {} of {} code pairs: max error {:.3} ticks at vin code {} ({:.3} V), io code {} ({:.4} A); RMS {:.3} ticks",
+        v.method, v.points_checked, v.pairs_in_range, v.max_error_ticks, v.worst_vin_code, v.worst_vin_v, v.worst_io_code, v.worst_io_a, v.rms_error_ticks
     );
     if let (Some(e), Some((cv, ci))) = (
         v.max_approximation_error_ticks,
@@ -758,7 +758,9 @@ fn run_verify(args: &VerifyArgs) -> anyhow::Result<ExitCode> {
     };
     let v = host_tool::verify::verify(&design, method.as_ref(), Some(&mut tick));
     bar.finish_and_clear();
-    let ok = v.max_error_ticks <= design.max_error_ticks && v.model_errors == 0;
+    let ok = v.max_error_ticks <= design.max_error_ticks
+        && v.model_errors == 0
+        && v.points_checked == v.pairs_in_range;
     if args.json {
         let j = serde_json::json!({
             "ok": ok,

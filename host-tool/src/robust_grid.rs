@@ -239,7 +239,7 @@ impl WindowGrid {
             first_zvs: Vec::new(),
         };
         // Rows of nodes and of cell centres, in parallel.
-        let rows: Vec<Result<RowOut, Error>> = parallel_rows(nv, |a| g.row(solver, a));
+        let rows: Vec<Result<RowOut, Error>> = crate::par::map_rows(nv, |a| g.row(solver, a));
         let mut centres = Vec::with_capacity(nv);
         for r in rows {
             let r = r?;
@@ -584,41 +584,4 @@ impl WindowGrid {
 struct RowOut {
     nodes: Vec<[f64; 6]>,
     centres: Vec<[f64; 6]>,
-}
-
-/// `f(a)` for `a` in `0..n` on all cores, in order.
-pub(crate) fn parallel_rows<T: Send>(n: usize, f: impl Fn(usize) -> T + Sync) -> Vec<T> {
-    let threads = std::thread::available_parallelism()
-        .map_or(1, std::num::NonZero::get)
-        .clamp(1, 16)
-        .min(n.max(1));
-    let next = std::sync::atomic::AtomicUsize::new(0);
-    let mut out: Vec<Option<T>> = (0..n).map(|_| None).collect();
-    std::thread::scope(|s| {
-        let handles: Vec<_> = (0..threads)
-            .map(|_| {
-                s.spawn(|| {
-                    let mut mine = Vec::new();
-                    loop {
-                        let a = next.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
-                        if a >= n {
-                            break;
-                        }
-                        mine.push((a, f(a)));
-                    }
-                    mine
-                })
-            })
-            .collect();
-        for h in handles {
-            if let Ok(mine) = h.join() {
-                for (a, v) in mine {
-                    if let Some(slot) = out.get_mut(a) {
-                        *slot = Some(v);
-                    }
-                }
-            }
-        }
-    });
-    out.into_iter().flatten().collect()
 }

@@ -4,8 +4,6 @@
 //! codes run in parallel on every core; the result does not depend on the
 //! number of threads (rows are merged in order).
 
-use std::sync::atomic::{AtomicU32, Ordering};
-
 use serde::Serialize;
 use timing_core::closed_form::{FastF32, FixedPoint, LibmF32};
 use timing_core::table::{DelayTable, Entries};
@@ -93,8 +91,12 @@ pub struct VerifyReport {
     pub max_approximation_error_ticks: Option<f64>,
     /// Voltage and current codes of that worst approximation error.
     pub max_approximation_error_at: Option<(u16, u16)>,
-    /// Code pairs checked.
+    /// Code pairs checked: every pair of the design range, so always
+    /// equal to `pairs_in_range` (a shorter count would be a failed check,
+    /// not a smaller proof).
     pub points_checked: u64,
+    /// Code pairs in the design range: voltage codes times current codes.
+    pub pairs_in_range: u64,
     /// Pairs where ZVS is possible.
     pub zvs_points: u64,
     /// ZVS pairs whose commanded turn-on falls outside the true window.
@@ -183,13 +185,45 @@ fn check_row(
         };
         methods.len()
     ];
+    let exact = model.exact();
+    let clock = design.timer.clock_hz();
+    let lead = design.timer.lead_s();
     for ci in i.lo..=i.hi {
-        let p = model.at_codes(cv, ci);
+        let mut p = model.at_codes(cv, ci);
+        // Where the event grid answered and some method's turn-on lies
+        // within the grid's bound of a decision (a window edge, a window a
+        // tick wide), the ring decides.
+        if let Ok(q) = p {
+            let undecided = q.model_eps_ticks > 0.0
+                && methods.iter().any(|m| {
+                    let on = f64::from(m.eval(cv, ci).0) / clock + lead;
+                    undecided(&q, on, clock)
+                });
+            if undecided {
+                // The window from the ring; the aim stays the model's.
+                p = exact.at_codes(cv, ci).map(|e| crate::generate::ExactPoint {
+                    window: e.window,
+                    model_eps_ticks: 0.0,
+                    ..q
+                });
+            }
+        }
         for (m, r) in methods.iter().zip(rows.iter_mut()) {
             check_pair(design, *m, cv, ci, p, r);
         }
     }
     rows
+}
+
+/// Whether a turn-on at `on` (second) is within the model's bound of a
+/// decision at `p`: an edge of its window, or a window width of one tick.
+fn undecided(p: &crate::generate::ExactPoint, on: f64, clock: f64) -> bool {
+    let eps = p.model_eps_ticks / clock;
+    p.window.is_some_and(|w| {
+        (on - w.open_s).abs() <= eps
+            || (on - w.close_s).abs() <= eps
+            || (w.width_s() * clock - 1.0).abs() <= 2.0 * p.model_eps_ticks
+    })
 }
 
 fn check_pair(
@@ -214,6 +248,11 @@ fn check_pair(
             r.max_cmd = got;
             r.max_cmd_ci = ci;
         }
+        // The aim is the model's as computed (a preference, not a bound);
+        // the windows carry the grid's bound where it answered, and the
+        // closed forms' approximation error is reported as its upper
+        // bound.
+        let eps = p.model_eps_ticks;
         let err = (f64::from(got) - p.ticks).abs();
         r.sum_sq += err * err;
         if err > r.max_err {
@@ -226,7 +265,7 @@ fn check_pair(
         let fixed = matches!(design.fallback, timing_core::table::Fallback::Fixed(_));
         if let Some(raw) = raw {
             if !fixed || p.window.is_some() {
-                let e = (raw - p.nominal_ticks).abs();
+                let e = (raw - p.nominal_ticks).abs() + eps;
                 if r.approx.is_none_or(|(w, _)| e > w) {
                     r.approx = Some((e, ci));
                 }
@@ -265,7 +304,7 @@ fn check_pair(
                 let wt = w.width_s() * clock;
                 r.miss_width = Some(r.miss_width.map_or(wt, |x: f64| x.max(wt)));
             } else {
-                let mg = (on - w.open_s).min(w.close_s - on);
+                let mg = (on - w.open_s).min(w.close_s - on) - eps / clock;
                 r.min_margin = Some(r.min_margin.map_or(mg, |x: f64| x.min(mg)));
             }
         }
@@ -290,50 +329,32 @@ pub fn verify(
 pub fn verify_all(
     design: &Design,
     methods: &[&dyn DelayMethod],
-    mut progress: Option<&mut dyn FnMut(f64)>,
+    progress: Option<&mut dyn FnMut(f64)>,
+) -> Vec<VerifyReport> {
+    verify_rows(design, methods, progress, &|_| {})
+}
+
+/// [`verify_all`] with `each_row` called in the worker before each row of
+/// voltage codes (tests inject a fault there: a panicking worker must fail
+/// the verification, never shorten it).
+fn verify_rows(
+    design: &Design,
+    methods: &[&dyn DelayMethod],
+    progress: Option<&mut dyn FnMut(f64)>,
+    each_row: &(dyn Fn(u16) + Sync),
 ) -> Vec<VerifyReport> {
     let model = ExactModel::new(design);
     let v = design.vin_codes;
-    let n_rows = v.len() as usize;
-    let threads = std::thread::available_parallelism()
-        .map_or(1, std::num::NonZero::get)
-        .clamp(1, 16)
-        .min(n_rows.max(1));
-    let next = AtomicU32::new(0);
-    let done = AtomicU32::new(0);
-    let mut rows: Vec<Vec<Row>> = vec![Vec::new(); n_rows];
-    std::thread::scope(|s| {
-        let handles: Vec<_> = (0..threads)
-            .map(|_| {
-                s.spawn(|| {
-                    let mut mine = Vec::new();
-                    loop {
-                        let k = next.fetch_add(1, Ordering::Relaxed);
-                        if k as usize >= n_rows {
-                            break;
-                        }
-                        mine.push((k, check_row(design, &model, methods, v.lo + k as u16)));
-                        done.fetch_add(1, Ordering::Relaxed);
-                    }
-                    mine
-                })
-            })
-            .collect();
-        if let Some(f) = progress.as_mut() {
-            while handles.iter().any(|h| !h.is_finished()) {
-                f(f64::from(done.load(Ordering::Relaxed)) / n_rows.max(1) as f64);
-                std::thread::sleep(std::time::Duration::from_millis(50));
-            }
-            f(1.0);
-        }
-        for h in handles {
-            if let Ok(mine) = h.join() {
-                for (k, row) in mine {
-                    rows[k as usize] = row;
-                }
-            }
-        }
-    });
+    let rows = crate::par::map_rows_with_progress(
+        v.len() as usize,
+        |k| {
+            let cv = v.lo + k as u16;
+            each_row(cv);
+            check_row(design, &model, methods, cv)
+        },
+        progress,
+    );
+    let threads = crate::par::threads();
     methods
         .iter()
         .enumerate()
@@ -361,6 +382,7 @@ fn merge(
         max_approximation_error_ticks: None,
         max_approximation_error_at: None,
         points_checked: 0,
+        pairs_in_range: u64::from(v.len()) * u64::from(i.len()),
         zvs_points: 0,
         outside_window: 0,
         early: 0,
@@ -429,4 +451,67 @@ fn merge(
     r.worst_vin_v = design.vin_of(r.worst_vin_code);
     r.worst_io_a = design.io_of(r.worst_io_code);
     r
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn small() -> Design {
+        Design::parse(
+            r#"
+name = "t"
+topology = "buck"
+lr = "1u"
+cr = "6.8n"
+vin = [30, 40]
+io = [1, 4]
+vout = 12
+[adc]
+bits = 12
+vin_volts_per_code = 0.0161
+io_amps_per_code = 0.00488
+io_zero_code = 0
+[timer]
+clock_hz = "170M"
+counter_bits = 16
+driver_delay = "25n"
+"#,
+            "small",
+        )
+        .unwrap()
+    }
+
+    #[test]
+    fn every_pair_of_the_range_is_checked() {
+        let d = small();
+        let cf = d.closed_form().unwrap().fast_f32().unwrap();
+        let r = verify(&d, &cf, None);
+        assert_eq!(
+            r.points_checked,
+            u64::from(d.vin_codes.len()) * u64::from(d.io_codes.len())
+        );
+        assert_eq!(r.points_checked, r.pairs_in_range);
+    }
+
+    #[test]
+    fn a_panicking_worker_fails_the_verification() {
+        let d = small();
+        let cf = d.closed_form().unwrap().fast_f32().unwrap();
+        let bad = d.vin_codes.lo + 7;
+        let r = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
+            verify_rows(&d, &[&cf], None, &|cv| {
+                assert_ne!(cv, bad, "injected fault")
+            })
+        }));
+        assert!(r.is_err(), "a worker's panic must reach the caller");
+        let mut ticks = 0;
+        let mut p = |_: f64| ticks += 1;
+        let r = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
+            verify_rows(&d, &[&cf], Some(&mut p), &|cv| {
+                assert_ne!(cv, bad, "injected fault");
+            })
+        }));
+        assert!(r.is_err(), "also with a progress bar");
+    }
 }

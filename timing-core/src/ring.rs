@@ -47,6 +47,22 @@ pub const STEP_ANGLE: f64 = 0.05;
 /// zero current before this only at absurd quality factors).
 pub const MAX_STEPS: u32 = 200_000;
 
+/// Time for the Lr current of a cell with `lr_h` henry and loop resistance
+/// `r_ohm` to go from `from` to `to` ampere (`from` < `to` <= 0 or
+/// 0 <= `from` < `to`) with the switch voltage clamped at zero and the cell
+/// voltage `v_cell` volt across the loop: `Lr*i' = V - R*i`, so
+/// `(Lr/R)*ln((V - R*from)/(V - R*to))` (`Lr*(to - from)/V` lossless),
+/// second. The body-diode interval and the current ramp after a turn-on.
+#[must_use]
+pub fn clamp_time_s<F: Real>(lr_h: F, r_ohm: F, v_cell: F, from: F, to: F) -> F {
+    if r_ohm > F::ZERO {
+        // (Lr/R)*ln((V - R*from)/(V - R*to)) = (Lr/R)*ln(1 + R*(to - from)/(V - R*to))
+        lr_h / r_ohm * (r_ohm * (to - from) / (v_cell - r_ohm * to)).ln_1p()
+    } else {
+        lr_h * (to - from) / v_cell
+    }
+}
+
 /// A validated real cell: Lr, the switch capacitance and the loop resistance.
 ///
 /// ```
@@ -273,12 +289,7 @@ impl<'a, F: Real> RingCell<'a, F> {
     /// <= 0 or 0 <= `from` < `to`) with the switch voltage clamped at zero:
     /// Lr*i' = V - R*i, second.
     fn clamp_time(&self, v_cell: F, from: F, to: F) -> F {
-        if self.r > F::ZERO {
-            // (Lr/R)*ln((V - R*from)/(V - R*to)) = (Lr/R)*ln(1 + R*(to - from)/(V - R*to))
-            self.lr / self.r * (self.r * (to - from) / (v_cell - self.r * to)).ln_1p()
-        } else {
-            self.lr * (to - from) / v_cell
-        }
+        clamp_time_s(self.lr, self.r, v_cell, from, to)
     }
 
     /// The transition at `cell`.
