@@ -82,12 +82,13 @@ impl Requirements {
         let fixed = matches!(design.fallback, Fallback::Fixed(_));
         let rows = crate::par::map_rows(v.len() as usize, |k| {
             let cv = v.lo + k as u16;
+            let row = model.row(design.vin_of(cv));
             let mut out = Vec::with_capacity(i.len() as usize);
             for ci in i.lo..=i.hi {
                 if fixed && !zvs(cv, ci) {
                     continue;
                 }
-                let Ok(p) = model.at_codes(cv, ci) else {
+                let Ok(p) = row.at_code(ci) else {
                     continue;
                 };
                 let aim = p.table_ticks;

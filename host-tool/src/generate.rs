@@ -12,7 +12,7 @@ use timing_core::ZvsWindow;
 
 use crate::design::Design;
 use crate::real_tank::CellSolver;
-use crate::robust_aim::RobustAim;
+use crate::robust_aim::{RobustAim, RobustRow};
 use crate::verify::{verify, VerifyReport};
 
 /// The exact (f64) commanded delay of a design, before quantisation.
@@ -99,15 +99,22 @@ impl<'a> ExactModel<'a> {
         }
     }
 
-    /// The same model with every point from the ring (or the closed
-    /// forms): for the points where a decision falls within the grid's
-    /// bound.
-    #[must_use]
-    pub fn exact(&self) -> Self {
-        Self {
-            grid: None,
-            ..*self
-        }
+    /// The window at (`vin` V, `io` A) from the ring (or the closed forms)
+    /// itself, never the grid: for the points where a decision falls
+    /// within the grid's bound.
+    ///
+    /// # Errors
+    /// timing-core's error for an impossible point.
+    pub fn ring_window(
+        &self,
+        vin: f64,
+        io: f64,
+    ) -> Result<Option<ZvsWindow<f64>>, timing_core::Error> {
+        Ok(self
+            .solver
+            .transition(&self.design.cell(vin, io)?)?
+            .turn_on
+            .window())
     }
 
     /// The turn-on at `cell` and the bound of its times, second: from the
@@ -137,6 +144,34 @@ impl<'a> ExactModel<'a> {
     /// # Errors
     /// timing-core's error for an impossible point.
     pub fn at(&self, vin: f64, io: f64) -> Result<ExactPoint, timing_core::Error> {
+        let robust = self
+            .aim
+            .filter(|_| !self.dry)
+            .map(|a| a.point(self.design, vin, io));
+        self.point(vin, io, robust.as_ref())
+    }
+
+    /// The model prepared for the readings of input voltage `vin` (V), at
+    /// any current: what verification and generation sweep, a row of code
+    /// pairs at a time ([`ExactRow::at_code`]).
+    #[must_use]
+    pub fn row(&self, vin: f64) -> ExactRow<'_, 'a> {
+        ExactRow {
+            model: self,
+            vin,
+            robust: self
+                .aim
+                .filter(|_| !self.dry)
+                .map(|a| a.row(self.design, vin)),
+        }
+    }
+
+    fn point(
+        &self,
+        vin: f64,
+        io: f64,
+        robust_row: Option<&RobustRow<'_>>,
+    ) -> Result<ExactPoint, timing_core::Error> {
         if self.dry {
             return Ok(ExactPoint {
                 ticks: 0.0,
@@ -153,14 +188,11 @@ impl<'a> ExactModel<'a> {
         let window = turn_on.window();
         let to_ticks = |s: f64| (s - self.lead_s) * self.clock_hz;
         let nominal_ticks = to_ticks(turn_on.target_s(self.design.position));
-        let robust = match (self.aim, window) {
-            (Some(aim), Some(_)) => aim.window(self.design, vin, io),
-            _ => None,
-        };
-        // The continuous aim of the tolerances where the design has them.
-        let table_ticks = self.aim.map_or(nominal_ticks, |aim| {
-            to_ticks(aim.aim_s(self.design, vin, io, &turn_on))
-        });
+        // The robust window and the continuous aim of the tolerances
+        // where the design has them.
+        let reading = robust_row.map(|r| r.reading(self.design, io, &turn_on));
+        let robust = reading.and_then(|r| r.robust).filter(|_| window.is_some());
+        let table_ticks = reading.map_or(nominal_ticks, |r| to_ticks(r.aim_s));
         let tick_wide = |o: f64, c: f64| (c - o) * self.clock_hz >= 1.0;
         let required_ticks = robust
             .map(|r| (r.open_s, r.close_s))
@@ -248,6 +280,35 @@ impl<'a> ExactModel<'a> {
             table_ticks: mid,
             ..base
         })
+    }
+}
+
+/// An [`ExactModel`] prepared for the readings of one input voltage
+/// ([`ExactModel::row`]).
+#[derive(Debug, Clone)]
+pub struct ExactRow<'m, 'a> {
+    model: &'m ExactModel<'a>,
+    vin: f64,
+    robust: Option<RobustRow<'a>>,
+}
+
+impl ExactRow<'_, '_> {
+    /// The exact delay at output current `io` (A) of this row's input
+    /// voltage, as [`ExactModel::at`].
+    ///
+    /// # Errors
+    /// As [`ExactModel::at`].
+    pub fn at(&self, io: f64) -> Result<ExactPoint, timing_core::Error> {
+        self.model.point(self.vin, io, self.robust.as_ref())
+    }
+
+    /// The exact delay at current code `io_code` of this row, as
+    /// [`ExactModel::at_codes`].
+    ///
+    /// # Errors
+    /// As [`ExactModel::at`].
+    pub fn at_code(&self, io_code: u16) -> Result<ExactPoint, timing_core::Error> {
+        self.at(self.model.design.io_of(io_code))
     }
 }
 

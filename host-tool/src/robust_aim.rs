@@ -25,7 +25,7 @@ use timing_core::robust::RobustWindow;
 
 use crate::aim_grid::{interval, minimax, AimGrid};
 use crate::design::{Design, Tolerance};
-use crate::robust_grid::{true_range, TankSpread, WindowGrid};
+use crate::robust_grid::{true_range, TankSpread, WindowGrid, WindowRow};
 
 /// The robust windows of a design's readings.
 #[derive(Debug, Clone)]
@@ -89,19 +89,9 @@ impl RobustAim {
     /// (opening) or earlier (close) than the model allows.
     #[must_use]
     pub fn window(&self, design: &Design, vin_v: f64, io_a: f64) -> Option<RobustWindow<f64>> {
-        let vin = sensed_vin(design, &self.tol, vin_v);
-        let io = sensed_io(design, &self.tol, io_a);
-        if !(io.0 > 0.0 && vin.0 > 0.0) {
-            return None;
-        }
-        let (v, i) = cell_box(design, vin, io)?;
-        self.grid
-            .robust(v, i, &self.spread, self.tol.jitter_s)
-            .filter(|w| w.close_s - w.open_s >= self.min_width_s)
+        self.point(design, vin_v, io_a).window(design, io_a)
     }
-}
 
-impl RobustAim {
     /// The continuous aim behind the reading (`vin_v` volt, `io_a` ampere),
     /// second from gate turn-off ([`crate::aim_grid`]'s minimax point over
     /// the corners of the box, one smooth estimate everywhere), kept inside
@@ -116,29 +106,147 @@ impl RobustAim {
         io_a: f64,
         nominal: &timing_core::TurnOn<f64>,
     ) -> f64 {
+        self.point(design, vin_v, io_a)
+            .reading(design, io_a, nominal)
+            .aim_s
+    }
+
+    /// Prepared for the readings of one input voltage `vin_v` (volt), at
+    /// every current: a row of code pairs shares the voltage side of its
+    /// boxes.
+    #[must_use]
+    pub fn row(&self, design: &Design, vin_v: f64) -> RobustRow<'_> {
+        self.prepare(design, vin_v, None)
+    }
+
+    /// Prepared for the one reading (`vin_v` volt, `io_a` ampere): only
+    /// the grid cells its box reaches.
+    pub fn point(&self, design: &Design, vin_v: f64, io_a: f64) -> RobustRow<'_> {
+        let io = sensed_io(design, &self.tol, io_a);
+        let vin = sensed_vin(design, &self.tol, vin_v);
+        let u = (io.0 > 0.0 && vin.0 > 0.0)
+            .then(|| cell_box(design, vin, io))
+            .flatten()
+            .map(|(_, i)| self.spread.current_range(i));
+        self.prepare(design, vin_v, Some(u.unwrap_or((1.0, 1.0))))
+    }
+
+    fn prepare(&self, design: &Design, vin_v: f64, u: Option<(f64, f64)>) -> RobustRow<'_> {
+        let vin = sensed_vin(design, &self.tol, vin_v);
+        // The cell voltage depends on the input voltage alone (and the
+        // output voltage), so any current gives the box's voltage range.
+        let v = (vin.0 > 0.0)
+            .then(|| cell_box(design, vin, (1.0, 1.0)))
+            .flatten()
+            .map(|(v, _)| v);
+        RobustRow {
+            aim: self,
+            vin,
+            v,
+            window: v.and_then(|v| self.grid.prepare(v, u)),
+        }
+    }
+}
+
+/// A [`RobustAim`] prepared for the readings of one input voltage
+/// ([`RobustAim::row`]).
+#[derive(Debug, Clone)]
+pub struct RobustRow<'a> {
+    aim: &'a RobustAim,
+    /// The true input voltages behind the reading, volt.
+    vin: (f64, f64),
+    /// Their cell voltages, volt (`None`: not a valid operating point).
+    v: Option<(f64, f64)>,
+    /// The window grid prepared for those cell voltages.
+    window: Option<WindowRow<'a>>,
+}
+
+/// What the tolerances leave of one reading.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Reading {
+    /// The robust window ([`RobustAim::window`]).
+    pub robust: Option<RobustWindow<f64>>,
+    /// The continuous aim ([`RobustAim::aim_s`]), second.
+    pub aim_s: f64,
+}
+
+impl RobustRow<'_> {
+    /// The box's cell ranges at the reading `io_a` (ampere): `None` where
+    /// the box is not made of valid operating points.
+    fn cell_box(&self, design: &Design, io_a: f64) -> Option<((f64, f64), (f64, f64))> {
+        let io = sensed_io(design, &self.aim.tol, io_a);
+        if !(io.0 > 0.0 && self.vin.0 > 0.0) {
+            return None;
+        }
+        cell_box(design, self.vin, io)
+    }
+
+    /// The bounds of the box over cell voltages `v` and currents `i`
+    /// (latest opening, earliest close, jitter applied), second: from the
+    /// prepared row (its voltages are the box's, as the cell voltage does
+    /// not depend on the current), else from the grid.
+    fn bounds(&self, v: (f64, f64), i: (f64, f64)) -> Option<(f64, f64)> {
+        let (spread, jitter) = (&self.aim.spread, self.aim.tol.jitter_s);
+        match &self.window {
+            Some(w) if Some(v) == self.v => w.bounds(i, spread, jitter),
+            _ => self.aim.grid.bounds(v, i, spread, jitter),
+        }
+    }
+
+    /// The robust window at the reading `io_a` (ampere) of this row, as
+    /// [`RobustAim::window`].
+    #[must_use]
+    pub fn window(&self, design: &Design, io_a: f64) -> Option<RobustWindow<f64>> {
+        let (v, i) = self.cell_box(design, io_a)?;
+        self.robust_of(self.bounds(v, i))
+    }
+
+    fn robust_of(&self, bounds: Option<(f64, f64)>) -> Option<RobustWindow<f64>> {
+        bounds
+            .filter(|&(o, c)| c >= o && c - o >= self.aim.min_width_s)
+            .map(|(o, c)| RobustWindow {
+                open_s: o,
+                close_s: c,
+            })
+    }
+
+    /// The robust window and the aim at the reading `io_a` (ampere) of
+    /// this row, whose own transition is `nominal`, as
+    /// [`RobustAim::window`] and [`RobustAim::aim_s`] (the box bounded
+    /// once for both).
+    #[must_use]
+    pub fn reading(
+        &self,
+        design: &Design,
+        io_a: f64,
+        nominal: &timing_core::TurnOn<f64>,
+    ) -> Reading {
         let [n_lo, n_hi] = interval(nominal);
         let position = design.position.get();
-        let vin = sensed_vin(design, &self.tol, vin_v);
-        let io = sensed_io(design, &self.tol, io_a);
-        let boxed = (vin.0 > 0.0 && io.0 > 0.0)
-            .then(|| cell_box(design, vin, io))
-            .flatten();
-        let Some((v, i)) = boxed else {
-            return n_lo + position.clamp(0.25, 0.75) * (n_hi - n_lo);
+        let Some((v, i)) = self.cell_box(design, io_a) else {
+            return Reading {
+                robust: None,
+                aim_s: n_lo + position.clamp(0.25, 0.75) * (n_hi - n_lo),
+            };
         };
-        let jitter = self.tol.jitter_s;
-        let (lo, hi) = self.aim_grid.extremes(v, i, &self.spread);
-        let mut aim = minimax(lo + jitter, hi - jitter, position);
-        if let Some((lo, hi)) = self.grid.bounds(v, i, &self.spread, jitter) {
+        let aim = self.aim;
+        let jitter = aim.tol.jitter_s;
+        let (lo, hi) = aim.aim_grid.extremes(v, i, &aim.spread);
+        let mut aim_s = minimax(lo + jitter, hi - jitter, position);
+        let bounds = self.bounds(v, i);
+        if let Some((lo, hi)) = bounds {
             if lo <= hi {
-                aim = aim.clamp(lo, hi);
+                aim_s = aim_s.clamp(lo, hi);
             }
         }
         // Off the nominal window's edges by a quarter of its width (the
         // nominal board is the likeliest one), continuous as the window
         // closes onto the valley.
         let q = 0.25 * (n_hi - n_lo);
-        aim.clamp(n_lo + q, n_hi - q)
+        Reading {
+            robust: self.robust_of(bounds),
+            aim_s: aim_s.clamp(n_lo + q, n_hi - q),
+        }
     }
 }
 

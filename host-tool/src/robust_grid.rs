@@ -37,15 +37,14 @@
 //! centre's; the square-root rise of the window at the ZVS boundary 1.2
 //! times). A cell with a corner or centre below the ZVS boundary makes
 //! any box that touches it ZVS-impossible. For speed (verification asks
-//! at every code pair) a row of cells is bounded along the current
-//! through each cell's two edges: at voltage fraction `s` the
-//! interpolant is `(1 - s)*lower + s*upper` of the edges' values, so the
-//! largest over the row's cells is at most `(1 - s)` times the largest
-//! lower edge plus `s` times the largest upper one; those extremes come
-//! from per-cell and per-block (8 cells) tables, and only the cells at
-//! the ends of each piece of `M` and `m` are interpolated at their
-//! corners. The demo's verification counts came out the same as with
-//! every cell interpolated. The result is never later
+//! at every code pair) the boxes of a row of readings, which share their
+//! voltage range, are bounded from a [`WindowRow`] prepared once: each
+//! cell's bound over the rows the voltages cover (the bilinear interpolant
+//! is linear in the voltage fraction, so its extremes lie at the fraction's
+//! ends), a sparse table of their extremes over any run of whole cells in
+//! O(1), and the interpolant along the current at the covered nodes for
+//! the cells at the ends of each piece of `M` and `m`, which are
+//! interpolated at their corners. The result is never later
 //! (opening) or earlier (close) than the grid model allows; the tests
 //! compare it with the ring evaluated at every corner and at sampled
 //! interior points of held-out boxes.
@@ -140,19 +139,10 @@ pub struct WindowGrid {
     /// Along a voltage fraction `s` of the cell the bilinear interpolant is
     /// at most `(1 - s)*lower + s*upper`.
     edges: Vec<[[f64; 6]; 2]>,
-    /// The same over blocks of [`BLOCK`] cells of a row, index
-    /// `a*blocks_per_row + j`.
-    blocks: Vec<[[f64; 6]; 2]>,
-    blocks_per_row: usize,
     /// Per cell row, the first cell from which every cell is all ZVS
     /// (cells below the ZVS boundary sit at the low-current end).
     first_zvs: Vec<usize>,
 }
-
-/// Cells per block of a row's precomputed extremes: a query takes whole
-/// blocks where it can, so its cost is about the box's cells / BLOCK plus
-/// twice BLOCK per row and piece.
-const BLOCK: usize = 8;
 
 /// Extreme of two bounds: the larger for the opening's functions (f < 3),
 /// the smaller for the close's.
@@ -234,12 +224,10 @@ impl WindowGrid {
             nodes: Vec::new(),
             eps: Vec::new(),
             edges: Vec::new(),
-            blocks: Vec::new(),
-            blocks_per_row: 0,
             first_zvs: Vec::new(),
         };
         // Rows of nodes and of cell centres, in parallel.
-        let rows: Vec<Result<RowOut, Error>> = crate::par::map_rows(nv, |a| g.row(solver, a));
+        let rows: Vec<Result<RowOut, Error>> = crate::par::map_rows(nv, |a| g.node_row(solver, a));
         let mut centres = Vec::with_capacity(nv);
         for r in rows {
             let r = r?;
@@ -256,18 +244,9 @@ impl WindowGrid {
         Ok(g)
     }
 
-    /// Fill `edges`, `blocks` and `first_zvs` from the nodes and `eps`.
+    /// Fill `edges` and `first_zvs` from the nodes and `eps`.
     fn precompute_extremes(&mut self) {
         let cells = self.nu - 1;
-        self.blocks_per_row = cells.div_ceil(BLOCK);
-        let start = [
-            f64::NEG_INFINITY,
-            f64::NEG_INFINITY,
-            f64::NEG_INFINITY,
-            f64::INFINITY,
-            f64::INFINITY,
-            f64::INFINITY,
-        ];
         for a in 0..self.nv - 1 {
             let mut first = 0;
             for b in 0..cells {
@@ -291,80 +270,6 @@ impl WindowGrid {
                 self.edges.push(w);
             }
             self.first_zvs.push(first);
-            for j in 0..self.blocks_per_row {
-                let mut acc = [start; 2];
-                for b in j * BLOCK..((j + 1) * BLOCK).min(cells) {
-                    let w = self
-                        .edges
-                        .get(a * cells + b)
-                        .copied()
-                        .unwrap_or([[f64::NAN; 6]; 2]);
-                    for (acc, w) in acc.iter_mut().zip(w) {
-                        for (f, slot) in acc.iter_mut().enumerate() {
-                            *slot = outer(f, *slot, w[f]);
-                        }
-                    }
-                }
-                self.blocks.push(acc);
-            }
-        }
-    }
-
-    /// Bound of function `f` over the strip `[s0, s1]` (fractions of the
-    /// row) of cells `c0..=c1` of row `a`, each cell whole along the
-    /// current: the lower and the upper edges' bounds over the cells
-    /// (whole blocks where they fit), blended at `s0` and at `s1`.
-    fn strip_cells(&self, a: usize, f: usize, s: (f64, f64), c0: usize, c1: usize) -> f64 {
-        let cells = self.nu - 1;
-        let pick = |n: Option<&[[f64; 6]; 2]>, side: usize| {
-            n.and_then(|n| n.get(side))
-                .and_then(|r| r.get(f))
-                .copied()
-                .unwrap_or(f64::NAN)
-        };
-        let init = if f < 3 {
-            f64::NEG_INFINITY
-        } else {
-            f64::INFINITY
-        };
-        let mut acc = [init; 2];
-        let mut b = c0;
-        while b <= c1 {
-            let n = if b.is_multiple_of(BLOCK) && b + BLOCK - 1 <= c1 {
-                let n = self.blocks.get(a * self.blocks_per_row + b / BLOCK);
-                b += BLOCK;
-                n
-            } else {
-                let n = self.edges.get(a * cells + b);
-                b += 1;
-                n
-            };
-            acc = [outer(f, acc[0], pick(n, 0)), outer(f, acc[1], pick(n, 1))];
-        }
-        let blend = |t: f64| acc[0] * (1.0 - t) + acc[1] * t;
-        outer(f, blend(s.0), blend(s.1))
-    }
-
-    /// Bound of function `f` over `[s0, s1] x [t0, t1]` of cell (a, b).
-    fn part_cell(&self, a: usize, b: usize, f: usize, s: (f64, f64), t: (f64, f64)) -> f64 {
-        let pick = |n: [f64; 6]| n.get(f).copied().unwrap_or(f64::NAN);
-        let (f00, f10) = (pick(self.node(a, b)), pick(self.node(a + 1, b)));
-        let (f01, f11) = (pick(self.node(a, b + 1)), pick(self.node(a + 1, b + 1)));
-        // The bilinear interpolant (as `interp`) at the four corners.
-        let c = [(s.0, t.0), (s.0, t.1), (s.1, t.0), (s.1, t.1)].map(|(s, t)| {
-            (f00 * (1.0 - t) + f01 * t) * (1.0 - s) + (f10 * (1.0 - t) + f11 * t) * s
-        });
-        let e = self
-            .eps
-            .get(a * (self.nu - 1) + b)
-            .and_then(|e| e.get(f))
-            .copied()
-            .unwrap_or(f64::NAN);
-        let ext = c[1..].iter().fold(c[0], |x, &y| outer(f, x, y));
-        if f < 3 {
-            ext + e
-        } else {
-            ext - e
         }
     }
 
@@ -378,7 +283,7 @@ impl WindowGrid {
 
     /// Node row `a` and the centres of the cells above it (none for the
     /// last row).
-    fn row(&self, solver: &CellSolver<'_>, a: usize) -> Result<RowOut, Error> {
+    fn node_row(&self, solver: &CellSolver<'_>, a: usize) -> Result<RowOut, Error> {
         let at = |v: f64, u: f64| -> Result<[f64; 6], Error> {
             let t = solver.transition(&CellPoint::new(v, u)?)?;
             let (o, c) = t
@@ -468,10 +373,216 @@ impl WindowGrid {
         spread: &TankSpread,
         jitter_s: f64,
     ) -> Option<(f64, f64)> {
-        if !(v.0 > 0.0 && i.0 > 0.0 && v.0 <= v.1 && i.0 <= i.1) {
+        if !(i.0 > 0.0 && i.0 <= i.1) {
             return None;
         }
-        let built = &self.spread;
+        let u = spread.current_range(i);
+        self.prepare(v, Some(u))?.bounds(i, spread, jitter_s)
+    }
+
+    /// The grid prepared for boxes over the cell voltages `v` (volt): the
+    /// rows they cover, each cell's bound over those rows, and range
+    /// extremes over the cells in O(1) (a sparse table). `u`: the scaled
+    /// currents the boxes will reach (ampere), `None` for the whole grid.
+    /// Verification asks a row of readings with one voltage range, so it
+    /// prepares once per row and asks [`WindowRow::bounds`] per reading.
+    /// `None` where `v` leaves the grid.
+    #[must_use]
+    pub fn prepare(&self, v: (f64, f64), u: Option<(f64, f64)>) -> Option<WindowRow<'_>> {
+        if !(v.0 > 0.0 && v.0 <= v.1) {
+            return None;
+        }
+        let xv = (
+            (v.0.ln() - self.ln_v0) / self.d_ln_v,
+            (v.1.ln() - self.ln_v0) / self.d_ln_v,
+        );
+        let (a0, a1) = Self::span(xv.0, xv.1, self.nv)?;
+        let cells = self.nu - 1;
+        let (c0, c1) = match u {
+            None => (0, cells - 1),
+            Some(u) => {
+                let x = |u: f64| (u.ln() - self.ln_u0) / self.d_ln_u;
+                let lo = x(u.0).clamp(0.0, cells as f64);
+                let hi = x(u.1).clamp(0.0, cells as f64);
+                (
+                    (lo.floor() as usize).min(cells - 1),
+                    (hi.ceil() as usize).clamp(1, cells) - 1,
+                )
+            }
+        };
+        let c1 = c1.max(c0);
+        let nb = c1 - c0 + 1;
+        let fracs: Vec<(f64, f64)> = (a0..=a1)
+            .map(|a| {
+                (
+                    (xv.0 - a as f64).clamp(0.0, 1.0),
+                    (xv.1 - a as f64).clamp(0.0, 1.0),
+                )
+            })
+            .collect();
+        let first_zvs = (a0..=a1)
+            .map(|a| self.first_zvs.get(a).copied().unwrap_or(usize::MAX))
+            .max()
+            .unwrap_or(usize::MAX);
+        let rows = fracs.len();
+        // The interpolant along the current at each covered node, per
+        // function, row and end of the row's voltage fraction, and each
+        // cell's allowance per function and row.
+        let mut lines = vec![0.0; 6 * rows * 2 * (nb + 1)];
+        let mut eps = vec![0.0; 6 * rows * nb];
+        let mut whole: Vec<Vec<f64>> = (0..6).map(|_| Vec::with_capacity(nb)).collect();
+        for (r, (&(s0, s1), a)) in fracs.iter().zip(a0..=a1).enumerate() {
+            for b in 0..=nb {
+                let (lo, hi) = (self.node(a, c0 + b), self.node(a + 1, c0 + b));
+                for f in 0..6 {
+                    for (k, s) in [s0, s1].into_iter().enumerate() {
+                        lines[((f * rows + r) * 2 + k) * (nb + 1) + b] =
+                            lo[f] * (1.0 - s) + hi[f] * s;
+                    }
+                }
+            }
+            for b in 0..nb {
+                let e = self
+                    .eps
+                    .get(a * cells + c0 + b)
+                    .copied()
+                    .unwrap_or([f64::NAN; 6]);
+                for (f, e) in e.iter().enumerate() {
+                    eps[(f * rows + r) * nb + b] = *e;
+                }
+            }
+        }
+        for (f, w) in whole.iter_mut().enumerate() {
+            for b in 0..nb {
+                let mut acc = if f < 3 {
+                    f64::NEG_INFINITY
+                } else {
+                    f64::INFINITY
+                };
+                for (&(s0, s1), a) in fracs.iter().zip(a0..=a1) {
+                    let edge = self
+                        .edges
+                        .get(a * cells + c0 + b)
+                        .copied()
+                        .unwrap_or([[f64::NAN; 6]; 2]);
+                    for s in [s0, s1] {
+                        acc = outer(f, acc, edge[0][f] * (1.0 - s) + edge[1][f] * s);
+                    }
+                }
+                w.push(acc);
+            }
+        }
+        let sparse = whole
+            .into_iter()
+            .enumerate()
+            .map(|(f, w)| {
+                let mut levels = vec![w];
+                let mut step = 1usize;
+                while 2 * step <= nb {
+                    let prev = &levels[levels.len() - 1];
+                    let next: Vec<f64> = (0..prev.len() - step)
+                        .map(|b| outer(f, prev[b], prev[b + step]))
+                        .collect();
+                    levels.push(next);
+                    step *= 2;
+                }
+                levels
+            })
+            .collect();
+        Some(WindowRow {
+            g: self,
+            v,
+            rows,
+            c0,
+            nb,
+            first_zvs,
+            lines,
+            eps,
+            sparse,
+        })
+    }
+
+    /// Grid nodes (voltage, current), for reports.
+    #[must_use]
+    pub fn size(&self) -> (usize, usize) {
+        (self.nv, self.nu)
+    }
+}
+
+/// A [`WindowGrid`] prepared for boxes over one range of cell voltages
+/// ([`WindowGrid::prepare`]): the bounds of [`WindowGrid::bounds`] at a few
+/// hundred operations a box.
+#[derive(Debug, Clone)]
+pub struct WindowRow<'g> {
+    g: &'g WindowGrid,
+    /// The cell voltages prepared for, volt.
+    v: (f64, f64),
+    /// Grid rows covered.
+    rows: usize,
+    /// First covered cell and the number covered.
+    c0: usize,
+    nb: usize,
+    /// The first cell from which every covered row is all ZVS.
+    first_zvs: usize,
+    /// Index `((f*rows + r)*2 + k)*(nb + 1) + b`: function `f` of row `r`
+    /// at the `k`-th end of its voltage fraction, at node `c0 + b`.
+    lines: Vec<f64>,
+    /// Index `(f*rows + r)*nb + b`: the allowance of cell `c0 + b` of row `r`.
+    eps: Vec<f64>,
+    /// Per function, levels of a sparse table over the covered cells of
+    /// each cell's bound over the rows: level `k`, entry `b` is the extreme
+    /// over cells `c0 + b .. c0 + b + 2^k`.
+    sparse: Vec<Vec<Vec<f64>>>,
+}
+
+impl WindowRow<'_> {
+    /// Extreme of function `f` over whole cells `b0..=b1` (covered-cell
+    /// indices).
+    fn whole(&self, f: usize, b0: usize, b1: usize) -> f64 {
+        let n = b1 - b0 + 1;
+        let k = (usize::BITS - 1 - n.leading_zeros()) as usize;
+        let level = &self.sparse[f][k];
+        outer(f, level[b0], level[b1 + 1 - (1 << k)])
+    }
+
+    /// Bound of function `f` over current fractions `t` of cell `b`
+    /// (covered-cell index), over the covered rows.
+    fn part(&self, f: usize, b: usize, t: (f64, f64)) -> f64 {
+        let mut acc = if f < 3 {
+            f64::NEG_INFINITY
+        } else {
+            f64::INFINITY
+        };
+        let n = self.nb + 1;
+        for r in 0..self.rows {
+            let mut ext = if f < 3 {
+                f64::NEG_INFINITY
+            } else {
+                f64::INFINITY
+            };
+            for k in 0..2 {
+                let base = ((f * self.rows + r) * 2 + k) * n + b;
+                let (y0, y1) = (self.lines[base], self.lines[base + 1]);
+                for t in [t.0, t.1] {
+                    ext = outer(f, ext, y0 * (1.0 - t) + y1 * t);
+                }
+            }
+            let e = self.eps[(f * self.rows + r) * self.nb + b];
+            acc = outer(f, acc, if f < 3 { ext + e } else { ext - e });
+        }
+        acc
+    }
+
+    /// The bounds of [`WindowGrid::bounds`] for the box of this row's
+    /// voltages and cell currents `i` (ampere) under `spread`, with the
+    /// timer's peak `jitter_s` taken off both ends.
+    #[must_use]
+    pub fn bounds(&self, i: (f64, f64), spread: &TankSpread, jitter_s: f64) -> Option<(f64, f64)> {
+        let g = self.g;
+        if !(i.0 > 0.0 && i.0 <= i.1) {
+            return None;
+        }
+        let built = &g.spread;
         if spread.l.0 < built.l.0 || spread.k.1 > built.k.1 {
             // A lossier scaled loop than the grid's.
             return None;
@@ -494,89 +605,65 @@ impl WindowGrid {
             (i.0 * r_lo, i.1 * r_lo, (l.0 * k.0).sqrt(), 3),
             (i.1 * r_lo, f64::INFINITY, k.0 / i.1, 4),
         ];
-        let xv = (
-            (v.0.ln() - self.ln_v0) / self.d_ln_v,
-            (v.1.ln() - self.ln_v0) / self.d_ln_v,
-        );
-        let xu = (
-            (u.0.ln() - self.ln_u0) / self.d_ln_u,
-            (u.1.ln() - self.ln_u0) / self.d_ln_u,
-        );
+        let x_of = |u: f64| {
+            if u > 0.0 {
+                (u.ln() - g.ln_u0) / g.d_ln_u
+            } else {
+                f64::NEG_INFINITY
+            }
+        };
+        let xu = (x_of(u.0), x_of(u.1));
         if xu.0 < -1e-9 {
             // Below the grid's first current: below the ZVS boundary (or
             // outside the grid).
             return None;
         }
-        let (a0, a1) = Self::span(xv.0, xv.1, self.nv)?;
-        let (b0, _) = Self::span(xu.0, xu.1, self.nu)?;
-        // The pieces' ends in grid units. On each piece the factor is a
-        // constant times one of the six functions, so the piece's bound is
-        // that constant times the function's extreme: whole cells from the
-        // precomputed per-cell and per-block extremes, the cells at the
-        // piece's ends (and the strips of partly covered rows) from the
-        // interpolant at their corners.
-        let x_of = |u: f64| {
-            if u > 0.0 {
-                (u.ln() - self.ln_u0) / self.d_ln_u
-            } else {
-                f64::NEG_INFINITY
-            }
-        };
-        let in_x =
-            |p: &[(f64, f64, f64, usize); 3]| p.map(|(lo, hi, c, f)| (x_of(lo), x_of(hi), c, f));
-        let (big_x, small_x) = (in_x(&big), in_x(&small));
+        let (b_first, _) = WindowGrid::span(xu.0, xu.1, g.nu)?;
+        if b_first < self.first_zvs {
+            // The box touches a cell that is not all ZVS.
+            return None;
+        }
         let mut open = f64::NEG_INFINITY;
         let mut close = f64::INFINITY;
-        for a in a0..=a1 {
-            if b0 < self.first_zvs.get(a).copied().unwrap_or(usize::MAX) {
-                // The box touches a cell that is not all ZVS.
-                return None;
+        for &(ul, uh, coef, f) in big.iter().chain(small.iter()) {
+            let (p, q) = (xu.0.max(x_of(ul)), xu.1.min(x_of(uh)));
+            if p > q {
+                continue;
             }
-            let s = (
-                (xv.0 - a as f64).clamp(0.0, 1.0),
-                (xv.1 - a as f64).clamp(0.0, 1.0),
-            );
-            for &(xl, xh, coef, f) in big_x.iter().chain(small_x.iter()) {
-                let (p, q) = (xu.0.max(xl), xu.1.min(xh));
-                if p > q {
+            let (c_lo, c_hi) = WindowGrid::span(p, q, g.nu)?;
+            if c_lo < self.c0 || c_hi >= self.c0 + self.nb {
+                // Outside the cells this row was prepared for: the whole
+                // grid's row answers.
+                return g.prepare(self.v, None)?.bounds(i, spread, jitter_s);
+            }
+            // Cells whole along the current: ceil(p) ..= floor(q) - 1.
+            let (w0, w1) = (p.max(0.0).ceil() as usize, q.floor() as usize);
+            let mut bound = if f < 3 {
+                f64::NEG_INFINITY
+            } else {
+                f64::INFINITY
+            };
+            for b in c_lo..=c_hi {
+                if b >= w0 && b < w1 {
                     continue;
                 }
-                let (c_lo, c_hi) = Self::span(p, q, self.nu)?;
-                // Cells whole along the current: ceil(p) ..= floor(q) - 1.
-                let (w0, w1) = (p.max(0.0).ceil() as usize, q.floor() as usize);
-                let mut bound = if f < 3 {
-                    f64::NEG_INFINITY
-                } else {
-                    f64::INFINITY
-                };
-                for b in c_lo..=c_hi {
-                    if b >= w0 && b < w1 {
-                        continue;
-                    }
-                    let t = (
-                        (p - b as f64).clamp(0.0, 1.0),
-                        (q - b as f64).clamp(0.0, 1.0),
-                    );
-                    bound = outer(f, bound, self.part_cell(a, b, f, s, t));
-                }
-                if w0 < w1 {
-                    bound = outer(f, bound, self.strip_cells(a, f, s, w0, w1 - 1));
-                }
-                if f < 3 {
-                    open = open.max(coef * bound);
-                } else {
-                    close = close.min(coef * bound);
-                }
+                let t = (
+                    (p - b as f64).clamp(0.0, 1.0),
+                    (q - b as f64).clamp(0.0, 1.0),
+                );
+                bound = outer(f, bound, self.part(f, b - self.c0, t));
+            }
+            if w0 < w1 {
+                bound = outer(f, bound, self.whole(f, w0 - self.c0, w1 - 1 - self.c0));
+            }
+            if f < 3 {
+                open = open.max(coef * bound);
+            } else {
+                close = close.min(coef * bound);
             }
         }
         let (open, close) = (open + jitter_s, close - jitter_s);
         (open.is_finite() && close.is_finite()).then_some((open, close))
-    }
-
-    /// Grid nodes (voltage, current), for reports.
-    #[must_use]
-    pub fn size(&self) -> (usize, usize) {
-        (self.nv, self.nu)
     }
 }
 

@@ -185,11 +185,11 @@ fn check_row(
         };
         methods.len()
     ];
-    let exact = model.exact();
     let clock = design.timer.clock_hz();
     let lead = design.timer.lead_s();
+    let row = model.row(design.vin_of(cv));
     for ci in i.lo..=i.hi {
-        let mut p = model.at_codes(cv, ci);
+        let mut p = row.at_code(ci);
         // Where the event grid answered and some method's turn-on lies
         // within the grid's bound of a decision (a window edge, a window a
         // tick wide), the ring decides.
@@ -201,11 +201,13 @@ fn check_row(
                 });
             if undecided {
                 // The window from the ring; the aim stays the model's.
-                p = exact.at_codes(cv, ci).map(|e| crate::generate::ExactPoint {
-                    window: e.window,
-                    model_eps_ticks: 0.0,
-                    ..q
-                });
+                p = model
+                    .ring_window(design.vin_of(cv), design.io_of(ci))
+                    .map(|window| crate::generate::ExactPoint {
+                        window,
+                        model_eps_ticks: 0.0,
+                        ..q
+                    });
             }
         }
         for (m, r) in methods.iter().zip(rows.iter_mut()) {
