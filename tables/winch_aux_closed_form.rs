@@ -2,11 +2,11 @@
 // regenerate with `zvs-timing table <design>.toml --out <dir>`.
 // timing-core's closed-form methods for this design, verified against the exact model at all
 // 2749050 code pairs (codes outside vin 2237..=3726 / io 205..=2049 clamp to the range edge):
-// closed-form-f32: approximation error at most 2.4260 ticks before rounding; commanded error at most 4.417 ticks (RMS 1.556);
+// closed-form-f32: approximation error at most 2.4275 ticks before rounding; commanded error at most 4.417 ticks (RMS 1.556);
 //   14666 of 1835198 ZVS turn-ons outside the window.
-// fixed-point: approximation error at most 2.4262 ticks before rounding; commanded error at most 4.417 ticks (RMS 1.554);
+// fixed-point: approximation error at most 2.4277 ticks before rounding; commanded error at most 4.417 ticks (RMS 1.554);
 //   14770 of 1835198 ZVS turn-ons outside the window.
-// libm-f32: approximation error at most 2.4260 ticks before rounding; commanded error at most 4.417 ticks (RMS 1.556);
+// libm-f32: approximation error at most 2.4275 ticks before rounding; commanded error at most 4.417 ticks (RMS 1.556);
 //   14666 of 1835198 ZVS turn-ons outside the window.
 // CAUTION: verify every delay at reduced voltage with a scope before full-voltage operation.
 #[allow(unused_imports)]

@@ -32,6 +32,7 @@
 
 use timing_core::{CellPoint, Error};
 
+use crate::event_grid::EventGrid;
 use crate::real_tank::CellSolver;
 use crate::robust_grid::TankSpread;
 
@@ -85,14 +86,31 @@ impl AimGrid {
         let (ln_v0, ln_i0) = (v.0.ln(), i.0.ln());
         let d_ln_v = ((v.1 / v.0).ln() / (nv - 1) as f64).max(1e-12);
         let d_ln_i = ((i.1 / i.0).ln() / (ni - 1) as f64).max(1e-12);
+        // The ring's events tabulated over the range where the tank needs
+        // the ring (the aim is a preference: the grid's answers serve
+        // within their bound, the ring elsewhere).
+        let events = match solver {
+            CellSolver::Ring(r) => {
+                let top = |x: f64, d: f64, n: usize| (x + d * (n - 1) as f64).exp();
+                EventGrid::new(
+                    r,
+                    (v.0, top(ln_v0, d_ln_v, nv)),
+                    (i.0, top(ln_i0, d_ln_i, ni)),
+                )
+                .ok()
+            }
+            CellSolver::Ideal(_) => None,
+        };
         let rows = crate::par::map_rows(nv, |a| -> Result<Vec<[f64; 2]>, Error> {
             let va = (ln_v0 + a as f64 * d_ln_v).exp();
             (0..ni)
                 .map(|b| {
                     let ib = (ln_i0 + b as f64 * d_ln_i).exp();
-                    Ok(interval(
-                        &solver.transition(&CellPoint::new(va, ib)?)?.turn_on,
-                    ))
+                    let cell = CellPoint::new(va, ib)?;
+                    Ok(interval(&match events.as_ref().and_then(|g| g.at(&cell)) {
+                        Some(g) => g.turn_on,
+                        None => solver.transition(&cell)?.turn_on,
+                    }))
                 })
                 .collect()
         });
@@ -135,16 +153,79 @@ impl AimGrid {
     /// `(L, U)` of the module's definition before the jitter.
     #[must_use]
     pub fn extremes(&self, v: (f64, f64), i: (f64, f64), spread: &TankSpread) -> (f64, f64) {
+        self.prepare(v, spread).extremes(i)
+    }
+
+    /// The grid at the two cell voltages `v` (volt) of a row of boxes
+    /// over the tank `spread`, interpolated once: [`AimRow::extremes`] then
+    /// interpolates along the current only.
+    #[must_use]
+    pub fn prepare(&self, v: (f64, f64), spread: &TankSpread) -> AimRow<'_> {
+        let line = |v: f64| {
+            let x = ((v.ln() - self.ln_v0) / self.d_ln_v).clamp(0.0, (self.nv - 1) as f64);
+            let a = (x.floor() as usize).min(self.nv - 2);
+            let s = x - a as f64;
+            (0..self.ni)
+                .map(|b| {
+                    let (n0, n1) = (
+                        self.nodes[a * self.ni + b],
+                        self.nodes[(a + 1) * self.ni + b],
+                    );
+                    [n0[0] * (1.0 - s) + n1[0] * s, n0[1] * (1.0 - s) + n1[1] * s]
+                })
+                .collect()
+        };
+        AimRow {
+            grid: self,
+            lines: [line(v.0), line(v.1)],
+            corners: corners_of(spread),
+        }
+    }
+}
+
+/// An [`AimGrid`] interpolated at the two cell voltages of a row of boxes
+/// ([`AimGrid::prepare`]).
+#[derive(Debug, Clone)]
+pub struct AimRow<'g> {
+    grid: &'g AimGrid,
+    /// `[lo, hi]` along the current at the lower and the upper voltage.
+    lines: [Vec<[f64; 2]>; 2],
+    /// The corners of the tank spread ([`corners_of`]).
+    corners: [(f64, f64); 4],
+}
+
+/// The four tank corners of `spread`: the shift of ln(current) to the
+/// scaled current, `ln(sqrt(l/k))`, and the time scale `sqrt(l*k)`.
+fn corners_of(spread: &TankSpread) -> [(f64, f64); 4] {
+    let (l, k) = (spread.l, spread.k);
+    [(l.0, k.0), (l.0, k.1), (l.1, k.0), (l.1, k.1)]
+        .map(|(l, k)| (0.5 * (l / k).ln(), (l * k).sqrt()))
+}
+
+impl AimRow<'_> {
+    /// `[lo, hi]` at voltage `k` (0: the lower, 1: the upper) and
+    /// ln(current) `ln_i`, interpolated (clamped to the grid's range).
+    fn at(&self, k: usize, ln_i: f64) -> [f64; 2] {
+        let g = self.grid;
+        let x = ((ln_i - g.ln_i0) / g.d_ln_i).clamp(0.0, (g.ni - 1) as f64);
+        let b = (x.floor() as usize).min(g.ni - 2);
+        let t = x - b as f64;
+        let (n0, n1) = (self.lines[k][b], self.lines[k][b + 1]);
+        [n0[0] * (1.0 - t) + n1[0] * t, n0[1] * (1.0 - t) + n1[1] * t]
+    }
+
+    /// The latest `lo` and earliest `hi` over the 16 corners of the box
+    /// of this row's voltages and spread and cell currents `i` (ampere),
+    /// second: as [`AimGrid::extremes`].
+    #[must_use]
+    pub fn extremes(&self, i: (f64, f64)) -> (f64, f64) {
         let (mut lo, mut hi) = (f64::NEG_INFINITY, f64::INFINITY);
-        for vv in [v.0, v.1] {
-            for ii in [i.0, i.1] {
-                for l in [spread.l.0, spread.l.1] {
-                    for k in [spread.k.0, spread.k.1] {
-                        let w = self.at(vv, ii * (l / k).sqrt());
-                        let scale = (l * k).sqrt();
-                        lo = lo.max(scale * w[0]);
-                        hi = hi.min(scale * w[1]);
-                    }
+        for ln_i in [i.0.ln(), i.1.ln()] {
+            for (shift, scale) in self.corners {
+                for side in 0..2 {
+                    let w = self.at(side, ln_i + shift);
+                    lo = lo.max(scale * w[0]);
+                    hi = hi.min(scale * w[1]);
                 }
             }
         }

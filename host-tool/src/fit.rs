@@ -144,14 +144,26 @@ impl Requirements {
         let Ok(t) = g.table() else {
             return ((0..self.pairs.len()).collect(), f64::INFINITY);
         };
+        const CHUNK: usize = 1 << 16;
+        let chunks = crate::par::map_rows(self.pairs.len().div_ceil(CHUNK), |c| {
+            let mut miss = Vec::new();
+            let mut worst = 0.0f64;
+            let start = c * CHUNK;
+            let end = (start + CHUNK).min(self.pairs.len());
+            for (k, r) in self.pairs[start..end].iter().enumerate() {
+                let n = f64::from(t.delay(AdcCode::new(r.vin), AdcCode::new(r.io)).ticks.get());
+                worst = worst.max((n - r.aim).abs());
+                if !(n > r.lo && n < r.hi) {
+                    miss.push(start + k);
+                }
+            }
+            (miss, worst)
+        });
         let mut miss = Vec::new();
         let mut worst = 0.0f64;
-        for (k, r) in self.pairs.iter().enumerate() {
-            let n = f64::from(t.delay(AdcCode::new(r.vin), AdcCode::new(r.io)).ticks.get());
-            worst = worst.max((n - r.aim).abs());
-            if !(n > r.lo && n < r.hi) {
-                miss.push(k);
-            }
+        for (m, w) in chunks {
+            miss.extend(m);
+            worst = worst.max(w);
         }
         (miss, worst)
     }

@@ -420,12 +420,16 @@ pub struct Candidate {
     pub layout: &'static str,
     /// Entry bytes.
     pub table_bytes: usize,
-    /// Worst error against the aim at every code pair, ticks (`None` when
-    /// the candidate was not evaluated: a smaller one was chosen).
+    /// Worst error against the aim over the pairs screened, ticks (`None`
+    /// when the candidate was not evaluated: a smaller one was chosen).
     pub screened_error_ticks: Option<f64>,
-    /// Code pairs commanded outside their interval (robust or nominal
-    /// window a tick wide, within the budget around the aim).
+    /// Code pairs screened commanded outside their interval (robust or
+    /// nominal window a tick wide, within the budget around the aim).
     pub misses: Option<usize>,
+    /// Code pairs screened: every pair of the range, or a sixteenth of
+    /// them (both codes multiples of 4) when those alone already exceed
+    /// the error budget.
+    pub screened_pairs: Option<u64>,
     /// Whether it met the budget on the sample.
     pub meets_budget: bool,
     /// Shape: `nodes=...` or `rows x cols`.
@@ -453,15 +457,25 @@ fn bits(x: u32) -> u32 {
 /// this scans the edges of the range finely and the interior on a grid; the
 /// exhaustive verification later covers every pair.
 fn delay_bounds(design: &Design, model: &ExactModel<'_>) -> Result<f64, GenerateError> {
-    let mut max_ticks = 0.0f64;
     let v = design.vin_codes;
     let i = design.io_codes;
-    let step = |r: timing_core::CodeRange| ((r.hi - r.lo) / 64).max(1);
-    let mut cv = v.lo;
-    loop {
-        let mut ci = i.lo;
-        loop {
-            let p = model.at_codes(cv, ci).map_err(|e| GenerateError::Model {
+    // The codes of one axis: its ends and about 64 steps between.
+    let codes = |r: timing_core::CodeRange| {
+        let step = ((r.hi - r.lo) / 64).max(1);
+        let mut out: Vec<u16> = (r.lo..=r.hi).step_by(usize::from(step)).collect();
+        if out.last() != Some(&r.hi) {
+            out.push(r.hi);
+        }
+        out
+    };
+    let (cvs, cis) = (codes(v), codes(i));
+    let max = design.timer.max_ticks().get().min(u32::from(u16::MAX));
+    let rows = crate::par::map_rows(cvs.len(), |k| -> Result<f64, GenerateError> {
+        let cv = cvs[k];
+        let row = model.row(design.vin_of(cv));
+        let mut max_ticks = 0.0f64;
+        for &ci in &cis {
+            let p = row.at_code(ci).map_err(|e| GenerateError::Model {
                 vin_v: design.vin_of(cv),
                 io_a: design.io_of(ci),
                 message: e.to_string(),
@@ -472,7 +486,6 @@ fn delay_bounds(design: &Design, model: &ExactModel<'_>) -> Result<f64, Generate
                     io_a: design.io_of(ci),
                 });
             }
-            let max = design.timer.max_ticks().get().min(u32::from(u16::MAX));
             if p.ticks.round() > f64::from(max) {
                 return Err(GenerateError::CounterOverflow {
                     ticks: p.ticks,
@@ -483,17 +496,11 @@ fn delay_bounds(design: &Design, model: &ExactModel<'_>) -> Result<f64, Generate
                 });
             }
             max_ticks = max_ticks.max(p.ticks);
-            if ci == i.hi {
-                break;
-            }
-            ci = (ci + step(i)).min(i.hi);
         }
-        if cv == v.hi {
-            break;
-        }
-        cv = (cv + step(v)).min(v.hi);
-    }
-    Ok(max_ticks)
+        Ok(max_ticks)
+    });
+    rows.into_iter()
+        .try_fold(0.0f64, |m, r| r.map(|x| m.max(x)))
 }
 
 /// The ZVS test multipliers. J = Io*Z0/Vin >= 1 with Io = ki*(io - zero)
@@ -1080,19 +1087,26 @@ fn node_entries(
     rows: u32,
     cols: u32,
     frac: u32,
-    at: impl Fn(u32, u32) -> (f64, f64),
+    at: impl Fn(u32, u32) -> (f64, f64) + Sync,
 ) -> Result<Vec<u16>, GenerateError> {
+    let per_row = crate::par::map_rows(rows as usize, |r| {
+        (0..cols)
+            .map(|c| {
+                let (vin, io) = at(r as u32, c);
+                model
+                    .at(vin, io)
+                    .map(|p| entry(p.table_ticks, frac))
+                    .map_err(|e| GenerateError::Model {
+                        vin_v: vin,
+                        io_a: io,
+                        message: e.to_string(),
+                    })
+            })
+            .collect::<Result<Vec<u16>, _>>()
+    });
     let mut entries = Vec::with_capacity((rows * cols) as usize);
-    for r in 0..rows {
-        for c in 0..cols {
-            let (vin, io) = at(r, c);
-            let p = model.at(vin, io).map_err(|e| GenerateError::Model {
-                vin_v: vin,
-                io_a: io,
-                message: e.to_string(),
-            })?;
-            entries.push(entry(p.table_ticks, frac));
-        }
+    for r in per_row {
+        entries.extend(r?);
     }
     Ok(entries)
 }
@@ -1326,6 +1340,7 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
                 table_bytes: g.table_bytes(),
                 screened_error_ticks: None,
                 misses: None,
+                screened_pairs: None,
                 meets_budget: false,
                 shape: shape(&g),
             });
@@ -1351,24 +1366,35 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
         } else {
             Some(())
         };
-        let (miss, err) = req.misses(&g);
-        let meets = fitted.is_some() && miss.is_empty() && err <= design.max_error_ticks;
+        // Checked on the sample first: its pairs are a subset of all, so
+        // a sample whose worst error exceeds the budget condemns the
+        // candidate without the full check; otherwise every pair.
+        let (sample_miss, sample_err) = sample.misses(&g);
+        let (miss, err, screened_on) = if sample_err <= design.max_error_ticks {
+            let (m, e) = req.misses(&g);
+            (m.len(), e, req.pairs.len())
+        } else {
+            (sample_miss.len(), sample_err, sample.pairs.len())
+        };
+        let all = screened_on == req.pairs.len();
+        let meets = all && fitted.is_some() && miss == 0 && err <= design.max_error_ticks;
         candidates.push(Candidate {
             layout: g.layout_name(),
             table_bytes: g.table_bytes(),
             screened_error_ticks: Some(err),
-            misses: Some(miss.len()),
+            misses: Some(miss),
+            screened_pairs: Some(screened_on as u64),
             meets_budget: meets,
             shape: shape(&g),
         });
         if best.is_none_or(|b| err < b.0) {
-            best = Some((err, miss.len(), g.layout_name()));
+            best = Some((err, miss, g.layout_name()));
         }
         if meets {
             if let Some(c) = accept(design, g, &mut candidates)? {
                 chosen = Some(c);
             }
-        } else if fallback.is_none() && err <= design.max_error_ticks {
+        } else if fallback.is_none() && all && err <= design.max_error_ticks {
             fallback = Some(g);
         }
     }

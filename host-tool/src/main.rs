@@ -605,14 +605,21 @@ fn run_table(args: &TableArgs) -> anyhow::Result<()> {
         } else {
             outln!("{evaluated} candidates evaluated (all with --verbose or --json); the largest of each layout:");
         }
+        let total = u64::from(design.vin_codes.len()) * u64::from(design.io_codes.len());
         for c in families {
+            let pairs = c.screened_pairs.unwrap_or(0);
             outln!(
-                "  {} {} B ({}): {:.3} ticks, {} code pairs outside their window{}",
+                "  {} {} B ({}): {:.3} ticks, {} code pairs outside their window{}{}",
                 c.layout,
                 c.table_bytes,
                 c.shape,
                 c.screened_error_ticks.unwrap_or(f64::NAN),
                 c.misses.unwrap_or(0),
+                if pairs < total {
+                    format!(" (of the {pairs} screened: already over the budget there)")
+                } else {
+                    String::new()
+                },
                 if c.layout == out.table.layout_name() && c.table_bytes == out.table.table_bytes() {
                     " (chosen)"
                 } else {

@@ -297,13 +297,17 @@ pub fn error_map(design: &Design) -> Result<String, PlotError> {
         .table()
         .map_err(|e| PlotError::Generate(e.to_string()))?;
     let model = ExactModel::new(design);
-    let mut worst = vec![None::<f64>; NX * NY];
     let (v, i) = (design.vin_codes, design.io_codes);
     let span =
         |x: f64, (a, b): (f64, f64), n: usize| (((x - a) / (b - a) * n as f64) as usize).min(n - 1);
-    for cv in v.lo..=v.hi {
+    // A row of voltage codes at a time, on all cores: each row's worst per
+    // picture cell, merged.
+    let rows = crate::par::map_rows(v.len() as usize, |k| {
+        let cv = v.lo + k as u16;
+        let row = model.row(design.vin_of(cv));
+        let mut worst = vec![None::<f64>; NX * NY];
         for ci in i.lo..=i.hi {
-            let Ok(p) = model.at_codes(cv, ci) else {
+            let Ok(p) = row.at_code(ci) else {
                 continue;
             };
             let got = f64::from(table.delay(AdcCode::new(cv), AdcCode::new(ci)).ticks.get());
@@ -311,6 +315,15 @@ pub fn error_map(design: &Design) -> Result<String, PlotError> {
             let k = span(design.io_of(ci), design.io_a, NY) * NX
                 + span(design.vin_of(cv), design.vin_v, NX);
             worst[k] = Some(worst[k].map_or(e, |w: f64| w.max(e)));
+        }
+        worst
+    });
+    let mut worst = vec![None::<f64>; NX * NY];
+    for row in rows {
+        for (w, r) in worst.iter_mut().zip(row) {
+            if let Some(e) = r {
+                *w = Some(w.map_or(e, |x: f64| x.max(e)));
+            }
         }
     }
     let g = Grid {

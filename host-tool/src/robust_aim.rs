@@ -23,7 +23,7 @@ use std::sync::OnceLock;
 
 use timing_core::robust::RobustWindow;
 
-use crate::aim_grid::{interval, minimax, AimGrid};
+use crate::aim_grid::{interval, minimax, AimGrid, AimRow};
 use crate::design::{Design, Tolerance};
 use crate::robust_grid::{true_range, TankSpread, WindowGrid, WindowRow};
 
@@ -144,6 +144,7 @@ impl RobustAim {
             vin,
             v,
             window: v.and_then(|v| self.grid.prepare(v, u)),
+            aim_row: v.map(|v| self.aim_grid.prepare(v, &self.spread)),
         }
     }
 }
@@ -159,6 +160,8 @@ pub struct RobustRow<'a> {
     v: Option<(f64, f64)>,
     /// The window grid prepared for those cell voltages.
     window: Option<WindowRow<'a>>,
+    /// The aim grid prepared for them.
+    aim_row: Option<AimRow<'a>>,
 }
 
 /// What the tolerances leave of one reading.
@@ -231,7 +234,10 @@ impl RobustRow<'_> {
         };
         let aim = self.aim;
         let jitter = aim.tol.jitter_s;
-        let (lo, hi) = aim.aim_grid.extremes(v, i, &aim.spread);
+        let (lo, hi) = match &self.aim_row {
+            Some(r) if Some(v) == self.v => r.extremes(i),
+            _ => aim.aim_grid.extremes(v, i, &aim.spread),
+        };
         let mut aim_s = minimax(lo + jitter, hi - jitter, position);
         let bounds = self.bounds(v, i);
         if let Some((lo, hi)) = bounds {

@@ -52,6 +52,7 @@
 use timing_core::robust::RobustWindow;
 use timing_core::{CellPoint, Error};
 
+use crate::event_grid::EventGrid;
 use crate::real_tank::{CellSolver, RealTank};
 
 /// Spacing of the grid in ln(current): 1e-3 keeps the product bound's
@@ -227,16 +228,25 @@ impl WindowGrid {
             first_zvs: Vec::new(),
         };
         // Rows of nodes and of cell centres, in parallel.
-        let rows: Vec<Result<RowOut, Error>> = crate::par::map_rows(nv, |a| g.node_row(solver, a));
+        // The ring's events over the grid's range, when the tank needs the
+        // ring (an ideal tank's closed forms are as fast).
+        let events = match solver {
+            CellSolver::Ring(r) => EventGrid::new(r, (v0, v1), (u0, u1)).ok(),
+            CellSolver::Ideal(_) => None,
+        };
+        let rows: Vec<Result<RowOut, Error>> =
+            crate::par::map_rows(nv, |a| g.node_row(solver, events.as_ref(), a));
         let mut centres = Vec::with_capacity(nv);
+        let mut node_eps = Vec::with_capacity(nv * nu);
         for r in rows {
             let r = r?;
             g.nodes.extend_from_slice(&r.nodes);
+            node_eps.extend_from_slice(&r.node_eps);
             centres.push(r.centres);
         }
         for (a, row) in centres.iter().enumerate().take(nv - 1) {
             for (b, centre) in row.iter().enumerate() {
-                let e = g.cell_eps(a, b, centre);
+                let e = g.cell_eps(a, b, centre, &node_eps);
                 g.eps.push(e);
             }
         }
@@ -283,19 +293,31 @@ impl WindowGrid {
 
     /// Node row `a` and the centres of the cells above it (none for the
     /// last row).
-    fn node_row(&self, solver: &CellSolver<'_>, a: usize) -> Result<RowOut, Error> {
-        let at = |v: f64, u: f64| -> Result<[f64; 6], Error> {
-            let t = solver.transition(&CellPoint::new(v, u)?)?;
-            let (o, c) = t
-                .turn_on
+    fn node_row(
+        &self,
+        solver: &CellSolver<'_>,
+        events: Option<&EventGrid>,
+        a: usize,
+    ) -> Result<RowOut, Error> {
+        // From the event grid where it answers within a hundredth of a
+        // nanosecond (its bound joins the cell's), else the ring.
+        let at = |v: f64, u: f64| -> Result<([f64; 6], f64), Error> {
+            let cell = CellPoint::new(v, u)?;
+            let (turn_on, e) = match events.and_then(|g| g.at(&cell)) {
+                Some(g) if g.eps_s <= 1e-11 => (g.turn_on, g.eps_s),
+                _ => (solver.transition(&cell)?.turn_on, 0.0),
+            };
+            let (o, c) = turn_on
                 .window()
                 .map_or((f64::NAN, f64::NAN), |w| (w.open_s, w.close_s));
-            Ok(six(o, c, u))
+            Ok((six(o, c, u), e))
         };
         let mut out = RowOut::default();
         let v = self.v_at(a as f64);
         for b in 0..self.nu {
-            out.nodes.push(at(v, self.u_at(b as f64))?);
+            let (n, e) = at(v, self.u_at(b as f64))?;
+            out.nodes.push(n);
+            out.node_eps.push(e);
         }
         if a + 1 < self.nv {
             let vc = self.v_at(a as f64 + 0.5);
@@ -313,18 +335,31 @@ impl WindowGrid {
             .unwrap_or([f64::NAN; 6])
     }
 
-    fn cell_eps(&self, a: usize, b: usize, centre: &[f64; 6]) -> [f64; 6] {
-        let c = [
-            self.node(a, b),
-            self.node(a + 1, b),
-            self.node(a, b + 1),
-            self.node(a + 1, b + 1),
-        ];
+    /// The allowance of cell (a, b) per function: the measured centre
+    /// error times [`EPS_FACTOR`], the ring's noise, and where the values
+    /// came from the event grid, its bound `e` (second) at the corners and
+    /// the centre: a centre measured off by up to twice it, an
+    /// interpolant off by up to once it, so `(EPS_FACTOR*2 + 1)*e` scaled
+    /// as each function scales the times.
+    fn cell_eps(&self, a: usize, b: usize, centre: &([f64; 6], f64), node_eps: &[f64]) -> [f64; 6] {
+        let corners = [(a, b), (a + 1, b), (a, b + 1), (a + 1, b + 1)];
+        let c = corners.map(|(a, b)| self.node(a, b));
+        let e_max = corners
+            .iter()
+            .map(|&(a, b)| node_eps.get(a * self.nu + b).copied().unwrap_or(f64::NAN))
+            .fold(centre.1, f64::max);
+        // The largest factor each function applies to a time over the
+        // cell (u and 1/u at the cell's ends).
+        let (u0, u1) = (self.u_at(b as f64), self.u_at(b as f64 + 1.0));
+        let scale = [1.0, u1, 1.0 / u0, 1.0, u1, 1.0 / u0];
         let mut e = [0.0; 6];
         for (f, slot) in e.iter_mut().enumerate() {
             let mean = c.iter().map(|n| n[f]).sum::<f64>() / 4.0;
+            let centre = centre.0[f];
             // NaN anywhere (a corner or the centre without ZVS) stays NaN.
-            *slot = (centre[f] - mean).abs() * EPS_FACTOR + centre[f].abs() * self.model_rel;
+            *slot = (centre - mean).abs() * EPS_FACTOR
+                + centre.abs() * self.model_rel
+                + (EPS_FACTOR * 2.0 + 1.0) * e_max * scale[f];
         }
         e
     }
@@ -670,5 +705,8 @@ impl WindowRow<'_> {
 #[derive(Debug, Default)]
 struct RowOut {
     nodes: Vec<[f64; 6]>,
-    centres: Vec<[f64; 6]>,
+    /// Each node's bound from the event grid, second (0: the ring's).
+    node_eps: Vec<f64>,
+    /// Each cell centre's six functions and bound.
+    centres: Vec<([f64; 6], f64)>,
 }
