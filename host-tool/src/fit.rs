@@ -253,29 +253,88 @@ pub fn fit_or_why(req: &Requirements, g: &Generated) -> Result<Vec<u16>, NoFit> 
     // unit; the rows' rounding is left to the cutting-plane loop's check.
     let margin = 0.5 / scale + 1e-9;
     let top = f64::from(u16::MAX) / scale;
-    let stencils: Vec<[(usize, f64); 4]> = req
-        .pairs
-        .iter()
-        .map(|r| stencil(g, r.vin, r.io))
-        .collect::<Option<_>>()
-        .ok_or(NoFit::Unsettled)?;
-    // Least squares to the aim over every pair, plus the pull.
-    let pull = 1e-3 * (req.pairs.len() as f64 / n as f64).max(1.0);
+    // One pass over the pairs (in parallel chunks): the least-squares
+    // terms, accumulated per table cell as a 4 x 4 block over the cell's
+    // nodes, and per cell and sub-cell of weights the pair with the
+    // highest lower bound and the one with the lowest upper (the starting
+    // selection).
+    type Picks = std::collections::HashMap<(usize, u32), (usize, usize)>;
+    struct Acc {
+        blocks: std::collections::HashMap<usize, ([usize; 4], [[f64; 4]; 4])>,
+        q: Vec<f64>,
+        pick: Picks,
+        complete: bool,
+    }
+    const CHUNK: usize = 1 << 15;
+    let parts = crate::par::map_rows(req.pairs.len().div_ceil(CHUNK), |c| {
+        let mut acc = Acc {
+            blocks: std::collections::HashMap::new(),
+            q: vec![0.0; n],
+            pick: Picks::new(),
+            complete: true,
+        };
+        let start = c * CHUNK;
+        let end = (start + CHUNK).min(req.pairs.len());
+        for (k, r) in req.pairs[start..end].iter().enumerate() {
+            let Some(st) = stencil(g, r.vin, r.io) else {
+                acc.complete = false;
+                break;
+            };
+            let nodes = st.map(|(a, _)| a);
+            let block = acc.blocks.entry(st[0].0).or_insert((nodes, [[0.0; 4]; 4]));
+            for (x, &(a, wa)) in st.iter().enumerate() {
+                if wa == 0.0 {
+                    continue;
+                }
+                acc.q[a] -= wa * r.aim;
+                for (y, &(_, wb)) in st.iter().enumerate() {
+                    block.1[x][y] += wa * wb;
+                }
+            }
+            let k = start + k;
+            let e = acc.pick.entry(sub_cell(&st)).or_insert((k, k));
+            if r.lo > req.pairs[e.0].lo {
+                e.0 = k;
+            }
+            if r.hi < req.pairs[e.1].hi {
+                e.1 = k;
+            }
+        }
+        acc
+    });
     let mut p = std::collections::BTreeMap::<(usize, usize), f64>::new();
     let mut q = vec![0.0; n];
-    for (st, r) in stencils.iter().zip(&req.pairs) {
-        for &(a, wa) in st {
-            if wa == 0.0 {
-                continue;
-            }
-            q[a] -= wa * r.aim;
-            for &(b, wb) in st {
-                if wb != 0.0 && a <= b {
-                    *p.entry((a, b)).or_insert(0.0) += wa * wb;
+    let mut pick = Picks::new();
+    for part in parts {
+        if !part.complete {
+            return Err(NoFit::Unsettled);
+        }
+        for (qk, x) in q.iter_mut().zip(&part.q) {
+            *qk += x;
+        }
+        for (nodes, m) in part.blocks.into_values() {
+            for (x, &a) in nodes.iter().enumerate() {
+                for (y, &b) in nodes.iter().enumerate() {
+                    if a <= b && m[x][y] != 0.0 {
+                        *p.entry((a, b)).or_insert(0.0) += m[x][y];
+                    }
                 }
             }
         }
+        // Chunks come in order: a later chunk's pick replaces an earlier
+        // one only when strictly tighter, as in one pass.
+        for (key, (lo, hi)) in part.pick {
+            let e = pick.entry(key).or_insert((lo, hi));
+            if req.pairs[lo].lo > req.pairs[e.0].lo {
+                e.0 = lo;
+            }
+            if req.pairs[hi].hi < req.pairs[e.1].hi {
+                e.1 = hi;
+            }
+        }
     }
+    // Plus a small pull of each entry to the aim at its node.
+    let pull = 1e-3 * (req.pairs.len() as f64 / n as f64).max(1.0);
     for (k, qk) in q.iter_mut().enumerate() {
         *p.entry((k, k)).or_insert(0.0) += pull;
         *qk -= pull * f64::from(g.entries[k]) / scale;
@@ -290,24 +349,12 @@ pub fn fit_or_why(req: &Requirements, g: &Generated) -> Result<Vec<u16>, NoFit> 
         },
     );
     let pm = CscMatrix::new_from_triplets(n, n, pi, pj, pv);
-    // The starting selection: per cell and sub-cell of weights, the pair
-    // with the highest lower bound and the one with the lowest upper.
-    let mut pick = std::collections::HashMap::<(usize, u32), (usize, usize)>::new();
-    for (k, (st, r)) in stencils.iter().zip(&req.pairs).enumerate() {
-        let e = pick.entry(sub_cell(st)).or_insert((k, k));
-        if r.lo > req.pairs[e.0].lo {
-            e.0 = k;
-        }
-        if r.hi < req.pairs[e.1].hi {
-            e.1 = k;
-        }
-    }
     let mut chosen: Vec<usize> = pick.values().flat_map(|&(a, b)| [a, b]).collect();
     chosen.sort_unstable();
     chosen.dedup();
     let mut out = g.clone();
     for _ in 0..ROUNDS {
-        let x = solve(&pm, &q, &chosen, &stencils, req, margin, top)?;
+        let x = solve(&pm, &q, &chosen, g, req, margin, top)?;
         out.entries = x
             .iter()
             .map(|e| (e * scale).round().clamp(0.0, f64::from(u16::MAX)) as u16)
@@ -337,7 +384,7 @@ fn solve(
     pm: &CscMatrix<f64>,
     q: &[f64],
     chosen: &[usize],
-    stencils: &[[(usize, f64); 4]],
+    g: &Generated,
     req: &Requirements,
     margin: f64,
     top: f64,
@@ -349,7 +396,7 @@ fn solve(
         let r = &req.pairs[k];
         // y <= hi - margin and -y <= -(lo + margin).
         for (sign, bound) in [(1.0, r.hi - margin), (-1.0, -(r.lo + margin))] {
-            for &(c, w) in &stencils[k] {
+            for &(c, w) in &stencil(g, r.vin, r.io).ok_or(NoFit::Unsettled)? {
                 if w != 0.0 {
                     ai.push(row);
                     aj.push(c);
