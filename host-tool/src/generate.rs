@@ -117,27 +117,17 @@ impl<'a> ExactModel<'a> {
             .window())
     }
 
-    /// The turn-on at `cell` and the bound of its times, second: for a
-    /// ring tank from the event grid where it answers within
-    /// [`MAX_GRID_EPS_TICKS`], for an ideal tank from the closed forms with
-    /// the tabulated `asin` ([`crate::ideal_curve`]), else from the solver
-    /// (bound 0).
+    /// The turn-on at `cell` and the bound of its times, second: from the
+    /// event grid where it answers within [`MAX_GRID_EPS_TICKS`], else from
+    /// the solver (bound 0; an ideal tank's closed forms are as fast as
+    /// any table of them, measured).
     fn turn_on(
         &self,
         cell: &timing_core::CellPoint<f64>,
     ) -> Result<(timing_core::TurnOn<f64>, f64), timing_core::Error> {
-        match self.solver {
-            CellSolver::Ideal(tank) => {
-                if let Some(t) = crate::ideal_curve::turn_on(&tank, cell) {
-                    return Ok(t);
-                }
-            }
-            CellSolver::Ring(_) => {
-                if let Some(g) = self.grid.and_then(|g| g.at(cell)) {
-                    if g.eps_s <= self.max_grid_eps_s {
-                        return Ok((g.turn_on, g.eps_s));
-                    }
-                }
+        if let Some(g) = self.grid.and_then(|g| g.at(cell)) {
+            if g.eps_s <= self.max_grid_eps_s {
+                return Ok((g.turn_on, g.eps_s));
             }
         }
         Ok((self.solver.transition(cell)?.turn_on, 0.0))

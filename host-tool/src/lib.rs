@@ -22,7 +22,6 @@ pub mod event_grid;
 pub mod export;
 pub mod fit;
 pub mod generate;
-pub mod ideal_curve;
 pub mod montecarlo;
 pub mod netlist;
 pub mod par;

@@ -188,23 +188,19 @@ fn check_row(
     let clock = design.timer.clock_hz();
     let lead = design.timer.lead_s();
     let row = model.row(design.vin_of(cv));
-    let mut got: Vec<(u32, Option<f64>)> = vec![(0, None); methods.len()];
     for ci in i.lo..=i.hi {
         let mut p = row.at_code(ci);
-        for (g, m) in got.iter_mut().zip(methods) {
-            *g = m.eval(cv, ci);
-        }
-        // Where the model's bound is not zero and some method's turn-on
-        // lies within it of a decision (a window edge, a window a tick
-        // wide), the ring (or timing-core's closed forms) decides.
+        // Where the event grid answered and some method's turn-on lies
+        // within the grid's bound of a decision (a window edge, a window a
+        // tick wide), the ring decides.
         if let Ok(q) = p {
             let undecided = q.model_eps_ticks > 0.0
-                && got.iter().any(|&(n, _)| {
-                    let on = f64::from(n) / clock + lead;
+                && methods.iter().any(|m| {
+                    let on = f64::from(m.eval(cv, ci).0) / clock + lead;
                     undecided(&q, on, clock)
                 });
             if undecided {
-                // The window from the solver; the aim stays the model's.
+                // The window from the ring; the aim stays the model's.
                 p = model
                     .ring_window(design.vin_of(cv), design.io_of(ci))
                     .map(|window| crate::generate::ExactPoint {
@@ -214,8 +210,8 @@ fn check_row(
                     });
             }
         }
-        for (g, r) in got.iter().zip(rows.iter_mut()) {
-            check_pair(design, *g, cv, ci, p, r);
+        for (m, r) in methods.iter().zip(rows.iter_mut()) {
+            check_pair(design, *m, cv, ci, p, r);
         }
     }
     rows
@@ -234,7 +230,7 @@ fn undecided(p: &crate::generate::ExactPoint, on: f64, clock: f64) -> bool {
 
 fn check_pair(
     design: &Design,
-    (got, raw): (u32, Option<f64>),
+    m: &dyn DelayMethod,
     cv: u16,
     ci: u16,
     p: Result<crate::generate::ExactPoint, timing_core::Error>,
@@ -249,6 +245,7 @@ fn check_pair(
             r.model_errors += 1;
             return;
         };
+        let (got, raw) = m.eval(cv, ci);
         if got > r.max_cmd {
             r.max_cmd = got;
             r.max_cmd_ci = ci;
