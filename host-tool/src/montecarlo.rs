@@ -58,6 +58,19 @@ pub struct MonteCarloReport {
     pub model_errors: u64,
 }
 
+/// One board's counts.
+#[derive(Debug, Default)]
+struct Board {
+    zvs: u64,
+    inside: u64,
+    early: u64,
+    late: u64,
+    robust: u64,
+    robust_inside: u64,
+    valley: u64,
+    model_errors: u64,
+}
+
 /// Why a run could not start.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum MonteCarloError {
@@ -86,7 +99,7 @@ pub fn run(
     boards: u32,
     cycles: u32,
     seed: u64,
-    mut progress: Option<&mut dyn FnMut(f64)>,
+    progress: Option<&mut dyn FnMut(f64)>,
 ) -> Result<MonteCarloReport, MonteCarloError> {
     let tol = design.tolerance.ok_or(MonteCarloError::NoTolerance)?;
     if boards == 0 {
@@ -98,7 +111,6 @@ pub fn run(
     let aim = design
         .robust_aim()
         .map_err(|e| MonteCarloError::Model(e.to_string()))?;
-    let mut rng = rand::rngs::StdRng::seed_from_u64(seed);
     let max_code = f64::from((1u32 << design.adc_bits) - 1);
     let timer = &design.timer;
     let mut r = MonteCarloReport {
@@ -125,76 +137,93 @@ pub fn run(
             0.0
         }
     };
-    for b in 0..boards {
-        let (dl, dc) = (spread(&mut rng, tol.lr_rel), spread(&mut rng, tol.cr_rel));
-        let (gv, gi) = (
-            spread(&mut rng, tol.vin_gain_rel),
-            spread(&mut rng, tol.io_gain_rel),
-        );
-        let (ov, oi) = (
-            spread(&mut rng, tol.vin_offset_codes),
-            spread(&mut rng, tol.io_offset_codes),
-        );
-        let real = design.real.scaled(1.0 + dl, 1.0 + dc);
-        let Ok(solver) = real.solver() else {
-            r.model_errors += u64::from(cycles);
-            continue;
-        };
-        let (mut zvs, mut inside) = (0u64, 0u64);
-        for _ in 0..cycles {
-            let vin = rng.random_range(design.vin_v.0..=design.vin_v.1);
-            let io = rng.random_range(design.io_a.0..=design.io_a.1);
-            let (nv, ni) = (
-                spread(&mut rng, tol.noise_codes),
-                spread(&mut rng, tol.noise_codes),
+    // Boards on all cores, each with its own generator seeded from the
+    // run's seed and its number, so the draws do not depend on the
+    // threads.
+    let per_board = crate::par::map_rows_with_progress(
+        boards as usize,
+        |b| {
+            let mut rng = rand::rngs::StdRng::seed_from_u64(
+                seed ^ (b as u64 + 1).wrapping_mul(0x9E37_79B9_7F4A_7C15),
             );
-            let jitter = spread(&mut rng, tol.jitter_s);
-            let code = |x: f64| x.round().clamp(0.0, max_code) as u16;
-            let vin_code = code(vin * (1.0 + gv) / design.vin_volts_per_code + ov + nv);
-            let io_code = code(
-                io * (1.0 + gi) / design.io_amps_per_code
-                    + f64::from(design.io_zero_code)
-                    + oi
-                    + ni,
+            let mut o = Board::default();
+            let (dl, dc) = (spread(&mut rng, tol.lr_rel), spread(&mut rng, tol.cr_rel));
+            let (gv, gi) = (
+                spread(&mut rng, tol.vin_gain_rel),
+                spread(&mut rng, tol.io_gain_rel),
             );
-            let Ok(t) = design.cell(vin, io).and_then(|c| solver.transition(&c)) else {
-                r.model_errors += 1;
-                continue;
+            let (ov, oi) = (
+                spread(&mut rng, tol.vin_offset_codes),
+                spread(&mut rng, tol.io_offset_codes),
+            );
+            let real = design.real.scaled(1.0 + dl, 1.0 + dc);
+            let Ok(solver) = real.solver() else {
+                o.model_errors += u64::from(cycles);
+                return o;
             };
-            let Some(w) = t.turn_on.window() else {
-                r.valley_cycles += 1;
-                continue;
-            };
-            zvs += 1;
-            let (ticks, _) = method.eval(vin_code, io_code);
-            let on = timer.turn_on_s(timing_core::Ticks::new(ticks)) + jitter;
-            if on < w.open_s {
-                r.early += 1;
-            } else if on > w.close_s {
-                r.late += 1;
-            } else {
-                inside += 1;
-            }
-            let robust = aim.as_ref().is_some_and(|a| {
-                a.window(design, design.vin_of(vin_code), design.io_of(io_code))
-                    .is_some()
-            });
-            if robust {
-                r.robust_cycles += 1;
-                if on >= w.open_s && on <= w.close_s {
-                    r.robust_cycles_inside += 1;
+            for _ in 0..cycles {
+                let vin = rng.random_range(design.vin_v.0..=design.vin_v.1);
+                let io = rng.random_range(design.io_a.0..=design.io_a.1);
+                let (nv, ni) = (
+                    spread(&mut rng, tol.noise_codes),
+                    spread(&mut rng, tol.noise_codes),
+                );
+                let jitter = spread(&mut rng, tol.jitter_s);
+                let code = |x: f64| x.round().clamp(0.0, max_code) as u16;
+                let vin_code = code(vin * (1.0 + gv) / design.vin_volts_per_code + ov + nv);
+                let io_code = code(
+                    io * (1.0 + gi) / design.io_amps_per_code
+                        + f64::from(design.io_zero_code)
+                        + oi
+                        + ni,
+                );
+                let Ok(t) = design.cell(vin, io).and_then(|c| solver.transition(&c)) else {
+                    o.model_errors += 1;
+                    continue;
+                };
+                let Some(w) = t.turn_on.window() else {
+                    o.valley += 1;
+                    continue;
+                };
+                o.zvs += 1;
+                let (ticks, _) = method.eval(vin_code, io_code);
+                let on = timer.turn_on_s(timing_core::Ticks::new(ticks)) + jitter;
+                let inside = on >= w.open_s && on <= w.close_s;
+                if on < w.open_s {
+                    o.early += 1;
+                } else if on > w.close_s {
+                    o.late += 1;
+                } else {
+                    o.inside += 1;
+                }
+                let robust = aim.as_ref().is_some_and(|a| {
+                    a.window(design, design.vin_of(vin_code), design.io_of(io_code))
+                        .is_some()
+                });
+                if robust {
+                    o.robust += 1;
+                    if inside {
+                        o.robust_inside += 1;
+                    }
                 }
             }
-        }
-        r.zvs_cycles += zvs;
-        r.inside += inside;
-        if zvs > 0 {
+            o
+        },
+        progress,
+    );
+    for o in per_board {
+        r.zvs_cycles += o.zvs;
+        r.inside += o.inside;
+        r.early += o.early;
+        r.late += o.late;
+        r.robust_cycles += o.robust;
+        r.robust_cycles_inside += o.robust_inside;
+        r.valley_cycles += o.valley;
+        r.model_errors += o.model_errors;
+        if o.zvs > 0 {
             r.worst_board_inside_fraction = r
                 .worst_board_inside_fraction
-                .min(inside as f64 / zvs as f64);
-        }
-        if let Some(f) = progress.as_mut() {
-            f(f64::from(b + 1) / f64::from(boards));
+                .min(o.inside as f64 / o.zvs as f64);
         }
     }
     r.inside_fraction = if r.zvs_cycles > 0 {
