@@ -29,7 +29,7 @@ fn generation(c: &mut Criterion) {
     let mut g = c.benchmark_group("generate");
     g.sample_size(10);
     g.throughput(Throughput::Elements(pairs(&demo)));
-    g.bench_function("demo (winch_aux, log-uniform)", |b| {
+    g.bench_function("demo (winch_aux)", |b| {
         b.iter(|| generate(black_box(&demo)).expect("demo generates"));
     });
     g.finish();

@@ -83,6 +83,19 @@ fn proof_line(s: &mut String, v: &VerifyReport) {
 /// # Errors
 /// timing-core's refusal of the design's code scaling, as a sentence.
 pub fn closed_form_source(design: &Design) -> Result<String, String> {
+    closed_form_source_with(design, None)
+}
+
+/// [`closed_form_source`] with the methods' verification reports already
+/// made (by the pass that verified the table, [`crate::generate::Outcome`]);
+/// a method whose report is missing is verified here.
+///
+/// # Errors
+/// As [`closed_form_source`].
+pub fn closed_form_source_with(
+    design: &Design,
+    done: Option<&[VerifyReport]>,
+) -> Result<String, String> {
     let cf = design.closed_form().map_err(|e| e.to_string())?;
     let fast = cf.fast_f32();
     let fixed = cf.fixed_point();
@@ -124,15 +137,24 @@ pub fn closed_form_source(design: &Design) -> Result<String, String> {
                 .map_err(ToString::to_string),
         ),
     ];
-    let available: Vec<&dyn DelayMethod> = named
+    let known = |name: &str| done.and_then(|d| d.iter().find(|r| r.method == name));
+    let missing: Vec<&dyn DelayMethod> = named
         .iter()
+        .filter(|(name, _)| known(name).is_none())
         .filter_map(|(_, m)| m.as_ref().ok().copied())
         .collect();
-    let mut reports = verify_all(design, &available, None).into_iter();
+    let mut reports = if missing.is_empty() {
+        Vec::new()
+    } else {
+        verify_all(design, &missing, None)
+    }
+    .into_iter();
     for (name, m) in &named {
         match m {
             Ok(_) => {
-                if let Some(r) = reports.next() {
+                if let Some(r) = known(name) {
+                    proof_line(&mut s, r);
+                } else if let Some(r) = reports.next() {
                     proof_line(&mut s, &r);
                 }
             }

@@ -676,6 +676,35 @@ pub fn write_all(
     g: &Generated,
     v: &VerifyReport,
 ) -> std::io::Result<Written> {
+    write_with(dir, design, g, v, None)
+}
+
+/// [`write_all`] for a generation's outcome: its closed-form reports,
+/// made in the table's verification pass, are not made again.
+///
+/// # Errors
+/// As [`write_all`].
+pub fn write_outcome(
+    dir: &std::path::Path,
+    design: &Design,
+    out: &crate::generate::Outcome,
+) -> std::io::Result<Written> {
+    write_with(
+        dir,
+        design,
+        &out.table,
+        &out.verification,
+        Some(&out.closed_forms),
+    )
+}
+
+fn write_with(
+    dir: &std::path::Path,
+    design: &Design,
+    g: &Generated,
+    v: &VerifyReport,
+    closed_forms: Option<&[VerifyReport]>,
+) -> std::io::Result<Written> {
     std::fs::create_dir_all(dir)?;
     let base = dir.join(&design.name);
     let w = Written {
@@ -691,7 +720,8 @@ pub fn write_all(
     std::fs::write(&w.csv, csv(design, g))?;
     std::fs::write(
         &w.closed_form_rs,
-        crate::closed_form_source::closed_form_source(design).map_err(std::io::Error::other)?,
+        crate::closed_form_source::closed_form_source_with(design, closed_forms)
+            .map_err(std::io::Error::other)?,
     )?;
     Ok(w)
 }

@@ -13,7 +13,7 @@ use timing_core::ZvsWindow;
 use crate::design::Design;
 use crate::real_tank::CellSolver;
 use crate::robust_aim::{RobustAim, RobustRow};
-use crate::verify::{verify, VerifyReport};
+use crate::verify::VerifyReport;
 
 /// The exact (f64) commanded delay of a design, before quantisation.
 #[derive(Debug, Clone, Copy)]
@@ -446,6 +446,10 @@ pub struct Outcome {
     pub verification: VerifyReport,
     /// Every candidate considered, smallest first.
     pub candidates: Vec<Candidate>,
+    /// The closed-form methods' verification, from the same pass over the
+    /// code pairs as the table's (the methods timing-core offers for the
+    /// design, in the order `closed-form-f32`, `fixed-point`, `libm-f32`).
+    pub closed_forms: Vec<VerifyReport>,
 }
 
 /// Bits needed to hold `x`.
@@ -1409,10 +1413,11 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
         }
     }
     match chosen {
-        Some((table, verification)) => Ok(Outcome {
+        Some((table, verification, closed_forms)) => Ok(Outcome {
             table,
             verification,
             candidates,
+            closed_forms,
         }),
         None => {
             let (best, misses, layout) = best.unwrap_or((f64::INFINITY, 0, "none"));
@@ -1429,20 +1434,38 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
 /// Verify candidate `g` at every code pair: `Some` with its report when it
 /// meets the budget (and its commands fit the counter), `None` after
 /// marking its entry in `candidates` as failing.
+#[allow(clippy::type_complexity)]
 fn accept(
     design: &Design,
     g: Generated,
     candidates: &mut [Candidate],
-) -> Result<Option<(Generated, VerifyReport)>, GenerateError> {
-    let report = verify(
-        design,
-        &g.table().map_err(|e| GenerateError::Model {
-            vin_v: 0.0,
-            io_a: 0.0,
-            message: e.to_string(),
-        })?,
-        None,
-    );
+) -> Result<Option<(Generated, VerifyReport, Vec<VerifyReport>)>, GenerateError> {
+    let table = g.table().map_err(|e| GenerateError::Model {
+        vin_v: 0.0,
+        io_a: 0.0,
+        message: e.to_string(),
+    })?;
+    // The closed forms the design allows join the table's pass over the
+    // code pairs (the exact model runs once per pair for all of them).
+    let cf = design.closed_form().ok();
+    let fast = cf.as_ref().and_then(|c| c.fast_f32().ok());
+    let fixed = cf.as_ref().and_then(|c| c.fixed_point().ok());
+    let libm = cf.as_ref().and_then(|c| c.libm_f32().ok());
+    let mut methods: Vec<&dyn crate::verify::DelayMethod> = vec![&table];
+    if let Some(m) = &fast {
+        methods.push(m);
+    }
+    if let Some(m) = &fixed {
+        methods.push(m);
+    }
+    if let Some(m) = &libm {
+        methods.push(m);
+    }
+    let mut reports = crate::verify::verify_all(design, &methods, None);
+    let closed_forms = reports.split_off(1);
+    let Some(report) = reports.pop() else {
+        return Ok(None);
+    };
     let max = design.timer.max_ticks().get();
     if report.max_commanded_ticks > max {
         return Err(GenerateError::CounterOverflow {
@@ -1454,7 +1477,7 @@ fn accept(
         });
     }
     if report.max_error_ticks <= design.max_error_ticks {
-        return Ok(Some((g, report)));
+        return Ok(Some((g, report, closed_forms)));
     }
     let name = g.layout_name();
     let bytes = g.table_bytes();

@@ -549,7 +549,7 @@ fn run_table(args: &TableArgs) -> anyhow::Result<()> {
     use host_tool::{design::Design, export, generate};
     let design = Design::load(&args.design)?;
     let out = generate::generate(&design)?;
-    let written = export::write_all(&args.out, &design, &out.table, &out.verification)?;
+    let written = export::write_outcome(&args.out, &design, &out)?;
     if args.json {
         let j = serde_json::json!({
             "name": design.name,

@@ -60,7 +60,7 @@ use crate::real_tank::{CellSolver, RealTank};
 /// window times.
 const LN_STEP: f64 = 1e-3;
 /// Spacing in ln(voltage).
-const LN_V_STEP: f64 = 0.005;
+const LN_V_STEP: f64 = 0.01;
 /// Safety factor on the measured centre error of a cell.
 const EPS_FACTOR: f64 = 3.0;
 /// The ring's step-placement noise between a tank and its scaled copy,
@@ -528,6 +528,7 @@ impl WindowGrid {
             g: self,
             v,
             rows,
+            spread_logs: (self.spread, SpreadLogs::of(&self.spread)),
             c0,
             nb,
             first_zvs,
@@ -544,6 +545,36 @@ impl WindowGrid {
     }
 }
 
+/// Logarithms and products of a [`TankSpread`] that every box needs.
+#[derive(Debug, Clone, Copy)]
+struct SpreadLogs {
+    /// ln of the scaled current's factors at the range's ends,
+    /// `sqrt(l_lo/k_hi)` and `sqrt(l_hi/k_lo)`.
+    ln_u_lo: f64,
+    ln_u_hi: f64,
+    /// ln of `sqrt(l_hi/k_hi)` and `sqrt(l_lo/k_lo)`: where `M` and `m`
+    /// change pieces, as factors of the box's currents.
+    ln_r_hi: f64,
+    ln_r_lo: f64,
+    /// `sqrt(l_hi*k_hi)` and `sqrt(l_lo*k_lo)`.
+    sqrt_lk_hi: f64,
+    sqrt_lk_lo: f64,
+}
+
+impl SpreadLogs {
+    fn of(s: &TankSpread) -> Self {
+        let (l, k) = (s.l, s.k);
+        Self {
+            ln_u_lo: 0.5 * (l.0 / k.1).ln(),
+            ln_u_hi: 0.5 * (l.1 / k.0).ln(),
+            ln_r_hi: 0.5 * (l.1 / k.1).ln(),
+            ln_r_lo: 0.5 * (l.0 / k.0).ln(),
+            sqrt_lk_hi: (l.1 * k.1).sqrt(),
+            sqrt_lk_lo: (l.0 * k.0).sqrt(),
+        }
+    }
+}
+
 /// A [`WindowGrid`] prepared for boxes over one range of cell voltages
 /// ([`WindowGrid::prepare`]): the bounds of [`WindowGrid::bounds`] at a few
 /// hundred operations a box.
@@ -554,6 +585,8 @@ pub struct WindowRow<'g> {
     v: (f64, f64),
     /// Grid rows covered.
     rows: usize,
+    /// The grid's spread and its logarithms.
+    spread_logs: (TankSpread, SpreadLogs),
     /// First covered cell and the number covered.
     c0: usize,
     nb: usize,
@@ -622,32 +655,36 @@ impl WindowRow<'_> {
             // A lossier scaled loop than the grid's.
             return None;
         }
-        let u = spread.current_range(i);
         let (l, k) = (spread.l, spread.k);
+        let c = if *spread == self.spread_logs.0 {
+            self.spread_logs.1
+        } else {
+            SpreadLogs::of(spread)
+        };
+        // Grid coordinates (ln(u) in cell units) of a current times a
+        // factor whose log is `ln_f`.
+        let (ln_i0, ln_i1) = (i.0.ln(), i.1.ln());
+        let x = |ln_i: f64, ln_f: f64| (ln_i + ln_f - g.ln_u0) / g.d_ln_u;
+        let (ninf, inf) = (f64::NEG_INFINITY, f64::INFINITY);
         // M(u) piecewise: k_hi*u/I_lo, sqrt(l_hi*k_hi), l_hi*I_hi/u, with
-        // the functions u*W, W and W/u (indices 1, 0, 2 of the six).
-        let r_hi = (l.1 / k.1).sqrt();
+        // the functions u*W, W and W/u (indices 1, 0, 2 of the six), each
+        // piece as its range in grid units.
+        let (b0, b1) = (x(ln_i0, c.ln_r_hi), x(ln_i1, c.ln_r_hi));
         let big = [
-            (f64::NEG_INFINITY, i.0 * r_hi, k.1 / i.0, 1usize),
-            (i.0 * r_hi, i.1 * r_hi, (l.1 * k.1).sqrt(), 0),
-            (i.1 * r_hi, f64::INFINITY, l.1 * i.1, 2),
+            (ninf, b0, k.1 / i.0, 1usize),
+            (b0, b1, c.sqrt_lk_hi, 0),
+            (b1, inf, l.1 * i.1, 2),
         ];
         // m(u): l_lo*I_lo/u, sqrt(l_lo*k_lo), k_lo*u/I_hi on the close's
         // W/u, W and u*W (indices 5, 3, 4).
-        let r_lo = (l.0 / k.0).sqrt();
+        let (s0, s1) = (x(ln_i0, c.ln_r_lo), x(ln_i1, c.ln_r_lo));
         let small = [
-            (f64::NEG_INFINITY, i.0 * r_lo, l.0 * i.0, 5usize),
-            (i.0 * r_lo, i.1 * r_lo, (l.0 * k.0).sqrt(), 3),
-            (i.1 * r_lo, f64::INFINITY, k.0 / i.1, 4),
+            (ninf, s0, l.0 * i.0, 5usize),
+            (s0, s1, c.sqrt_lk_lo, 3),
+            (s1, inf, k.0 / i.1, 4),
         ];
-        let x_of = |u: f64| {
-            if u > 0.0 {
-                (u.ln() - g.ln_u0) / g.d_ln_u
-            } else {
-                f64::NEG_INFINITY
-            }
-        };
-        let xu = (x_of(u.0), x_of(u.1));
+        // The scaled currents' range u = I*sqrt(l/k).
+        let xu = (x(ln_i0, c.ln_u_lo), x(ln_i1, c.ln_u_hi));
         if xu.0 < -1e-9 {
             // Below the grid's first current: below the ZVS boundary (or
             // outside the grid).
@@ -660,8 +697,8 @@ impl WindowRow<'_> {
         }
         let mut open = f64::NEG_INFINITY;
         let mut close = f64::INFINITY;
-        for &(ul, uh, coef, f) in big.iter().chain(small.iter()) {
-            let (p, q) = (xu.0.max(x_of(ul)), xu.1.min(x_of(uh)));
+        for &(xl, xh, coef, f) in big.iter().chain(small.iter()) {
+            let (p, q) = (xu.0.max(xl), xu.1.min(xh));
             if p > q {
                 continue;
             }
