@@ -60,7 +60,7 @@ use crate::real_tank::{CellSolver, RealTank};
 /// window times.
 const LN_STEP: f64 = 1e-3;
 /// Spacing in ln(voltage).
-const LN_V_STEP: f64 = 0.01;
+const LN_V_STEP: f64 = 0.005;
 /// Safety factor on the measured centre error of a cell.
 const EPS_FACTOR: f64 = 3.0;
 /// The ring's step-placement noise between a tank and its scaled copy,
