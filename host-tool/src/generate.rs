@@ -1277,7 +1277,13 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
             }
         }
     }
-    if matches!(design.layout, L::Auto | L::Grid) {
+    // An ideal tank without tolerances asks, at every code pair, for what
+    // depends on the code ratio alone (J = Io*Z0/Vin in every cell, and the
+    // times scale with 1/w0): a 2-D layout's rows would repeat one another,
+    // so `auto` screens the ratio layouts only.
+    let ratio_only = design.real.is_ideal() && design.tolerance.is_none();
+    let two_d = |choice: L| design.layout == choice || (design.layout == L::Auto && !ratio_only);
+    if two_d(L::Grid) {
         for vs in 0..=10u32 {
             for is in 0..=10u32 {
                 if let Some(g) = Plan::Grid(vs, is).build(design, &dry, max_ticks)? {
@@ -1286,7 +1292,7 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
             }
         }
     }
-    if matches!(design.layout, L::Auto | L::LogVolt) {
+    if two_d(L::LogVolt) {
         for step in 6..=15u32 {
             for vs in 3..=12u32 {
                 if let Some(g) = Plan::LogVolt(step, vs).build(design, &dry, max_ticks)? {
@@ -1295,17 +1301,17 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
             }
         }
     }
-    if matches!(design.layout, L::Auto | L::Margin | L::RatioVolt) {
+    if two_d(L::Margin) || two_d(L::RatioVolt) {
         let line = BoundaryLine::of(design, &model);
         for vs in 3..=12u32 {
-            if matches!(design.layout, L::Auto | L::Margin) {
+            if two_d(L::Margin) {
                 for c in 0..=12u32 {
                     if let Some(g) = Plan::Margin(line, c, vs).build(design, &dry, max_ticks)? {
                         pool.push((g, Plan::Margin(line, c, vs)));
                     }
                 }
             }
-            if matches!(design.layout, L::Auto | L::RatioVolt) {
+            if two_d(L::RatioVolt) {
                 // Finest shift first; a coarser shift with the same node
                 // count covers more ratio per column and is left out.
                 let mut counts = std::collections::HashSet::new();
