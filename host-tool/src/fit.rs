@@ -82,7 +82,7 @@ impl Requirements {
         let fixed = matches!(design.fallback, Fallback::Fixed(_));
         let rows = crate::par::map_rows(v.len() as usize, |k| {
             let cv = v.lo + k as u16;
-            let row = model.row(design.vin_of(cv));
+            let row = model.row_at_code(cv);
             let mut out = Vec::with_capacity(i.len() as usize);
             for ci in i.lo..=i.hi {
                 if fixed && !zvs(cv, ci) {

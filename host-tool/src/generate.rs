@@ -8,7 +8,7 @@ use timing_core::table::{
     LogRatioLayout, LogUniformLayout, LogVoltLayout, MarginLayout, RatioLayout, RatioVoltLayout,
     RecipRatioLayout, Sensing, LOG_OFFSET,
 };
-use timing_core::ZvsWindow;
+use timing_core::{CodeRange, ZvsWindow};
 
 use crate::design::Design;
 use crate::real_tank::CellSolver;
@@ -28,6 +28,10 @@ pub struct ExactModel<'a> {
     grid: Option<&'a crate::event_grid::EventGrid>,
     /// Largest grid bound accepted, second; beyond it the ring answers.
     max_grid_eps_s: f64,
+    /// What the tolerances leave of every reading of the design range,
+    /// computed once ([`ExactModel::with_readings`]), so the fit's
+    /// requirements and the verification do not bound each box again.
+    readings: Option<&'a Readings>,
     /// Planning only: every point is 0 ticks, no physics is run (candidate
     /// layouts are sized before their entries are worth computing).
     dry: bool,
@@ -93,6 +97,7 @@ impl<'a> ExactModel<'a> {
             aim: design.robust_aim().ok().flatten(),
             grid: design.event_grid(),
             max_grid_eps_s: MAX_GRID_EPS_TICKS / design.timer.clock_hz(),
+            readings: None,
             dry: false,
             clock_hz: design.timer.clock_hz(),
             lead_s: design.timer.lead_s(),
@@ -149,17 +154,17 @@ impl<'a> ExactModel<'a> {
             .aim
             .filter(|_| !self.dry)
             .map(|a| a.point(self.design, vin, io));
-        self.point(vin, io, robust.as_ref())
+        self.point(vin, io, robust.as_ref(), None)
     }
 
     /// The model prepared for the readings of input voltage `vin` (V), at
-    /// any current: what verification and generation sweep, a row of code
-    /// pairs at a time ([`ExactRow::at_code`]).
+    /// any current ([`ExactRow::at`]).
     #[must_use]
     pub fn row(&self, vin: f64) -> ExactRow<'_, 'a> {
         ExactRow {
             model: self,
             vin,
+            cv: None,
             robust: self
                 .aim
                 .filter(|_| !self.dry)
@@ -167,11 +172,83 @@ impl<'a> ExactModel<'a> {
         }
     }
 
+    /// The model prepared for the readings of voltage code `cv`: what
+    /// verification and generation sweep, a row of code pairs at a time
+    /// ([`ExactRow::at_code`]); with [`ExactModel::with_readings`] the
+    /// robust windows and aims come from those.
+    #[must_use]
+    pub fn row_at_code(&self, cv: u16) -> ExactRow<'_, 'a> {
+        let vin = self.design.vin_of(cv);
+        let cached = self
+            .readings
+            .is_some_and(|r| (r.vin.lo..=r.vin.hi).contains(&cv));
+        ExactRow {
+            model: self,
+            vin,
+            cv: Some(cv),
+            robust: self
+                .aim
+                .filter(|_| !self.dry && !cached)
+                .map(|a| a.row(self.design, vin)),
+        }
+    }
+
+    /// The same model reading each code pair's robust window and aim from
+    /// `readings` (made by [`ExactModel::readings`] of this model).
+    #[must_use]
+    pub fn with_readings(&self, readings: &'a Readings) -> Self {
+        Self {
+            readings: Some(readings),
+            ..*self
+        }
+    }
+
+    /// The robust window and aim of every code pair of the design range,
+    /// computed on all cores: what [`ExactModel::with_readings`] reads.
+    /// `None` without tolerances (nothing to keep) or beyond
+    /// [`Readings::MAX_PAIRS`] (24 bytes a pair).
+    #[must_use]
+    pub fn readings(&self) -> Option<Readings> {
+        let aim = self.aim.filter(|_| !self.dry)?;
+        let (v, i) = (self.design.vin_codes, self.design.io_codes);
+        if u64::from(v.len()) * u64::from(i.len()) > Readings::MAX_PAIRS {
+            return None;
+        }
+        let rows = crate::par::map_rows(v.len() as usize, |k| {
+            let cv = v.lo + k as u16;
+            let vin = self.design.vin_of(cv);
+            let row = aim.row(self.design, vin);
+            (i.lo..=i.hi)
+                .map(|ci| {
+                    let io = self.design.io_of(ci);
+                    let reading = self
+                        .design
+                        .cell(vin, io)
+                        .and_then(|c| self.turn_on(&c))
+                        .map(|(t, _)| row.reading(self.design, io, &t));
+                    match reading {
+                        Ok(r) => {
+                            let w = r.robust.map_or([f64::NAN; 2], |w| [w.open_s, w.close_s]);
+                            [r.aim_s, w[0], w[1]]
+                        }
+                        Err(_) => [f64::NAN; 3],
+                    }
+                })
+                .collect::<Vec<_>>()
+        });
+        Some(Readings {
+            vin: v,
+            io: i,
+            values: rows.into_iter().flatten().collect(),
+        })
+    }
+
     fn point(
         &self,
         vin: f64,
         io: f64,
         robust_row: Option<&RobustRow<'_>>,
+        codes: Option<(u16, u16)>,
     ) -> Result<ExactPoint, timing_core::Error> {
         if self.dry {
             return Ok(ExactPoint {
@@ -191,7 +268,18 @@ impl<'a> ExactModel<'a> {
         let nominal_ticks = to_ticks(turn_on.target_s(self.design.position));
         // The robust window and the continuous aim of the tolerances
         // where the design has them.
-        let reading = robust_row.map(|r| r.reading(self.design, io, &turn_on));
+        let cached = codes.and_then(|(cv, ci)| self.readings?.get(cv, ci));
+        let reading = match (cached, robust_row, self.aim) {
+            (Some(r), _, _) => Some(r),
+            (None, Some(row), _) => Some(row.reading(self.design, io, &turn_on)),
+            // A row prepared for the readings that were not there.
+            (None, None, Some(aim)) if !self.dry => Some(aim.point(self.design, vin, io).reading(
+                self.design,
+                io,
+                &turn_on,
+            )),
+            _ => None,
+        };
         let robust = reading.and_then(|r| r.robust).filter(|_| window.is_some());
         let table_ticks = reading.map_or(nominal_ticks, |r| to_ticks(r.aim_s));
         let tick_wide = |o: f64, c: f64| (c - o) * self.clock_hz >= 1.0;
@@ -290,7 +378,38 @@ impl<'a> ExactModel<'a> {
 pub struct ExactRow<'m, 'a> {
     model: &'m ExactModel<'a>,
     vin: f64,
+    /// The row's voltage code, when it is one.
+    cv: Option<u16>,
     robust: Option<RobustRow<'a>>,
+}
+
+/// The robust window and the aim of every code pair of a design range
+/// ([`ExactModel::readings`]).
+#[derive(Debug, Clone)]
+pub struct Readings {
+    vin: CodeRange,
+    io: CodeRange,
+    /// Row-major: the aim (second; NaN where the model refused the pair)
+    /// and the robust window's open and close (second; NaN: none).
+    values: Vec<[f64; 3]>,
+}
+
+impl Readings {
+    /// Most code pairs kept (24 bytes each: 192 MB).
+    pub const MAX_PAIRS: u64 = 8_000_000;
+
+    fn get(&self, cv: u16, ci: u16) -> Option<crate::robust_aim::Reading> {
+        if !((self.vin.lo..=self.vin.hi).contains(&cv) && (self.io.lo..=self.io.hi).contains(&ci)) {
+            return None;
+        }
+        let k =
+            usize::from(cv - self.vin.lo) * self.io.len() as usize + usize::from(ci - self.io.lo);
+        let [aim_s, open_s, close_s] = *self.values.get(k)?;
+        (!aim_s.is_nan()).then_some(crate::robust_aim::Reading {
+            robust: (!open_s.is_nan()).then_some(RobustWindow { open_s, close_s }),
+            aim_s,
+        })
+    }
 }
 
 impl ExactRow<'_, '_> {
@@ -300,7 +419,7 @@ impl ExactRow<'_, '_> {
     /// # Errors
     /// As [`ExactModel::at`].
     pub fn at(&self, io: f64) -> Result<ExactPoint, timing_core::Error> {
-        self.model.point(self.vin, io, self.robust.as_ref())
+        self.model.point(self.vin, io, self.robust.as_ref(), None)
     }
 
     /// The exact delay at current code `io_code` of this row, as
@@ -309,7 +428,13 @@ impl ExactRow<'_, '_> {
     /// # Errors
     /// As [`ExactModel::at`].
     pub fn at_code(&self, io_code: u16) -> Result<ExactPoint, timing_core::Error> {
-        self.at(self.model.design.io_of(io_code))
+        let io = self.model.design.io_of(io_code);
+        self.model.point(
+            self.vin,
+            io,
+            self.robust.as_ref(),
+            self.cv.map(|cv| (cv, io_code)),
+        )
     }
 }
 
@@ -477,7 +602,7 @@ fn delay_bounds(design: &Design, model: &ExactModel<'_>) -> Result<f64, Generate
     let max = design.timer.max_ticks().get().min(u32::from(u16::MAX));
     let rows = crate::par::map_rows(cvs.len(), |k| -> Result<f64, GenerateError> {
         let cv = cvs[k];
-        let row = model.row(design.vin_of(cv));
+        let row = model.row_at_code(cv);
         let mut max_ticks = 0.0f64;
         for &ci in &cis {
             let p = row.at_code(ci).map_err(|e| GenerateError::Model {
@@ -1215,6 +1340,13 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
         message: format!("the robust windows of the tolerances: {e}"),
     })?;
     let model = ExactModel::new(design);
+    // Every reading's robust window and aim, once: the requirements and
+    // the verification read them.
+    let readings = model.readings();
+    let model = match &readings {
+        Some(r) => model.with_readings(r),
+        None => model,
+    };
     let max_ticks = delay_bounds(design, &model)?;
     // Candidates are sized on a dry model first; entries are computed only
     // for those screened, smallest first.
@@ -1402,7 +1534,7 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
             best = Some((err, miss, g.layout_name()));
         }
         if meets {
-            if let Some(c) = accept(design, g, &mut candidates)? {
+            if let Some(c) = accept(design, &model, g, &mut candidates)? {
                 chosen = Some(c);
             }
         } else if fallback.is_none() && all && err <= design.max_error_ticks {
@@ -1415,7 +1547,7 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
     // and reported.
     if chosen.is_none() {
         if let Some(g) = fallback {
-            chosen = accept(design, g, &mut candidates)?;
+            chosen = accept(design, &model, g, &mut candidates)?;
         }
     }
     match chosen {
@@ -1443,6 +1575,7 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
 #[allow(clippy::type_complexity)]
 fn accept(
     design: &Design,
+    model: &ExactModel<'_>,
     g: Generated,
     candidates: &mut [Candidate],
 ) -> Result<Option<(Generated, VerifyReport, Vec<VerifyReport>)>, GenerateError> {
@@ -1467,7 +1600,7 @@ fn accept(
     if let Some(m) = &libm {
         methods.push(m);
     }
-    let mut reports = crate::verify::verify_all(design, &methods, None);
+    let mut reports = crate::verify::verify_all_with(design, model, &methods);
     let closed_forms = reports.split_off(1);
     let Some(report) = reports.pop() else {
         return Ok(None);

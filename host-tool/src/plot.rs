@@ -304,7 +304,7 @@ pub fn error_map(design: &Design) -> Result<String, PlotError> {
     // picture cell, merged.
     let rows = crate::par::map_rows(v.len() as usize, |k| {
         let cv = v.lo + k as u16;
-        let row = model.row(design.vin_of(cv));
+        let row = model.row_at_code(cv);
         let mut worst = vec![None::<f64>; NX * NY];
         for ci in i.lo..=i.hi {
             let Ok(p) = row.at_code(ci) else {

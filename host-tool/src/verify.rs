@@ -187,7 +187,7 @@ fn check_row(
     ];
     let clock = design.timer.clock_hz();
     let lead = design.timer.lead_s();
-    let row = model.row(design.vin_of(cv));
+    let row = model.row_at_code(cv);
     for ci in i.lo..=i.hi {
         let mut p = row.at_code(ci);
         // Where the event grid answered and some method's turn-on lies
@@ -336,7 +336,20 @@ pub fn verify_all(
     if methods.is_empty() {
         return Vec::new();
     }
-    verify_rows(design, methods, progress, &|_| {})
+    verify_rows(design, &ExactModel::new(design), methods, progress, &|_| {})
+}
+
+/// [`verify_all`] against a given model of the design (generation passes
+/// its own, which keeps every reading's robust window and aim).
+pub fn verify_all_with(
+    design: &Design,
+    model: &ExactModel<'_>,
+    methods: &[&dyn DelayMethod],
+) -> Vec<VerifyReport> {
+    if methods.is_empty() {
+        return Vec::new();
+    }
+    verify_rows(design, model, methods, None, &|_| {})
 }
 
 /// [`verify_all`] with `each_row` called in the worker before each row of
@@ -344,18 +357,18 @@ pub fn verify_all(
 /// the verification, never shorten it).
 fn verify_rows(
     design: &Design,
+    model: &ExactModel<'_>,
     methods: &[&dyn DelayMethod],
     progress: Option<&mut dyn FnMut(f64)>,
     each_row: &(dyn Fn(u16) + Sync),
 ) -> Vec<VerifyReport> {
-    let model = ExactModel::new(design);
     let v = design.vin_codes;
     let rows = crate::par::map_rows_with_progress(
         v.len() as usize,
         |k| {
             let cv = v.lo + k as u16;
             each_row(cv);
-            check_row(design, &model, methods, cv)
+            check_row(design, model, methods, cv)
         },
         progress,
     );
@@ -505,15 +518,15 @@ driver_delay = "25n"
         let cf = d.closed_form().unwrap().fast_f32().unwrap();
         let bad = d.vin_codes.lo + 7;
         let r = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
-            verify_rows(&d, &[&cf], None, &|cv| {
-                assert_ne!(cv, bad, "injected fault")
+            verify_rows(&d, &ExactModel::new(&d), &[&cf], None, &|cv| {
+                assert_ne!(cv, bad, "injected fault");
             })
         }));
         assert!(r.is_err(), "a worker's panic must reach the caller");
         let mut ticks = 0;
         let mut p = |_: f64| ticks += 1;
         let r = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
-            verify_rows(&d, &[&cf], Some(&mut p), &|cv| {
+            verify_rows(&d, &ExactModel::new(&d), &[&cf], Some(&mut p), &|cv| {
                 assert_ne!(cv, bad, "injected fault");
             })
         }));

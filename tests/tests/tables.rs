@@ -114,7 +114,7 @@ fn held_out_design_meets_its_budget() {
     let model = generate::ExactModel::new(&design);
     let mut worst = 0.0f64;
     for cv in design.vin_codes.lo..=design.vin_codes.hi {
-        let row = model.row(design.vin_of(cv));
+        let row = model.row_at_code(cv);
         for ci in design.io_codes.lo..=design.io_codes.hi {
             let exact = row.at_code(ci).unwrap().ticks;
             let got = f64::from(t.delay(AdcCode::new(cv), AdcCode::new(ci)).ticks.get());
