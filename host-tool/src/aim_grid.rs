@@ -71,16 +71,7 @@ impl AimGrid {
     /// # Errors
     /// timing-core's error for a point the model refuses.
     pub fn new(solver: &CellSolver<'_>, v: (f64, f64), i: (f64, f64)) -> Result<Self, Error> {
-        let bad = |q, x: f64| Error::NotPositive {
-            quantity: q,
-            value: x,
-        };
-        if !(v.0 > 0.0 && v.1 >= v.0 && v.1.is_finite()) {
-            return Err(bad(timing_core::Quantity::CellVoltage, v.0));
-        }
-        if !(i.0 > 0.0 && i.1 >= i.0 && i.1.is_finite()) {
-            return Err(bad(timing_core::Quantity::CellCurrent, i.0));
-        }
+        crate::real_tank::check_cell_ranges(v, i)?;
         let count = |lo: f64, hi: f64, step: f64| ((hi / lo).ln() / step).ceil() as usize + 2;
         let (nv, ni) = (count(v.0, v.1, LN_V_STEP), count(i.0, i.1, LN_I_STEP));
         let (ln_v0, ln_i0) = (v.0.ln(), i.0.ln());

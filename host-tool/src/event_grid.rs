@@ -226,16 +226,7 @@ impl EventGrid {
     /// the whole cell voltage, a boundary no current below V/R reaches):
     /// the caller then runs the ring everywhere.
     pub fn new(ring: &RingCell<'_, f64>, v: (f64, f64), i: (f64, f64)) -> Result<Self, Error> {
-        let bad = |q, x: f64| Error::NotPositive {
-            quantity: q,
-            value: x,
-        };
-        if !(v.0 > 0.0 && v.1 >= v.0 && v.1.is_finite()) {
-            return Err(bad(timing_core::Quantity::CellVoltage, v.0));
-        }
-        if !(i.0 > 0.0 && i.1 >= i.0 && i.1.is_finite()) {
-            return Err(bad(timing_core::Quantity::CellCurrent, i.0));
-        }
+        crate::real_tank::check_cell_ranges(v, i)?;
         let span = (v.1 / v.0).ln();
         let nv = if span < 1e-9 {
             1
@@ -272,7 +263,10 @@ impl EventGrid {
             worst = worst.max(m?);
         }
         if !worst.is_finite() {
-            return Err(bad(timing_core::Quantity::CellCurrent, worst));
+            return Err(Error::NotPositive {
+                quantity: timing_core::Quantity::CellCurrent,
+                value: worst,
+            });
         }
         // The ring's own boundary differs from the energy balance's (and
         // from the bisection's) by its integration error: about 1e-6

@@ -157,21 +157,6 @@ impl<'a> ExactModel<'a> {
         self.point(vin, io, robust.as_ref(), None)
     }
 
-    /// The model prepared for the readings of input voltage `vin` (V), at
-    /// any current ([`ExactRow::at`]).
-    #[must_use]
-    pub fn row(&self, vin: f64) -> ExactRow<'_, 'a> {
-        ExactRow {
-            model: self,
-            vin,
-            cv: None,
-            robust: self
-                .aim
-                .filter(|_| !self.dry)
-                .map(|a| a.row(self.design, vin)),
-        }
-    }
-
     /// The model prepared for the readings of voltage code `cv`: what
     /// verification and generation sweep, a row of code pairs at a time
     /// ([`ExactRow::at_code`]); with [`ExactModel::with_readings`] the
@@ -185,7 +170,7 @@ impl<'a> ExactModel<'a> {
         ExactRow {
             model: self,
             vin,
-            cv: Some(cv),
+            cv,
             robust: self
                 .aim
                 .filter(|_| !self.dry && !cached)
@@ -373,13 +358,13 @@ impl<'a> ExactModel<'a> {
 }
 
 /// An [`ExactModel`] prepared for the readings of one input voltage
-/// ([`ExactModel::row`]).
+/// ([`ExactModel::row_at_code`]).
 #[derive(Debug, Clone)]
 pub struct ExactRow<'m, 'a> {
     model: &'m ExactModel<'a>,
     vin: f64,
-    /// The row's voltage code, when it is one.
-    cv: Option<u16>,
+    /// The row's voltage code.
+    cv: u16,
     robust: Option<RobustRow<'a>>,
 }
 
@@ -413,15 +398,6 @@ impl Readings {
 }
 
 impl ExactRow<'_, '_> {
-    /// The exact delay at output current `io` (A) of this row's input
-    /// voltage, as [`ExactModel::at`].
-    ///
-    /// # Errors
-    /// As [`ExactModel::at`].
-    pub fn at(&self, io: f64) -> Result<ExactPoint, timing_core::Error> {
-        self.model.point(self.vin, io, self.robust.as_ref(), None)
-    }
-
     /// The exact delay at current code `io_code` of this row, as
     /// [`ExactModel::at_codes`].
     ///
@@ -429,12 +405,8 @@ impl ExactRow<'_, '_> {
     /// As [`ExactModel::at`].
     pub fn at_code(&self, io_code: u16) -> Result<ExactPoint, timing_core::Error> {
         let io = self.model.design.io_of(io_code);
-        self.model.point(
-            self.vin,
-            io,
-            self.robust.as_ref(),
-            self.cv.map(|cv| (cv, io_code)),
-        )
+        self.model
+            .point(self.vin, io, self.robust.as_ref(), Some((self.cv, io_code)))
     }
 }
 

@@ -87,6 +87,23 @@ impl CellSolver<'_> {
     }
 }
 
+/// Checks a grid's cell ranges: voltages `v` (volt) and currents `i`
+/// (ampere), each positive, finite and not reversed.
+///
+/// # Errors
+/// [`Error::NotPositive`] naming the cell voltage or current and the
+/// range's low end.
+pub fn check_cell_ranges(v: (f64, f64), i: (f64, f64)) -> Result<(), Error> {
+    let bad = |quantity, value| Error::NotPositive { quantity, value };
+    if !(v.0 > 0.0 && v.1 >= v.0 && v.1.is_finite()) {
+        return Err(bad(timing_core::Quantity::CellVoltage, v.0));
+    }
+    if !(i.0 > 0.0 && i.1 >= i.0 && i.1.is_finite()) {
+        return Err(bad(timing_core::Quantity::CellCurrent, i.0));
+    }
+    Ok(())
+}
+
 impl RealTank {
     /// This tank on another board: Lr times `l`, the whole switch
     /// capacitance (the fixed capacitor and the Coss curve together) times

@@ -92,25 +92,6 @@ impl RobustAim {
         self.point(design, vin_v, io_a).window(design, io_a)
     }
 
-    /// The continuous aim behind the reading (`vin_v` volt, `io_a` ampere),
-    /// second from gate turn-off ([`crate::aim_grid`]'s minimax point over
-    /// the corners of the box, one smooth estimate everywhere), kept inside
-    /// the proven robust window where one exists and inside `nominal`,
-    /// the reading's own transition (its window, or its valley below the
-    /// boundary, which is therefore the aim there).
-    #[must_use]
-    pub fn aim_s(
-        &self,
-        design: &Design,
-        vin_v: f64,
-        io_a: f64,
-        nominal: &timing_core::TurnOn<f64>,
-    ) -> f64 {
-        self.point(design, vin_v, io_a)
-            .reading(design, io_a, nominal)
-            .aim_s
-    }
-
     /// Prepared for the readings of one input voltage `vin_v` (volt), at
     /// every current: a row of code pairs shares the voltage side of its
     /// boxes.
@@ -169,7 +150,7 @@ pub struct RobustRow<'a> {
 pub struct Reading {
     /// The robust window ([`RobustAim::window`]).
     pub robust: Option<RobustWindow<f64>>,
-    /// The continuous aim ([`RobustAim::aim_s`]), second.
+    /// The continuous aim ([`RobustRow::reading`]), second.
     pub aim_s: f64,
 }
 
@@ -213,10 +194,13 @@ impl RobustRow<'_> {
             })
     }
 
-    /// The robust window and the aim at the reading `io_a` (ampere) of
-    /// this row, whose own transition is `nominal`, as
-    /// [`RobustAim::window`] and [`RobustAim::aim_s`] (the box bounded
-    /// once for both).
+    /// The robust window at the reading `io_a` (ampere) of this row, as
+    /// [`RobustAim::window`], and the continuous aim there, second
+    /// ([`crate::aim_grid`]'s minimax point over the corners of the box,
+    /// kept inside the proven robust window where one exists and inside
+    /// `nominal`, the reading's own transition: its window, or its valley
+    /// below the boundary, which is therefore the aim there); the box is
+    /// bounded once for both.
     #[must_use]
     pub fn reading(
         &self,

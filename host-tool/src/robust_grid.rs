@@ -182,22 +182,13 @@ impl WindowGrid {
         v: (f64, f64),
         i: (f64, f64),
     ) -> Result<Self, Error> {
-        let bad = |q, x: f64| Error::NotPositive {
-            quantity: q,
-            value: x,
-        };
         let lossiest = RealTank {
             r_tank_ohm: tank.r_tank_ohm * (spread.k.1 / spread.l.0).sqrt(),
             ..tank.clone()
         };
         let solver = &lossiest.solver()?;
         let u = spread.current_range(i);
-        if !(v.0 > 0.0 && v.1 >= v.0 && v.1.is_finite()) {
-            return Err(bad(timing_core::Quantity::CellVoltage, v.0));
-        }
-        if !(u.0 > 0.0 && u.1 >= u.0 && u.1.is_finite()) {
-            return Err(bad(timing_core::Quantity::CellCurrent, u.0));
-        }
+        crate::real_tank::check_cell_ranges(v, u)?;
         // A hair wider than asked, so a query at the range's ends is inside.
         let (v0, v1) = (v.0 * (1.0 - 1e-9), v.1 * (1.0 + 1e-9));
         let nv = nodes(v0, v1, LN_V_STEP);
