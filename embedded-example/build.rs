@@ -1,7 +1,8 @@
 //! Generates the delay table from the demo design at build time (through
 //! host-tool's library, without its CLI), with the layout that is fastest
 //! on the target core, writes its `.bin` blob for the flash copy, and puts
-//! `memory.x` on the linker path.
+//! `memory.x` on the linker path, and the linker scripts (`link.x`;
+//! `defmt.x` with the `log` feature).
 //!
 //! Layout per core: `host_tool::export::firmware_layout` (`ratio-volt` on
 //! the Cortex-M4F, which divides in one instruction; `margin` on the
@@ -47,6 +48,15 @@ fn main() {
     }
     std::fs::copy(manifest.join("memory.x"), out.join("memory.x")).expect("copy memory.x");
     println!("cargo:rustc-link-search={}", out.display());
+    // cortex-m-rt's linker script always; defmt's only with logging (it
+    // keeps defmt's own panic hook alive on purpose, which the panic-free
+    // proof builds must not link). Given here rather than as rustflags, so
+    // the scenario and proof builds share one target directory and compile
+    // the generator (a build dependency) once.
+    println!("cargo:rustc-link-arg=-Tlink.x");
+    if std::env::var_os("CARGO_FEATURE_LOG").is_some() {
+        println!("cargo:rustc-link-arg=-Tdefmt.x");
+    }
 }
 
 /// Generate the four outputs into `dir` (written to a temporary directory

@@ -66,11 +66,10 @@ sec() { local h; h=$(readelf -S -W "$1" | sed 's/^ *\[ *[0-9]*\] *//' | awk -v n
 flash_of() { echo $(( $(sec "$1" .text) + $(sec "$1" .rodata) + $(sec "$1" .vector_table) )); }
 
 if [ -n "${PANIC_NEVER:-}" ]; then
-  # The proof builds have no logging and link without defmt's linker
-  # script (which keeps defmt's own panic hook alive on purpose).
-  export RUSTFLAGS="-C link-arg=-Tlink.x"
-  export CARGO_TARGET_DIR="$here/target/panic-never"
-  elf="$CARGO_TARGET_DIR/$triple/release/embedded-example"
+  # The proof builds have no logging, so build.rs links them without
+  # defmt's linker script (which keeps defmt's own panic hook alive on
+  # purpose). They share the target directory with the scenario build.
+  elf="target/$triple/release/embedded-example"
   base=0
   for m in none table table-any closed-form-f32 fixed-point libm-f32; do
     if ! build --no-default-features --features "proof-$m"; then
