@@ -381,28 +381,34 @@ pub struct Design {
     /// The robust windows of the readings, built on first use.
     aim: crate::robust_aim::AimCache,
     /// The ring's events over the design range, built on first use.
-    events: EventCache,
+    events: Lazy<crate::event_grid::EventGrid>,
+    /// The ideal tank's turn-on over the design's loads, built on first use.
+    loads: Lazy<crate::load_grid::LoadGrid>,
 }
 
-/// A design's [`EventGrid`](crate::event_grid::EventGrid) over its cell
-/// range, built on first use (`None`: an ideal tank, whose closed forms
-/// are fast already, or a tank the grid cannot serve; the ring answers
-/// then). A clone starts empty, as [`crate::robust_aim::AimCache`].
-#[derive(Default)]
-struct EventCache(std::sync::OnceLock<Option<crate::event_grid::EventGrid>>);
+/// Something a design builds on first use and keeps (`None`: it does not
+/// apply to the design or could not be built). A clone starts empty, as
+/// [`crate::robust_aim::AimCache`].
+struct Lazy<T>(std::sync::OnceLock<Option<T>>);
 
-impl Clone for EventCache {
+impl<T> Default for Lazy<T> {
+    fn default() -> Self {
+        Self(std::sync::OnceLock::new())
+    }
+}
+
+impl<T> Clone for Lazy<T> {
     fn clone(&self) -> Self {
         Self::default()
     }
 }
 
-impl std::fmt::Debug for EventCache {
+impl<T> std::fmt::Debug for Lazy<T> {
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
         f.write_str(match self.0.get() {
-            None => "EventCache(not built)",
-            Some(Some(_)) => "EventCache(built)",
-            Some(None) => "EventCache(none)",
+            None => "Lazy(not built)",
+            Some(Some(_)) => "Lazy(built)",
+            Some(None) => "Lazy(none)",
         })
     }
 }
@@ -449,6 +455,24 @@ impl Design {
         self.aim.get(self)
     }
 
+    /// The cells at the corners of the design range (every cell voltage,
+    /// current and load of the range lies between theirs); `None` where
+    /// one is refused. Codes at or below the sensor zero read no current
+    /// (the model refuses them whatever a grid holds): the lowest current
+    /// taken is at least 1e-3 of the highest.
+    fn corner_cells(&self) -> Option<[CellPoint<f64>; 4]> {
+        let (v, i) = (self.vin_codes, self.io_codes);
+        let io_hi = self.io_of(i.hi);
+        let io_lo = self.io_of(i.lo).max(1e-3 * io_hi);
+        let (v_lo, v_hi) = (self.vin_of(v.lo), self.vin_of(v.hi));
+        Some([
+            self.cell(v_lo, io_lo).ok()?,
+            self.cell(v_lo, io_hi).ok()?,
+            self.cell(v_hi, io_lo).ok()?,
+            self.cell(v_hi, io_hi).ok()?,
+        ])
+    }
+
     /// The ring's events tabulated over the design's cell range
     /// ([`crate::event_grid`]), built on the first call (about 0.1 s on two
     /// cores) and kept; `None` for an ideal tank or where the grid cannot
@@ -461,20 +485,34 @@ impl Design {
                 let Ok(crate::real_tank::CellSolver::Ring(ring)) = self.real.solver() else {
                     return None;
                 };
-                let (v, i) = (self.vin_codes, self.io_codes);
-                let io_hi = self.io_of(i.hi);
-                // Codes at or below the sensor zero read no current: the
-                // model refuses them whatever the grid holds.
-                let io_lo = self.io_of(i.lo).max(1e-3 * io_hi);
                 let (mut cv, mut ci) = ((f64::INFINITY, 0.0f64), (f64::INFINITY, 0.0f64));
-                for vin in [self.vin_of(v.lo), self.vin_of(v.hi)] {
-                    for io in [io_lo, io_hi] {
-                        let c = self.cell(vin, io).ok()?;
-                        cv = (cv.0.min(c.v_volt()), cv.1.max(c.v_volt()));
-                        ci = (ci.0.min(c.i_amp()), ci.1.max(c.i_amp()));
-                    }
+                for c in self.corner_cells()? {
+                    cv = (cv.0.min(c.v_volt()), cv.1.max(c.v_volt()));
+                    ci = (ci.0.min(c.i_amp()), ci.1.max(c.i_amp()));
                 }
                 crate::event_grid::EventGrid::new(&ring, cv, ci).ok()
+            })
+            .as_ref()
+    }
+
+    /// The ideal tank's turn-on tabulated over the design's normalised
+    /// loads ([`crate::load_grid`]), built on the first call (milliseconds)
+    /// and kept; `None` for a tank that needs the ring or where the table
+    /// cannot be built (timing-core's transition then answers every point).
+    #[must_use]
+    pub fn load_grid(&self) -> Option<&crate::load_grid::LoadGrid> {
+        self.loads
+            .0
+            .get_or_init(|| {
+                let Ok(crate::real_tank::CellSolver::Ideal(tank)) = self.real.solver() else {
+                    return None;
+                };
+                let (mut lo, mut hi) = (f64::INFINITY, 0.0f64);
+                for c in self.corner_cells()? {
+                    let j = c.i_amp() * tank.z0_ohm() / c.v_volt();
+                    (lo, hi) = (lo.min(j), hi.max(j));
+                }
+                crate::load_grid::LoadGrid::new(&tank, lo, hi).ok()
             })
             .as_ref()
     }
@@ -894,7 +932,8 @@ impl DesignFile {
             io_codes,
             tolerance: self.tolerance.map(|t| t.validate()).transpose()?,
             aim: crate::robust_aim::AimCache::default(),
-            events: EventCache::default(),
+            events: Lazy::default(),
+            loads: Lazy::default(),
             // The Coss curve is part of the design: its text joins the hash.
             hash: match &coss_text {
                 None => timing_core::blob::CRC32.checksum(text.as_bytes()),

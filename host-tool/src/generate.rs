@@ -26,6 +26,9 @@ pub struct ExactModel<'a> {
     /// needs the ring ([`crate::event_grid`]); `None`: every point from
     /// `solver`.
     grid: Option<&'a crate::event_grid::EventGrid>,
+    /// The ideal tank's turn-on tabulated over the normalised load, when
+    /// the tank is ideal ([`crate::load_grid`]).
+    loads: Option<&'a crate::load_grid::LoadGrid>,
     /// Largest grid bound accepted, second; beyond it the ring answers.
     max_grid_eps_s: f64,
     /// What the tolerances leave of every reading of the design range,
@@ -75,6 +78,19 @@ pub struct ExactPoint {
     pub model_eps_ticks: f64,
 }
 
+impl ExactPoint {
+    /// A placeholder (0 ticks, no window) for buffers to be filled.
+    pub const EMPTY: Self = Self {
+        ticks: 0.0,
+        table_ticks: 0.0,
+        nominal_ticks: 0.0,
+        window: None,
+        robust: None,
+        required_ticks: None,
+        model_eps_ticks: 0.0,
+    };
+}
+
 /// Largest event-grid bound the exact model accepts, ticks; a point whose
 /// bound is wider is computed with the ring.
 pub const MAX_GRID_EPS_TICKS: f64 = 0.01;
@@ -96,6 +112,7 @@ impl<'a> ExactModel<'a> {
                 .unwrap_or(CellSolver::Ideal(design.tank)),
             aim: design.robust_aim().ok().flatten(),
             grid: design.event_grid(),
+            loads: design.load_grid(),
             max_grid_eps_s: MAX_GRID_EPS_TICKS / design.timer.clock_hz(),
             readings: None,
             dry: false,
@@ -123,13 +140,18 @@ impl<'a> ExactModel<'a> {
     }
 
     /// The turn-on at `cell` and the bound of its times, second: from the
-    /// event grid where it answers within [`MAX_GRID_EPS_TICKS`], else from
-    /// the solver (bound 0; an ideal tank's closed forms are as fast as
-    /// any table of them, measured).
+    /// event grid (a tank that needs the ring) or the load grid (an ideal
+    /// tank) where it answers within [`MAX_GRID_EPS_TICKS`], else from the
+    /// solver (bound 0).
     fn turn_on(
         &self,
         cell: &timing_core::CellPoint<f64>,
     ) -> Result<(timing_core::TurnOn<f64>, f64), timing_core::Error> {
+        if let Some((t, eps_s)) = self.loads.and_then(|l| l.at(cell)) {
+            if eps_s <= self.max_grid_eps_s {
+                return Ok((t, eps_s));
+            }
+        }
         if let Some(g) = self.grid.and_then(|g| g.at(cell)) {
             if g.eps_s <= self.max_grid_eps_s {
                 return Ok((g.turn_on, g.eps_s));
@@ -167,6 +189,16 @@ impl<'a> ExactModel<'a> {
         let cached = self
             .readings
             .is_some_and(|r| (r.vin.lo..=r.vin.hi).contains(&cv));
+        // An ideal tank without tolerances: J = Io*Z0/Vin for every cell,
+        // and the load grid answers from J alone.
+        let by_load = match (self.loads, self.aim) {
+            (Some(_), None) if !self.dry => self
+                .design
+                .cell(vin, self.design.io_of(self.design.io_codes.hi))
+                .ok()
+                .map(|c| (self.design.tank.z0_ohm() / vin, c.v_volt())),
+            _ => None,
+        };
         ExactRow {
             model: self,
             vin,
@@ -175,6 +207,7 @@ impl<'a> ExactModel<'a> {
                 .aim
                 .filter(|_| !self.dry && !cached)
                 .map(|a| a.row(self.design, vin)),
+            by_load,
         }
     }
 
@@ -236,35 +269,57 @@ impl<'a> ExactModel<'a> {
         codes: Option<(u16, u16)>,
     ) -> Result<ExactPoint, timing_core::Error> {
         if self.dry {
-            return Ok(ExactPoint {
-                ticks: 0.0,
-                table_ticks: 0.0,
-                nominal_ticks: 0.0,
-                window: None,
-                robust: None,
-                required_ticks: None,
-                model_eps_ticks: 0.0,
-            });
+            return Ok(ExactPoint::EMPTY);
         }
         let cell = self.design.cell(vin, io)?;
         let (turn_on, eps_s) = self.turn_on(&cell)?;
-        let window = turn_on.window();
-        let to_ticks = |s: f64| (s - self.lead_s) * self.clock_hz;
-        let nominal_ticks = to_ticks(turn_on.target_s(self.design.position));
+        Ok(self.finish(vin, io, &turn_on, eps_s, robust_row, codes))
+    }
+
+    /// [`ExactModel::point`] from the turn-on at (`vin`, `io`) and the
+    /// bound of its times, second.
+    #[inline]
+    fn finish(
+        &self,
+        vin: f64,
+        io: f64,
+        turn_on: &timing_core::TurnOn<f64>,
+        eps_s: f64,
+        robust_row: Option<&RobustRow<'_>>,
+        codes: Option<(u16, u16)>,
+    ) -> ExactPoint {
         // The robust window and the continuous aim of the tolerances
         // where the design has them.
         let cached = codes.and_then(|(cv, ci)| self.readings?.get(cv, ci));
         let reading = match (cached, robust_row, self.aim) {
             (Some(r), _, _) => Some(r),
-            (None, Some(row), _) => Some(row.reading(self.design, io, &turn_on)),
+            (None, Some(row), _) => Some(row.reading(self.design, io, turn_on)),
             // A row prepared for the readings that were not there.
             (None, None, Some(aim)) if !self.dry => Some(aim.point(self.design, vin, io).reading(
                 self.design,
                 io,
-                &turn_on,
+                turn_on,
             )),
             _ => None,
         };
+        self.finish_with(turn_on, eps_s, reading)
+    }
+
+    /// [`ExactModel::finish`] with the reading's robust window and aim
+    /// (`None`: the nominal window's aim).
+    #[inline(always)]
+    fn finish_with(
+        &self,
+        turn_on: &timing_core::TurnOn<f64>,
+        eps_s: f64,
+        reading: Option<crate::robust_aim::Reading>,
+    ) -> ExactPoint {
+        let to_ticks = |s: f64| (s - self.lead_s) * self.clock_hz;
+        let (window, target_s) = match turn_on {
+            timing_core::TurnOn::Zvs(w) => (Some(*w), w.at(self.design.position)),
+            timing_core::TurnOn::Valley(v) => (None, v.valley_s),
+        };
+        let nominal_ticks = to_ticks(target_s);
         let robust = reading.and_then(|r| r.robust).filter(|_| window.is_some());
         let table_ticks = reading.map_or(nominal_ticks, |r| to_ticks(r.aim_s));
         let tick_wide = |o: f64, c: f64| (c - o) * self.clock_hz >= 1.0;
@@ -277,7 +332,7 @@ impl<'a> ExactModel<'a> {
             (None, Fallback::Fixed(n)) => f64::from(n.get()),
             _ => table_ticks,
         };
-        Ok(ExactPoint {
+        ExactPoint {
             ticks,
             table_ticks,
             nominal_ticks,
@@ -285,7 +340,7 @@ impl<'a> ExactModel<'a> {
             robust,
             required_ticks,
             model_eps_ticks: eps_s * self.clock_hz,
-        })
+        }
     }
 
     /// The exact delay at ADC codes (`vin_code`, `io_code`).
@@ -366,6 +421,9 @@ pub struct ExactRow<'m, 'a> {
     /// The row's voltage code.
     cv: u16,
     robust: Option<RobustRow<'a>>,
+    /// Z0/Vin (ohm/volt) and the cell voltage (volt) where the load grid
+    /// answers the row from J alone.
+    by_load: Option<(f64, f64)>,
 }
 
 /// The robust window and the aim of every code pair of a design range
@@ -398,13 +456,72 @@ impl Readings {
 }
 
 impl ExactRow<'_, '_> {
+    /// [`ExactRow::at_code`] at every current code from `lo` to `hi`, in
+    /// order, handed to `f` with its code: the same answers, a batch at a
+    /// time where the load grid answers the row.
+    #[inline]
+    pub fn for_each(
+        &self,
+        lo: u16,
+        hi: u16,
+        mut f: impl FnMut(u16, Result<ExactPoint, timing_core::Error>),
+    ) {
+        use crate::load_grid::{LoadBatch, BATCH};
+        let (Some((z0_per_v, v_cell)), Some(loads)) = (self.by_load, self.model.loads) else {
+            for ci in lo..=hi {
+                f(ci, self.at_code(ci));
+            }
+            return;
+        };
+        let design = self.model.design;
+        let mut batch = LoadBatch::default();
+        let mut c = u32::from(lo);
+        while c <= u32::from(hi) {
+            let n = (u32::from(hi) - c + 1).min(BATCH as u32) as usize;
+            for (j, ci) in batch.j[..n].iter_mut().zip(c..) {
+                *j = design.io_of(ci as u16) * z0_per_v;
+            }
+            loads.at_loads(&mut batch, n);
+            for (k, ci) in (0..n).zip(c..) {
+                let ci = ci as u16;
+                let (io, j) = (design.io_of(ci), batch.j[k]);
+                // As at_code: off the boundary, within the accepted bound.
+                let p = match batch.get(k, v_cell) {
+                    Some((t, eps_s))
+                        if io > 0.0
+                            && (j - 1.0).abs() > 1e-6
+                            && eps_s <= self.model.max_grid_eps_s =>
+                    {
+                        Ok(self.model.finish_with(&t, eps_s, None))
+                    }
+                    _ => self.at_code(ci),
+                };
+                f(ci, p);
+            }
+            c += n as u32;
+        }
+    }
+
     /// The exact delay at current code `io_code` of this row, as
     /// [`ExactModel::at_codes`].
     ///
     /// # Errors
     /// As [`ExactModel::at`].
+    #[inline]
     pub fn at_code(&self, io_code: u16) -> Result<ExactPoint, timing_core::Error> {
         let io = self.model.design.io_of(io_code);
+        if let (Some((z0_per_v, v_cell)), Some(loads)) = (self.by_load, self.model.loads) {
+            let j = io * z0_per_v;
+            // Off the boundary by more than J's rounding can move it (the
+            // cell's J is computed in another order), the grid decides.
+            if io > 0.0 && (j - 1.0).abs() > 1e-6 {
+                if let Some((t, eps_s)) = loads.at_load(j, v_cell) {
+                    if eps_s <= self.model.max_grid_eps_s {
+                        return Ok(self.model.finish_with(&t, eps_s, None));
+                    }
+                }
+            }
+        }
         self.model
             .point(self.vin, io, self.robust.as_ref(), Some((self.cv, io_code)))
     }

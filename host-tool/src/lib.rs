@@ -22,6 +22,7 @@ pub mod event_grid;
 pub mod export;
 pub mod fit;
 pub mod generate;
+pub mod load_grid;
 pub mod montecarlo;
 pub mod netlist;
 pub mod par;

@@ -186,66 +186,137 @@ fn check_row(
         methods.len()
     ];
     let clock = design.timer.clock_hz();
+    let tick_s = 1.0 / clock;
     let lead = design.timer.lead_s();
     let row = model.row_at_code(cv);
-    for ci in i.lo..=i.hi {
-        let mut p = row.at_code(ci);
-        // Where the event grid answered and some method's turn-on lies
-        // within the grid's bound of a decision (a window edge, a window a
-        // tick wide), the ring decides.
-        if let Ok(q) = p {
-            let undecided = q.model_eps_ticks > 0.0
-                && methods.iter().any(|m| {
-                    let on = f64::from(m.eval(cv, ci).0) / clock + lead;
-                    undecided(&q, on, clock)
-                });
-            if undecided {
-                // The window from the ring; the aim stays the model's.
-                p = model
-                    .ring_window(design.vin_of(cv), design.io_of(ci))
-                    .map(|window| crate::generate::ExactPoint {
-                        window,
-                        model_eps_ticks: 0.0,
-                        ..q
-                    });
+    // What the checks read of the model, a chunk of the row at a time.
+    const CHUNK: usize = 256;
+    let mut seen = [None; CHUNK];
+    let mut c = u32::from(i.lo);
+    while c <= u32::from(i.hi) {
+        let n = (u32::from(i.hi) - c + 1).min(CHUNK as u32) as usize;
+        let first = c as u16;
+        row.for_each(first, first + (n - 1) as u16, |ci, p| {
+            if let Some(s) = seen.get_mut(usize::from(ci - first)) {
+                // A model answer that is not a number is a refusal, never
+                // a silent pass of the comparisons below.
+                *s = p.ok().map(|p| Seen::of(&p)).filter(Seen::is_finite);
             }
-        }
+        });
+        // The ring's window, computed at most once a pair, where some
+        // method needs it.
+        let mut ring: Vec<(u16, Option<Seen>)> = Vec::new();
         for (m, r) in methods.iter().zip(rows.iter_mut()) {
-            check_pair(design, *m, cv, ci, p, r);
+            let mut acc = std::mem::take(r);
+            for (&p, ci) in seen[..n].iter().zip(first..) {
+                let got = m.eval(cv, ci);
+                // A multiplication, not a division: this runs at every pair
+                // (the two differ by an ulp, far inside the model's bound).
+                let on = f64::from(got.0) * tick_s + lead;
+                let mut p = p;
+                // Where the model's grid answered and this method's turn-on
+                // lies within the grid's bound of a decision (a window
+                // edge, a window a tick wide), the ring decides; the aim
+                // stays the model's.
+                if let Some(q) = p {
+                    if q.eps_ticks > 0.0 && undecided(&q, on, clock, tick_s) {
+                        p = match ring.iter().find(|(c, _)| *c == ci) {
+                            Some(&(_, p)) => p,
+                            None => {
+                                let p = model
+                                    .ring_window(design.vin_of(cv), design.io_of(ci))
+                                    .ok()
+                                    .map(|w| Seen {
+                                        window: w.map(|w| (w.open_s, w.close_s)),
+                                        eps_ticks: 0.0,
+                                        ..q
+                                    });
+                                ring.push((ci, p));
+                                p
+                            }
+                        };
+                    }
+                }
+                check_pair(design, got, on, cv, ci, p, &mut acc);
+            }
+            *r = acc;
         }
+        c += n as u32;
     }
     rows
 }
 
+/// What the checks read of the model at a pair.
+#[derive(Debug, Clone, Copy)]
+struct Seen {
+    /// [`crate::generate::ExactPoint::ticks`].
+    ticks: f64,
+    /// [`crate::generate::ExactPoint::nominal_ticks`].
+    nominal_ticks: f64,
+    /// The window's open and close, second.
+    window: Option<(f64, f64)>,
+    /// The robust window's open and close, second.
+    robust: Option<(f64, f64)>,
+    /// [`crate::generate::ExactPoint::model_eps_ticks`].
+    eps_ticks: f64,
+}
+
+impl Seen {
+    #[inline(always)]
+    fn of(p: &crate::generate::ExactPoint) -> Self {
+        Self {
+            ticks: p.ticks,
+            nominal_ticks: p.nominal_ticks,
+            window: p.window.map(|w| (w.open_s, w.close_s)),
+            robust: p.robust.map(|w| (w.open_s, w.close_s)),
+            eps_ticks: p.model_eps_ticks,
+        }
+    }
+}
+
+impl Seen {
+    fn is_finite(&self) -> bool {
+        let w = |w: Option<(f64, f64)>| w.is_none_or(|(a, b)| a.is_finite() && b.is_finite());
+        self.ticks.is_finite()
+            && self.nominal_ticks.is_finite()
+            && self.eps_ticks.is_finite()
+            && w(self.window)
+            && w(self.robust)
+    }
+}
+
 /// Whether a turn-on at `on` (second) is within the model's bound of a
 /// decision at `p`: an edge of its window, or a window width of one tick.
-fn undecided(p: &crate::generate::ExactPoint, on: f64, clock: f64) -> bool {
-    let eps = p.model_eps_ticks / clock;
-    p.window.is_some_and(|w| {
-        (on - w.open_s).abs() <= eps
-            || (on - w.close_s).abs() <= eps
-            || (w.width_s() * clock - 1.0).abs() <= 2.0 * p.model_eps_ticks
+fn undecided(p: &Seen, on: f64, clock: f64, tick_s: f64) -> bool {
+    let eps = p.eps_ticks * tick_s;
+    p.window.is_some_and(|(open, close)| {
+        (on - open).abs() <= eps
+            || (on - close).abs() <= eps
+            || ((close - open) * clock - 1.0).abs() <= 2.0 * p.eps_ticks
     })
 }
 
+/// Add the pair (`cv`'s row, current code `ci`) to `r`: the method
+/// commanded `got` (ticks, and the delay before rounding), the model said
+/// `p`.
+#[inline(always)]
 fn check_pair(
     design: &Design,
-    m: &dyn DelayMethod,
+    (got, raw): (u32, Option<f64>),
+    on: f64,
     cv: u16,
     ci: u16,
-    p: Result<crate::generate::ExactPoint, timing_core::Error>,
+    p: Option<Seen>,
     r: &mut Row,
 ) {
     let clock = design.timer.clock_hz();
-    let lead = design.timer.lead_s();
     let z0 = design.tank.z0_ohm();
     {
         r.points += 1;
-        let Ok(p) = p else {
+        let Some(p) = p else {
             r.model_errors += 1;
             return;
         };
-        let (got, raw) = m.eval(cv, ci);
         if got > r.max_cmd {
             r.max_cmd = got;
             r.max_cmd_ci = ci;
@@ -254,7 +325,7 @@ fn check_pair(
         // the windows carry the grid's bound where it answered, and the
         // closed forms' approximation error is reported as its upper
         // bound.
-        let eps = p.model_eps_ticks;
+        let eps = p.eps_ticks;
         let err = (f64::from(got) - p.ticks).abs();
         r.sum_sq += err * err;
         if err > r.max_err {
@@ -273,21 +344,21 @@ fn check_pair(
                 }
             }
         }
-        if let Some(w) = p.window {
+        if let Some((open_s, close_s)) = p.window {
+            let width_s = close_s - open_s;
             r.zvs += 1;
-            if w.width_s() * clock < 1.0 {
+            if width_s * clock < 1.0 {
                 r.narrow += 1;
             }
-            let on = f64::from(got) / clock + lead;
-            if on < w.open_s {
+            if on < open_s {
                 r.early += 1;
-            } else if on > w.close_s {
+            } else if on > close_s {
                 r.late += 1;
             }
             match p.robust {
-                Some(rw) => {
+                Some((r_open, r_close)) => {
                     r.robust += 1;
-                    let mg = (on - rw.open_s).min(rw.close_s - on);
+                    let mg = (on - r_open).min(r_close - on);
                     if mg < 0.0 {
                         r.robust_out += 1;
                     }
@@ -296,17 +367,17 @@ fn check_pair(
                 None if design.tolerance.is_some() => r.unreliable += 1,
                 None => {}
             }
-            if (on < w.open_s || on > w.close_s) && w.width_s() * clock >= 1.0 {
+            if (on < open_s || on > close_s) && width_s * clock >= 1.0 {
                 r.wide_out += 1;
             }
-            if on < w.open_s || on > w.close_s {
+            if on < open_s || on > close_s {
                 // J = Io*Z0/Vin for every cell.
                 let j = design.io_of(ci) * z0 / design.vin_of(cv);
                 r.miss_load = Some(r.miss_load.map_or(j, |x: f64| x.max(j)));
-                let wt = w.width_s() * clock;
+                let wt = width_s * clock;
                 r.miss_width = Some(r.miss_width.map_or(wt, |x: f64| x.max(wt)));
             } else {
-                let mg = (on - w.open_s).min(w.close_s - on) - eps / clock;
+                let mg = (on - open_s).min(close_s - on) - eps / clock;
                 r.min_margin = Some(r.min_margin.map_or(mg, |x: f64| x.min(mg)));
             }
         }
