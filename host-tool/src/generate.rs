@@ -11,6 +11,7 @@ use timing_core::table::{
 use timing_core::{CodeRange, ZvsWindow};
 
 use crate::design::Design;
+use crate::exact_chunk::{ExactChunk, CHUNK};
 use crate::real_tank::CellSolver;
 use crate::robust_aim::{RobustAim, RobustRow};
 use crate::verify::VerifyReport;
@@ -305,6 +306,28 @@ impl<'a> ExactModel<'a> {
         self.finish_with(turn_on, eps_s, reading)
     }
 
+    /// The aim inside the nominal window (`Ok((open, close))`, second) or
+    /// at the valley (`Err(valley)`, second), in ticks from the turn-off
+    /// command: [`ExactPoint::nominal_ticks`].
+    #[inline(always)]
+    fn nominal_ticks(&self, at: Result<(f64, f64), f64>) -> f64 {
+        let target_s = match at {
+            Ok((open_s, close_s)) => self.design.position.between(open_s, close_s),
+            Err(valley_s) => valley_s,
+        };
+        (target_s - self.lead_s) * self.clock_hz
+    }
+
+    /// [`ExactPoint::ticks`] from the table's aim (ticks): the design's
+    /// fixed fallback below the boundary, else the aim.
+    #[inline(always)]
+    fn commanded_ticks(&self, zvs: bool, table_ticks: f64) -> f64 {
+        match (zvs, self.design.fallback) {
+            (false, Fallback::Fixed(n)) => f64::from(n.get()),
+            _ => table_ticks,
+        }
+    }
+
     /// [`ExactModel::finish`] with the reading's robust window and aim
     /// (`None`: the nominal window's aim).
     #[inline(always)]
@@ -315,11 +338,12 @@ impl<'a> ExactModel<'a> {
         reading: Option<crate::robust_aim::Reading>,
     ) -> ExactPoint {
         let to_ticks = |s: f64| (s - self.lead_s) * self.clock_hz;
-        let (window, target_s) = match turn_on {
-            timing_core::TurnOn::Zvs(w) => (Some(*w), w.at(self.design.position)),
-            timing_core::TurnOn::Valley(v) => (None, v.valley_s),
+        let (window, nominal_ticks) = match turn_on {
+            timing_core::TurnOn::Zvs(w) => {
+                (Some(*w), self.nominal_ticks(Ok((w.open_s, w.close_s))))
+            }
+            timing_core::TurnOn::Valley(v) => (None, self.nominal_ticks(Err(v.valley_s))),
         };
-        let nominal_ticks = to_ticks(target_s);
         let robust = reading.and_then(|r| r.robust).filter(|_| window.is_some());
         let table_ticks = reading.map_or(nominal_ticks, |r| to_ticks(r.aim_s));
         let tick_wide = |o: f64, c: f64| (c - o) * self.clock_hz >= 1.0;
@@ -328,10 +352,7 @@ impl<'a> ExactModel<'a> {
             .or(window.map(|w| (w.open_s + eps_s, w.close_s - eps_s)))
             .filter(|&(o, c)| tick_wide(o, c))
             .map(|(o, c)| (to_ticks(o), to_ticks(c)));
-        let ticks = match (window, self.design.fallback) {
-            (None, Fallback::Fixed(n)) => f64::from(n.get()),
-            _ => table_ticks,
-        };
+        let ticks = self.commanded_ticks(window.is_some(), table_ticks);
         ExactPoint {
             ticks,
             table_ticks,
@@ -456,49 +477,58 @@ impl Readings {
 }
 
 impl ExactRow<'_, '_> {
-    /// [`ExactRow::at_code`] at every current code from `lo` to `hi`, in
-    /// order, handed to `f` with its code: the same answers, a batch at a
-    /// time where the load grid answers the row.
+    /// [`ExactRow::at_code`] at `n` (at most [`CHUNK`]) current codes from
+    /// `first`, into `out` (slot `k`: code `first + k`): the same answers,
+    /// a batch at a time where the load grid answers the row.
     #[inline]
-    pub fn for_each(
-        &self,
-        lo: u16,
-        hi: u16,
-        mut f: impl FnMut(u16, Result<ExactPoint, timing_core::Error>),
-    ) {
-        use crate::load_grid::{LoadBatch, BATCH};
-        let (Some((z0_per_v, v_cell)), Some(loads)) = (self.by_load, self.model.loads) else {
-            for ci in lo..=hi {
-                f(ci, self.at_code(ci));
+    pub fn fill(&self, first: u16, n: usize, out: &mut ExactChunk) {
+        use crate::load_grid::LoadBatch;
+        let n = n.min(CHUNK);
+        out.n = n;
+        let (Some((z0_per_v, _)), Some(loads)) = (self.by_load, self.model.loads) else {
+            for k in 0..n {
+                out.set(k, self.at_code(first.wrapping_add(k as u16)));
             }
             return;
         };
-        let design = self.model.design;
+        let m = self.model;
         let mut batch = LoadBatch::default();
-        let mut c = u32::from(lo);
-        while c <= u32::from(hi) {
-            let n = (u32::from(hi) - c + 1).min(BATCH as u32) as usize;
-            for (j, ci) in batch.j[..n].iter_mut().zip(c..) {
-                *j = design.io_of(ci as u16) * z0_per_v;
+        for (j, k) in batch.j[..n].iter_mut().zip(0u16..) {
+            *j = m.design.io_of(first.wrapping_add(k)) * z0_per_v;
+        }
+        loads.at_loads(&mut batch, n);
+        // As finish_with without a reading, where the grid answered off the
+        // boundary within the accepted bound (as at_code); a loop without
+        // branches but for the rare pairs left to at_code.
+        let mut left = 0u64;
+        for k in 0..n {
+            let (j, zvs, eps_s) = (batch.j[k], batch.zvs[k], batch.eps_s[k]);
+            let (a, b) = (batch.first_s[k], batch.close_s[k]);
+            let nominal = m.nominal_ticks(if zvs { Ok((a, b)) } else { Err(a) });
+            let ticks = m.commanded_ticks(zvs, nominal);
+            let io = m.design.io_of(first.wrapping_add(k as u16));
+            let answered = io > 0.0 && (j - 1.0).abs() > 1e-6 && eps_s <= m.max_grid_eps_s;
+            out.put(
+                k,
+                ticks,
+                nominal,
+                zvs.then_some((a, b)),
+                None,
+                eps_s * m.clock_hz,
+            );
+            left |= u64::from(!answered) << (k % 64);
+            if k % 64 == 63 || k + 1 == n {
+                // The pairs of this group of 64 the grid left to at_code.
+                let base = k - k % 64;
+                while left != 0 {
+                    let bit = left.trailing_zeros() as usize;
+                    left &= left - 1;
+                    out.set(
+                        base + bit,
+                        self.at_code(first.wrapping_add((base + bit) as u16)),
+                    );
+                }
             }
-            loads.at_loads(&mut batch, n);
-            for (k, ci) in (0..n).zip(c..) {
-                let ci = ci as u16;
-                let (io, j) = (design.io_of(ci), batch.j[k]);
-                // As at_code: off the boundary, within the accepted bound.
-                let p = match batch.get(k, v_cell) {
-                    Some((t, eps_s))
-                        if io > 0.0
-                            && (j - 1.0).abs() > 1e-6
-                            && eps_s <= self.model.max_grid_eps_s =>
-                    {
-                        Ok(self.model.finish_with(&t, eps_s, None))
-                    }
-                    _ => self.at_code(ci),
-                };
-                f(ci, p);
-            }
-            c += n as u32;
         }
     }
 

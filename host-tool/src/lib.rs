@@ -19,6 +19,7 @@ pub mod closed_form_source;
 pub mod coss_csv;
 pub mod design;
 pub mod event_grid;
+pub mod exact_chunk;
 pub mod export;
 pub mod fit;
 pub mod generate;

@@ -15,7 +15,11 @@
 //!   pi + asin(1/J)` has a square-root corner at J = 1, which sigma turns
 //!   into an analytic function (see [`crate::event_grid`]); the width
 //!   `sqrt(J^2 - 1)/w0 = sigma*sqrt(2 + sigma^2)/w0` is analytic too.
-//! - Below it, `y = ln J`: the charge grows as 1/J at light load.
+//! - Below it, `y = 1/sqrt(J)`: the charge grows as 1/J = y^2 at light
+//!   load, so the valley (the charge plus a constant angle) is a quadratic
+//!   in y, which a cubic holds exactly, and the ramp (J/w0 = 1/(y^2*w0))
+//!   is smooth for y >= 1. A square root and a division, where a logarithm
+//!   would cost a library call a reading.
 //!
 //! Each cell holds the four-point Lagrange cubic through its nodes (the
 //! stencil shifted inward at the ends) as Horner coefficients in the
@@ -37,19 +41,22 @@ use timing_core::{CellPoint, Error, Tank, Transition, TurnOn, Valley, ZvsWindow}
 
 /// Node spacing in sigma above the boundary.
 pub const SIGMA_STEP: f64 = 0.01;
-/// Node spacing in ln J below the boundary.
-pub const LN_J_STEP: f64 = 0.01;
+/// Node spacing in y = 1/sqrt(J) below the boundary.
+pub const Y_STEP: f64 = 0.01;
+/// The side below the boundary stops at this y (J = 1e-6): lighter loads
+/// get no answer (the caller computes the transition).
+pub const Y_MAX: f64 = 1e3;
 /// Safety factor on the largest difference measured in a cell.
 pub const EPS_FACTOR: f64 = 3.0;
 /// Allowance for the rounding of J, relative to the cell's largest time.
 pub const ROUND_REL: f64 = 1e-12;
 /// The tabulated sides stop this far from the boundary (sigma above it,
-/// ln J below): a node there has J clear of 1 by far more than its
+/// y - 1 below): a node there has J clear of 1 by far more than its
 /// rounding, so timing-core puts it on its side. Readings closer to the
 /// boundary get no answer (the caller computes the transition).
 pub const EDGE_SIGMA: f64 = 1e-5;
 /// See [`EDGE_SIGMA`].
-pub const EDGE_LN_J: f64 = 1e-9;
+pub const EDGE_Y: f64 = 1e-9;
 /// Most nodes on either side.
 const MAX_NODES: usize = 1 << 16;
 
@@ -62,6 +69,9 @@ struct Side<const Q: usize> {
     inv_h: f64,
     /// Cells (nodes less one); 0: the side is not tabulated.
     cells: usize,
+    /// `cells` as a float, and the index of the last cell.
+    cells_f: f64,
+    last_cell: i32,
     /// Per cell: Horner coefficients (constant first) of each time, second,
     /// in the local coordinate t in [0, 1].
     coef: Vec<[[f64; 4]; Q]>,
@@ -75,6 +85,8 @@ impl<const Q: usize> Side<Q> {
             c0: 0.0,
             inv_h: 1.0,
             cells: 0,
+            cells_f: 0.0,
+            last_cell: -1,
             coef: Vec::new(),
             eps: Vec::new(),
         }
@@ -139,6 +151,8 @@ impl<const Q: usize> Side<Q> {
             c0,
             inv_h: 1.0 / h,
             cells: n - 1,
+            cells_f: (n - 1) as f64,
+            last_cell: (n - 2) as i32,
             coef,
             eps,
         })
@@ -147,14 +161,24 @@ impl<const Q: usize> Side<Q> {
     /// The times at coordinate `c` and the cell's bound; `None` outside.
     #[inline]
     fn at(&self, c: f64) -> Option<([f64; Q], f64)> {
+        self.at_first::<Q>(c)
+    }
+
+    /// The first `P` (at most `Q`) times at coordinate `c` and the cell's
+    /// bound; `None` outside.
+    #[inline(always)]
+    fn at_first<const P: usize>(&self, c: f64) -> Option<([f64; P], f64)> {
         let u = (c - self.c0) * self.inv_h;
-        if !(u >= 0.0 && u <= self.cells as f64) {
+        // Signed 32-bit conversions: one instruction each way (the side
+        // has at most MAX_NODES cells).
+        if !(u >= 0.0 && u <= self.cells_f) {
             return None;
         }
-        let k = (u as usize).min(self.cells - 1);
-        let t = u - k as f64;
+        let k = (u as i32).min(self.last_cell);
+        let t = u - f64::from(k);
+        let k = k as usize;
         let (q, eps) = (self.coef.get(k)?, *self.eps.get(k)?);
-        let mut v = [0.0; Q];
+        let mut v = [0.0; P];
         for (v, p) in v.iter_mut().zip(q) {
             *v = horner(p, t);
         }
@@ -201,61 +225,34 @@ fn cubic_through(off: f64, y: [f64; 4]) -> [f64; 4] {
 /// Loads answered together by [`LoadGrid::at_loads`].
 pub const BATCH: usize = 256;
 
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-enum Kind {
-    None,
-    Zvs,
-    Valley,
-}
-
-/// Up to [`BATCH`] loads and their answers ([`LoadGrid::at_loads`]).
+/// Up to [`BATCH`] loads and the times a check of a commanded turn-on
+/// reads at each ([`LoadGrid::at_loads`]; the ramp's end, which no check
+/// reads, is left out), one array a quantity.
 #[derive(Debug, Clone)]
 pub struct LoadBatch {
     /// The normalised loads, filled by the caller.
     pub j: [f64; BATCH],
-    /// Open, close and ramp end (ZVS) or valley and ramp end, second.
-    t: [[f64; 3]; BATCH],
-    /// The bound of each answer, second.
-    eps: [f64; BATCH],
-    kind: [Kind; BATCH],
+    /// Above the boundary (`zvs`): the window opens; below it: the valley;
+    /// second, as [`LoadGrid::at_load`].
+    pub first_s: [f64; BATCH],
+    /// Above the boundary: the window closes (never before it opens);
+    /// below it: the valley again; second.
+    pub close_s: [f64; BATCH],
+    /// The bound of both times, second; infinite where the grid does not
+    /// answer (outside its range, next to the boundary).
+    pub eps_s: [f64; BATCH],
+    /// The load is at or above the boundary (J >= 1).
+    pub zvs: [bool; BATCH],
 }
 
 impl Default for LoadBatch {
     fn default() -> Self {
         Self {
             j: [0.0; BATCH],
-            t: [[0.0; 3]; BATCH],
-            eps: [0.0; BATCH],
-            kind: [Kind::None; BATCH],
-        }
-    }
-}
-
-impl LoadBatch {
-    /// Answer `k`: the turn-on in a cell of voltage `v` (volt) and the
-    /// bound of its times, second; `None` where the grid does not answer.
-    #[inline(always)]
-    #[must_use]
-    pub fn get(&self, k: usize, v: f64) -> Option<(TurnOn<f64>, f64)> {
-        let ([a, b, c], eps) = (*self.t.get(k)?, *self.eps.get(k)?);
-        match *self.kind.get(k)? {
-            Kind::None => None,
-            Kind::Zvs => Some((
-                TurnOn::Zvs(ZvsWindow {
-                    open_s: a,
-                    close_s: b.max(a),
-                    ramp_end_s: c,
-                }),
-                eps,
-            )),
-            Kind::Valley => Some((
-                TurnOn::Valley(Valley {
-                    valley_s: a,
-                    valley_voltage_v: v * (1.0 - *self.j.get(k)?),
-                    ramp_end_s: b,
-                }),
-                eps,
-            )),
+            first_s: [0.0; BATCH],
+            close_s: [0.0; BATCH],
+            eps_s: [0.0; BATCH],
+            zvs: [false; BATCH],
         }
     }
 }
@@ -267,7 +264,7 @@ pub struct LoadGrid {
     z0_ohm: f64,
     /// `[open, close, ramp end]`, second, over sigma.
     zvs: Side<3>,
-    /// `[valley, ramp end]`, second, over ln J.
+    /// `[valley, ramp end]`, second, over 1/sqrt(J).
     valley: Side<2>,
 }
 
@@ -291,9 +288,9 @@ impl LoadGrid {
             Side::empty()
         };
         let valley = if j_lo < 1.0 {
-            let y0 = j_lo.ln().min(-4.0 * LN_J_STEP);
-            Side::new(y0, -EDGE_LN_J, LN_J_STEP, &|y| {
-                let t = at(y.exp())?;
+            let y1 = (1.0 / j_lo).sqrt().clamp(1.0 + 4.0 * Y_STEP, Y_MAX);
+            Side::new(1.0 + EDGE_Y, y1, Y_STEP, &|y| {
+                let t = at(1.0 / (y * y))?;
                 Ok(t.valley()
                     .map_or([f64::NAN; 2], |v| [v.valley_s, v.ramp_end_s]))
             })?
@@ -337,7 +334,7 @@ impl LoadGrid {
                 eps,
             ))
         } else {
-            let ([valley_s, ramp_end_s], eps) = self.valley.at(j.ln())?;
+            let ([valley_s, ramp_end_s], eps) = self.valley.at((1.0 / j).sqrt())?;
             Some((
                 TurnOn::Valley(Valley {
                     valley_s,
@@ -349,29 +346,33 @@ impl LoadGrid {
         }
     }
 
-    /// [`LoadGrid::at_load`] at each of the batch's loads (`batch.j[..n]`,
-    /// all in cells of voltage `v`), into the batch: the same answers,
-    /// computed a batch at a time so the square roots and the cubics of
-    /// neighbouring loads overlap.
+    /// [`LoadGrid::at_load`]'s window or valley at each of the batch's
+    /// loads (`batch.j[..n]`), into the batch: the same times, computed a
+    /// batch at a time so the square roots and the cubics of neighbouring
+    /// loads overlap.
     pub fn at_loads(&self, batch: &mut LoadBatch, n: usize) {
         let n = n.min(BATCH);
-        let mut sigma = [0.0f64; BATCH];
-        for (s, &j) in sigma[..n].iter_mut().zip(&batch.j[..n]) {
-            *s = (j - 1.0).max(0.0).sqrt();
+        // Each load's coordinate on its side, in a loop of its own that the
+        // compiler vectorises.
+        let mut coord = [0.0f64; BATCH];
+        for (c, &j) in coord[..n].iter_mut().zip(&batch.j[..n]) {
+            *c = if j >= 1.0 { j - 1.0 } else { 1.0 / j }.sqrt();
         }
-        for (k, &s) in sigma[..n].iter().enumerate() {
+        for (k, &s) in coord[..n].iter().enumerate() {
             let j = batch.j[k];
-            let found = if j >= 1.0 {
-                self.zvs.at(s).map(|(t, e)| (t, e, Kind::Zvs))
+            let zvs = j >= 1.0;
+            let found = if zvs {
+                self.zvs
+                    .at_first::<2>(s)
+                    .map(|([o, c], e)| ([o, if c < o { o } else { c }], e))
             } else {
-                self.valley
-                    .at(j.ln())
-                    .map(|([a, b], e)| ([a, b, 0.0], e, Kind::Valley))
+                self.valley.at_first::<1>(s).map(|([v], e)| ([v, v], e))
             };
-            let ([a, b, c], eps, kind) = found.unwrap_or(([0.0; 3], f64::INFINITY, Kind::None));
-            batch.t[k] = [a, b, c];
-            batch.eps[k] = eps;
-            batch.kind[k] = kind;
+            let ([a, b], eps) = found.unwrap_or(([0.0; 2], f64::INFINITY));
+            batch.first_s[k] = a;
+            batch.close_s[k] = b;
+            batch.eps_s[k] = eps;
+            batch.zvs[k] = zvs;
         }
     }
 

@@ -28,8 +28,18 @@ pub fn map_rows_with_progress<T: Send>(
         return map_rows(n, f);
     };
     let done = AtomicUsize::new(0);
+    let caller = std::thread::current();
     let out = std::thread::scope(|s| {
         let work = s.spawn(|| {
+            // Wake the caller when the rows stop, panic or not, so it does
+            // not sleep out its interval after the work is done.
+            struct Wake(std::thread::Thread);
+            impl Drop for Wake {
+                fn drop(&mut self) {
+                    self.0.unpark();
+                }
+            }
+            let _wake = Wake(caller);
             map_rows(n, |k| {
                 let r = f(k);
                 done.fetch_add(1, Ordering::Relaxed);
@@ -38,7 +48,7 @@ pub fn map_rows_with_progress<T: Send>(
         });
         while !work.is_finished() {
             progress(done.load(Ordering::Relaxed) as f64 / n.max(1) as f64);
-            std::thread::sleep(std::time::Duration::from_millis(50));
+            std::thread::park_timeout(std::time::Duration::from_millis(50));
         }
         work.join()
     });

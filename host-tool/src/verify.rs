@@ -7,9 +7,10 @@
 use serde::Serialize;
 use timing_core::closed_form::{FastF32, FixedPoint, LibmF32};
 use timing_core::table::{DelayTable, Entries};
-use timing_core::AdcCode;
+use timing_core::{AdcCode, Ticks};
 
 use crate::design::Design;
+use crate::exact_chunk::{ExactChunk, CHUNK};
 use crate::generate::ExactModel;
 
 /// A runtime delay method: what the interrupt would command at a code pair.
@@ -19,6 +20,25 @@ pub trait DelayMethod: Sync {
     /// Commanded ticks, and the delay before rounding (ticks) for methods
     /// that compute one (the closed forms).
     fn eval(&self, vin: u16, io: u16) -> (u32, Option<f64>);
+
+    /// [`DelayMethod::eval`] at voltage code `vin` and the current codes
+    /// `first`, `first + 1`, ... (one a slot of `ticks`), into `ticks` and
+    /// `raw`; returns whether the method computes a delay before rounding
+    /// (then `raw` holds it; else `raw` is left alone). The same answers as
+    /// `eval`, one dynamic call a run instead of one a pair (this default
+    /// is compiled for each method, so `eval` is inlined into its loop).
+    fn eval_run(&self, vin: u16, first: u16, ticks: &mut [u32], raw: &mut [f64]) -> bool {
+        let mut has_raw = false;
+        for (k, (t, r)) in ticks.iter_mut().zip(raw.iter_mut()).enumerate() {
+            let (got, x) = self.eval(vin, first.wrapping_add(k as u16));
+            *t = got;
+            if let Some(x) = x {
+                *r = x;
+                has_raw = true;
+            }
+        }
+        has_raw
+    }
 }
 
 impl<E: Entries + Sync> DelayMethod for DelayTable<E> {
@@ -30,6 +50,19 @@ impl<E: Entries + Sync> DelayMethod for DelayTable<E> {
             self.delay(AdcCode::new(vin), AdcCode::new(io)).ticks.get(),
             None,
         )
+    }
+    fn eval_run(&self, vin: u16, first: u16, ticks: &mut [u32], _raw: &mut [f64]) -> bool {
+        let mut buf = [Ticks::new(0); 256];
+        let mut io = first;
+        for t in ticks.chunks_mut(buf.len()) {
+            let b = &mut buf[..t.len()];
+            self.delays_along_io(AdcCode::new(vin), AdcCode::new(io), b);
+            for (t, b) in t.iter_mut().zip(b.iter()) {
+                *t = b.get();
+            }
+            io = io.wrapping_add(t.len() as u16);
+        }
+        false
     }
 }
 
@@ -169,6 +202,21 @@ struct Row {
     model_errors: u64,
 }
 
+/// The ring's window at a pair (open and close, second; `None` below the
+/// boundary), `None` where the ring refused.
+type RingAnswer = Option<Option<(f64, f64)>>;
+
+/// A method's answers over a chunk.
+struct Commands {
+    /// Commanded ticks.
+    got: [u32; CHUNK],
+    /// The delay before rounding, ticks, where `has_raw`.
+    raw: [f64; CHUNK],
+    has_raw: bool,
+    /// The commanded turn-on from the turn-off command, second.
+    on: [f64; CHUNK],
+}
+
 /// One row for every method: the exact model is evaluated once per pair.
 fn check_row(
     design: &Design,
@@ -189,197 +237,235 @@ fn check_row(
     let tick_s = 1.0 / clock;
     let lead = design.timer.lead_s();
     let row = model.row_at_code(cv);
-    // What the checks read of the model, a chunk of the row at a time.
-    const CHUNK: usize = 256;
-    let mut seen = [None; CHUNK];
+    let mut chunk = ExactChunk::new();
+    let mut cmd = Box::new(Commands {
+        got: [0; CHUNK],
+        raw: [0.0; CHUNK],
+        has_raw: false,
+        on: [0.0; CHUNK],
+    });
     let mut c = u32::from(i.lo);
     while c <= u32::from(i.hi) {
         let n = (u32::from(i.hi) - c + 1).min(CHUNK as u32) as usize;
         let first = c as u16;
-        row.for_each(first, first + (n - 1) as u16, |ci, p| {
-            if let Some(s) = seen.get_mut(usize::from(ci - first)) {
-                // A model answer that is not a number is a refusal, never
-                // a silent pass of the comparisons below.
-                *s = p.ok().map(|p| Seen::of(&p)).filter(Seen::is_finite);
-            }
-        });
+        row.fill(first, n, &mut chunk);
         // The ring's window, computed at most once a pair, where some
         // method needs it.
-        let mut ring: Vec<(u16, Option<Seen>)> = Vec::new();
+        let mut ring: Vec<(usize, RingAnswer)> = Vec::new();
         for (m, r) in methods.iter().zip(rows.iter_mut()) {
-            let mut acc = std::mem::take(r);
-            for (&p, ci) in seen[..n].iter().zip(first..) {
-                let got = m.eval(cv, ci);
+            cmd.has_raw = m.eval_run(cv, first, &mut cmd.got[..n], &mut cmd.raw[..n]);
+            for (on, &got) in cmd.on[..n].iter_mut().zip(&cmd.got[..n]) {
                 // A multiplication, not a division: this runs at every pair
                 // (the two differ by an ulp, far inside the model's bound).
-                let on = f64::from(got.0) * tick_s + lead;
-                let mut p = p;
-                // Where the model's grid answered and this method's turn-on
-                // lies within the grid's bound of a decision (a window
-                // edge, a window a tick wide), the ring decides; the aim
-                // stays the model's.
-                if let Some(q) = p {
-                    if q.eps_ticks > 0.0 && undecided(&q, on, clock, tick_s) {
-                        p = match ring.iter().find(|(c, _)| *c == ci) {
-                            Some(&(_, p)) => p,
-                            None => {
-                                let p = model
-                                    .ring_window(design.vin_of(cv), design.io_of(ci))
-                                    .ok()
-                                    .map(|w| Seen {
-                                        window: w.map(|w| (w.open_s, w.close_s)),
-                                        eps_ticks: 0.0,
-                                        ..q
-                                    });
-                                ring.push((ci, p));
-                                p
-                            }
-                        };
+                *on = f64::from(got) * tick_s + lead;
+            }
+            // Where the model's grid answered and this method's turn-on
+            // lies within the grid's bound of a decision (a window edge, a
+            // window a tick wide), the ring decides for this method; the
+            // aim stays the model's.
+            let mut patched = Vec::new();
+            for k in 0..n {
+                if !undecided(&chunk, k, cmd.on[k], clock, tick_s) {
+                    continue;
+                }
+                let w = match ring.iter().find(|(kk, _)| *kk == k) {
+                    Some(&(_, w)) => w,
+                    None => {
+                        let ci = first + k as u16;
+                        let w = model
+                            .ring_window(design.vin_of(cv), design.io_of(ci))
+                            .ok()
+                            .map(|w| w.map(|w| (w.open_s, w.close_s)));
+                        ring.push((k, w));
+                        w
+                    }
+                };
+                patched.push((
+                    k,
+                    chunk.ok[k],
+                    chunk.zvs[k],
+                    chunk.open[k],
+                    chunk.close[k],
+                    chunk.eps[k],
+                ));
+                match w {
+                    None => chunk.ok[k] = false,
+                    Some(w) => {
+                        chunk.ok[k] =
+                            chunk.ok[k] && w.is_none_or(|(a, b)| a.is_finite() && b.is_finite());
+                        chunk.zvs[k] = w.is_some();
+                        (chunk.open[k], chunk.close[k]) = w.unwrap_or((0.0, 0.0));
+                        chunk.eps[k] = 0.0;
                     }
                 }
-                check_pair(design, got, on, cv, ci, p, &mut acc);
             }
-            *r = acc;
+            check_chunk(design, cv, first, &chunk, &cmd, r);
+            for (k, ok, zvs, open, close, eps) in patched {
+                chunk.ok[k] = ok;
+                chunk.zvs[k] = zvs;
+                chunk.open[k] = open;
+                chunk.close[k] = close;
+                chunk.eps[k] = eps;
+            }
         }
         c += n as u32;
     }
     rows
 }
 
-/// What the checks read of the model at a pair.
-#[derive(Debug, Clone, Copy)]
-struct Seen {
-    /// [`crate::generate::ExactPoint::ticks`].
-    ticks: f64,
-    /// [`crate::generate::ExactPoint::nominal_ticks`].
-    nominal_ticks: f64,
-    /// The window's open and close, second.
-    window: Option<(f64, f64)>,
-    /// The robust window's open and close, second.
-    robust: Option<(f64, f64)>,
-    /// [`crate::generate::ExactPoint::model_eps_ticks`].
-    eps_ticks: f64,
-}
-
-impl Seen {
-    #[inline(always)]
-    fn of(p: &crate::generate::ExactPoint) -> Self {
-        Self {
-            ticks: p.ticks,
-            nominal_ticks: p.nominal_ticks,
-            window: p.window.map(|w| (w.open_s, w.close_s)),
-            robust: p.robust.map(|w| (w.open_s, w.close_s)),
-            eps_ticks: p.model_eps_ticks,
-        }
-    }
-}
-
-impl Seen {
-    fn is_finite(&self) -> bool {
-        let w = |w: Option<(f64, f64)>| w.is_none_or(|(a, b)| a.is_finite() && b.is_finite());
-        self.ticks.is_finite()
-            && self.nominal_ticks.is_finite()
-            && self.eps_ticks.is_finite()
-            && w(self.window)
-            && w(self.robust)
-    }
-}
-
 /// Whether a turn-on at `on` (second) is within the model's bound of a
-/// decision at `p`: an edge of its window, or a window width of one tick.
-fn undecided(p: &Seen, on: f64, clock: f64, tick_s: f64) -> bool {
-    let eps = p.eps_ticks * tick_s;
-    p.window.is_some_and(|(open, close)| {
-        (on - open).abs() <= eps
+/// decision at slot `k`: an edge of its window, or a window width of one
+/// tick. Only where the model answered from a grid (a bound above 0).
+#[inline(always)]
+fn undecided(ch: &ExactChunk, k: usize, on: f64, clock: f64, tick_s: f64) -> bool {
+    let (Some(&ok), Some(&zvs), Some(&e), Some(&open), Some(&close)) = (
+        ch.ok.get(k),
+        ch.zvs.get(k),
+        ch.eps.get(k),
+        ch.open.get(k),
+        ch.close.get(k),
+    ) else {
+        return false;
+    };
+    let eps = e * tick_s;
+    ok && zvs
+        && e > 0.0
+        && ((on - open).abs() <= eps
             || (on - close).abs() <= eps
-            || ((close - open) * clock - 1.0).abs() <= 2.0 * p.eps_ticks
-    })
+            || ((close - open) * clock - 1.0).abs() <= 2.0 * e)
 }
 
-/// Add the pair (`cv`'s row, current code `ci`) to `r`: the method
-/// commanded `got` (ticks, and the delay before rounding), the model said
-/// `p`.
-#[inline(always)]
-fn check_pair(
-    design: &Design,
-    (got, raw): (u32, Option<f64>),
-    on: f64,
-    cv: u16,
-    ci: u16,
-    p: Option<Seen>,
-    r: &mut Row,
-) {
+/// Add a chunk of `cv`'s row (current codes from `first`) to `r`: the
+/// method commanded `cmd`, the model said `ch`. Each statistic has its own
+/// pass over the chunk, so each loop carries few running values.
+// Several arrays are read at each slot, so the loops count slots.
+#[allow(clippy::needless_range_loop)]
+fn check_chunk(design: &Design, cv: u16, first: u16, ch: &ExactChunk, cmd: &Commands, r: &mut Row) {
+    let n = ch.n;
     let clock = design.timer.clock_hz();
-    let z0 = design.tank.z0_ohm();
-    {
-        r.points += 1;
-        let Some(p) = p else {
-            r.model_errors += 1;
-            return;
-        };
-        if got > r.max_cmd {
-            r.max_cmd = got;
-            r.max_cmd_ci = ci;
+    let ok = &ch.ok[..n];
+    let got = &cmd.got[..n];
+    let on = &cmd.on[..n];
+    r.points += n as u64;
+    // Refusals, the largest command, the error of the command from the aim.
+    let mut refused = 0u64;
+    let (mut max_cmd, mut max_cmd_k) = (r.max_cmd, None);
+    let (mut max_err, mut max_err_k) = (r.max_err, None);
+    let mut sum_sq = 0.0f64;
+    for (k, ((&ok, &got), &t)) in ok.iter().zip(got).zip(&ch.ticks[..n]).enumerate() {
+        if !ok {
+            refused += 1;
+            continue;
         }
-        // The aim is the model's as computed (a preference, not a bound);
-        // the windows carry the grid's bound where it answered, and the
-        // closed forms' approximation error is reported as its upper
-        // bound.
-        let eps = p.eps_ticks;
-        let err = (f64::from(got) - p.ticks).abs();
-        r.sum_sq += err * err;
-        if err > r.max_err {
-            r.max_err = err;
-            r.worst_ci = ci;
+        if got > max_cmd {
+            (max_cmd, max_cmd_k) = (got, Some(k));
         }
-        // The approximation error where the method's own delay is commanded
-        // (everywhere with the valley fallback; inside the ZVS region with a
-        // fixed one).
+        let err = (f64::from(got) - t).abs();
+        sum_sq += err * err;
+        if err > max_err {
+            (max_err, max_err_k) = (err, Some(k));
+        }
+    }
+    let ci = |k: usize| first.wrapping_add(k as u16);
+    r.model_errors += refused;
+    r.sum_sq += sum_sq;
+    if let Some(k) = max_cmd_k {
+        (r.max_cmd, r.max_cmd_ci) = (max_cmd, ci(k));
+    }
+    if let Some(k) = max_err_k {
+        (r.max_err, r.worst_ci) = (max_err, ci(k));
+    }
+    // The approximation error where the method's own delay is commanded
+    // (everywhere with the valley fallback; inside the ZVS region with a
+    // fixed one), with the model's bound added: its upper bound.
+    if cmd.has_raw {
         let fixed = matches!(design.fallback, timing_core::table::Fallback::Fixed(_));
-        if let Some(raw) = raw {
-            if !fixed || p.window.is_some() {
-                let e = (raw - p.nominal_ticks).abs() + eps;
-                if r.approx.is_none_or(|(w, _)| e > w) {
-                    r.approx = Some((e, ci));
+        let mut worst = r.approx;
+        for k in 0..n {
+            if ok[k] && (!fixed || ch.zvs[k]) {
+                let e = (cmd.raw[k] - ch.nominal[k]).abs() + ch.eps[k];
+                if worst.is_none_or(|(w, _)| e > w) {
+                    worst = Some((e, ci(k)));
                 }
             }
         }
-        if let Some((open_s, close_s)) = p.window {
-            let width_s = close_s - open_s;
-            r.zvs += 1;
-            if width_s * clock < 1.0 {
-                r.narrow += 1;
+        r.approx = worst;
+    }
+    // The window: hits, misses, margins.
+    let (mut zvs, mut narrow, mut early, mut late, mut wide_out) = (0u64, 0u64, 0u64, 0u64, 0u64);
+    let mut min_margin = f64::INFINITY;
+    let (mut miss_width, mut miss_load) = (f64::NEG_INFINITY, f64::NEG_INFINITY);
+    // J = Io*Z0/Vin for every cell.
+    let (z0, vin) = (design.tank.z0_ohm(), design.vin_of(cv));
+    let tick_s = 1.0 / clock;
+    // Every number here is finite (a refusal otherwise), so plain
+    // comparisons pick minima and maxima.
+    for k in 0..n {
+        if !(ok[k] && ch.zvs[k]) {
+            continue;
+        }
+        let (open_s, close_s, on) = (ch.open[k], ch.close[k], on[k]);
+        let width = (close_s - open_s) * clock;
+        zvs += 1;
+        narrow += u64::from(width < 1.0);
+        let (after_open, before_close) = (on - open_s, close_s - on);
+        if after_open < 0.0 || before_close < 0.0 {
+            early += u64::from(after_open < 0.0);
+            late += u64::from(after_open >= 0.0);
+            wide_out += u64::from(width >= 1.0);
+            if width > miss_width {
+                miss_width = width;
             }
-            if on < open_s {
-                r.early += 1;
-            } else if on > close_s {
-                r.late += 1;
+            let j = design.io_of(ci(k)) * z0 / vin;
+            if j > miss_load {
+                miss_load = j;
             }
-            match p.robust {
-                Some((r_open, r_close)) => {
-                    r.robust += 1;
-                    let mg = (on - r_open).min(r_close - on);
-                    if mg < 0.0 {
-                        r.robust_out += 1;
-                    }
-                    r.robust_margin = Some(r.robust_margin.map_or(mg, |x: f64| x.min(mg)));
-                }
-                None if design.tolerance.is_some() => r.unreliable += 1,
-                None => {}
-            }
-            if (on < open_s || on > close_s) && width_s * clock >= 1.0 {
-                r.wide_out += 1;
-            }
-            if on < open_s || on > close_s {
-                // J = Io*Z0/Vin for every cell.
-                let j = design.io_of(ci) * z0 / design.vin_of(cv);
-                r.miss_load = Some(r.miss_load.map_or(j, |x: f64| x.max(j)));
-                let wt = width_s * clock;
-                r.miss_width = Some(r.miss_width.map_or(wt, |x: f64| x.max(wt)));
+        } else {
+            let nearer = if after_open < before_close {
+                after_open
             } else {
-                let mg = (on - open_s).min(close_s - on) - eps / clock;
-                r.min_margin = Some(r.min_margin.map_or(mg, |x: f64| x.min(mg)));
+                before_close
+            };
+            let mg = nearer - ch.eps[k] * tick_s;
+            if mg < min_margin {
+                min_margin = mg;
             }
+        }
+    }
+    r.zvs += zvs;
+    r.narrow += narrow;
+    r.early += early;
+    r.late += late;
+    r.wide_out += wide_out;
+    if zvs > early + late {
+        r.min_margin = Some(r.min_margin.map_or(min_margin, |x: f64| x.min(min_margin)));
+    }
+    if early + late > 0 {
+        r.miss_width = Some(r.miss_width.map_or(miss_width, |x: f64| x.max(miss_width)));
+        r.miss_load = Some(r.miss_load.map_or(miss_load, |x: f64| x.max(miss_load)));
+    }
+    // The robust window, where the design's tolerances leave one.
+    if design.tolerance.is_some() || ch.robust[..n].contains(&true) {
+        let (mut robust, mut robust_out, mut unreliable) = (0u64, 0u64, 0u64);
+        let mut margin = f64::INFINITY;
+        for k in 0..n {
+            if !(ok[k] && ch.zvs[k]) {
+                continue;
+            }
+            if ch.robust[k] {
+                robust += 1;
+                let mg = (on[k] - ch.r_open[k]).min(ch.r_close[k] - on[k]);
+                robust_out += u64::from(mg < 0.0);
+                margin = margin.min(mg);
+            } else if design.tolerance.is_some() {
+                unreliable += 1;
+            }
+        }
+        r.robust += robust;
+        r.robust_out += robust_out;
+        r.unreliable += unreliable;
+        if robust > 0 {
+            r.robust_margin = Some(r.robust_margin.map_or(margin, |x: f64| x.min(margin)));
         }
     }
 }
@@ -581,6 +667,37 @@ driver_delay = "25n"
             u64::from(d.vin_codes.len()) * u64::from(d.io_codes.len())
         );
         assert_eq!(r.points_checked, r.pairs_in_range);
+    }
+
+    #[test]
+    fn a_run_of_a_method_is_the_method_at_each_pair() {
+        let d = small();
+        let cf = d.closed_form().unwrap();
+        let (fast, fixed, libm) = (
+            cf.fast_f32().unwrap(),
+            cf.fixed_point().unwrap(),
+            cf.libm_f32().unwrap(),
+        );
+        let gen = crate::generate::generate(&d).unwrap();
+        let table = gen.table.table().unwrap();
+        let methods: [&dyn DelayMethod; 4] = [&table, &fast, &fixed, &libm];
+        for m in methods {
+            for cv in [d.vin_codes.lo, d.vin_codes.hi, 0, u16::MAX] {
+                for first in [0u16, d.io_codes.lo, 65_500] {
+                    let (mut ticks, mut raw) = ([0u32; 300], [f64::NAN; 300]);
+                    let has_raw = m.eval_run(cv, first, &mut ticks, &mut raw);
+                    for (k, (&t, &r)) in ticks.iter().zip(&raw).enumerate() {
+                        let ci = first.wrapping_add(k as u16);
+                        let (want, want_raw) = m.eval(cv, ci);
+                        assert_eq!(t, want, "{} at ({cv}, {ci})", m.name());
+                        assert_eq!(has_raw, want_raw.is_some(), "{}", m.name());
+                        if let Some(w) = want_raw {
+                            assert_eq!(r.to_bits(), w.to_bits(), "{} at ({cv}, {ci})", m.name());
+                        }
+                    }
+                }
+            }
+        }
     }
 
     #[test]

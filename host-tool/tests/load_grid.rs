@@ -51,7 +51,7 @@ fn check(tank: &Tank<f64>, j: (f64, f64), points: usize, seed: u64) -> Found {
             // Only next to the boundary (inside the edges the sides stop
             // at) may the grid leave a reading to the transition.
             let near = (jj - 1.0).abs() <= 2.0 * host_tool::load_grid::EDGE_SIGMA.powi(2)
-                || (jj < 1.0 && jj.ln() > -2.0 * host_tool::load_grid::EDGE_LN_J);
+                || (jj < 1.0 && (1.0 / jj).sqrt() - 1.0 < 2.0 * host_tool::load_grid::EDGE_Y);
             assert!(near, "no answer at J = {jj} inside the tabulated range");
             f.refused += 1;
             continue;
@@ -131,4 +131,49 @@ fn the_benchmark_design_uses_it() {
     let g = d.load_grid().expect("an ideal tank gets a load grid");
     assert!(g.cells() > 100);
     assert!(d.event_grid().is_none());
+}
+
+#[test]
+fn a_batch_answers_as_each_load_alone() {
+    use host_tool::load_grid::{LoadBatch, BATCH};
+    let tank = Tank::new(1e-6, 6.8e-9).unwrap();
+    let grid = LoadGrid::new(&tank, 1e-3, 40.0).unwrap();
+    let mut rng = rand::rngs::StdRng::seed_from_u64(7);
+    let mut batch = LoadBatch::default();
+    let mut answered = 0;
+    for round in 0..200 {
+        for j in batch.j.iter_mut() {
+            *j = match rng.random_range(0..10) {
+                0 => 1.0 + rng.random_range(-1e-8..1e-8),
+                1 => [0.0, -1.0, 1e-9, 1e3, f64::NAN, f64::INFINITY][rng.random_range(0..6)],
+                _ => rng.random_range((1e-3f64).ln()..40f64.ln()).exp(),
+            };
+        }
+        let n = if round % 2 == 0 {
+            BATCH
+        } else {
+            rng.random_range(1..BATCH)
+        };
+        grid.at_loads(&mut batch, n);
+        for k in 0..n {
+            let j = batch.j[k];
+            match grid.at_load(j, 48.0) {
+                Some((TurnOn::Zvs(w), eps)) => {
+                    assert!(batch.zvs[k], "J = {j}");
+                    assert_eq!(batch.first_s[k].to_bits(), w.open_s.to_bits(), "J = {j}");
+                    assert_eq!(batch.close_s[k].to_bits(), w.close_s.to_bits(), "J = {j}");
+                    assert_eq!(batch.eps_s[k].to_bits(), eps.to_bits(), "J = {j}");
+                    answered += 1;
+                }
+                Some((TurnOn::Valley(v), eps)) => {
+                    assert!(!batch.zvs[k], "J = {j}");
+                    assert_eq!(batch.first_s[k].to_bits(), v.valley_s.to_bits(), "J = {j}");
+                    assert_eq!(batch.eps_s[k].to_bits(), eps.to_bits(), "J = {j}");
+                    answered += 1;
+                }
+                None => assert!(batch.eps_s[k].is_infinite(), "J = {j}: no answer alone"),
+            }
+        }
+    }
+    assert!(answered > 30_000);
 }

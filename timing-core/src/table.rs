@@ -873,6 +873,27 @@ impl<E: Entries> DelayTable<E> {
     /// that therefore never wrap).
     #[inline]
     pub fn delay(&self, vin: AdcCode, io: AdcCode) -> Lookup {
+        self.lookup(vin, io)
+    }
+
+    /// [`DelayTable::delay`]'s commanded ticks at voltage code `vin` and
+    /// the current codes `io_first`, `io_first + 1`, ..., one a slot of
+    /// `out` (codes past 65535 wrap to 0): the same code as `delay`,
+    /// inlined into one loop, so a host checking every code pair of a
+    /// design runs what the firmware runs at a fraction of the calls (the
+    /// parts that depend on `vin` alone can be computed once). Cannot
+    /// panic.
+    pub fn delays_along_io(&self, vin: AdcCode, io_first: AdcCode, out: &mut [Ticks]) {
+        let mut io = io_first.get();
+        for o in out.iter_mut() {
+            *o = self.lookup(vin, AdcCode::new(io)).ticks;
+            io = io.wrapping_add(1);
+        }
+    }
+
+    /// The body of [`DelayTable::delay`] (see there).
+    #[inline(always)]
+    fn lookup(&self, vin: AdcCode, io: AdcCode) -> Lookup {
         let s = &self.sensing;
         let v = u32::from(s.vin.clamp(vin));
         let i = u32::from(s.io.clamp(io).wrapping_sub(s.io_zero));

@@ -95,6 +95,14 @@ impl<F: Real> WindowPosition<F> {
     pub fn get(self) -> F {
         self.0
     }
+
+    /// The instant at this position between `open` and `close` (any
+    /// unit, second for a window): `open + position*(close - open)`,
+    /// exact up to two roundings of `F`.
+    #[must_use]
+    pub fn between(self, open: F, close: F) -> F {
+        open + self.0 * (close - open)
+    }
 }
 
 /// A validated PWM timer and gate driver: clock, counter width and the

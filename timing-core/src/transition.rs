@@ -35,7 +35,7 @@ impl<F: Real> ZvsWindow<F> {
     /// The instant at `position` in the window: `open + position*(close - open)`, second.
     #[must_use]
     pub fn at(&self, position: crate::WindowPosition<F>) -> F {
-        self.open_s + position.get() * self.width_s()
+        position.between(self.open_s, self.close_s)
     }
 }
 

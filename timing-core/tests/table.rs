@@ -120,6 +120,37 @@ fn any_code_pair_clamps_and_never_panics() {
 }
 
 #[test]
+fn a_run_along_the_current_codes_is_the_lookup_at_each() {
+    // Entries that vary, so a slot taken from the wrong code would show.
+    let nodes = 113u16;
+    let entries: Vec<u16> = (0..nodes).map(|k| 16 * 40 + 37 * k).collect();
+    let t = DelayTable::new(
+        sensing(),
+        ratio(nodes),
+        4,
+        Fallback::Fixed(Ticks::new(77)),
+        entries.as_slice(),
+    )
+    .unwrap();
+    // Below, across and above the design range, and across the wrap at
+    // 65535.
+    for v in [0u16, 1999, 2000, 2471, 3000, u16::MAX] {
+        for first in [0u16, 250, 1900, 65_400] {
+            let mut run = [Ticks::new(0); 200];
+            t.delays_along_io(AdcCode::new(v), AdcCode::new(first), &mut run);
+            for (k, got) in run.iter().enumerate() {
+                let i = first.wrapping_add(k as u16);
+                assert_eq!(
+                    *got,
+                    t.delay(AdcCode::new(v), AdcCode::new(i)).ticks,
+                    "v {v} i {i}"
+                );
+            }
+        }
+    }
+}
+
+#[test]
 fn inconsistent_tables_are_refused() {
     let e = vec![0u16; 113];
     let ok = |l, f, s: Sensing| DelayTable::new(s, l, f, Fallback::Valley, e.as_slice());
