@@ -76,7 +76,10 @@ fn the_ideal_tanks_batches_are_the_pairs_answers() {
     let (pairs, zvs, grid) = check(&d, &rows);
     println!("{pairs} pairs compared, {zvs} of them ZVS, {grid} answered by the grid");
     assert!(zvs > 0 && zvs < pairs, "both sides of the boundary");
-    assert!(grid * 10 > pairs * 9, "the load grid's path is the one tested");
+    assert!(
+        grid * 10 > pairs * 9,
+        "the load grid's path is the one tested"
+    );
 }
 
 #[test]
