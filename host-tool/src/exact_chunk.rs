@@ -93,20 +93,51 @@ impl ExactChunk {
         robust: Option<(f64, f64)>,
         eps_ticks: f64,
     ) {
+        let (open, close) = window.unwrap_or((0.0, 0.0));
+        self.put_nominal(
+            k,
+            ticks,
+            nominal,
+            window.is_some(),
+            (open, close),
+            eps_ticks,
+        );
+        if k >= CHUNK {
+            return;
+        }
+        if let Some((a, b)) = robust {
+            self.ok[k] &= (a + b).is_finite();
+        }
+        self.robust[k] = robust.is_some();
+        (self.r_open[k], self.r_close[k]) = robust.unwrap_or((0.0, 0.0));
+    }
+
+    /// Slot `k` without a robust window: aim and nominal aim (ticks),
+    /// whether ZVS is possible and the window (second; ignored without
+    /// ZVS, but counted in the test for numbers), bound (ticks); a refusal
+    /// if any is not finite.
+    #[inline(always)]
+    pub fn put_nominal(
+        &mut self,
+        k: usize,
+        ticks: f64,
+        nominal: f64,
+        zvs: bool,
+        (open, close): (f64, f64),
+        eps_ticks: f64,
+    ) {
         // A sum is finite only where every term is (or, conservatively,
-        // not where finite terms overflow): one test instead of seven.
-        let sum = |w: Option<(f64, f64)>| w.map_or(0.0, |(a, b)| a + b);
-        let ok = (ticks + nominal + eps_ticks + sum(window) + sum(robust)).is_finite();
+        // not where finite terms overflow): one test instead of five.
+        let ok = (ticks + nominal + eps_ticks + open + close).is_finite();
         if k >= CHUNK {
             return;
         }
         self.ok[k] = ok;
         self.ticks[k] = ticks;
         self.nominal[k] = nominal;
-        self.zvs[k] = window.is_some();
-        (self.open[k], self.close[k]) = window.unwrap_or((0.0, 0.0));
-        self.robust[k] = robust.is_some();
-        (self.r_open[k], self.r_close[k]) = robust.unwrap_or((0.0, 0.0));
+        self.zvs[k] = zvs;
+        (self.open[k], self.close[k]) = (open, close);
+        self.robust[k] = false;
         self.eps[k] = eps_ticks;
     }
 }

@@ -503,19 +503,14 @@ impl ExactRow<'_, '_> {
         let mut left = 0u64;
         for k in 0..n {
             let (j, zvs, eps_s) = (batch.j[k], batch.zvs[k], batch.eps_s[k]);
+            // Below the boundary both times are the valley, and the
+            // window's aim at (valley, valley) is the valley to the bit.
             let (a, b) = (batch.first_s[k], batch.close_s[k]);
-            let nominal = m.nominal_ticks(if zvs { Ok((a, b)) } else { Err(a) });
+            let nominal = m.nominal_ticks(Ok((a, b)));
             let ticks = m.commanded_ticks(zvs, nominal);
             let io = m.design.io_of(first.wrapping_add(k as u16));
-            let answered = io > 0.0 && (j - 1.0).abs() > 1e-6 && eps_s <= m.max_grid_eps_s;
-            out.put(
-                k,
-                ticks,
-                nominal,
-                zvs.then_some((a, b)),
-                None,
-                eps_s * m.clock_hz,
-            );
+            let answered = (io > 0.0) & ((j - 1.0).abs() > 1e-6) & (eps_s <= m.max_grid_eps_s);
+            out.put_nominal(k, ticks, nominal, zvs, (a, b), eps_s * m.clock_hz);
             left |= u64::from(!answered) << (k % 64);
             if k % 64 == 63 || k + 1 == n {
                 // The pairs of this group of 64 the grid left to at_code.

@@ -175,8 +175,14 @@ impl<const Q: usize> Side<Q> {
             return None;
         }
         let k = (u as i32).min(self.last_cell);
-        let t = u - f64::from(k);
-        let k = k as usize;
+        self.cubics(k, u - f64::from(k))
+    }
+
+    /// The first `P` times at place `t` (0..=1) in cell `k` and the cell's
+    /// bound; `None` for a cell outside the side (a negative one included).
+    #[inline(always)]
+    fn cubics<const P: usize>(&self, k: i32, t: f64) -> Option<([f64; P], f64)> {
+        let k = usize::try_from(k).ok()?;
         let (q, eps) = (self.coef.get(k)?, *self.eps.get(k)?);
         let mut v = [0.0; P];
         for (v, p) in v.iter_mut().zip(q) {
@@ -352,27 +358,44 @@ impl LoadGrid {
     /// loads overlap.
     pub fn at_loads(&self, batch: &mut LoadBatch, n: usize) {
         let n = n.min(BATCH);
-        // Each load's coordinate on its side, in a loop of its own that the
-        // compiler vectorises.
-        let mut coord = [0.0f64; BATCH];
-        for (c, &j) in coord[..n].iter_mut().zip(&batch.j[..n]) {
-            *c = if j >= 1.0 { j - 1.0 } else { 1.0 / j }.sqrt();
+        // First, in a loop without branches that the compiler vectorises,
+        // each load's side, cell and place in the cell, as `Side::at_first`
+        // computes them (a cell of -1: outside the side).
+        let (z, v) = (&self.zvs, &self.valley);
+        let mut cell = [0i32; BATCH];
+        let mut place = [0.0f64; BATCH];
+        for (((&j, c), t), zvs) in batch.j[..n]
+            .iter()
+            .zip(&mut cell[..n])
+            .zip(&mut place[..n])
+            .zip(&mut batch.zvs[..n])
+        {
+            *zvs = j >= 1.0;
+            let s = if *zvs { j - 1.0 } else { 1.0 / j }.sqrt();
+            let (c0, inv_h, cells_f, last) = if *zvs {
+                (z.c0, z.inv_h, z.cells_f, z.last_cell)
+            } else {
+                (v.c0, v.inv_h, v.cells_f, v.last_cell)
+            };
+            let u = (s - c0) * inv_h;
+            let inside = u >= 0.0 && u <= cells_f;
+            let k = (u as i32).min(last);
+            *c = if inside { k } else { -1 };
+            *t = u - f64::from(k);
         }
-        for (k, &s) in coord[..n].iter().enumerate() {
-            let j = batch.j[k];
-            let zvs = j >= 1.0;
-            let found = if zvs {
-                self.zvs
-                    .at_first::<2>(s)
+        // Then the cubics of each load's cell.
+        for k in 0..n {
+            let (c, t) = (cell[k], place[k]);
+            let found = if batch.zvs[k] {
+                z.cubics::<2>(c, t)
                     .map(|([o, c], e)| ([o, if c < o { o } else { c }], e))
             } else {
-                self.valley.at_first::<1>(s).map(|([v], e)| ([v, v], e))
+                v.cubics::<1>(c, t).map(|([v], e)| ([v, v], e))
             };
             let ([a, b], eps) = found.unwrap_or(([0.0; 2], f64::INFINITY));
             batch.first_s[k] = a;
             batch.close_s[k] = b;
             batch.eps_s[k] = eps;
-            batch.zvs[k] = zvs;
         }
     }
 

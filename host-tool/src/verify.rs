@@ -215,6 +215,9 @@ struct Commands {
     has_raw: bool,
     /// The commanded turn-on from the turn-off command, second.
     on: [f64; CHUNK],
+    /// The model's grid answered and the turn-on lies within its bound of
+    /// a decision ([`undecided`]).
+    undecided: [bool; CHUNK],
 }
 
 /// One row for every method: the exact model is evaluated once per pair.
@@ -243,6 +246,7 @@ fn check_row(
         raw: [0.0; CHUNK],
         has_raw: false,
         on: [0.0; CHUNK],
+        undecided: [false; CHUNK],
     });
     let mut c = u32::from(i.lo);
     while c <= u32::from(i.hi) {
@@ -254,18 +258,22 @@ fn check_row(
         let mut ring: Vec<(usize, RingAnswer)> = Vec::new();
         for (m, r) in methods.iter().zip(rows.iter_mut()) {
             cmd.has_raw = m.eval_run(cv, first, &mut cmd.got[..n], &mut cmd.raw[..n]);
-            for (on, &got) in cmd.on[..n].iter_mut().zip(&cmd.got[..n]) {
+            let mut any = false;
+            for k in 0..n {
                 // A multiplication, not a division: this runs at every pair
                 // (the two differ by an ulp, far inside the model's bound).
-                *on = f64::from(got) * tick_s + lead;
+                let on = f64::from(cmd.got[k]) * tick_s + lead;
+                cmd.on[k] = on;
+                cmd.undecided[k] = undecided(&chunk, k, on, clock, tick_s);
+                any |= cmd.undecided[k];
             }
             // Where the model's grid answered and this method's turn-on
             // lies within the grid's bound of a decision (a window edge, a
             // window a tick wide), the ring decides for this method; the
             // aim stays the model's.
             let mut patched = Vec::new();
-            for k in 0..n {
-                if !undecided(&chunk, k, cmd.on[k], clock, tick_s) {
+            for k in 0..if any { n } else { 0 } {
+                if !cmd.undecided[k] {
                     continue;
                 }
                 let w = match ring.iter().find(|(kk, _)| *kk == k) {
@@ -318,21 +326,18 @@ fn check_row(
 /// tick. Only where the model answered from a grid (a bound above 0).
 #[inline(always)]
 fn undecided(ch: &ExactChunk, k: usize, on: f64, clock: f64, tick_s: f64) -> bool {
-    let (Some(&ok), Some(&zvs), Some(&e), Some(&open), Some(&close)) = (
-        ch.ok.get(k),
-        ch.zvs.get(k),
-        ch.eps.get(k),
-        ch.open.get(k),
-        ch.close.get(k),
-    ) else {
+    if k >= CHUNK {
         return false;
-    };
+    }
+    let (e, open, close) = (ch.eps[k], ch.open[k], ch.close[k]);
     let eps = e * tick_s;
-    ok && zvs
-        && e > 0.0
-        && ((on - open).abs() <= eps
-            || (on - close).abs() <= eps
-            || ((close - open) * clock - 1.0).abs() <= 2.0 * e)
+    // Without short cuts: no branch a pair.
+    ch.ok[k]
+        & ch.zvs[k]
+        & (e > 0.0)
+        & (((on - open).abs() <= eps)
+            | ((on - close).abs() <= eps)
+            | (((close - open) * clock - 1.0).abs() <= 2.0 * e))
 }
 
 /// Add a chunk of `cv`'s row (current codes from `first`) to `r`: the
@@ -348,32 +353,37 @@ fn check_chunk(design: &Design, cv: u16, first: u16, ch: &ExactChunk, cmd: &Comm
     let on = &cmd.on[..n];
     r.points += n as u64;
     // Refusals, the largest command, the error of the command from the aim.
+    // First the chunk's largest values in loops without branches (a
+    // refused pair counts as 0), then, only where one beats the row's so
+    // far, the first pair that has it.
+    let mut err = [0.0f64; CHUNK];
+    let mut cmd_ok = [0u32; CHUNK];
     let mut refused = 0u64;
-    let (mut max_cmd, mut max_cmd_k) = (r.max_cmd, None);
-    let (mut max_err, mut max_err_k) = (r.max_err, None);
-    let mut sum_sq = 0.0f64;
-    for (k, ((&ok, &got), &t)) in ok.iter().zip(got).zip(&ch.ticks[..n]).enumerate() {
-        if !ok {
-            refused += 1;
-            continue;
-        }
-        if got > max_cmd {
-            (max_cmd, max_cmd_k) = (got, Some(k));
-        }
-        let err = (f64::from(got) - t).abs();
-        sum_sq += err * err;
-        if err > max_err {
-            (max_err, max_err_k) = (err, Some(k));
-        }
+    // Four partial sums, so the additions need not wait on each other.
+    let mut sum_sq = [0.0f64; 4];
+    for k in 0..n {
+        let e = (f64::from(got[k]) - ch.ticks[k]).abs();
+        err[k] = if ok[k] { e } else { 0.0 };
+        cmd_ok[k] = if ok[k] { got[k] } else { 0 };
+        refused += u64::from(!ok[k]);
+        sum_sq[k % 4] += err[k] * err[k];
     }
+    let chunk_err = err[..n]
+        .iter()
+        .fold(0.0f64, |m, &e| if e > m { e } else { m });
+    let chunk_cmd = cmd_ok[..n].iter().fold(0u32, |m, &c| m.max(c));
     let ci = |k: usize| first.wrapping_add(k as u16);
     r.model_errors += refused;
-    r.sum_sq += sum_sq;
-    if let Some(k) = max_cmd_k {
-        (r.max_cmd, r.max_cmd_ci) = (max_cmd, ci(k));
+    r.sum_sq += (sum_sq[0] + sum_sq[1]) + (sum_sq[2] + sum_sq[3]);
+    if chunk_cmd > r.max_cmd {
+        if let Some(k) = cmd_ok[..n].iter().position(|&c| c == chunk_cmd) {
+            (r.max_cmd, r.max_cmd_ci) = (chunk_cmd, ci(k));
+        }
     }
-    if let Some(k) = max_err_k {
-        (r.max_err, r.worst_ci) = (max_err, ci(k));
+    if chunk_err > r.max_err {
+        if let Some(k) = err[..n].iter().position(|&e| e == chunk_err) {
+            (r.max_err, r.worst_ci) = (chunk_err, ci(k));
+        }
     }
     // The approximation error where the method's own delay is commanded
     // (everywhere with the valley fallback; inside the ZVS region with a
