@@ -35,10 +35,13 @@ pub struct ExactChunk {
     pub r_close: [f64; CHUNK],
     /// [`ExactPoint::model_eps_ticks`]: the bound of every time, ticks.
     pub eps: [f64; CHUNK],
+    /// Scratch for the load grid's answers, kept between fills (`None`
+    /// while a fill holds it).
+    pub loads: Option<Box<crate::load_grid::LoadBatch>>,
 }
 
 impl ExactChunk {
-    /// An empty chunk (on the heap: 20 kB).
+    /// An empty chunk (on the heap: 32 kB).
     #[must_use]
     pub fn new() -> Box<Self> {
         Box::new(Self {
@@ -53,6 +56,7 @@ impl ExactChunk {
             r_open: [0.0; CHUNK],
             r_close: [0.0; CHUNK],
             eps: [0.0; CHUNK],
+            loads: Some(Box::default()),
         })
     }
 

@@ -482,7 +482,6 @@ impl ExactRow<'_, '_> {
     /// a batch at a time where the load grid answers the row.
     #[inline]
     pub fn fill(&self, first: u16, n: usize, out: &mut ExactChunk) {
-        use crate::load_grid::LoadBatch;
         let n = n.min(CHUNK);
         out.n = n;
         let (Some((z0_per_v, _)), Some(loads)) = (self.by_load, self.model.loads) else {
@@ -492,7 +491,7 @@ impl ExactRow<'_, '_> {
             return;
         };
         let m = self.model;
-        let mut batch = LoadBatch::default();
+        let mut batch = out.loads.take().unwrap_or_default();
         for (j, k) in batch.j[..n].iter_mut().zip(0u16..) {
             *j = m.design.io_of(first.wrapping_add(k)) * z0_per_v;
         }
@@ -525,6 +524,7 @@ impl ExactRow<'_, '_> {
                 }
             }
         }
+        out.loads = Some(batch);
     }
 
     /// The exact delay at current code `io_code` of this row, as

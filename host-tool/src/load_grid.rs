@@ -249,6 +249,9 @@ pub struct LoadBatch {
     pub eps_s: [f64; BATCH],
     /// The load is at or above the boundary (J >= 1).
     pub zvs: [bool; BATCH],
+    /// Scratch: each load's cell on its side (-1: outside) and place in it.
+    cell: [i32; BATCH],
+    place: [f64; BATCH],
 }
 
 impl Default for LoadBatch {
@@ -259,6 +262,8 @@ impl Default for LoadBatch {
             close_s: [0.0; BATCH],
             eps_s: [0.0; BATCH],
             zvs: [false; BATCH],
+            cell: [0; BATCH],
+            place: [0.0; BATCH],
         }
     }
 }
@@ -362,12 +367,10 @@ impl LoadGrid {
         // each load's side, cell and place in the cell, as `Side::at_first`
         // computes them (a cell of -1: outside the side).
         let (z, v) = (&self.zvs, &self.valley);
-        let mut cell = [0i32; BATCH];
-        let mut place = [0.0f64; BATCH];
         for (((&j, c), t), zvs) in batch.j[..n]
             .iter()
-            .zip(&mut cell[..n])
-            .zip(&mut place[..n])
+            .zip(&mut batch.cell[..n])
+            .zip(&mut batch.place[..n])
             .zip(&mut batch.zvs[..n])
         {
             *zvs = j >= 1.0;
@@ -385,7 +388,7 @@ impl LoadGrid {
         }
         // Then the cubics of each load's cell.
         for k in 0..n {
-            let (c, t) = (cell[k], place[k]);
+            let (c, t) = (batch.cell[k], batch.place[k]);
             let found = if batch.zvs[k] {
                 z.cubics::<2>(c, t)
                     .map(|([o, c], e)| ([o, if c < o { o } else { c }], e))

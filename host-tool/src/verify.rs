@@ -27,11 +27,11 @@ pub trait DelayMethod: Sync {
     /// (then `raw` holds it; else `raw` is left alone). The same answers as
     /// `eval`, one dynamic call a run instead of one a pair (this default
     /// is compiled for each method, so `eval` is inlined into its loop).
-    fn eval_run(&self, vin: u16, first: u16, ticks: &mut [u32], raw: &mut [f64]) -> bool {
+    fn eval_run(&self, vin: u16, first: u16, ticks: &mut [Ticks], raw: &mut [f64]) -> bool {
         let mut has_raw = false;
         for (k, (t, r)) in ticks.iter_mut().zip(raw.iter_mut()).enumerate() {
             let (got, x) = self.eval(vin, first.wrapping_add(k as u16));
-            *t = got;
+            *t = Ticks::new(got);
             if let Some(x) = x {
                 *r = x;
                 has_raw = true;
@@ -51,17 +51,8 @@ impl<E: Entries + Sync> DelayMethod for DelayTable<E> {
             None,
         )
     }
-    fn eval_run(&self, vin: u16, first: u16, ticks: &mut [u32], _raw: &mut [f64]) -> bool {
-        let mut buf = [Ticks::new(0); 256];
-        let mut io = first;
-        for t in ticks.chunks_mut(buf.len()) {
-            let b = &mut buf[..t.len()];
-            self.delays_along_io(AdcCode::new(vin), AdcCode::new(io), b);
-            for (t, b) in t.iter_mut().zip(b.iter()) {
-                *t = b.get();
-            }
-            io = io.wrapping_add(t.len() as u16);
-        }
+    fn eval_run(&self, vin: u16, first: u16, ticks: &mut [Ticks], _raw: &mut [f64]) -> bool {
+        self.delays_along_io(AdcCode::new(vin), AdcCode::new(first), ticks);
         false
     }
 }
@@ -209,7 +200,7 @@ type RingAnswer = Option<Option<(f64, f64)>>;
 /// A method's answers over a chunk.
 struct Commands {
     /// Commanded ticks.
-    got: [u32; CHUNK],
+    got: [Ticks; CHUNK],
     /// The delay before rounding, ticks, where `has_raw`.
     raw: [f64; CHUNK],
     has_raw: bool,
@@ -218,6 +209,24 @@ struct Commands {
     /// The model's grid answered and the turn-on lies within its bound of
     /// a decision ([`undecided`]).
     undecided: [bool; CHUNK],
+    /// Scratch for the checks: each pair's error (ticks) and command
+    /// (0 where the model refused).
+    err: [f64; CHUNK],
+    cmd_ok: [u32; CHUNK],
+}
+
+impl Commands {
+    fn new() -> Box<Self> {
+        Box::new(Self {
+            got: [Ticks::new(0); CHUNK],
+            raw: [0.0; CHUNK],
+            has_raw: false,
+            on: [0.0; CHUNK],
+            undecided: [false; CHUNK],
+            err: [0.0; CHUNK],
+            cmd_ok: [0; CHUNK],
+        })
+    }
 }
 
 /// One row for every method: the exact model is evaluated once per pair.
@@ -240,14 +249,15 @@ fn check_row(
     let tick_s = 1.0 / clock;
     let lead = design.timer.lead_s();
     let row = model.row_at_code(cv);
-    let mut chunk = ExactChunk::new();
-    let mut cmd = Box::new(Commands {
-        got: [0; CHUNK],
-        raw: [0.0; CHUNK],
-        has_raw: false,
-        on: [0.0; CHUNK],
-        undecided: [false; CHUNK],
-    });
+    // Each worker keeps its buffers from row to row (clearing 40 kB a row
+    // is a few per cent of an ideal verification).
+    thread_local! {
+        static BUFFERS: std::cell::RefCell<Option<(Box<ExactChunk>, Box<Commands>)>> =
+            const { std::cell::RefCell::new(None) };
+    }
+    let (mut chunk, mut cmd) = BUFFERS
+        .take()
+        .unwrap_or_else(|| (ExactChunk::new(), Commands::new()));
     let mut c = u32::from(i.lo);
     while c <= u32::from(i.hi) {
         let n = (u32::from(i.hi) - c + 1).min(CHUNK as u32) as usize;
@@ -262,7 +272,7 @@ fn check_row(
             for k in 0..n {
                 // A multiplication, not a division: this runs at every pair
                 // (the two differ by an ulp, far inside the model's bound).
-                let on = f64::from(cmd.got[k]) * tick_s + lead;
+                let on = f64::from(cmd.got[k].get()) * tick_s + lead;
                 cmd.on[k] = on;
                 cmd.undecided[k] = undecided(&chunk, k, on, clock, tick_s);
                 any |= cmd.undecided[k];
@@ -307,7 +317,7 @@ fn check_row(
                     }
                 }
             }
-            check_chunk(design, cv, first, &chunk, &cmd, r);
+            check_chunk(design, cv, first, &chunk, &mut cmd, r);
             for (k, ok, zvs, open, close, eps) in patched {
                 chunk.ok[k] = ok;
                 chunk.zvs[k] = zvs;
@@ -318,6 +328,7 @@ fn check_row(
         }
         c += n as u32;
     }
+    BUFFERS.set(Some((chunk, cmd)));
     rows
 }
 
@@ -345,26 +356,31 @@ fn undecided(ch: &ExactChunk, k: usize, on: f64, clock: f64, tick_s: f64) -> boo
 /// pass over the chunk, so each loop carries few running values.
 // Several arrays are read at each slot, so the loops count slots.
 #[allow(clippy::needless_range_loop)]
-fn check_chunk(design: &Design, cv: u16, first: u16, ch: &ExactChunk, cmd: &Commands, r: &mut Row) {
+fn check_chunk(
+    design: &Design,
+    cv: u16,
+    first: u16,
+    ch: &ExactChunk,
+    cmd: &mut Commands,
+    r: &mut Row,
+) {
     let n = ch.n;
     let clock = design.timer.clock_hz();
     let ok = &ch.ok[..n];
-    let got = &cmd.got[..n];
-    let on = &cmd.on[..n];
+    let (got, on) = (&cmd.got[..n], &cmd.on[..n]);
+    let (err, cmd_ok) = (&mut cmd.err, &mut cmd.cmd_ok);
     r.points += n as u64;
     // Refusals, the largest command, the error of the command from the aim.
     // First the chunk's largest values in loops without branches (a
     // refused pair counts as 0), then, only where one beats the row's so
     // far, the first pair that has it.
-    let mut err = [0.0f64; CHUNK];
-    let mut cmd_ok = [0u32; CHUNK];
     let mut refused = 0u64;
     // Four partial sums, so the additions need not wait on each other.
     let mut sum_sq = [0.0f64; 4];
     for k in 0..n {
-        let e = (f64::from(got[k]) - ch.ticks[k]).abs();
+        let e = (f64::from(got[k].get()) - ch.ticks[k]).abs();
         err[k] = if ok[k] { e } else { 0.0 };
-        cmd_ok[k] = if ok[k] { got[k] } else { 0 };
+        cmd_ok[k] = if ok[k] { got[k].get() } else { 0 };
         refused += u64::from(!ok[k]);
         sum_sq[k % 4] += err[k] * err[k];
     }
@@ -694,12 +710,12 @@ driver_delay = "25n"
         for m in methods {
             for cv in [d.vin_codes.lo, d.vin_codes.hi, 0, u16::MAX] {
                 for first in [0u16, d.io_codes.lo, 65_500] {
-                    let (mut ticks, mut raw) = ([0u32; 300], [f64::NAN; 300]);
+                    let (mut ticks, mut raw) = ([Ticks::new(0); 300], [f64::NAN; 300]);
                     let has_raw = m.eval_run(cv, first, &mut ticks, &mut raw);
                     for (k, (&t, &r)) in ticks.iter().zip(&raw).enumerate() {
                         let ci = first.wrapping_add(k as u16);
                         let (want, want_raw) = m.eval(cv, ci);
-                        assert_eq!(t, want, "{} at ({cv}, {ci})", m.name());
+                        assert_eq!(t.get(), want, "{} at ({cv}, {ci})", m.name());
                         assert_eq!(has_raw, want_raw.is_some(), "{}", m.name());
                         if let Some(w) = want_raw {
                             assert_eq!(r.to_bits(), w.to_bits(), "{} at ({cv}, {ci})", m.name());
