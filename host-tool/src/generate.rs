@@ -508,7 +508,7 @@ impl ExactRow<'_, '_> {
             let nominal = m.nominal_ticks(Ok((a, b)));
             let ticks = m.commanded_ticks(zvs, nominal);
             let io = m.design.io_of(first.wrapping_add(k as u16));
-            let answered = (io > 0.0) & ((j - 1.0).abs() > 1e-6) & (eps_s <= m.max_grid_eps_s);
+            let answered = self.load_grid_decides(io, j, eps_s);
             out.put_nominal(k, ticks, nominal, zvs, (a, b), eps_s * m.clock_hz);
             left |= u64::from(!answered) << (k % 64);
             if k % 64 == 63 || k + 1 == n {
@@ -527,6 +527,16 @@ impl ExactRow<'_, '_> {
         out.loads = Some(batch);
     }
 
+    /// Whether the load grid's answer (bound `eps_s`, second) at current
+    /// `io` (ampere) and load `j` of this row stands: a current above zero,
+    /// J off the boundary by more than its rounding can move it (the
+    /// cell's J is computed in another order), a bound within the accepted
+    /// one. Without branches, for the batch's loop.
+    #[inline(always)]
+    fn load_grid_decides(&self, io: f64, j: f64, eps_s: f64) -> bool {
+        (io > 0.0) & ((j - 1.0).abs() > 1e-6) & (eps_s <= self.model.max_grid_eps_s)
+    }
+
     /// The exact delay at current code `io_code` of this row, as
     /// [`ExactModel::at_codes`].
     ///
@@ -537,13 +547,9 @@ impl ExactRow<'_, '_> {
         let io = self.model.design.io_of(io_code);
         if let (Some((z0_per_v, v_cell)), Some(loads)) = (self.by_load, self.model.loads) {
             let j = io * z0_per_v;
-            // Off the boundary by more than J's rounding can move it (the
-            // cell's J is computed in another order), the grid decides.
-            if io > 0.0 && (j - 1.0).abs() > 1e-6 {
-                if let Some((t, eps_s)) = loads.at_load(j, v_cell) {
-                    if eps_s <= self.model.max_grid_eps_s {
-                        return Ok(self.model.finish_with(&t, eps_s, None));
-                    }
+            if let Some((t, eps_s)) = loads.at_load(j, v_cell) {
+                if self.load_grid_decides(io, j, eps_s) {
+                    return Ok(self.model.finish_with(&t, eps_s, None));
                 }
             }
         }
