@@ -89,18 +89,23 @@ fn grid_lookup_interpolates_bilinear_data_exactly() {
     }
 }
 
-#[test]
-fn any_code_pair_clamps_and_never_panics() {
-    let nodes = 113u16;
-    let entries = vec![u16::MAX; usize::from(nodes)];
-    let t = DelayTable::new(
+/// A ratio table over `entries` (4 fraction bits) with a fixed fallback of
+/// 77 ticks.
+fn ratio_table_fixed_77(entries: &[u16]) -> DelayTable<&[u16]> {
+    DelayTable::new(
         sensing(),
-        ratio(nodes),
+        ratio(entries.len() as u16),
         4,
         Fallback::Fixed(Ticks::new(77)),
-        entries.as_slice(),
+        entries,
     )
-    .unwrap();
+    .unwrap()
+}
+
+#[test]
+fn any_code_pair_clamps_and_never_panics() {
+    let entries = vec![u16::MAX; 113];
+    let t = ratio_table_fixed_77(&entries);
     for v in (0..=u16::MAX).step_by(97).chain([0, u16::MAX]) {
         for i in (0..=u16::MAX).step_by(89).chain([0, u16::MAX]) {
             let r = t.delay(AdcCode::new(v), AdcCode::new(i));
@@ -122,16 +127,8 @@ fn any_code_pair_clamps_and_never_panics() {
 #[test]
 fn a_run_along_the_current_codes_is_the_lookup_at_each() {
     // Entries that vary, so a slot taken from the wrong code would show.
-    let nodes = 113u16;
-    let entries: Vec<u16> = (0..nodes).map(|k| 16 * 40 + 37 * k).collect();
-    let t = DelayTable::new(
-        sensing(),
-        ratio(nodes),
-        4,
-        Fallback::Fixed(Ticks::new(77)),
-        entries.as_slice(),
-    )
-    .unwrap();
+    let entries: Vec<u16> = (0..113).map(|k| 16 * 40 + 37 * k).collect();
+    let t = ratio_table_fixed_77(&entries);
     // Below, across and above the design range, and across the wrap at
     // 65535.
     for v in [0u16, 1999, 2000, 2471, 3000, u16::MAX] {
