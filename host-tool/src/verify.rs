@@ -659,8 +659,13 @@ mod tests {
     use super::*;
 
     fn small() -> Design {
+        small_with("")
+    }
+
+    /// [`small`] with `extra` appended to its text.
+    fn small_with(extra: &str) -> Design {
         Design::parse(
-            r#"
+            &(r#"
 name = "t"
 topology = "buck"
 lr = "1u"
@@ -677,7 +682,9 @@ io_zero_code = 0
 clock_hz = "170M"
 counter_bits = 16
 driver_delay = "25n"
-"#,
+"#
+            .to_string()
+                + extra),
             "small",
         )
         .unwrap()
@@ -720,6 +727,44 @@ driver_delay = "25n"
                         if let Some(w) = want_raw {
                             assert_eq!(r.to_bits(), w.to_bits(), "{} at ({cv}, {ci})", m.name());
                         }
+                    }
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn a_run_of_each_layouts_table_is_its_lookup_at_each_pair() {
+        // timing-core's run matches the layout once, outside its loop: every
+        // layout's loop against the lookup pair by pair.
+        for layout in [
+            "ratio",
+            "log-ratio",
+            "log-uniform",
+            "grid",
+            "recip-ratio",
+            "log-volt",
+            "margin",
+            "ratio-volt",
+        ] {
+            let d = small_with(&format!(
+                "[table]\nlayout = \"{layout}\"\nmax_error_ticks = 50\n"
+            ));
+            let gen = crate::generate::generate(&d).unwrap();
+            assert_eq!(gen.table.layout_name(), layout);
+            let table = gen.table.table().unwrap();
+            for cv in [
+                0,
+                d.vin_codes.lo,
+                (d.vin_codes.lo + d.vin_codes.hi) / 2,
+                u16::MAX,
+            ] {
+                for first in [0u16, d.io_codes.lo, 65_500] {
+                    let (mut ticks, mut raw) = ([Ticks::new(0); 700], [0.0; 700]);
+                    table.eval_run(cv, first, &mut ticks, &mut raw);
+                    for (k, t) in ticks.iter().enumerate() {
+                        let ci = first.wrapping_add(k as u16);
+                        assert_eq!(t.get(), table.eval(cv, ci).0, "{layout} at ({cv}, {ci})");
                     }
                 }
             }

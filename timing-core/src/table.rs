@@ -884,9 +884,26 @@ impl<E: Entries> DelayTable<E> {
     /// parts that depend on `vin` alone can be computed once). Cannot
     /// panic.
     pub fn delays_along_io(&self, vin: AdcCode, io_first: AdcCode, out: &mut [Ticks]) {
+        // One loop a layout: the layout is matched once, outside the loop,
+        // and what depends on `vin` alone can leave the loop.
+        match self.layout {
+            l @ Layout::Ratio(_) => self.run_along_io(l, vin, io_first, out),
+            l @ Layout::LogRatio(_) => self.run_along_io(l, vin, io_first, out),
+            l @ Layout::LogUniform(_) => self.run_along_io(l, vin, io_first, out),
+            l @ Layout::Grid(_) => self.run_along_io(l, vin, io_first, out),
+            l @ Layout::RecipRatio(_) => self.run_along_io(l, vin, io_first, out),
+            l @ Layout::LogVolt(_) => self.run_along_io(l, vin, io_first, out),
+            l @ Layout::Margin(_) => self.run_along_io(l, vin, io_first, out),
+            l @ Layout::RatioVolt(_) => self.run_along_io(l, vin, io_first, out),
+        }
+    }
+
+    /// [`DelayTable::delays_along_io`] with the table's layout `layout`.
+    #[inline(always)]
+    fn run_along_io(&self, layout: Layout, vin: AdcCode, io_first: AdcCode, out: &mut [Ticks]) {
         let mut io = io_first.get();
         for o in out.iter_mut() {
-            *o = self.lookup(vin, AdcCode::new(io)).ticks;
+            *o = self.lookup_in(layout, vin, AdcCode::new(io)).ticks;
             io = io.wrapping_add(1);
         }
     }
@@ -894,6 +911,12 @@ impl<E: Entries> DelayTable<E> {
     /// The body of [`DelayTable::delay`] (see there).
     #[inline(always)]
     fn lookup(&self, vin: AdcCode, io: AdcCode) -> Lookup {
+        self.lookup_in(self.layout, vin, io)
+    }
+
+    /// [`DelayTable::lookup`] with the table's layout `layout`.
+    #[inline(always)]
+    fn lookup_in(&self, layout: Layout, vin: AdcCode, io: AdcCode) -> Lookup {
         let s = &self.sensing;
         let v = u32::from(s.vin.clamp(vin));
         let i = u32::from(s.io.clamp(io).wrapping_sub(s.io_zero));
@@ -905,7 +928,7 @@ impl<E: Entries> DelayTable<E> {
             }
         }
         let f = u32::from(self.frac_bits);
-        let (y, shift) = match self.layout {
+        let (y, shift) = match layout {
             Layout::Ratio(r) => {
                 let q = v
                     .wrapping_shl(u32::from(r.ratio_shift))
