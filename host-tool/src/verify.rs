@@ -204,8 +204,6 @@ struct Commands {
     /// The delay before rounding, ticks, where `has_raw`.
     raw: [f64; CHUNK],
     has_raw: bool,
-    /// The commanded turn-on from the turn-off command, second.
-    on: [f64; CHUNK],
     /// The model's grid answered and the turn-on lies within its bound of
     /// a decision ([`undecided`]).
     undecided: [bool; CHUNK],
@@ -221,7 +219,6 @@ impl Commands {
             got: [Ticks::new(0); CHUNK],
             raw: [0.0; CHUNK],
             has_raw: false,
-            on: [0.0; CHUNK],
             undecided: [false; CHUNK],
             err: [0.0; CHUNK],
             cmd_ok: [0; CHUNK],
@@ -245,9 +242,6 @@ fn check_row(
         };
         methods.len()
     ];
-    let clock = design.timer.clock_hz();
-    let tick_s = 1.0 / clock;
-    let lead = design.timer.lead_s();
     let row = model.row_at_code(cv);
     // Each worker keeps its buffers from row to row (clearing 40 kB a row
     // is a few per cent of an ideal verification).
@@ -268,21 +262,22 @@ fn check_row(
         let mut ring: Vec<(usize, RingAnswer)> = Vec::new();
         for (m, r) in methods.iter().zip(rows.iter_mut()) {
             cmd.has_raw = m.eval_run(cv, first, &mut cmd.got[..n], &mut cmd.raw[..n]);
-            let mut any = false;
-            for k in 0..n {
-                // A multiplication, not a division: this runs at every pair
-                // (the two differ by an ulp, far inside the model's bound).
-                let on = f64::from(cmd.got[k].get()) * tick_s + lead;
-                cmd.on[k] = on;
-                cmd.undecided[k] = undecided(&chunk, k, on, clock, tick_s);
-                any |= cmd.undecided[k];
+            // The checks, which also find the pairs the model's grid cannot
+            // decide: where there are none (nearly always), their sums
+            // stand.
+            let mut tentative = r.clone();
+            if !check_chunk(design, cv, first, &chunk, &mut cmd, &mut tentative) {
+                *r = tentative;
+                continue;
             }
             // Where the model's grid answered and this method's turn-on
             // lies within the grid's bound of a decision (a window edge, a
             // window a tick wide), the ring decides for this method; the
-            // aim stays the model's.
+            // aim stays the model's. The chunk is then checked again with
+            // the ring's windows in those slots (their bound is 0, so none
+            // is undecided the second time).
             let mut patched = Vec::new();
-            for k in 0..if any { n } else { 0 } {
+            for k in 0..n {
                 if !cmd.undecided[k] {
                     continue;
                 }
@@ -352,8 +347,11 @@ fn undecided(ch: &ExactChunk, k: usize, on: f64, clock: f64, tick_s: f64) -> boo
 }
 
 /// Add a chunk of `cv`'s row (current codes from `first`) to `r`: the
-/// method commanded `cmd`, the model said `ch`. Each statistic has its own
-/// pass over the chunk, so each loop carries few running values.
+/// method commanded `cmd`, the model said `ch`. One pass over the chunk
+/// for the error and the window, then short ones for the rest. Marks in
+/// `cmd.undecided` the pairs whose decision lies within the model's bound
+/// ([`undecided`]) and returns whether there are any: the sums then need
+/// the ring there.
 // Several arrays are read at each slot, so the loops count slots.
 #[allow(clippy::needless_range_loop)]
 fn check_chunk(
@@ -363,26 +361,86 @@ fn check_chunk(
     ch: &ExactChunk,
     cmd: &mut Commands,
     r: &mut Row,
-) {
+) -> bool {
     let n = ch.n;
     let clock = design.timer.clock_hz();
+    let tick_s = 1.0 / clock;
+    let lead = design.timer.lead_s();
     let ok = &ch.ok[..n];
-    let (got, on) = (&cmd.got[..n], &cmd.on[..n]);
-    let (err, cmd_ok) = (&mut cmd.err, &mut cmd.cmd_ok);
+    let got = &cmd.got[..n];
+    let (err, cmd_ok, undecided_at) = (&mut cmd.err, &mut cmd.cmd_ok, &mut cmd.undecided);
     r.points += n as u64;
-    // Refusals, the largest command, the error of the command from the aim.
-    // First the chunk's largest values in loops without branches (a
-    // refused pair counts as 0), then, only where one beats the row's so
-    // far, the first pair that has it.
+    // Refusals, the largest command, the error of the command from the aim
+    // (the chunk's largest values first, a refused pair counting as 0;
+    // only where one beats the row's so far, the first pair that has it);
+    // and the window: hits, misses, margins.
     let mut refused = 0u64;
     // Four partial sums, so the additions need not wait on each other.
     let mut sum_sq = [0.0f64; 4];
+    let (mut zvs, mut narrow, mut early, mut late, mut wide_out) = (0u64, 0u64, 0u64, 0u64, 0u64);
+    let mut min_margin = f64::INFINITY;
+    let (mut miss_width, mut miss_load) = (f64::NEG_INFINITY, f64::NEG_INFINITY);
+    // J = Io*Z0/Vin for every cell.
+    let (z0, vin) = (design.tank.z0_ohm(), design.vin_of(cv));
+    let mut any_undecided = false;
+    // Every number below is finite (a refusal otherwise), so plain
+    // comparisons pick minima and maxima.
     for k in 0..n {
-        let e = (f64::from(got[k].get()) - ch.ticks[k]).abs();
+        let g = got[k].get();
+        let e = (f64::from(g) - ch.ticks[k]).abs();
         err[k] = if ok[k] { e } else { 0.0 };
-        cmd_ok[k] = if ok[k] { got[k].get() } else { 0 };
+        cmd_ok[k] = if ok[k] { g } else { 0 };
         refused += u64::from(!ok[k]);
         sum_sq[k % 4] += err[k] * err[k];
+        undecided_at[k] = false;
+        if !(ok[k] && ch.zvs[k]) {
+            continue;
+        }
+        // A multiplication, not a division: this runs at every pair (the
+        // two differ by an ulp, far inside the model's bound).
+        let on = f64::from(g) * tick_s + lead;
+        let u = undecided(ch, k, on, clock, tick_s);
+        undecided_at[k] = u;
+        any_undecided |= u;
+        let (open_s, close_s) = (ch.open[k], ch.close[k]);
+        let width = (close_s - open_s) * clock;
+        zvs += 1;
+        narrow += u64::from(width < 1.0);
+        let (after_open, before_close) = (on - open_s, close_s - on);
+        if after_open < 0.0 || before_close < 0.0 {
+            early += u64::from(after_open < 0.0);
+            late += u64::from(after_open >= 0.0);
+            wide_out += u64::from(width >= 1.0);
+            if width > miss_width {
+                miss_width = width;
+            }
+            let j = design.io_of(first.wrapping_add(k as u16)) * z0 / vin;
+            if j > miss_load {
+                miss_load = j;
+            }
+        } else {
+            let nearer = if after_open < before_close {
+                after_open
+            } else {
+                before_close
+            };
+            let mg = nearer - ch.eps[k] * tick_s;
+            if mg < min_margin {
+                min_margin = mg;
+            }
+        }
+    }
+    r.zvs += zvs;
+    r.narrow += narrow;
+    r.early += early;
+    r.late += late;
+    r.wide_out += wide_out;
+    if zvs > early + late {
+        r.min_margin = Some(r.min_margin.map_or(min_margin, |x: f64| x.min(min_margin)));
+    }
+    if early + late > 0 {
+        r.miss_width = Some(r.miss_width.map_or(miss_width, |x: f64| x.max(miss_width)));
+        r.miss_load = Some(r.miss_load.map_or(miss_load, |x: f64| x.max(miss_load)));
     }
     let chunk_err = err[..n]
         .iter()
@@ -417,59 +475,6 @@ fn check_chunk(
         }
         r.approx = worst;
     }
-    // The window: hits, misses, margins.
-    let (mut zvs, mut narrow, mut early, mut late, mut wide_out) = (0u64, 0u64, 0u64, 0u64, 0u64);
-    let mut min_margin = f64::INFINITY;
-    let (mut miss_width, mut miss_load) = (f64::NEG_INFINITY, f64::NEG_INFINITY);
-    // J = Io*Z0/Vin for every cell.
-    let (z0, vin) = (design.tank.z0_ohm(), design.vin_of(cv));
-    let tick_s = 1.0 / clock;
-    // Every number here is finite (a refusal otherwise), so plain
-    // comparisons pick minima and maxima.
-    for k in 0..n {
-        if !(ok[k] && ch.zvs[k]) {
-            continue;
-        }
-        let (open_s, close_s, on) = (ch.open[k], ch.close[k], on[k]);
-        let width = (close_s - open_s) * clock;
-        zvs += 1;
-        narrow += u64::from(width < 1.0);
-        let (after_open, before_close) = (on - open_s, close_s - on);
-        if after_open < 0.0 || before_close < 0.0 {
-            early += u64::from(after_open < 0.0);
-            late += u64::from(after_open >= 0.0);
-            wide_out += u64::from(width >= 1.0);
-            if width > miss_width {
-                miss_width = width;
-            }
-            let j = design.io_of(ci(k)) * z0 / vin;
-            if j > miss_load {
-                miss_load = j;
-            }
-        } else {
-            let nearer = if after_open < before_close {
-                after_open
-            } else {
-                before_close
-            };
-            let mg = nearer - ch.eps[k] * tick_s;
-            if mg < min_margin {
-                min_margin = mg;
-            }
-        }
-    }
-    r.zvs += zvs;
-    r.narrow += narrow;
-    r.early += early;
-    r.late += late;
-    r.wide_out += wide_out;
-    if zvs > early + late {
-        r.min_margin = Some(r.min_margin.map_or(min_margin, |x: f64| x.min(min_margin)));
-    }
-    if early + late > 0 {
-        r.miss_width = Some(r.miss_width.map_or(miss_width, |x: f64| x.max(miss_width)));
-        r.miss_load = Some(r.miss_load.map_or(miss_load, |x: f64| x.max(miss_load)));
-    }
     // The robust window, where the design's tolerances leave one.
     if design.tolerance.is_some() || ch.robust[..n].contains(&true) {
         let (mut robust, mut robust_out, mut unreliable) = (0u64, 0u64, 0u64);
@@ -480,7 +485,8 @@ fn check_chunk(
             }
             if ch.robust[k] {
                 robust += 1;
-                let mg = (on[k] - ch.r_open[k]).min(ch.r_close[k] - on[k]);
+                let on = f64::from(got[k].get()) * tick_s + lead;
+                let mg = (on - ch.r_open[k]).min(ch.r_close[k] - on);
                 robust_out += u64::from(mg < 0.0);
                 margin = margin.min(mg);
             } else if design.tolerance.is_some() {
@@ -494,6 +500,7 @@ fn check_chunk(
             r.robust_margin = Some(r.robust_margin.map_or(margin, |x: f64| x.min(margin)));
         }
     }
+    any_undecided
 }
 
 /// Check `method` against the exact model of `design` at every code pair
