@@ -3,6 +3,13 @@
 //! pair of the design range against the exact f64 model. Rows of voltage
 //! codes run in parallel on every core; the result does not depend on the
 //! number of threads (rows are merged in order).
+//!
+//! A row is checked a chunk of current codes at a time: the model fills
+//! the chunk's arrays ([`crate::exact_chunk::ExactChunk`]; for an ideal
+//! tank the load grid answers it as a batch), each method answers the run
+//! of codes in one call ([`DelayMethod::eval_run`]), and one pass checks
+//! every pair. Where a grid's bound leaves a decision open, the ring
+//! decides that pair and the chunk is checked again.
 
 use serde::Serialize;
 use timing_core::closed_form::{FastF32, FixedPoint, LibmF32};
