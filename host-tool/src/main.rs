@@ -634,22 +634,39 @@ fn run_table(args: &TableArgs) -> anyhow::Result<()> {
 
 /// The runtime method `which` of `design`: the table in `blob` (read from
 /// `table`) or one of the closed forms.
+/// The method to check; a table blob is opened (its integrity and design
+/// hash checked) and its entries decoded into `entries`, so the lookup
+/// checked is the one over the entries as firmware holds them in a Rust or
+/// C array (the same code as over the blob's bytes but for the read of an
+/// entry: `timing_core::table::LeBytes`, tested on its own).
 fn open_method<'a>(
     design: &host_tool::design::Design,
     cf: &timing_core::closed_form::ClosedForm,
-    blob: &'a [u8],
+    blob: &[u8],
+    entries: &'a mut Vec<u16>,
     table: Option<&std::path::Path>,
     which: MethodArg,
 ) -> anyhow::Result<Box<dyn host_tool::verify::DelayMethod + 'a>> {
     Ok(match which {
         MethodArg::Table => {
-            let (_, t) = timing_core::blob::open(blob, Some(design.hash)).map_err(|e| {
-                anyhow::anyhow!(
-                    "{}: integrity check failed: {e}",
-                    table.unwrap_or(std::path::Path::new("")).display()
+            use timing_core::table::Entries;
+            let name = table.unwrap_or(std::path::Path::new("")).display();
+            let (_, t) = timing_core::blob::open(blob, Some(design.hash))
+                .map_err(|e| anyhow::anyhow!("{name}: integrity check failed: {e}"))?;
+            *entries = (0..t.entries().count())
+                .map(|k| t.entries().at(k))
+                .collect();
+            let entries: &'a Vec<u16> = entries;
+            Box::new(
+                timing_core::table::DelayTable::new(
+                    *t.sensing(),
+                    *t.layout(),
+                    t.frac_bits(),
+                    t.fallback(),
+                    entries.as_slice(),
                 )
-            })?;
-            Box::new(t)
+                .map_err(|e| anyhow::anyhow!("{name}: {e}"))?,
+            )
         }
         MethodArg::ClosedFormF32 => Box::new(cf.fast_f32()?),
         MethodArg::FixedPoint => Box::new(cf.fixed_point()?),
@@ -673,7 +690,15 @@ fn run_montecarlo(args: &MonteCarloArgs) -> anyhow::Result<()> {
     let design = host_tool::design::Design::load(&args.design)?;
     let cf = design.closed_form()?;
     let blob = read_blob(args.table.as_deref(), args.method)?;
-    let method = open_method(&design, &cf, &blob, args.table.as_deref(), args.method)?;
+    let mut entries = Vec::new();
+    let method = open_method(
+        &design,
+        &cf,
+        &blob,
+        &mut entries,
+        args.table.as_deref(),
+        args.method,
+    )?;
     let bar = indicatif::ProgressBar::new(u64::from(args.boards));
     bar.set_style(
         indicatif::ProgressStyle::with_template("boards {bar:40} {pos}/{len} ({eta} left)")
@@ -745,7 +770,15 @@ fn run_verify(args: &VerifyArgs) -> anyhow::Result<ExitCode> {
     let design = Design::load(&args.design)?;
     let cf = design.closed_form()?;
     let blob = read_blob(args.table.as_deref(), args.method)?;
-    let method = open_method(&design, &cf, &blob, args.table.as_deref(), args.method)?;
+    let mut entries = Vec::new();
+    let method = open_method(
+        &design,
+        &cf,
+        &blob,
+        &mut entries,
+        args.table.as_deref(),
+        args.method,
+    )?;
     let total = u64::from(design.vin_codes.len());
     let bar = indicatif::ProgressBar::new(total);
     bar.set_style(
