@@ -79,7 +79,7 @@ impl ExactChunk {
 
     /// Slot `k` a refusal.
     #[inline(always)]
-    pub fn refuse(&mut self, k: usize) {
+    fn refuse(&mut self, k: usize) {
         if let Some(ok) = self.ok.get_mut(k) {
             *ok = false;
         }

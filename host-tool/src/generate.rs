@@ -80,7 +80,7 @@ pub struct ExactPoint {
 }
 
 impl ExactPoint {
-    /// A placeholder (0 ticks, no window) for buffers to be filled.
+    /// 0 ticks, no window: what a dry model answers.
     pub const EMPTY: Self = Self {
         ticks: 0.0,
         table_ticks: 0.0,
@@ -274,21 +274,7 @@ impl<'a> ExactModel<'a> {
         }
         let cell = self.design.cell(vin, io)?;
         let (turn_on, eps_s) = self.turn_on(&cell)?;
-        Ok(self.finish(vin, io, &turn_on, eps_s, robust_row, codes))
-    }
-
-    /// [`ExactModel::point`] from the turn-on at (`vin`, `io`) and the
-    /// bound of its times, second.
-    #[inline]
-    fn finish(
-        &self,
-        vin: f64,
-        io: f64,
-        turn_on: &timing_core::TurnOn<f64>,
-        eps_s: f64,
-        robust_row: Option<&RobustRow<'_>>,
-        codes: Option<(u16, u16)>,
-    ) -> ExactPoint {
+        let turn_on = &turn_on;
         // The robust window and the continuous aim of the tolerances
         // where the design has them.
         let cached = codes.and_then(|(cv, ci)| self.readings?.get(cv, ci));
@@ -303,7 +289,7 @@ impl<'a> ExactModel<'a> {
             )),
             _ => None,
         };
-        self.finish_with(turn_on, eps_s, reading)
+        Ok(self.finish_with(turn_on, eps_s, reading))
     }
 
     /// The aim inside the nominal window (`Ok((open, close))`, second) or
@@ -328,8 +314,9 @@ impl<'a> ExactModel<'a> {
         }
     }
 
-    /// [`ExactModel::finish`] with the reading's robust window and aim
-    /// (`None`: the nominal window's aim).
+    /// [`ExactModel::point`] from the turn-on, the bound of its times
+    /// (second) and the reading's robust window and aim (`None`: the
+    /// nominal window's aim).
     #[inline(always)]
     fn finish_with(
         &self,
@@ -497,10 +484,10 @@ impl ExactRow<'_, '_> {
         }
         loads.at_loads(&mut batch, n);
         // As finish_with without a reading, where the grid answered off the
-        // boundary within the accepted bound (as at_code); a loop without
-        // branches but for the rare pairs left to at_code.
-        let mut left = 0u64;
-        for k in 0..n {
+        // boundary within the accepted bound (as at_code), in a loop without
+        // branches; then the rare pairs left to at_code.
+        let mut answered = [false; CHUNK];
+        for (k, answered) in answered[..n].iter_mut().enumerate() {
             let (j, zvs, eps_s) = (batch.j[k], batch.zvs[k], batch.eps_s[k]);
             // Below the boundary both times are the valley, and the
             // window's aim at (valley, valley) is the valley to the bit.
@@ -508,21 +495,12 @@ impl ExactRow<'_, '_> {
             let nominal = m.nominal_ticks(Ok((a, b)));
             let ticks = m.commanded_ticks(zvs, nominal);
             let io = m.design.io_of(first.wrapping_add(k as u16));
-            let answered = self.load_grid_decides(io, j, eps_s);
+            *answered = self.load_grid_decides(io, j, eps_s);
             out.put_nominal(k, ticks, nominal, zvs, (a, b), eps_s * m.clock_hz);
-            left |= u64::from(!answered) << (k % 64);
-            if k % 64 == 63 || k + 1 == n {
-                // The pairs of this group of 64 the grid left to at_code.
-                let base = k - k % 64;
-                while left != 0 {
-                    let bit = left.trailing_zeros() as usize;
-                    left &= left - 1;
-                    out.set(
-                        base + bit,
-                        self.at_code(first.wrapping_add((base + bit) as u16)),
-                    );
-                }
-            }
+        }
+        // The pairs the grid left to at_code.
+        for k in (0..n).filter(|&k| !answered[k]) {
+            out.set(k, self.at_code(first.wrapping_add(k as u16)));
         }
         out.loads = Some(batch);
     }

@@ -161,13 +161,6 @@ impl<const Q: usize> Side<Q> {
     /// The times at coordinate `c` and the cell's bound; `None` outside.
     #[inline]
     fn at(&self, c: f64) -> Option<([f64; Q], f64)> {
-        self.at_first::<Q>(c)
-    }
-
-    /// The first `P` (at most `Q`) times at coordinate `c` and the cell's
-    /// bound; `None` outside.
-    #[inline(always)]
-    fn at_first<const P: usize>(&self, c: f64) -> Option<([f64; P], f64)> {
         let u = (c - self.c0) * self.inv_h;
         // Signed 32-bit conversions: one instruction each way (the side
         // has at most MAX_NODES cells).
@@ -364,7 +357,7 @@ impl LoadGrid {
     pub fn at_loads(&self, batch: &mut LoadBatch, n: usize) {
         let n = n.min(BATCH);
         // First, in a loop without branches that the compiler vectorises,
-        // each load's side, cell and place in the cell, as `Side::at_first`
+        // each load's side, cell and place in the cell, as `Side::at`
         // computes them (a cell of -1: outside the side).
         let (z, v) = (&self.zvs, &self.valley);
         for (((&j, c), t), zvs) in batch.j[..n]

@@ -632,73 +632,77 @@ fn run_table(args: &TableArgs) -> anyhow::Result<()> {
     Ok(())
 }
 
-/// The runtime method `which` of `design`: the table in `blob` (read from
-/// `table`) or one of the closed forms.
-/// The method to check; a table blob is opened (its integrity and design
-/// hash checked) and its entries decoded into `entries`, so the lookup
-/// checked is the one over the entries as firmware holds them in a Rust or
-/// C array (the same code as over the blob's bytes but for the read of an
-/// entry: `timing_core::table::LeBytes`, tested on its own).
-fn open_method<'a>(
-    design: &host_tool::design::Design,
-    cf: &timing_core::closed_form::ClosedForm,
-    blob: &[u8],
-    entries: &'a mut Vec<u16>,
-    table: Option<&std::path::Path>,
-    which: MethodArg,
-) -> anyhow::Result<Box<dyn host_tool::verify::DelayMethod + 'a>> {
-    Ok(match which {
-        MethodArg::Table => {
-            use timing_core::table::Entries;
-            let name = table.unwrap_or(std::path::Path::new("")).display();
-            let (_, t) = timing_core::blob::open(blob, Some(design.hash))
-                .map_err(|e| anyhow::anyhow!("{name}: integrity check failed: {e}"))?;
-            *entries = (0..t.entries().count())
-                .map(|k| t.entries().at(k))
-                .collect();
-            let entries: &'a Vec<u16> = entries;
-            Box::new(
-                timing_core::table::DelayTable::new(
-                    *t.sensing(),
-                    *t.layout(),
-                    t.frac_bits(),
-                    t.fallback(),
-                    entries.as_slice(),
-                )
-                .map_err(|e| anyhow::anyhow!("{name}: {e}"))?,
-            )
-        }
-        MethodArg::ClosedFormF32 => Box::new(cf.fast_f32()?),
-        MethodArg::FixedPoint => Box::new(cf.fixed_point()?),
-        MethodArg::LibmF32 => Box::new(cf.libm_f32()?),
-    })
+/// A table blob read from its file and opened (its integrity and the
+/// design's hash checked), its entries decoded into a `u16` array: the
+/// lookup checked is the one over the entries as firmware holds them in a
+/// Rust or C array, the same code as over the blob's bytes but for the
+/// read of an entry (`timing_core::table::LeBytes`, which
+/// `tests/blob_lookup.rs` checks against the array at every code pair).
+struct TableFile {
+    sensing: timing_core::table::Sensing,
+    layout: timing_core::table::Layout,
+    frac_bits: u8,
+    fallback: timing_core::table::Fallback,
+    entries: Vec<u16>,
 }
 
-fn read_blob(table: Option<&std::path::Path>, which: MethodArg) -> anyhow::Result<Vec<u8>> {
-    match (table, which) {
-        (Some(path), MethodArg::Table) => {
-            std::fs::read(path).map_err(|e| anyhow::anyhow!("cannot read {}: {e}", path.display()))
-        }
+/// The table file `table` for the method `which` (`None` for a closed
+/// form).
+fn read_table(
+    design: &host_tool::design::Design,
+    table: Option<&std::path::Path>,
+    which: MethodArg,
+) -> anyhow::Result<Option<TableFile>> {
+    use timing_core::table::Entries;
+    let path = match (table, which) {
+        (Some(path), MethodArg::Table) => path,
         (None, MethodArg::Table) => {
             anyhow::bail!("--method table needs --table <name>.bin (written by `zvs-timing table`)")
         }
-        _ => Ok(Vec::new()),
-    }
+        _ => return Ok(None),
+    };
+    let name = path.display();
+    let blob = std::fs::read(path).map_err(|e| anyhow::anyhow!("cannot read {name}: {e}"))?;
+    let (_, t) = timing_core::blob::open(&blob, Some(design.hash))
+        .map_err(|e| anyhow::anyhow!("{name}: integrity check failed: {e}"))?;
+    Ok(Some(TableFile {
+        sensing: *t.sensing(),
+        layout: *t.layout(),
+        frac_bits: t.frac_bits(),
+        fallback: t.fallback(),
+        entries: (0..t.entries().count())
+            .map(|k| t.entries().at(k))
+            .collect(),
+    }))
+}
+
+/// The runtime method `which`: the table of `file` or one of the closed
+/// forms `cf`.
+fn open_method<'a>(
+    cf: &timing_core::closed_form::ClosedForm,
+    file: Option<&'a TableFile>,
+    which: MethodArg,
+) -> anyhow::Result<Box<dyn host_tool::verify::DelayMethod + 'a>> {
+    Ok(match (which, file) {
+        (MethodArg::Table, Some(f)) => Box::new(timing_core::table::DelayTable::new(
+            f.sensing,
+            f.layout,
+            f.frac_bits,
+            f.fallback,
+            f.entries.as_slice(),
+        )?),
+        (MethodArg::Table, None) => anyhow::bail!("--method table needs --table <name>.bin"),
+        (MethodArg::ClosedFormF32, _) => Box::new(cf.fast_f32()?),
+        (MethodArg::FixedPoint, _) => Box::new(cf.fixed_point()?),
+        (MethodArg::LibmF32, _) => Box::new(cf.libm_f32()?),
+    })
 }
 
 fn run_montecarlo(args: &MonteCarloArgs) -> anyhow::Result<()> {
     let design = host_tool::design::Design::load(&args.design)?;
     let cf = design.closed_form()?;
-    let blob = read_blob(args.table.as_deref(), args.method)?;
-    let mut entries = Vec::new();
-    let method = open_method(
-        &design,
-        &cf,
-        &blob,
-        &mut entries,
-        args.table.as_deref(),
-        args.method,
-    )?;
+    let file = read_table(&design, args.table.as_deref(), args.method)?;
+    let method = open_method(&cf, file.as_ref(), args.method)?;
     let bar = indicatif::ProgressBar::new(u64::from(args.boards));
     bar.set_style(
         indicatif::ProgressStyle::with_template("boards {bar:40} {pos}/{len} ({eta} left)")
@@ -769,16 +773,8 @@ fn run_verify(args: &VerifyArgs) -> anyhow::Result<ExitCode> {
     use host_tool::design::Design;
     let design = Design::load(&args.design)?;
     let cf = design.closed_form()?;
-    let blob = read_blob(args.table.as_deref(), args.method)?;
-    let mut entries = Vec::new();
-    let method = open_method(
-        &design,
-        &cf,
-        &blob,
-        &mut entries,
-        args.table.as_deref(),
-        args.method,
-    )?;
+    let file = read_table(&design, args.table.as_deref(), args.method)?;
+    let method = open_method(&cf, file.as_ref(), args.method)?;
     let total = u64::from(design.vin_codes.len());
     let bar = indicatif::ProgressBar::new(total);
     bar.set_style(

@@ -280,14 +280,11 @@ fn check_row(
             // Where the model's grid answered and this method's turn-on
             // lies within the grid's bound of a decision (a window edge, a
             // window a tick wide), the ring decides for this method; the
-            // aim stays the model's. The chunk is then checked again with
-            // the ring's windows in those slots (their bound is 0, so none
-            // is undecided the second time).
-            let mut patched = Vec::new();
-            for k in 0..n {
-                if !cmd.undecided[k] {
-                    continue;
-                }
+            // aim stays the model's. A copy of the chunk with the ring's
+            // windows in those slots is checked instead (their bound is 0,
+            // so none is undecided the second time).
+            let mut decided = chunk.clone();
+            for k in (0..n).filter(|&k| cmd.undecided[k]) {
                 let w = match ring.iter().find(|(kk, _)| *kk == k) {
                     Some(&(_, w)) => w,
                     None => {
@@ -300,33 +297,17 @@ fn check_row(
                         w
                     }
                 };
-                patched.push((
-                    k,
-                    chunk.ok[k],
-                    chunk.zvs[k],
-                    chunk.open[k],
-                    chunk.close[k],
-                    chunk.eps[k],
-                ));
                 match w {
-                    None => chunk.ok[k] = false,
+                    None => decided.ok[k] = false,
                     Some(w) => {
-                        chunk.ok[k] =
-                            chunk.ok[k] && w.is_none_or(|(a, b)| a.is_finite() && b.is_finite());
-                        chunk.zvs[k] = w.is_some();
-                        (chunk.open[k], chunk.close[k]) = w.unwrap_or((0.0, 0.0));
-                        chunk.eps[k] = 0.0;
+                        decided.ok[k] &= w.is_none_or(|(a, b)| a.is_finite() && b.is_finite());
+                        decided.zvs[k] = w.is_some();
+                        (decided.open[k], decided.close[k]) = w.unwrap_or((0.0, 0.0));
+                        decided.eps[k] = 0.0;
                     }
                 }
             }
-            check_chunk(design, cv, first, &chunk, &mut cmd, r);
-            for (k, ok, zvs, open, close, eps) in patched {
-                chunk.ok[k] = ok;
-                chunk.zvs[k] = zvs;
-                chunk.open[k] = open;
-                chunk.close[k] = close;
-                chunk.eps[k] = eps;
-            }
+            check_chunk(design, cv, first, &decided, &mut cmd, r);
         }
         c += n as u32;
     }
