@@ -464,23 +464,33 @@ impl Readings {
 }
 
 impl ExactRow<'_, '_> {
-    /// [`ExactRow::at_code`] at `n` (at most [`CHUNK`]) current codes from
-    /// `first`, into `out` (slot `k`: code `first + k`): the same answers,
-    /// a batch at a time where the load grid answers the row.
+    /// Whether the load grid answers this row from J alone (an ideal tank
+    /// without tolerances, a cell the row's voltage can run): then every
+    /// answer of the row is a function of J (see [`crate::doubling`]).
+    #[must_use]
+    pub fn answers_by_load(&self) -> bool {
+        self.by_load.is_some() && self.model.loads.is_some()
+    }
+
+    /// [`ExactRow::at_code`] at `n` (at most [`CHUNK`]) current codes
+    /// `first`, `first + step`, ..., into `out` (slot `k`: code
+    /// `first + k * step`): the same answers, a batch at a time where the
+    /// load grid answers the row.
     #[inline]
-    pub fn fill(&self, first: u16, n: usize, out: &mut ExactChunk) {
+    pub fn fill(&self, first: u16, step: u16, n: usize, out: &mut ExactChunk) {
         let n = n.min(CHUNK);
         out.n = n;
+        let code = |k: usize| first.wrapping_add(step.wrapping_mul(k as u16));
         let (Some((z0_per_v, _)), Some(loads)) = (self.by_load, self.model.loads) else {
             for k in 0..n {
-                out.set(k, self.at_code(first.wrapping_add(k as u16)));
+                out.set(k, self.at_code(code(k)));
             }
             return;
         };
         let m = self.model;
         let mut batch = out.loads.take().unwrap_or_default();
-        for (j, k) in batch.j[..n].iter_mut().zip(0u16..) {
-            *j = m.design.io_of(first.wrapping_add(k)) * z0_per_v;
+        for (k, j) in batch.j[..n].iter_mut().enumerate() {
+            *j = m.design.io_of(code(k)) * z0_per_v;
         }
         loads.at_loads(&mut batch, n);
         // As finish_with without a reading, where the grid answered off the
@@ -494,13 +504,13 @@ impl ExactRow<'_, '_> {
             let (a, b) = (batch.first_s[k], batch.close_s[k]);
             let nominal = m.nominal_ticks(Ok((a, b)));
             let ticks = m.commanded_ticks(zvs, nominal);
-            let io = m.design.io_of(first.wrapping_add(k as u16));
+            let io = m.design.io_of(code(k));
             *answered = self.load_grid_decides(io, j, eps_s);
             out.put_nominal(k, ticks, nominal, zvs, (a, b), eps_s * m.clock_hz);
         }
         // The pairs the grid left to at_code.
         for k in (0..n).filter(|&k| !answered[k]) {
-            out.set(k, self.at_code(first.wrapping_add(k as u16)));
+            out.set(k, self.at_code(code(k)));
         }
         out.loads = Some(batch);
     }

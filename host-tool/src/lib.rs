@@ -18,6 +18,7 @@ pub mod aim_grid;
 pub mod closed_form_source;
 pub mod coss_csv;
 pub mod design;
+pub mod doubling;
 pub mod event_grid;
 pub mod exact_chunk;
 pub mod export;

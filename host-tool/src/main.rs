@@ -505,6 +505,13 @@ fn print_verification(v: &host_tool::verify::VerifyReport, clock_hz: f64) {
         "method {}: verified {} of {} code pairs: max error {:.3} ticks at vin code {} ({:.3} V), io code {} ({:.4} A); RMS {:.3} ticks",
         v.method, v.points_checked, v.pairs_in_range, v.max_error_ticks, v.worst_vin_code, v.worst_vin_v, v.worst_io_code, v.worst_io_a, v.rms_error_ticks
     );
+    if v.pairs_evaluated < v.points_checked {
+        outln!(
+            "{} pairs evaluated; the other {} double both codes of one of them (ideal tank, table indexed by the code ratio: the same load, window and command), so share its verdict",
+            v.pairs_evaluated,
+            v.points_checked - v.pairs_evaluated
+        );
+    }
     if let (Some(e), Some((cv, ci))) = (
         v.max_approximation_error_ticks,
         v.max_approximation_error_at,

@@ -10,6 +10,12 @@
 //! of codes in one call ([`DelayMethod::eval_run`]), and one pass checks
 //! every pair. Where a grid's bound leaves a decision open, the ring
 //! decides that pair and the chunk is checked again.
+//!
+//! For an ideal tank and a table indexed by the code ratio, a pair whose
+//! codes both double another's has that pair's load, window and command,
+//! so it is not evaluated again: the pair it doubles counts for it
+//! ([`crate::doubling`]; about a quarter of a full-scale design's pairs).
+//! Every pair of the range is still counted, and the count is asserted.
 
 use serde::Serialize;
 use timing_core::closed_form::{FastF32, FixedPoint, LibmF32};
@@ -17,6 +23,7 @@ use timing_core::table::{DelayTable, Entries};
 use timing_core::{AdcCode, Ticks};
 
 use crate::design::Design;
+use crate::doubling::{whole_row, Doubling};
 use crate::exact_chunk::{ExactChunk, CHUNK};
 use crate::generate::ExactModel;
 
@@ -28,16 +35,32 @@ pub trait DelayMethod: Sync {
     /// that compute one (the closed forms).
     fn eval(&self, vin: u16, io: u16) -> (u32, Option<f64>);
 
+    /// Whether [`DelayMethod::eval`] commands the same delay at codes
+    /// (`2v`, `z + 2c`) as at (`v`, `z + c`) wherever both pairs are in the
+    /// design range (see [`crate::doubling`]). Only when this holds by
+    /// construction; `false` unless a method says otherwise.
+    fn same_at_doubled_codes(&self) -> bool {
+        false
+    }
+
     /// [`DelayMethod::eval`] at voltage code `vin` and the current codes
-    /// `first`, `first + 1`, ... (one a slot of `ticks`), into `ticks` and
-    /// `raw`; returns whether the method computes a delay before rounding
-    /// (then `raw` holds it; else `raw` is left alone). The same answers as
-    /// `eval`, one dynamic call a run instead of one a pair (this default
-    /// is compiled for each method, so `eval` is inlined into its loop).
-    fn eval_run(&self, vin: u16, first: u16, ticks: &mut [Ticks], raw: &mut [f64]) -> bool {
+    /// `first`, `first + step`, ... (one a slot of `ticks`), into `ticks`
+    /// and `raw`; returns whether the method computes a delay before
+    /// rounding (then `raw` holds it; else `raw` is left alone). The same
+    /// answers as `eval`, one dynamic call a run instead of one a pair
+    /// (this default is compiled for each method, so `eval` is inlined
+    /// into its loop).
+    fn eval_run(
+        &self,
+        vin: u16,
+        first: u16,
+        step: u16,
+        ticks: &mut [Ticks],
+        raw: &mut [f64],
+    ) -> bool {
         let mut has_raw = false;
         for (k, (t, r)) in ticks.iter_mut().zip(raw.iter_mut()).enumerate() {
-            let (got, x) = self.eval(vin, first.wrapping_add(k as u16));
+            let (got, x) = self.eval(vin, first.wrapping_add(step.wrapping_mul(k as u16)));
             *t = Ticks::new(got);
             if let Some(x) = x {
                 *r = x;
@@ -58,8 +81,18 @@ impl<E: Entries + Sync> DelayMethod for DelayTable<E> {
             None,
         )
     }
-    fn eval_run(&self, vin: u16, first: u16, ticks: &mut [Ticks], _raw: &mut [f64]) -> bool {
-        self.delays_along_io(AdcCode::new(vin), AdcCode::new(first), ticks);
+    fn same_at_doubled_codes(&self) -> bool {
+        DelayTable::same_at_doubled_codes(self)
+    }
+    fn eval_run(
+        &self,
+        vin: u16,
+        first: u16,
+        step: u16,
+        ticks: &mut [Ticks],
+        _raw: &mut [f64],
+    ) -> bool {
+        self.delays_along_io(AdcCode::new(vin), AdcCode::new(first), step, ticks);
         false
     }
 }
@@ -126,6 +159,11 @@ pub struct VerifyReport {
     /// equal to `pairs_in_range` (a shorter count would be a failed check,
     /// not a smaller proof).
     pub points_checked: u64,
+    /// Of those, the pairs where the model and the method were evaluated;
+    /// each other pair doubles both codes of one of them and so has its
+    /// verdict (an ideal tank and a table indexed by the code ratio; see
+    /// [`crate::doubling`]). Equal to `points_checked` otherwise.
+    pub pairs_evaluated: u64,
     /// Code pairs in the design range: voltage codes times current codes.
     pub pairs_in_range: u64,
     /// Pairs where ZVS is possible.
@@ -183,6 +221,7 @@ struct Row {
     sum_sq: f64,
     approx: Option<(f64, u16)>,
     points: u64,
+    evaluated: u64,
     zvs: u64,
     early: u64,
     late: u64,
@@ -238,6 +277,7 @@ fn check_row(
     design: &Design,
     model: &ExactModel<'_>,
     methods: &[&dyn DelayMethod],
+    doubling: Option<&Doubling>,
     cv: u16,
 ) -> Vec<Row> {
     let i = design.io_codes;
@@ -259,21 +299,32 @@ fn check_row(
     let (mut chunk, mut cmd) = BUFFERS
         .take()
         .unwrap_or_else(|| (ExactChunk::new(), Commands::new()));
-    let mut c = u32::from(i.lo);
-    while c <= u32::from(i.hi) {
-        let n = (u32::from(i.hi) - c + 1).min(CHUNK as u32) as usize;
-        let first = c as u16;
-        row.fill(first, n, &mut chunk);
+    let runs = doubling.map_or_else(|| vec![whole_row(i)], |d| d.runs(cv));
+    let chunks = runs.iter().flat_map(|r| {
+        (0..r.n).step_by(CHUNK).map(move |k| {
+            let first = r.first.wrapping_add(r.step.wrapping_mul(k as u16));
+            (first, r.step, (r.n - k).min(CHUNK), r.weight)
+        })
+    });
+    for (first, step, n, weight) in chunks {
+        let code = |k: usize| first.wrapping_add(step.wrapping_mul(k as u16));
+        let at = Place {
+            cv,
+            first,
+            step,
+            weight,
+        };
+        row.fill(first, step, n, &mut chunk);
         // The ring's window, computed at most once a pair, where some
         // method needs it.
         let mut ring: Vec<(usize, RingAnswer)> = Vec::new();
         for (m, r) in methods.iter().zip(rows.iter_mut()) {
-            cmd.has_raw = m.eval_run(cv, first, &mut cmd.got[..n], &mut cmd.raw[..n]);
+            cmd.has_raw = m.eval_run(cv, first, step, &mut cmd.got[..n], &mut cmd.raw[..n]);
             // The checks, which also find the pairs the model's grid cannot
             // decide: where there are none (nearly always), their sums
             // stand.
             let mut tentative = r.clone();
-            if !check_chunk(design, cv, first, &chunk, &mut cmd, &mut tentative) {
+            if !check_chunk(design, at, &chunk, &mut cmd, &mut tentative) {
                 *r = tentative;
                 continue;
             }
@@ -288,7 +339,7 @@ fn check_row(
                 let w = match ring.iter().find(|(kk, _)| *kk == k) {
                     Some(&(_, w)) => w,
                     None => {
-                        let ci = first + k as u16;
+                        let ci = code(k);
                         let w = model
                             .ring_window(design.vin_of(cv), design.io_of(ci))
                             .ok()
@@ -307,9 +358,8 @@ fn check_row(
                     }
                 }
             }
-            check_chunk(design, cv, first, &decided, &mut cmd, r);
+            check_chunk(design, at, &decided, &mut cmd, r);
         }
-        c += n as u32;
     }
     BUFFERS.set(Some((chunk, cmd)));
     rows
@@ -334,8 +384,20 @@ fn undecided(ch: &ExactChunk, k: usize, on: f64, clock: f64, tick_s: f64) -> boo
             | (((close - open) * clock - 1.0).abs() <= 2.0 * e))
 }
 
-/// Add a chunk of `cv`'s row (current codes from `first`) to `r`: the
-/// method commanded `cmd`, the model said `ch`. One pass over the chunk
+/// Where a chunk lies: voltage code `cv`, current codes `first`,
+/// `first + step`, ..., each standing for `weight` pairs of the range
+/// ([`crate::doubling::Run`]).
+#[derive(Debug, Clone, Copy)]
+struct Place {
+    cv: u16,
+    first: u16,
+    step: u16,
+    weight: u64,
+}
+
+/// Add a chunk of a row (at `at`) to `r`: the method commanded `cmd`, the
+/// model said `ch`; the counts and the sum of squares count each pair
+/// `at.weight` times. One pass over the chunk
 /// for the error and the window, then short ones for the rest. Marks in
 /// `cmd.undecided` the pairs whose decision lies within the model's bound
 /// ([`undecided`]) and returns whether there are any: the sums then need
@@ -344,8 +406,7 @@ fn undecided(ch: &ExactChunk, k: usize, on: f64, clock: f64, tick_s: f64) -> boo
 #[allow(clippy::needless_range_loop)]
 fn check_chunk(
     design: &Design,
-    cv: u16,
-    first: u16,
+    at: Place,
     ch: &ExactChunk,
     cmd: &mut Commands,
     r: &mut Row,
@@ -357,7 +418,9 @@ fn check_chunk(
     let ok = &ch.ok[..n];
     let got = &cmd.got[..n];
     let (err, cmd_ok, undecided_at) = (&mut cmd.err, &mut cmd.cmd_ok, &mut cmd.undecided);
-    r.points += n as u64;
+    let (weight, weight_f) = (at.weight, at.weight as f64);
+    r.points += n as u64 * weight;
+    r.evaluated += n as u64;
     // Refusals, the largest command, the error of the command from the aim
     // (the chunk's largest values first, a refused pair counting as 0;
     // only where one beats the row's so far, the first pair that has it);
@@ -369,7 +432,8 @@ fn check_chunk(
     let mut min_margin = f64::INFINITY;
     let (mut miss_width, mut miss_load) = (f64::NEG_INFINITY, f64::NEG_INFINITY);
     // J = Io*Z0/Vin for every cell.
-    let (z0, vin) = (design.tank.z0_ohm(), design.vin_of(cv));
+    let (z0, vin) = (design.tank.z0_ohm(), design.vin_of(at.cv));
+    let ci = |k: usize| at.first.wrapping_add(at.step.wrapping_mul(k as u16));
     let mut any_undecided = false;
     // Every number below is finite (a refusal otherwise), so plain
     // comparisons pick minima and maxima.
@@ -402,7 +466,7 @@ fn check_chunk(
             if width > miss_width {
                 miss_width = width;
             }
-            let j = design.io_of(first.wrapping_add(k as u16)) * z0 / vin;
+            let j = design.io_of(ci(k)) * z0 / vin;
             if j > miss_load {
                 miss_load = j;
             }
@@ -418,11 +482,11 @@ fn check_chunk(
             }
         }
     }
-    r.zvs += zvs;
-    r.narrow += narrow;
-    r.early += early;
-    r.late += late;
-    r.wide_out += wide_out;
+    r.zvs += zvs * weight;
+    r.narrow += narrow * weight;
+    r.early += early * weight;
+    r.late += late * weight;
+    r.wide_out += wide_out * weight;
     if zvs > early + late {
         r.min_margin = Some(r.min_margin.map_or(min_margin, |x: f64| x.min(min_margin)));
     }
@@ -434,9 +498,8 @@ fn check_chunk(
         .iter()
         .fold(0.0f64, |m, &e| if e > m { e } else { m });
     let chunk_cmd = cmd_ok[..n].iter().fold(0u32, |m, &c| m.max(c));
-    let ci = |k: usize| first.wrapping_add(k as u16);
-    r.model_errors += refused;
-    r.sum_sq += (sum_sq[0] + sum_sq[1]) + (sum_sq[2] + sum_sq[3]);
+    r.model_errors += refused * weight;
+    r.sum_sq += weight_f * ((sum_sq[0] + sum_sq[1]) + (sum_sq[2] + sum_sq[3]));
     if chunk_cmd > r.max_cmd {
         if let Some(k) = cmd_ok[..n].iter().position(|&c| c == chunk_cmd) {
             (r.max_cmd, r.max_cmd_ci) = (chunk_cmd, ci(k));
@@ -481,9 +544,9 @@ fn check_chunk(
                 unreliable += 1;
             }
         }
-        r.robust += robust;
-        r.robust_out += robust_out;
-        r.unreliable += unreliable;
+        r.robust += robust * weight;
+        r.robust_out += robust_out * weight;
+        r.unreliable += unreliable * weight;
         if robust > 0 {
             r.robust_margin = Some(r.robust_margin.map_or(margin, |x: f64| x.min(margin)));
         }
@@ -514,7 +577,14 @@ pub fn verify_all(
     if methods.is_empty() {
         return Vec::new();
     }
-    verify_rows(design, &ExactModel::new(design), methods, progress, &|_| {})
+    verify_rows(
+        design,
+        &ExactModel::new(design),
+        methods,
+        progress,
+        &|_| {},
+        true,
+    )
 }
 
 /// [`verify_all`] against a given model of the design (generation passes
@@ -527,26 +597,33 @@ pub fn verify_all_with(
     if methods.is_empty() {
         return Vec::new();
     }
-    verify_rows(design, model, methods, None, &|_| {})
+    verify_rows(design, model, methods, None, &|_| {}, true)
 }
 
 /// [`verify_all`] with `each_row` called in the worker before each row of
 /// voltage codes (tests inject a fault there: a panicking worker must fail
-/// the verification, never shorten it).
+/// the verification, never shorten it); doubled pairs take their halves'
+/// verdicts when `share` (tests compare with every pair evaluated).
 fn verify_rows(
     design: &Design,
     model: &ExactModel<'_>,
     methods: &[&dyn DelayMethod],
     progress: Option<&mut dyn FnMut(f64)>,
     each_row: &(dyn Fn(u16) + Sync),
+    share: bool,
 ) -> Vec<VerifyReport> {
     let v = design.vin_codes;
+    let doubling = Doubling::plan(
+        design,
+        model,
+        share && methods.iter().all(|m| m.same_at_doubled_codes()),
+    );
     let rows = crate::par::map_rows_with_progress(
         v.len() as usize,
         |k| {
             let cv = v.lo + k as u16;
             each_row(cv);
-            check_row(design, model, methods, cv)
+            check_row(design, model, methods, doubling.as_ref(), cv)
         },
         progress,
     );
@@ -578,6 +655,7 @@ fn merge(
         max_approximation_error_ticks: None,
         max_approximation_error_at: None,
         points_checked: 0,
+        pairs_evaluated: 0,
         pairs_in_range: u64::from(v.len()) * u64::from(i.len()),
         zvs_points: 0,
         outside_window: 0,
@@ -603,6 +681,7 @@ fn merge(
         let row = per_method.get(m).unwrap_or(&empty);
         let cv = v.lo + k as u16;
         r.points_checked += row.points;
+        r.pairs_evaluated += row.evaluated;
         sum_sq += row.sum_sq;
         if row.max_err > r.max_error_ticks {
             r.max_error_ticks = row.max_err;
@@ -711,11 +790,16 @@ driver_delay = "25n"
         let methods: [&dyn DelayMethod; 4] = [&table, &fast, &fixed, &libm];
         for m in methods {
             for cv in [d.vin_codes.lo, d.vin_codes.hi, 0, u16::MAX] {
-                for first in [0u16, d.io_codes.lo, 65_500] {
+                for (first, step) in [
+                    (0u16, 1u16),
+                    (d.io_codes.lo, 1),
+                    (d.io_codes.lo, 2),
+                    (65_500, 3),
+                ] {
                     let (mut ticks, mut raw) = ([Ticks::new(0); 300], [f64::NAN; 300]);
-                    let has_raw = m.eval_run(cv, first, &mut ticks, &mut raw);
+                    let has_raw = m.eval_run(cv, first, step, &mut ticks, &mut raw);
                     for (k, (&t, &r)) in ticks.iter().zip(&raw).enumerate() {
-                        let ci = first.wrapping_add(k as u16);
+                        let ci = first.wrapping_add(step.wrapping_mul(k as u16));
                         let (want, want_raw) = m.eval(cv, ci);
                         assert_eq!(t.get(), want, "{} at ({cv}, {ci})", m.name());
                         assert_eq!(has_raw, want_raw.is_some(), "{}", m.name());
@@ -754,15 +838,168 @@ driver_delay = "25n"
                 (d.vin_codes.lo + d.vin_codes.hi) / 2,
                 u16::MAX,
             ] {
-                for first in [0u16, d.io_codes.lo, 65_500] {
+                for (first, step) in [
+                    (0u16, 1u16),
+                    (d.io_codes.lo, 1),
+                    (d.io_codes.lo + 1, 2),
+                    (65_500, 1),
+                ] {
                     let (mut ticks, mut raw) = ([Ticks::new(0); 700], [0.0; 700]);
-                    table.eval_run(cv, first, &mut ticks, &mut raw);
+                    table.eval_run(cv, first, step, &mut ticks, &mut raw);
                     for (k, t) in ticks.iter().enumerate() {
-                        let ci = first.wrapping_add(k as u16);
+                        let ci = first.wrapping_add(step.wrapping_mul(k as u16));
                         assert_eq!(t.get(), table.eval(cv, ci).0, "{layout} at ({cv}, {ci})");
                     }
                 }
             }
+        }
+    }
+
+    /// A 10-bit ideal design whose voltage range spans more than a factor
+    /// of four (rows double twice): `topology` and `vout`, the current
+    /// sensor's zero code, and `extra` appended.
+    fn wide(topology: &str, vout: f64, io_zero: u16, extra: &str) -> Design {
+        Design::parse(
+            &format!(
+                r#"
+name = "wide"
+topology = "{topology}"
+lr = "1u"
+cr = "6.8n"
+vin = [12, 60]
+io = [0.3, 7]
+vout = {vout}
+[adc]
+bits = 10
+vin_volts_per_code = 0.0644
+io_amps_per_code = 0.0195
+io_zero_code = {io_zero}
+[timer]
+clock_hz = "170M"
+counter_bits = 16
+driver_delay = "25n"
+{extra}"#
+            ),
+            "wide",
+        )
+        .unwrap()
+    }
+
+    #[test]
+    fn doubled_pairs_take_their_halves_verdicts() {
+        // Every pair evaluated against doubled pairs taking their halves'
+        // verdicts: the same report (the sum of squares in another order),
+        // on a buck (the cell is Vin itself), a boost (V = Vout), a
+        // buck-boost (V = Vin + Vout), a sensor zero, and the three layouts
+        // indexed by the code ratio.
+        let cases = [
+            ("buck", 5.0, 0, "log-uniform"),
+            ("buck", 5.0, 37, "ratio"),
+            ("boost", 80.0, 0, "log-ratio"),
+            ("buck-boost", 24.0, 12, "log-uniform"),
+        ];
+        for (topology, vout, zero, layout) in cases {
+            let d = wide(
+                topology,
+                vout,
+                zero,
+                &format!("[table]\nlayout = \"{layout}\"\nmax_error_ticks = 50\n"),
+            );
+            let table = crate::generate::generate(&d).unwrap().table;
+            let table = table.table().unwrap();
+            let model = ExactModel::new(&d);
+            let run = |share| verify_rows(&d, &model, &[&table], None, &|_| {}, share).remove(0);
+            let (mut shared, all) = (run(true), run(false));
+            let case = format!("{topology}, zero {zero}, {layout}");
+            assert_eq!(all.pairs_evaluated, all.points_checked, "{case}");
+            assert_eq!(shared.points_checked, shared.pairs_in_range, "{case}");
+            println!(
+                "{case}: {} of {} pairs evaluated; {} ZVS, {} outside the window, {} narrower than a tick, worst {:.3} ticks at {:?}",
+                shared.pairs_evaluated,
+                shared.points_checked,
+                shared.zvs_points,
+                shared.outside_window,
+                shared.narrower_than_a_tick,
+                shared.max_error_ticks,
+                (shared.worst_vin_code, shared.worst_io_code)
+            );
+            assert!(
+                shared.pairs_evaluated * 10 < shared.points_checked * 9,
+                "{case}: pairs were doubled"
+            );
+            let rel = (shared.rms_error_ticks - all.rms_error_ticks).abs() / all.rms_error_ticks;
+            assert!(rel < 1e-12, "{case}: RMS {rel:e} apart");
+            shared.rms_error_ticks = all.rms_error_ticks;
+            shared.pairs_evaluated = all.pairs_evaluated;
+            assert_eq!(shared, all, "{case}");
+        }
+    }
+
+    #[test]
+    fn nothing_is_doubled_unless_every_method_doubles() {
+        // A closed form's f32 arithmetic is not invariant under doubling, a
+        // grid layout interpolates over the raw codes, and a Coss curve
+        // moves the events with the voltage: every pair is evaluated.
+        let d = wide(
+            "buck",
+            5.0,
+            0,
+            "[table]\nlayout = \"grid\"\nmax_error_ticks = 50\n",
+        );
+        let gen = crate::generate::generate(&d).unwrap().table;
+        let grid = gen.table().unwrap();
+        assert!(!DelayMethod::same_at_doubled_codes(&grid));
+        let cf = d.closed_form().unwrap().fast_f32().unwrap();
+        for m in [&grid as &dyn DelayMethod, &cf] {
+            let r = verify(&d, m, None);
+            assert_eq!(r.pairs_evaluated, r.pairs_in_range, "{}", m.name());
+        }
+    }
+
+    #[test]
+    fn the_ratio_layouts_command_the_same_at_doubled_codes() {
+        // The integer identities behind DelayTable::same_at_doubled_codes,
+        // at every pair whose doubling is in range, for every layout: they
+        // hold for the layouts that claim them, and fail somewhere for the
+        // others (so this check can fail).
+        for (layout, zero) in [
+            ("ratio", 0),
+            ("log-ratio", 21),
+            ("log-uniform", 0),
+            ("log-uniform", 37),
+            ("grid", 0),
+            ("recip-ratio", 0),
+            ("log-volt", 0),
+            ("margin", 0),
+            ("ratio-volt", 0),
+        ] {
+            let d = wide(
+                "buck",
+                5.0,
+                zero,
+                &format!("[table]\nlayout = \"{layout}\"\nmax_error_ticks = 50\n"),
+            );
+            let gen = crate::generate::generate(&d).unwrap().table;
+            assert_eq!(gen.layout_name(), layout);
+            let t = gen.table().unwrap();
+            let (v, i) = (d.vin_codes, d.io_codes);
+            let mut differ = 0u64;
+            for cv in v.lo..=v.hi / 2 {
+                for ci in i.lo..=i.hi {
+                    let c = ci.saturating_sub(zero);
+                    let (w, ci2) = (2 * cv, zero + 2 * c);
+                    if c == 0 || ci < zero || ci2 > i.hi {
+                        continue;
+                    }
+                    differ += u64::from(t.eval(cv, ci).0 != t.eval(w, ci2).0);
+                }
+            }
+            println!("{layout}, zero {zero}: {differ} doubled pairs differ");
+            assert_eq!(
+                differ == 0,
+                t.same_at_doubled_codes(),
+                "{layout}, zero {zero}"
+            );
         }
     }
 
@@ -772,17 +1009,27 @@ driver_delay = "25n"
         let cf = d.closed_form().unwrap().fast_f32().unwrap();
         let bad = d.vin_codes.lo + 7;
         let r = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
-            verify_rows(&d, &ExactModel::new(&d), &[&cf], None, &|cv| {
-                assert_ne!(cv, bad, "injected fault");
-            })
+            verify_rows(
+                &d,
+                &ExactModel::new(&d),
+                &[&cf],
+                None,
+                &|cv| assert_ne!(cv, bad, "injected fault"),
+                true,
+            )
         }));
         assert!(r.is_err(), "a worker's panic must reach the caller");
         let mut ticks = 0;
         let mut p = |_: f64| ticks += 1;
         let r = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
-            verify_rows(&d, &ExactModel::new(&d), &[&cf], Some(&mut p), &|cv| {
-                assert_ne!(cv, bad, "injected fault");
-            })
+            verify_rows(
+                &d,
+                &ExactModel::new(&d),
+                &[&cf],
+                Some(&mut p),
+                &|cv| assert_ne!(cv, bad, "injected fault"),
+                true,
+            )
         }));
         assert!(r.is_err(), "also with a progress bar");
     }

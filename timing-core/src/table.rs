@@ -877,35 +877,67 @@ impl<E: Entries> DelayTable<E> {
     }
 
     /// [`DelayTable::delay`]'s commanded ticks at voltage code `vin` and
-    /// the current codes `io_first`, `io_first + 1`, ..., one a slot of
-    /// `out` (codes past 65535 wrap to 0): the same code as `delay`,
+    /// the current codes `io_first`, `io_first + io_step`, ..., one a slot
+    /// of `out` (codes past 65535 wrap around): the same code as `delay`,
     /// inlined into one loop, so a host checking every code pair of a
     /// design runs what the firmware runs at a fraction of the calls (the
     /// parts that depend on `vin` alone can be computed once). Cannot
     /// panic.
-    pub fn delays_along_io(&self, vin: AdcCode, io_first: AdcCode, out: &mut [Ticks]) {
+    pub fn delays_along_io(
+        &self,
+        vin: AdcCode,
+        io_first: AdcCode,
+        io_step: u16,
+        out: &mut [Ticks],
+    ) {
         // One loop a layout: the layout is matched once, outside the loop,
         // and what depends on `vin` alone can leave the loop.
+        let (f, s) = (io_first, io_step);
         match self.layout {
-            l @ Layout::Ratio(_) => self.run_along_io(l, vin, io_first, out),
-            l @ Layout::LogRatio(_) => self.run_along_io(l, vin, io_first, out),
-            l @ Layout::LogUniform(_) => self.run_along_io(l, vin, io_first, out),
-            l @ Layout::Grid(_) => self.run_along_io(l, vin, io_first, out),
-            l @ Layout::RecipRatio(_) => self.run_along_io(l, vin, io_first, out),
-            l @ Layout::LogVolt(_) => self.run_along_io(l, vin, io_first, out),
-            l @ Layout::Margin(_) => self.run_along_io(l, vin, io_first, out),
-            l @ Layout::RatioVolt(_) => self.run_along_io(l, vin, io_first, out),
+            l @ Layout::Ratio(_) => self.run_along_io(l, vin, f, s, out),
+            l @ Layout::LogRatio(_) => self.run_along_io(l, vin, f, s, out),
+            l @ Layout::LogUniform(_) => self.run_along_io(l, vin, f, s, out),
+            l @ Layout::Grid(_) => self.run_along_io(l, vin, f, s, out),
+            l @ Layout::RecipRatio(_) => self.run_along_io(l, vin, f, s, out),
+            l @ Layout::LogVolt(_) => self.run_along_io(l, vin, f, s, out),
+            l @ Layout::Margin(_) => self.run_along_io(l, vin, f, s, out),
+            l @ Layout::RatioVolt(_) => self.run_along_io(l, vin, f, s, out),
         }
     }
 
     /// [`DelayTable::delays_along_io`] with the table's layout `layout`.
     #[inline(always)]
-    fn run_along_io(&self, layout: Layout, vin: AdcCode, io_first: AdcCode, out: &mut [Ticks]) {
+    fn run_along_io(
+        &self,
+        layout: Layout,
+        vin: AdcCode,
+        io_first: AdcCode,
+        io_step: u16,
+        out: &mut [Ticks],
+    ) {
         let mut io = io_first.get();
         for o in out.iter_mut() {
             *o = self.lookup_in(layout, vin, AdcCode::new(io)).ticks;
-            io = io.wrapping_add(1);
+            io = io.wrapping_add(io_step);
         }
+    }
+
+    /// Whether the delay at codes (`2v`, `z + 2c`) equals the delay at
+    /// (`v`, `z + c`) for every `c >= 1` where both pairs lie in the design
+    /// range (`z` the current sensor's zero code): true for the layouts
+    /// indexed by the code ratio alone (ratio, log-ratio, log-uniform),
+    /// whose lookups are unchanged by doubling both codes through exact
+    /// integer identities: `floor(2a / 2b) = floor(a / b)`;
+    /// `log2_q15(2c) = log2_q15(c) + 2^15` to the bit (the mantissa's bits
+    /// are the same); the ZVS test compares two products that both double;
+    /// validation keeps every intermediate within 32 bits at both pairs.
+    /// A verifier then checks each such pair once for all its doublings.
+    #[must_use]
+    pub const fn same_at_doubled_codes(&self) -> bool {
+        matches!(
+            self.layout,
+            Layout::Ratio(_) | Layout::LogRatio(_) | Layout::LogUniform(_)
+        )
     }
 
     /// The body of [`DelayTable::delay`] (see there).

@@ -132,11 +132,11 @@ fn a_run_along_the_current_codes_is_the_lookup_at_each() {
     // Below, across and above the design range, and across the wrap at
     // 65535.
     for v in [0u16, 1999, 2000, 2471, 3000, u16::MAX] {
-        for first in [0u16, 250, 1900, 65_400] {
+        for (first, step) in [(0u16, 1u16), (250, 1), (1900, 2), (65_400, 1), (65_401, 3)] {
             let mut run = [Ticks::new(0); 200];
-            t.delays_along_io(AdcCode::new(v), AdcCode::new(first), &mut run);
+            t.delays_along_io(AdcCode::new(v), AdcCode::new(first), step, &mut run);
             for (k, got) in run.iter().enumerate() {
-                let i = first.wrapping_add(k as u16);
+                let i = first.wrapping_add(step.wrapping_mul(k as u16));
                 assert_eq!(
                     *got,
                     t.delay(AdcCode::new(v), AdcCode::new(i)).ticks,
