@@ -4,7 +4,7 @@
 //! `memory.x` on the linker path, and the linker scripts (`link.x`;
 //! `defmt.x` with the `log` feature).
 //!
-//! Layout per core: `host_tool::export::firmware_layout` (`ratio-volt` on
+//! Layout per core: `host_tool::emit::export::firmware_layout` (`ratio-volt` on
 //! the Cortex-M4F, which divides in one instruction; `margin` on the
 //! Cortex-M0, which has no divide instruction). Both follow the Coss
 //! curve's voltage dependence within a tick.
@@ -36,7 +36,7 @@ fn main() {
     for p in [&design, &coss, &manifest.join("memory.x")] {
         println!("cargo:rerun-if-changed={}", p.display());
     }
-    let layout = host_tool::export::firmware_layout(&target);
+    let layout = host_tool::emit::export::firmware_layout(&target);
 
     let key = cache_key(&manifest, &[&design, &coss], &format!("{layout:?}"));
     let cache = manifest.join("target/generated-cache").join(format!("{key:016x}"));
@@ -61,13 +61,13 @@ fn main() {
 
 /// Generate the four outputs into `dir` (written to a temporary directory
 /// first and renamed, so a build stopped half-way leaves no partial entry).
-fn generate(design: &Path, layout: host_tool::design::LayoutChoice, dir: &Path) {
+fn generate(design: &Path, layout: host_tool::input::design::LayoutChoice, dir: &Path) {
     let (source, blob) =
-        host_tool::export::firmware_table(design, Some(layout)).unwrap_or_else(|e| panic!("{e}"));
-    let design_data = host_tool::design::Design::load(design).unwrap_or_else(|e| panic!("{e}"));
-    let closed = host_tool::closed_form_source::closed_form_source(&design_data)
+        host_tool::emit::export::firmware_table(design, Some(layout)).unwrap_or_else(|e| panic!("{e}"));
+    let design_data = host_tool::model::design::Design::load(design).unwrap_or_else(|e| panic!("{e}"));
+    let closed = host_tool::emit::closed_form_source::closed_form_source(&design_data)
         .unwrap_or_else(|e| panic!("{e}"));
-    let model = host_tool::export::model_source(&design_data);
+    let model = host_tool::emit::export::model_source(&design_data);
     let tmp = dir.with_extension(format!("tmp{}", std::process::id()));
     std::fs::create_dir_all(&tmp).expect("create cache directory");
     let contents: [&[u8]; 4] = [

@@ -11,9 +11,9 @@ use std::hint::black_box;
 use std::path::Path;
 
 use criterion::{criterion_group, criterion_main, Criterion, Throughput};
-use host_tool::design::Design;
+use host_tool::check::verify::verify;
 use host_tool::generate::generate;
-use host_tool::verify::verify;
+use host_tool::model::design::Design;
 
 fn design(rel: &str) -> Design {
     let root = Path::new(env!("CARGO_MANIFEST_DIR"));

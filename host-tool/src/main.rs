@@ -29,7 +29,7 @@ macro_rules! out {
 }
 
 use clap::{Args, Parser, Subcommand, ValueEnum};
-use host_tool::point::{self, InputError, PointInput, TimerInput};
+use host_tool::analysis::point::{self, InputError, PointInput, TimerInput};
 use host_tool::units::parse_quantity;
 
 #[derive(Parser)]
@@ -107,7 +107,7 @@ struct PlotArgs {
 }
 
 fn run_plot(args: &PlotArgs) -> anyhow::Result<()> {
-    let design = host_tool::design::Design::load(&args.design)?;
+    let design = host_tool::model::design::Design::load(&args.design)?;
     let vin = opt_num("--vin", args.vin.as_ref(), "V")?;
     let io = opt_num("--io", args.io.as_ref(), "A")?;
     let point = match (vin, io) {
@@ -115,10 +115,10 @@ fn run_plot(args: &PlotArgs) -> anyhow::Result<()> {
         (None, None) => None,
         _ => anyhow::bail!("give both --vin and --io for the cycle picture, or neither"),
     };
-    for f in host_tool::plot::write_all(&design, &args.out, point)? {
+    for f in host_tool::report::plot::write_all(&design, &args.out, point)? {
         outln!("wrote {}", f.display());
     }
-    outln!("{}", host_tool::point::CAUTION);
+    outln!("{}", host_tool::analysis::point::CAUTION);
     Ok(())
 }
 
@@ -141,10 +141,10 @@ struct NetlistArgs {
 }
 
 fn run_netlist(args: &NetlistArgs) -> anyhow::Result<()> {
-    let design = host_tool::design::Design::load(&args.design)?;
+    let design = host_tool::model::design::Design::load(&args.design)?;
     let vin = num("--vin", &args.vin, "V")?;
     let io = num("--io", &args.io, "A")?;
-    let (deck, prediction) = host_tool::netlist::netlist(&design, vin, io)?;
+    let (deck, prediction) = host_tool::sim::netlist::netlist(&design, vin, io)?;
     match &args.out {
         Some(path) => std::fs::write(path, &deck)
             .map_err(|e| anyhow::anyhow!("cannot write {}: {e}", path.display()))?,
@@ -156,12 +156,12 @@ fn run_netlist(args: &NetlistArgs) -> anyhow::Result<()> {
         if let Some(o) = j.as_object_mut() {
             o.insert(
                 "caution".to_owned(),
-                serde_json::Value::String(host_tool::point::CAUTION.to_owned()),
+                serde_json::Value::String(host_tool::analysis::point::CAUTION.to_owned()),
             );
         }
         outln!("{}", serde_json::to_string_pretty(&j)?);
     } else if args.out.is_some() {
-        outln!("{}", host_tool::point::CAUTION);
+        outln!("{}", host_tool::analysis::point::CAUTION);
     }
     Ok(())
 }
@@ -211,8 +211,8 @@ fn range(option: &'static str, text: &str, unit: &'static str) -> Result<(f64, f
 }
 
 impl SizeArgs {
-    fn to_input(&self) -> Result<host_tool::size::SizeInput, InputError> {
-        Ok(host_tool::size::SizeInput {
+    fn to_input(&self) -> Result<host_tool::analysis::size::SizeInput, InputError> {
+        Ok(host_tool::analysis::size::SizeInput {
             topology: topology(self.topology),
             vin_v: range("--vin", &self.vin, "V")?,
             io_a: range("--io", &self.io, "A")?,
@@ -235,18 +235,18 @@ fn topology(t: TopologyArg) -> timing_core::Topology {
 
 fn run_size(args: &SizeArgs) -> anyhow::Result<()> {
     let input = args.to_input()?;
-    let report = host_tool::size::size(&input)?;
+    let report = host_tool::analysis::size::size(&input)?;
     if args.json {
         let mut j = serde_json::to_value(&report)?;
         if let Some(o) = j.as_object_mut() {
             o.insert(
                 "caution".to_owned(),
-                serde_json::Value::String(host_tool::point::CAUTION.to_owned()),
+                serde_json::Value::String(host_tool::analysis::point::CAUTION.to_owned()),
             );
         }
         outln!("{}", serde_json::to_string_pretty(&j)?);
     } else {
-        out!("{}", host_tool::render::size_text(&report));
+        out!("{}", host_tool::report::render::size_text(&report));
     }
     Ok(())
 }
@@ -444,7 +444,7 @@ impl PointArgs {
             },
             coss: match &self.coss {
                 Some(path) => {
-                    host_tool::coss_csv::load(path)
+                    host_tool::input::coss_csv::load(path)
                         .map_err(|e| InputError::new("--coss", e.to_string()))?
                         .0
                 }
@@ -495,12 +495,12 @@ fn run_point(args: &PointArgs) -> anyhow::Result<()> {
     if args.json {
         outln!("{}", serde_json::to_string_pretty(&report)?);
     } else {
-        out!("{}", host_tool::render::point_text(&report));
+        out!("{}", host_tool::report::render::point_text(&report));
     }
     Ok(())
 }
 
-fn print_verification(v: &host_tool::verify::VerifyReport, clock_hz: f64) {
+fn print_verification(v: &host_tool::check::verify::VerifyReport, clock_hz: f64) {
     outln!(
         "method {}: verified {} of {} code pairs: max error {:.3} ticks at vin code {} ({:.3} V), io code {} ({:.4} A); RMS {:.3} ticks",
         v.method, v.points_checked, v.pairs_in_range, v.max_error_ticks, v.worst_vin_code, v.worst_vin_v, v.worst_io_code, v.worst_io_a, v.rms_error_ticks
@@ -553,7 +553,7 @@ fn print_verification(v: &host_tool::verify::VerifyReport, clock_hz: f64) {
 }
 
 fn run_table(args: &TableArgs) -> anyhow::Result<()> {
-    use host_tool::{design::Design, export, generate};
+    use host_tool::{emit::export, generate, model::design::Design};
     let design = Design::load(&args.design)?;
     let out = generate::generate(&design)?;
     let written = export::write_outcome(&args.out, &design, &out)?;
@@ -569,7 +569,7 @@ fn run_table(args: &TableArgs) -> anyhow::Result<()> {
             "verification": out.verification,
             "alternatives": out.candidates,
             "files": written,
-            "caution": host_tool::point::CAUTION,
+            "caution": host_tool::analysis::point::CAUTION,
         });
         outln!("{}", serde_json::to_string_pretty(&j)?);
     } else {
@@ -634,7 +634,7 @@ fn run_table(args: &TableArgs) -> anyhow::Result<()> {
                 }
             );
         }
-        outln!("\n{}", host_tool::point::CAUTION);
+        outln!("\n{}", host_tool::analysis::point::CAUTION);
     }
     Ok(())
 }
@@ -656,7 +656,7 @@ struct TableFile {
 /// The table file `table` for the method `which` (`None` for a closed
 /// form).
 fn read_table(
-    design: &host_tool::design::Design,
+    design: &host_tool::model::design::Design,
     table: Option<&std::path::Path>,
     which: MethodArg,
 ) -> anyhow::Result<Option<TableFile>> {
@@ -689,7 +689,7 @@ fn open_method<'a>(
     cf: &timing_core::closed_form::ClosedForm,
     file: Option<&'a TableFile>,
     which: MethodArg,
-) -> anyhow::Result<Box<dyn host_tool::verify::DelayMethod + 'a>> {
+) -> anyhow::Result<Box<dyn host_tool::check::verify::DelayMethod + 'a>> {
     Ok(match (which, file) {
         (MethodArg::Table, Some(f)) => Box::new(timing_core::table::DelayTable::new(
             f.sensing,
@@ -706,7 +706,7 @@ fn open_method<'a>(
 }
 
 fn run_montecarlo(args: &MonteCarloArgs) -> anyhow::Result<()> {
-    let design = host_tool::design::Design::load(&args.design)?;
+    let design = host_tool::model::design::Design::load(&args.design)?;
     let cf = design.closed_form()?;
     let file = read_table(&design, args.table.as_deref(), args.method)?;
     let method = open_method(&cf, file.as_ref(), args.method)?;
@@ -720,7 +720,7 @@ fn run_montecarlo(args: &MonteCarloArgs) -> anyhow::Result<()> {
     }
     let boards = u64::from(args.boards);
     let mut tick = |f: f64| bar.set_position((f * boards as f64).round() as u64);
-    let r = host_tool::montecarlo::run(
+    let r = host_tool::check::montecarlo::run(
         &design,
         method.as_ref(),
         args.boards,
@@ -734,7 +734,7 @@ fn run_montecarlo(args: &MonteCarloArgs) -> anyhow::Result<()> {
         if let Some(o) = v.as_object_mut() {
             o.insert(
                 "caution".into(),
-                serde_json::Value::String(host_tool::point::CAUTION.to_owned()),
+                serde_json::Value::String(host_tool::analysis::point::CAUTION.to_owned()),
             );
         }
         outln!("{}", serde_json::to_string_pretty(&v)?);
@@ -771,13 +771,13 @@ fn run_montecarlo(args: &MonteCarloArgs) -> anyhow::Result<()> {
             t.noise_codes,
             host_tool::units::format_si(t.jitter_s, "s")
         );
-        outln!("\n{}", host_tool::point::CAUTION);
+        outln!("\n{}", host_tool::analysis::point::CAUTION);
     }
     Ok(())
 }
 
 fn run_verify(args: &VerifyArgs) -> anyhow::Result<ExitCode> {
-    use host_tool::design::Design;
+    use host_tool::model::design::Design;
     let design = Design::load(&args.design)?;
     let cf = design.closed_form()?;
     let file = read_table(&design, args.table.as_deref(), args.method)?;
@@ -799,7 +799,7 @@ fn run_verify(args: &VerifyArgs) -> anyhow::Result<ExitCode> {
         }
         bar.set_position((f * total as f64) as u64);
     };
-    let v = host_tool::verify::verify(&design, method.as_ref(), Some(&mut tick));
+    let v = host_tool::check::verify::verify(&design, method.as_ref(), Some(&mut tick));
     bar.finish_and_clear();
     let ok = v.max_error_ticks <= design.max_error_ticks
         && v.model_errors == 0

@@ -1,4 +1,4 @@
-//! The aim grid (`host_tool::aim_grid`) against the ring it interpolates:
+//! The aim grid (`host_tool::tank::aim_grid`) against the ring it interpolates:
 //! at random points of the demo's cell range, the interpolated ends of the
 //! acceptable interval (window, or valley point below the boundary) must
 //! lie within `MAX_ERROR_S` of the ring solved at that point away from the
@@ -9,8 +9,8 @@
 
 use std::path::Path;
 
-use host_tool::aim_grid::{interval, minimax, AimGrid};
-use host_tool::design::Design;
+use host_tool::model::design::Design;
+use host_tool::tank::aim_grid::{interval, minimax, AimGrid};
 use rand::{Rng, SeedableRng};
 use timing_core::CellPoint;
 

@@ -324,9 +324,9 @@ fn cr_pct(f: f64) -> String {
 /// points of the box, for held-out inputs.
 #[test]
 fn point_robust_window_of_a_real_tank_lies_inside_every_true_window() {
-    use host_tool::real_tank::RealTank;
+    use host_tool::tank::real_tank::RealTank;
     let csv = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("../tables/winch_aux_coss.csv");
-    let (curve, _) = host_tool::coss_csv::load(&csv).unwrap();
+    let (curve, _) = host_tool::input::coss_csv::load(&csv).unwrap();
     for (cr, r, vin, io, lt, ct, ve, ie) in [
         (5.6e-9, 0.08, 44.0, 7.5, 0.05, 0.05, 0.01, 0.02),
         (2.2e-9, 0.25, 58.0, 9.0, 0.08, 0.04, 0.02, 0.03),

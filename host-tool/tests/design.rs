@@ -7,7 +7,8 @@
 use std::path::Path;
 use std::process::Command;
 
-use host_tool::design::{Design, DesignError};
+use host_tool::input::design::DesignError;
+use host_tool::model::design::Design;
 
 fn demo_text() -> String {
     std::fs::read_to_string(Path::new(env!("CARGO_MANIFEST_DIR")).join("../tables/winch_aux.toml"))

@@ -6,9 +6,9 @@
 //! real part) bare, beside a fixed capacitor, lossless and lossy, and the
 //! demo's own design.
 
-use host_tool::design::Design;
-use host_tool::event_grid::EventGrid;
-use host_tool::real_tank::RealTank;
+use host_tool::model::design::Design;
+use host_tool::tank::event_grid::EventGrid;
+use host_tool::tank::real_tank::RealTank;
 use rand::{Rng, SeedableRng};
 use timing_core::coss::CossPoint;
 use timing_core::{CellPoint, TurnOn};
@@ -39,8 +39,8 @@ struct Found {
 fn check(tank: &RealTank, v: (f64, f64), i: (f64, f64), points: usize, seed: u64) -> Found {
     let solver = tank.solver().unwrap();
     let ring = match solver {
-        host_tool::real_tank::CellSolver::Ring(r) => r,
-        host_tool::real_tank::CellSolver::Ideal(_) => panic!("a ring tank"),
+        host_tool::tank::real_tank::CellSolver::Ring(r) => r,
+        host_tool::tank::real_tank::CellSolver::Ideal(_) => panic!("a ring tank"),
     };
     let t0 = std::time::Instant::now();
     let grid = EventGrid::new(&ring, v, i).unwrap();

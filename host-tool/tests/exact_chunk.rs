@@ -7,9 +7,9 @@
 //! and the demo, whose Coss curve, lossy loop and tolerances take the
 //! per-pair path.
 
-use host_tool::design::Design;
-use host_tool::exact_chunk::{ExactChunk, CHUNK};
-use host_tool::generate::ExactModel;
+use host_tool::model::design::Design;
+use host_tool::model::exact::ExactModel;
+use host_tool::model::exact_chunk::{ExactChunk, CHUNK};
 
 fn design(path: &str) -> Design {
     Design::load(&std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join(path)).unwrap()
@@ -76,7 +76,7 @@ fn the_ideal_tanks_batches_are_the_pairs_answers() {
     let rows = [v.lo, v.lo + 1, v.lo + 7, 1000, 2600, v.hi - 1, v.hi];
     let (pairs, zvs, grid) = check(&d, &rows, 1);
     // Every other code, as verification takes the rows whose even codes
-    // are doublings (host_tool::doubling).
+    // are doublings (host_tool::check::doubling).
     let odd = check(&d, &rows[2..5], 2);
     assert!(odd.0 > 0);
     println!("{pairs} pairs compared, {zvs} of them ZVS, {grid} answered by the grid");

@@ -6,7 +6,7 @@
 //! timing-core's f32 test covers (100 nH/220 pF to 22 uH/47 nF), and the
 //! benchmark design's, through the design's own cache.
 
-use host_tool::load_grid::LoadGrid;
+use host_tool::tank::load_grid::LoadGrid;
 use rand::{Rng, SeedableRng};
 use timing_core::{CellPoint, Tank, Transition, TurnOn};
 
@@ -50,8 +50,8 @@ fn check(tank: &Tank<f64>, j: (f64, f64), points: usize, seed: u64) -> Found {
         let Some((got, eps)) = grid.at(&cell) else {
             // Only next to the boundary (inside the edges the sides stop
             // at) may the grid leave a reading to the transition.
-            let near = (jj - 1.0).abs() <= 2.0 * host_tool::load_grid::EDGE_SIGMA.powi(2)
-                || (jj < 1.0 && (1.0 / jj).sqrt() - 1.0 < 2.0 * host_tool::load_grid::EDGE_Y);
+            let near = (jj - 1.0).abs() <= 2.0 * host_tool::tank::load_grid::EDGE_SIGMA.powi(2)
+                || (jj < 1.0 && (1.0 / jj).sqrt() - 1.0 < 2.0 * host_tool::tank::load_grid::EDGE_Y);
             assert!(near, "no answer at J = {jj} inside the tabulated range");
             f.refused += 1;
             continue;
@@ -124,7 +124,7 @@ fn outside_its_range_the_grid_does_not_answer() {
 
 #[test]
 fn the_benchmark_design_uses_it() {
-    let d = host_tool::design::Design::load(
+    let d = host_tool::model::design::Design::load(
         &std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("benches/full_scale.toml"),
     )
     .unwrap();
@@ -135,7 +135,7 @@ fn the_benchmark_design_uses_it() {
 
 #[test]
 fn a_batch_answers_as_each_load_alone() {
-    use host_tool::load_grid::{LoadBatch, BATCH};
+    use host_tool::tank::load_grid::{LoadBatch, BATCH};
     let tank = Tank::new(1e-6, 6.8e-9).unwrap();
     let grid = LoadGrid::new(&tank, 1e-3, 40.0).unwrap();
     let mut rng = rand::rngs::StdRng::seed_from_u64(7);

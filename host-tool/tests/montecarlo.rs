@@ -6,8 +6,8 @@
 
 use std::path::Path;
 
-use host_tool::design::Design;
-use host_tool::montecarlo::{run, MonteCarloError};
+use host_tool::check::montecarlo::{run, MonteCarloError};
+use host_tool::model::design::Design;
 
 fn demo_text() -> String {
     std::fs::read_to_string(Path::new(env!("CARGO_MANIFEST_DIR")).join("../tables/winch_aux.toml"))
@@ -97,7 +97,7 @@ fn monte_carlo_runs() {
         ),
         ORIGIN,
     ) {
-        Err(host_tool::design::DesignError::Invalid { message, .. }) => message,
+        Err(host_tool::input::design::DesignError::Invalid { message, .. }) => message,
         other => panic!("{other:?}"),
     };
     assert!(m.contains("tolerance.cr = 0.7"), "{m}");

@@ -6,8 +6,8 @@
 
 use std::path::Path;
 
-use host_tool::design::Design;
-use host_tool::plot::{
+use host_tool::model::design::Design;
+use host_tool::report::plot::{
     self, CURRENT_COLOUR, GATE_COLOUR, SIZE, VALLEY_COLOUR, VOLTAGE_COLOUR, WINDOW_COLOUR,
 };
 use plotters::style::RGBColor;

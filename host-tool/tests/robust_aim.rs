@@ -8,8 +8,8 @@
 
 use std::path::Path;
 
-use host_tool::design::Design;
-use host_tool::generate::ExactModel;
+use host_tool::model::design::Design;
+use host_tool::model::exact::ExactModel;
 use rand::{Rng, SeedableRng};
 
 fn demo() -> Design {

@@ -4,8 +4,8 @@
 //! held-out uncertainty boxes; and, for an ideal tank, against
 //! timing-core's closed-form proof.
 
-use host_tool::real_tank::RealTank;
-use host_tool::robust_grid::{TankSpread, WindowGrid};
+use host_tool::tank::real_tank::RealTank;
+use host_tool::tank::robust_grid::{TankSpread, WindowGrid};
 use rand::{Rng, SeedableRng};
 use timing_core::coss::CossPoint;
 use timing_core::CellPoint;

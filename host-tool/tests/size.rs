@@ -9,7 +9,7 @@
 
 use std::process::Command;
 
-use host_tool::size::{size, SizeInput};
+use host_tool::analysis::size::{size, SizeInput};
 use timing_core::Topology;
 
 fn input(

@@ -153,7 +153,7 @@ pub fn repo() -> std::path::PathBuf {
 /// and without its `[tolerance]` table: for checks of the closed-form
 /// methods, which model the ideal cell and aim at the nominal window.
 #[must_use]
-pub fn ideal_demo() -> host_tool::design::Design {
+pub fn ideal_demo() -> host_tool::model::design::Design {
     let mut text =
         std::fs::read_to_string(repo().join("tables/winch_aux.toml")).unwrap_or_default();
     if let Some(k) = text.find("[tolerance]") {
@@ -164,7 +164,7 @@ pub fn ideal_demo() -> host_tool::design::Design {
         .replace("r_tank = \"80m\"", "")
         .replace("cr = \"5.6n\"", "cr = \"6.8n\"")
         .replace("max_error_ticks = 2.5", "max_error_ticks = 1.0");
-    match host_tool::design::Design::parse(&ideal, "winch_aux_ideal.toml") {
+    match host_tool::model::design::Design::parse(&ideal, "winch_aux_ideal.toml") {
         Ok(d) if d.real.is_ideal() => d,
         other => panic!("the ideal demo variant does not parse as an ideal tank: {other:?}"),
     }

@@ -11,8 +11,8 @@
 
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)]
 
-use host_tool::design::Design;
-use host_tool::verify::verify;
+use host_tool::check::verify::verify;
+use host_tool::model::design::Design;
 
 /// The shared held-out boost (bipolar current sensor, 10-bit ADCs) with
 /// the driver's delays swapped: turn-off longer than turn-on, so the net

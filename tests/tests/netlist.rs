@@ -8,8 +8,8 @@
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)]
 
 use cross_checks::{repo, require_program};
-use host_tool::design::Design;
-use host_tool::spice::{meas, ngspice_available, run_ngspice};
+use host_tool::model::design::Design;
+use host_tool::sim::spice::{meas, ngspice_available, run_ngspice};
 
 /// The shared held-out boost with 12-bit sensing from zero and a fast
 /// driver.
@@ -79,7 +79,7 @@ fn the_netlist_reproduces_the_window_in_ngspice() {
     let mut zvs_seen = 0;
     let mut valley_seen = 0;
     for (d, vin, io) in points {
-        let (deck, p) = host_tool::netlist::netlist(d, vin, io).unwrap();
+        let (deck, p) = host_tool::sim::netlist::netlist(d, vin, io).unwrap();
         let m = run_ngspice(&deck).unwrap_or_else(|e| panic!("{}: {vin} V {io} A: {e}", d.name));
         let v_cell = d.cell(vin, io).unwrap().v_volt();
         let v_on = m[meas::VOLTAGE_AT_TURN_ON];

@@ -15,8 +15,8 @@
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)]
 
 use cross_checks::{assert_close, require_program, Scenario};
-use host_tool::point::{evaluate, PointInput};
-use host_tool::spice::{meas, ngspice_available, CellDeck};
+use host_tool::analysis::point::{evaluate, PointInput};
+use host_tool::sim::spice::{meas, ngspice_available, CellDeck};
 
 const REL: f64 = 0.005;
 const ABS_S: f64 = 2e-9;

@@ -9,8 +9,8 @@ use std::path::PathBuf;
 use std::process::Command;
 
 use cross_checks::{repo, require_program};
-use host_tool::design::Design;
-use host_tool::{export, generate};
+use host_tool::model::design::Design;
+use host_tool::{emit::export, generate};
 use timing_core::table::{DelayTable, Entries, TableError};
 use timing_core::AdcCode;
 
@@ -111,7 +111,7 @@ fn held_out_design_meets_its_budget() {
     assert!(out.verification.max_error_ticks <= 1.0);
     // Independent recount: every pair of the range, table against the model.
     let t = out.table.table().unwrap();
-    let model = generate::ExactModel::new(&design);
+    let model = host_tool::model::exact::ExactModel::new(&design);
     let mut worst = 0.0f64;
     for cv in design.vin_codes.lo..=design.vin_codes.hi {
         let row = model.row_at_code(cv);

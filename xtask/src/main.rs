@@ -10,7 +10,7 @@
 //!   `-Z build-std=core` (DESIGN.md section 5).
 //! - `methods [--check]`: measure every runtime method on both cores (QEMU
 //!   instruction counts, proof-build flash bytes, host proofs of the worst
-//!   error) and rewrite the README's table of them, or check it.
+//!   error) and rewrite the table of them in `docs/methods.md`, or check it.
 
 mod methods;
 

@@ -1,5 +1,5 @@
 //! `cargo xtask methods [--check]`: the table of runtime methods x cores in
-//! the README, produced by measurement.
+//! `docs/methods.md`, produced by measurement.
 //!
 //! - instructions: the firmware example under QEMU with a deterministic
 //!   instruction count (`embedded-example/qemu.sh <core>`, ISR-COST lines);
@@ -10,16 +10,16 @@
 //!   closed forms, whose arithmetic is the same on both cores) against the
 //!   exact model at every code pair of the demo design.
 //!
-//! Without `--check` the README section between the markers is rewritten;
-//! with it, the command fails when the measured table differs from the
-//! README's.
+//! Without `--check` the section of `docs/methods.md` between the markers
+//! is rewritten; with it, the command fails when the measured table differs
+//! from the page's.
 
 use std::collections::BTreeMap;
 use std::path::Path;
 use std::process::Command;
 
-use host_tool::design::Design;
-use host_tool::verify::{verify, VerifyReport};
+use host_tool::check::verify::{verify, VerifyReport};
+use host_tool::model::design::Design;
 
 const BEGIN: &str = "<!-- methods-table:begin (cargo xtask methods) -->";
 const END: &str = "<!-- methods-table:end -->";
@@ -82,7 +82,7 @@ fn proofs(design_path: &Path) -> Result<BTreeMap<(String, String), VerifyReport>
     let mut out = BTreeMap::new();
     for (core, triple) in CORES {
         let mut d = design.clone();
-        d.layout = host_tool::export::firmware_layout(triple);
+        d.layout = host_tool::emit::export::firmware_layout(triple);
         let g = host_tool::generate::generate(&d).map_err(|e| e.to_string())?;
         out.insert((core.to_owned(), "table".to_owned()), g.verification);
     }
@@ -178,27 +178,29 @@ fn table_text(root: &Path) -> Result<String, String> {
     Ok(s)
 }
 
-/// Rewrite (or with `check`, compare) the README section.
+/// The page that holds the methods table.
+const PAGE: &str = "docs/methods.md";
+
+/// Rewrite (or with `check`, compare) the section of [`PAGE`].
 pub fn methods(root: &Path, check: bool) -> Result<(), String> {
-    let readme_path = root.join("README.md");
-    let readme = std::fs::read_to_string(&readme_path).map_err(|e| format!("README.md: {e}"))?;
-    let (Some(a), Some(b)) = (readme.find(BEGIN), readme.find(END)) else {
-        return Err(format!("README.md lacks the markers `{BEGIN}` and `{END}`"));
+    let page_path = root.join(PAGE);
+    let page = std::fs::read_to_string(&page_path).map_err(|e| format!("{PAGE}: {e}"))?;
+    let (Some(a), Some(b)) = (page.find(BEGIN), page.find(END)) else {
+        return Err(format!("{PAGE} lacks the markers `{BEGIN}` and `{END}`"));
     };
     let table = table_text(root)?;
     print!("{table}");
-    let fresh = format!("{}{BEGIN}\n{table}{}", &readme[..a], &readme[b..]);
+    let fresh = format!("{}{BEGIN}\n{table}{}", &page[..a], &page[b..]);
     if check {
-        if fresh != readme {
-            return Err(
-                "README.md's methods table differs from the measurement above; run `cargo xtask methods` and commit"
-                    .to_owned(),
-            );
+        if fresh != page {
+            return Err(format!(
+                "{PAGE}'s methods table differs from the measurement above; run `cargo xtask methods` and commit"
+            ));
         }
-        eprintln!("xtask: README.md's methods table matches the measurement");
+        eprintln!("xtask: {PAGE}'s methods table matches the measurement");
     } else {
-        std::fs::write(&readme_path, fresh).map_err(|e| format!("README.md: {e}"))?;
-        eprintln!("xtask: README.md's methods table rewritten");
+        std::fs::write(&page_path, fresh).map_err(|e| format!("{PAGE}: {e}"))?;
+        eprintln!("xtask: {PAGE}'s methods table rewritten");
     }
     Ok(())
 }

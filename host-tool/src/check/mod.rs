@@ -1,0 +1,11 @@
+//! Checking a runtime method (a table lookup or a closed form, the code the
+//! firmware runs) against the exact model: at every code pair of the design
+//! range ([`verify`], with [`doubling`] sharing verdicts where the physics
+//! makes pairs equal), and over boards and cycles drawn within the
+//! tolerances ([`montecarlo`]).
+//!
+//! Imports: the leaves, [`crate::tank`], [`crate::input`], [`crate::model`].
+
+pub mod doubling;
+pub mod montecarlo;
+pub mod verify;

@@ -1,0 +1,8 @@
+//! Files for firmware: a generated table as Rust source, a C header, a
+//! checked blob and a CSV ([`export`]), and the closed-form methods'
+//! coefficients as Rust source ([`closed_form_source`]).
+//!
+//! Imports: every earlier stage.
+
+pub mod closed_form_source;
+pub mod export;

@@ -1,0 +1,843 @@
+//! Design files (TOML): the tank, operating range, sensing, timer and table
+//! requirements of one converter. Parsing reports malformed files with line,
+//! column and key (from the TOML parser); validation then refuses
+//! physically impossible or inconsistent designs in plain sentences.
+
+use serde::{Deserialize, Deserializer};
+use timing_core::{CellPoint, CodeRange, Tank, Timer, Topology, Transition, WindowPosition};
+
+use crate::tank::real_tank::RealTank;
+use crate::units::parse_quantity;
+
+macro_rules! si_number {
+    ($name:ident, $unit:literal, $what:literal) => {
+        #[doc = concat!("A number in ", $what, " (`", $unit, "`): a TOML number or a string with an engineering prefix.")]
+        #[derive(Debug, Clone, Copy, PartialEq)]
+        pub struct $name(pub f64);
+
+        impl<'de> Deserialize<'de> for $name {
+            fn deserialize<D: Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+                #[derive(Deserialize)]
+                #[serde(untagged)]
+                enum Raw {
+                    N(f64),
+                    S(String),
+                }
+                match Raw::deserialize(d)? {
+                    Raw::N(v) => Ok($name(v)),
+                    Raw::S(s) => parse_quantity(&s, $unit).map($name).map_err(serde::de::Error::custom),
+                }
+            }
+        }
+    };
+}
+
+si_number!(Henry, "H", "henry");
+si_number!(Farad, "F", "farad");
+si_number!(Volt, "V", "volt");
+si_number!(Amp, "A", "ampere");
+si_number!(Hertz, "Hz", "hertz");
+si_number!(Second, "s", "second");
+si_number!(Ohm, "ohm", "ohm");
+
+/// Which table layouts generation may choose from.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Default)]
+#[serde(rename_all = "kebab-case")]
+pub enum LayoutChoice {
+    /// The smallest that meets `max_error_ticks` (default).
+    #[default]
+    Auto,
+    /// Only the 1-D code-ratio layout, uniform.
+    Ratio,
+    /// Only the 1-D code-ratio layout, log-spaced.
+    LogRatio,
+    /// Only the division-free 1-D layout uniform in log(ratio).
+    LogUniform,
+    /// Only the 2-D code grid.
+    Grid,
+    /// Only the 1-D code-ratio layout with a reciprocal table instead of
+    /// the division (fastest on cores without a divide instruction).
+    RecipRatio,
+    /// Only the 2-D layout of log(code ratio) by voltage code (division-free;
+    /// follows the voltage dependence a Coss curve adds).
+    LogVolt,
+    /// Only the 2-D layout of the current's margin over the ZVS boundary by
+    /// voltage code (no division, no logarithm; the boundary on a column).
+    Margin,
+    /// Only the 2-D layout of the code ratio by voltage code (one division,
+    /// a single instruction on cores with a divide instruction).
+    RatioVolt,
+}
+
+/// What to command below the ZVS boundary.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Default)]
+#[serde(rename_all = "kebab-case")]
+pub enum FallbackChoice {
+    /// Turn on at the valley of the ring (default).
+    #[default]
+    Valley,
+    /// A fixed delay, `fallback_ticks`.
+    Fixed,
+}
+
+/// The `[adc]` table.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct AdcFile {
+    /// Converter resolution, bits (8 to 16).
+    pub bits: u8,
+    /// Input-voltage scale, volt per code (code 0 reads 0 V).
+    pub vin_volts_per_code: f64,
+    /// Output-current scale, ampere per code.
+    pub io_amps_per_code: f64,
+    /// Code that reads 0 A. Default 0.
+    #[serde(default)]
+    pub io_zero_code: u16,
+}
+
+/// The `[timer]` table.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct TimerFile {
+    /// Timer clock.
+    pub clock_hz: Hertz,
+    /// Counter width, bits. Default 16.
+    #[serde(default = "default_counter_bits")]
+    pub counter_bits: u8,
+    /// Gate-driver turn-on propagation delay. Default 0.
+    #[serde(default = "zero_s")]
+    pub driver_delay: Second,
+    /// Gate-driver turn-off propagation delay. Default 0.
+    #[serde(default = "zero_s")]
+    pub driver_delay_off: Second,
+    /// Aim point in the ZVS window, 0 = earliest. Default 0.25.
+    #[serde(default = "default_position")]
+    pub position: f64,
+}
+
+/// A fraction written as a number (`0.05`) or a percentage (`"5%"`).
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct Fraction(pub f64);
+
+impl<'de> Deserialize<'de> for Fraction {
+    fn deserialize<D: Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        #[derive(Deserialize)]
+        #[serde(untagged)]
+        enum Raw {
+            N(f64),
+            S(String),
+        }
+        match Raw::deserialize(d)? {
+            Raw::N(v) => Ok(Fraction(v)),
+            Raw::S(s) => crate::units::parse_fraction(&s)
+                .map(Fraction)
+                .ok_or_else(|| {
+                    serde::de::Error::custom(format!(
+                        "`{s}` is not a fraction (write 0.05 or \"5%\")"
+                    ))
+                }),
+        }
+    }
+}
+
+/// The `[tolerance]` table: what varies from board to board and cycle to
+/// cycle. Tables aim inside the window every board within it shares
+/// ([`crate::model::robust_aim`]), verification measures the margins to that
+/// window, and `zvs-timing montecarlo` draws boards and cycles from it.
+/// Each bound is a half-width (a value
+/// lies within nominal plus or minus it).
+#[derive(Debug, Clone, Copy, PartialEq, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ToleranceFile {
+    /// Relative tolerance of Lr.
+    #[serde(default)]
+    pub lr: Fraction,
+    /// Relative tolerance of the whole switch capacitance (the external
+    /// capacitor and the Coss curve scale together).
+    #[serde(default)]
+    pub cr: Fraction,
+    /// Gain error of the input-voltage channel, relative.
+    #[serde(default)]
+    pub vin_gain: Fraction,
+    /// Gain error of the output-current channel, relative.
+    #[serde(default)]
+    pub io_gain: Fraction,
+    /// Offset error of the input-voltage channel, codes.
+    #[serde(default)]
+    pub vin_offset_codes: f64,
+    /// Offset error of the output-current channel, codes.
+    #[serde(default)]
+    pub io_offset_codes: f64,
+    /// Sensing noise, codes (peak, each channel, each conversion).
+    #[serde(default)]
+    pub noise_codes: f64,
+    /// Timer and driver jitter, second (peak).
+    #[serde(default = "zero_s")]
+    pub jitter: Second,
+}
+
+/// Validated tolerances (fractions, codes, second).
+#[derive(Debug, Clone, Copy, PartialEq, Default, serde::Serialize)]
+pub struct Tolerance {
+    /// Relative tolerance of Lr.
+    pub lr_rel: f64,
+    /// Relative tolerance of the switch capacitance.
+    pub cr_rel: f64,
+    /// Gain error of the voltage channel, relative.
+    pub vin_gain_rel: f64,
+    /// Gain error of the current channel, relative.
+    pub io_gain_rel: f64,
+    /// Offset of the voltage channel, codes.
+    pub vin_offset_codes: f64,
+    /// Offset of the current channel, codes.
+    pub io_offset_codes: f64,
+    /// Peak sensing noise, codes.
+    pub noise_codes: f64,
+    /// Peak jitter, second.
+    pub jitter_s: f64,
+}
+
+impl ToleranceFile {
+    fn validate(&self) -> Result<Tolerance, String> {
+        for (key, v, max) in [
+            ("tolerance.lr", self.lr.0, 0.5),
+            ("tolerance.cr", self.cr.0, 0.5),
+            ("tolerance.vin_gain", self.vin_gain.0, 0.5),
+            ("tolerance.io_gain", self.io_gain.0, 0.5),
+            ("tolerance.vin_offset_codes", self.vin_offset_codes, 4096.0),
+            ("tolerance.io_offset_codes", self.io_offset_codes, 4096.0),
+            ("tolerance.noise_codes", self.noise_codes, 4096.0),
+            ("tolerance.jitter", self.jitter.0, 1e-6),
+        ] {
+            if !(v.is_finite() && (0.0..=max).contains(&v)) {
+                return Err(format!("{key} = {v} must lie in [0, {max}] (a half-width)"));
+            }
+        }
+        Ok(Tolerance {
+            lr_rel: self.lr.0,
+            cr_rel: self.cr.0,
+            vin_gain_rel: self.vin_gain.0,
+            io_gain_rel: self.io_gain.0,
+            vin_offset_codes: self.vin_offset_codes,
+            io_offset_codes: self.io_offset_codes,
+            noise_codes: self.noise_codes,
+            jitter_s: self.jitter.0,
+        })
+    }
+}
+
+/// The `[table]` table.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct TableFile {
+    /// Largest allowed error of the commanded delay against the exact model,
+    /// ticks (including the final rounding). Default 1.0.
+    #[serde(default = "default_max_error")]
+    pub max_error_ticks: f64,
+    /// Policy below the ZVS boundary. Default `valley`.
+    #[serde(default)]
+    pub fallback: FallbackChoice,
+    /// Delay for `fallback = "fixed"`, ticks.
+    #[serde(default)]
+    pub fallback_ticks: Option<u32>,
+    /// Layouts to consider. Default `auto`.
+    #[serde(default)]
+    pub layout: LayoutChoice,
+}
+
+impl Default for TableFile {
+    fn default() -> Self {
+        Self {
+            max_error_ticks: default_max_error(),
+            fallback: FallbackChoice::Valley,
+            fallback_ticks: None,
+            layout: LayoutChoice::Auto,
+        }
+    }
+}
+
+fn default_counter_bits() -> u8 {
+    16
+}
+fn zero_s() -> Second {
+    Second(0.0)
+}
+fn default_position() -> f64 {
+    0.25
+}
+fn default_max_error() -> f64 {
+    1.0
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[serde(rename_all = "kebab-case")]
+enum TopologyFile {
+    Buck,
+    Boost,
+    BuckBoost,
+}
+
+/// A design file as written.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct DesignFile {
+    /// File stem of the outputs and prefix of C symbols.
+    pub name: String,
+    #[serde(default = "default_topology")]
+    topology: TopologyFile,
+    /// Resonant inductance.
+    pub lr: Henry,
+    /// Resonant capacitance across the switch: with no `coss`, the whole of
+    /// it (external plus the MOSFET's, taken as constant); with `coss`, the
+    /// fixed part in parallel with the curve (optional).
+    #[serde(default)]
+    pub cr: Option<Farad>,
+    /// CSV file of the MOSFET's Coss curve (`volts,farads`), relative to the
+    /// design file.
+    #[serde(default)]
+    pub coss: Option<String>,
+    /// Series resistance of the resonant loop (inductor, capacitor ESR,
+    /// switch and traces), ohm.
+    #[serde(default)]
+    pub r_tank: Option<Ohm>,
+    /// Input-voltage range [min, max].
+    pub vin: [Volt; 2],
+    /// Output-current range [min, max].
+    pub io: [Amp; 2],
+    /// Output voltage (boost and buck-boost need it; it sets the stress).
+    #[serde(default)]
+    pub vout: Option<Volt>,
+    /// ADC description.
+    pub adc: AdcFile,
+    /// Timer and gate driver.
+    pub timer: TimerFile,
+    /// Table requirements.
+    #[serde(default)]
+    pub table: TableFile,
+    /// Board-to-board and cycle-to-cycle variation (for `montecarlo`).
+    #[serde(default)]
+    pub tolerance: Option<ToleranceFile>,
+}
+
+fn default_topology() -> TopologyFile {
+    TopologyFile::Buck
+}
+
+/// A validated design file: plain data, as the file gives it and as
+/// validation derives it (code ranges, the ideal stand-in tank, the hash).
+/// [`crate::model::design::Design`] adds what the model builds from it.
+#[derive(Debug, Clone)]
+pub struct DesignSpec {
+    /// Name (a C identifier).
+    pub name: String,
+    /// Converter.
+    pub topology: Topology,
+    /// The ideal tank: Lr and Cr as given, or for a real tank (Coss curve,
+    /// losses) the constant-capacitance stand-in fitted to it: Z0 from the
+    /// real ZVS boundary at the middle of the voltage range, w0 the
+    /// least-squares fit of the turn-on targets. It sets the normalised-load
+    /// axis of the 1-D layouts and is what the closed-form methods assume.
+    pub tank: Tank<f64>,
+    /// The tank as built (Coss curve, loop resistance): the exact model.
+    pub real: RealTank,
+    /// The Coss file as named in the design file.
+    pub coss_file: Option<String>,
+    /// Characteristic impedance whose boundary line I*Z0 = V lies on or
+    /// above the exact model's ZVS boundary over the whole voltage range
+    /// (the tables' ZVS test with a fixed fallback), ohm; `tank`'s Z0 for
+    /// an ideal tank.
+    pub zvs_z0_ohm: f64,
+    /// Input-voltage range, volt.
+    pub vin_v: (f64, f64),
+    /// Output-current range, ampere.
+    pub io_a: (f64, f64),
+    /// Output voltage, volt (None for a buck without one).
+    pub vout_v: Option<f64>,
+    /// ADC bits.
+    pub adc_bits: u8,
+    /// Volt per voltage code.
+    pub vin_volts_per_code: f64,
+    /// Ampere per current code.
+    pub io_amps_per_code: f64,
+    /// Current code at 0 A.
+    pub io_zero_code: u16,
+    /// Timer and driver.
+    pub timer: Timer<f64>,
+    /// Aim point.
+    pub position: WindowPosition<f64>,
+    /// Error budget, ticks.
+    pub max_error_ticks: f64,
+    /// Fallback below the ZVS boundary.
+    pub fallback: timing_core::table::Fallback,
+    /// Layouts to consider.
+    pub layout: LayoutChoice,
+    /// Voltage codes of the design range.
+    pub vin_codes: CodeRange,
+    /// Current codes of the design range.
+    pub io_codes: CodeRange,
+    /// CRC-32 of the design file's text: the design hash in table headers.
+    pub hash: u32,
+    /// Board-to-board and cycle-to-cycle variation (`None`: the design
+    /// file has no `[tolerance]`).
+    pub tolerance: Option<Tolerance>,
+}
+
+/// A design that cannot be used.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum DesignError {
+    /// The file could not be read.
+    #[error("cannot read {path}: {message}")]
+    Read {
+        /// File path.
+        path: String,
+        /// OS message.
+        message: String,
+    },
+    /// The TOML is malformed or a key has a wrong type or value; the message
+    /// carries line, column and key.
+    #[error("{path}: {message}")]
+    Malformed {
+        /// File path.
+        path: String,
+        /// Parser message with line and column.
+        message: String,
+    },
+    /// The design is physically impossible or inconsistent.
+    #[error("{path}: {message}")]
+    Invalid {
+        /// File path.
+        path: String,
+        /// Plain sentence.
+        message: String,
+    },
+}
+
+impl DesignSpec {
+    /// Read and validate a design file.
+    ///
+    /// # Errors
+    /// [`DesignError`].
+    pub fn load(path: &std::path::Path) -> Result<Self, DesignError> {
+        let text = std::fs::read_to_string(path).map_err(|e| DesignError::Read {
+            path: path.display().to_string(),
+            message: e.to_string(),
+        })?;
+        Self::parse(&text, &path.display().to_string())
+    }
+
+    /// Parse and validate design-file text; `origin` names it in errors.
+    ///
+    /// # Errors
+    /// [`DesignError::Malformed`] or [`DesignError::Invalid`].
+    pub fn parse(text: &str, origin: &str) -> Result<Self, DesignError> {
+        let file: DesignFile = toml::from_str(text).map_err(|e| DesignError::Malformed {
+            path: origin.to_owned(),
+            message: e.to_string().trim_end().replace('\n', "\n  "),
+        })?;
+        let base = std::path::Path::new(origin)
+            .parent()
+            .map(std::path::Path::to_path_buf)
+            .unwrap_or_default();
+        file.validate(text, &base)
+            .map_err(|message| DesignError::Invalid {
+                path: origin.to_owned(),
+                message,
+            })
+    }
+
+    /// The cell quantities at converter input voltage `vin` and output current `io`.
+    ///
+    /// # Errors
+    /// The timing-core error for an impossible point.
+    pub fn cell(&self, vin: f64, io: f64) -> Result<CellPoint<f64>, timing_core::Error> {
+        CellPoint::from_converter(self.topology, vin, self.vout_v.unwrap_or(f64::NAN), io)
+    }
+
+    /// The design as timing-core's closed-form methods take it.
+    ///
+    /// # Errors
+    /// timing-core's error (not expected for a validated design).
+    pub fn closed_form(&self) -> Result<timing_core::closed_form::ClosedForm, timing_core::Error> {
+        timing_core::closed_form::ClosedForm::new(
+            &self.tank,
+            &self.timer,
+            self.position,
+            timing_core::closed_form::CodeScaling {
+                vin: self.vin_codes,
+                io: self.io_codes,
+                io_zero: self.io_zero_code,
+                vin_volts_per_code: self.vin_volts_per_code,
+                io_amps_per_code: self.io_amps_per_code,
+            },
+            self.fallback,
+        )
+    }
+
+    /// One line on the model behind the design's timings, e.g. `ideal tank,
+    /// Lr 1 uH, Cr 6.8 nF (closed forms)`.
+    #[must_use]
+    pub fn model_summary(&self) -> String {
+        use crate::units::format_si as q;
+        let r = &self.real;
+        if r.is_ideal() {
+            return format!(
+                "ideal tank, Lr {}, Cr {} (closed forms)",
+                q(r.lr_h, "H"),
+                q(r.cr_fixed_f, "F")
+            );
+        }
+        let mut s = format!("Lr {}", q(r.lr_h, "H"));
+        if let Some(f) = &self.coss_file {
+            s += &format!(
+                ", Coss curve {f} ({} points) in parallel with {}",
+                r.coss.len(),
+                q(r.cr_fixed_f, "F")
+            );
+        } else {
+            s += &format!(", Cr {}", q(r.cr_fixed_f, "F"));
+        }
+        if r.r_tank_ohm > 0.0 {
+            s += &format!(", loop resistance {}", q(r.r_tank_ohm, "ohm"));
+        }
+        s + " (numerical ring)"
+    }
+
+    /// Input voltage of code `c`, volt.
+    #[must_use]
+    pub fn vin_of(&self, c: u16) -> f64 {
+        f64::from(c) * self.vin_volts_per_code
+    }
+
+    /// Output current of code `c`, ampere.
+    #[must_use]
+    pub fn io_of(&self, c: u16) -> f64 {
+        (f64::from(c) - f64::from(self.io_zero_code)) * self.io_amps_per_code
+    }
+}
+
+fn t_position(t: &TimerFile) -> f64 {
+    t.position
+}
+
+/// The ideal tank that stands in for a real one (Coss curve, losses) where
+/// a constant-capacitance model is needed (the 1-D layouts' load axis, the
+/// closed-form methods): its Z0 puts J = 1 on the real ZVS boundary at the
+/// middle of the voltage range, and its w0 is the least-squares fit of the
+/// closed-form turn-on targets to the real model's over a 9 x 17 grid of the
+/// design range (the targets scale with 1/w0 at fixed J).
+fn fitted_tank(
+    real: &RealTank,
+    topology: Topology,
+    vout: Option<f64>,
+    vin: (f64, f64),
+    io: (f64, f64),
+    position: f64,
+) -> Result<Tank<f64>, String> {
+    let solver = real.solver().map_err(|e| format!("cr: {e}"))?;
+    let position = WindowPosition::new(position).map_err(|e| format!("timer.position: {e}"))?;
+    let cell = |v: f64, i: f64| {
+        CellPoint::from_converter(topology, v, vout.unwrap_or(f64::NAN), i)
+            .map_err(|e| format!("vin = {v}, io = {i}: {e}"))
+    };
+    let mid = cell(0.5 * (vin.0 + vin.1), 1.0)?.v_volt();
+    let z0 = mid
+        / solver
+            .boundary_current_a(mid)
+            .map_err(|e| format!("r_tank: no ZVS at {mid} V cell voltage: {e}"))?;
+    let reference = real
+        .equivalent_tank(mid)
+        .map_err(|e| format!("lr/cr: {e}"))?;
+    let w_ref = reference.w0_rad_s();
+    let unit = Tank::new(z0 / w_ref, 1.0 / (z0 * w_ref)).map_err(|e| format!("lr/cr: {e}"))?;
+    let (mut num, mut den) = (0.0, 0.0);
+    for a in 0..9 {
+        for b in 0..17 {
+            let v = vin.0 + (vin.1 - vin.0) * f64::from(a) / 8.0;
+            let i = io.0 + (io.1 - io.0) * f64::from(b) / 16.0;
+            let c = cell(v, i)?;
+            let exact = solver
+                .transition(&c)
+                .map_err(|e| format!("at {v} V, {i} A: {e}"))?;
+            let ideal = Transition::new(&unit, &c).map_err(|e| format!("at {v} V, {i} A: {e}"))?;
+            let (te, ti) = (
+                exact.turn_on.target_s(position),
+                ideal.turn_on_target_s(position),
+            );
+            num += te * ti;
+            den += ti * ti;
+        }
+    }
+    let w = w_ref * den / num;
+    Tank::new(z0 / w, 1.0 / (z0 * w)).map_err(|e| format!("lr/cr: {e}"))
+}
+
+impl DesignFile {
+    fn validate(&self, text: &str, base: &std::path::Path) -> Result<DesignSpec, String> {
+        let name_ok = self
+            .name
+            .chars()
+            .next()
+            .is_some_and(|c| c.is_ascii_alphabetic() || c == '_')
+            && self
+                .name
+                .chars()
+                .all(|c| c.is_ascii_alphanumeric() || c == '_');
+        if !name_ok {
+            return Err(format!(
+                "name `{}` must be a C identifier (letters, digits, _; not starting with a digit): it prefixes the C symbols",
+                self.name
+            ));
+        }
+        let (coss, coss_text) = match &self.coss {
+            Some(f) => {
+                let (points, text) = crate::input::coss_csv::load(&base.join(f))
+                    .map_err(|e| format!("coss: {e}"))?;
+                (points, Some(text))
+            }
+            None => (Vec::new(), None),
+        };
+        let cr_fixed = match (self.cr, coss.is_empty()) {
+            (Some(c), _) => c.0,
+            (None, false) => 0.0,
+            (None, true) => {
+                return Err("cr is missing: give the resonant capacitance, or a Coss curve (coss = \"FILE.csv\") with cr as the external part".into())
+            }
+        };
+        let r_tank = self.r_tank.map_or(0.0, |r| r.0);
+        let real = RealTank {
+            lr_h: self.lr.0,
+            cr_fixed_f: cr_fixed,
+            coss,
+            r_tank_ohm: r_tank,
+        };
+        real.solver().map_err(|e| {
+            let key = match e {
+                timing_core::Error::NotPositive {
+                    quantity: timing_core::Quantity::ResonantInductance,
+                    ..
+                }
+                | timing_core::Error::NotFinite {
+                    quantity: timing_core::Quantity::ResonantInductance,
+                    ..
+                } => "lr",
+                _ if self.r_tank.is_some()
+                    && matches!(
+                        e,
+                        timing_core::Error::Negative {
+                            quantity: timing_core::Quantity::TankResistance,
+                            ..
+                        } | timing_core::Error::NotFinite {
+                            quantity: timing_core::Quantity::TankResistance,
+                            ..
+                        }
+                    ) =>
+                {
+                    "r_tank"
+                }
+                _ => "cr",
+            };
+            format!("{key}: {e}")
+        })?;
+        let topology = match self.topology {
+            TopologyFile::Buck => Topology::Buck,
+            TopologyFile::Boost => Topology::Boost,
+            TopologyFile::BuckBoost => Topology::BuckBoost,
+        };
+        let (vlo, vhi) = (self.vin[0].0, self.vin[1].0);
+        let (ilo, ihi) = (self.io[0].0, self.io[1].0);
+        for (what, v) in [("vin", vlo), ("vin", vhi), ("io", ilo), ("io", ihi)] {
+            if !(v.is_finite() && v > 0.0) {
+                return Err(format!(
+                    "{what} = {v}: the range must be positive (at zero current the valley delay is unbounded; start the range at the lightest load the table must serve)"
+                ));
+            }
+        }
+        if vlo >= vhi {
+            return Err(format!(
+                "vin = [{vlo}, {vhi}] is an empty range: the first value must be below the second"
+            ));
+        }
+        if ilo >= ihi {
+            return Err(format!(
+                "io = [{ilo}, {ihi}] is an empty range: the first value must be below the second"
+            ));
+        }
+        let vout = self.vout.map(|v| v.0);
+        if topology.needs_vout() && vout.is_none() {
+            return Err(format!("a {} design needs `vout`", topology.name()));
+        }
+        if let Some(v) = vout {
+            if !(v.is_finite() && v > 0.0) {
+                return Err(format!("vout = {v} must be a positive voltage"));
+            }
+            if topology == Topology::Boost && v <= vhi {
+                return Err(format!(
+                    "vout = {v} V must exceed the highest input voltage ({vhi} V) for a boost"
+                ));
+            }
+            if topology == Topology::Buck && v >= vlo {
+                return Err(format!(
+                    "vout = {v} V must be below the lowest input voltage ({vlo} V) for a buck"
+                ));
+            }
+        }
+        // Cell voltages over the range (the boost's is Vout, the others vary).
+        let cell_v = |vin: f64| {
+            CellPoint::from_converter(topology, vin, vout.unwrap_or(f64::NAN), 1.0)
+                .map(|c| c.v_volt())
+                .map_err(|e| format!("vin = {vin}: {e}"))
+        };
+        let tank = if real.is_ideal() {
+            real.equivalent_tank(cell_v(0.5 * (vlo + vhi))?)
+                .map_err(|e| format!("lr/cr: {e}"))?
+        } else {
+            fitted_tank(
+                &real,
+                topology,
+                vout,
+                (vlo, vhi),
+                (ilo, ihi),
+                t_position(&self.timer),
+            )?
+        };
+        let zvs_z0_ohm = if real.is_ideal() {
+            tank.z0_ohm()
+        } else {
+            let solver = real.solver().map_err(|e| format!("cr: {e}"))?;
+            let mut z = f64::INFINITY;
+            for k in 0..=16 {
+                let v = cell_v(vlo + (vhi - vlo) * f64::from(k) / 16.0)?;
+                let ib = solver
+                    .boundary_current_a(v)
+                    .map_err(|e| format!("r_tank: no ZVS at {v} V cell voltage: {e}"))?;
+                z = z.min(v / ib);
+            }
+            z
+        };
+        let a = &self.adc;
+        if !(8..=16).contains(&a.bits) {
+            return Err(format!("adc.bits = {} must be 8 to 16", a.bits));
+        }
+        for (key, v) in [
+            ("adc.vin_volts_per_code", a.vin_volts_per_code),
+            ("adc.io_amps_per_code", a.io_amps_per_code),
+        ] {
+            if !(v.is_finite() && v > 0.0) {
+                return Err(format!("{key} = {v} must be a positive scale"));
+            }
+        }
+        let max_code = (1u32 << a.bits) - 1;
+        if u32::from(a.io_zero_code) > max_code {
+            return Err(format!(
+                "adc.io_zero_code = {} is beyond the {}-bit ADC's {max_code}",
+                a.io_zero_code, a.bits
+            ));
+        }
+        // Codes inside the design range: those that read within it.
+        let code_range = |lo: f64,
+                          hi: f64,
+                          scale: f64,
+                          zero: f64,
+                          key: &str,
+                          unit: &str|
+         -> Result<CodeRange, String> {
+            let c_lo = (lo / scale + zero - 1e-9).ceil();
+            let c_hi = (hi / scale + zero + 1e-9).floor();
+            if c_hi > f64::from(max_code) {
+                return Err(format!(
+                    "{key} reaches {hi} {unit}, code {c_hi:.0}, beyond the {}-bit ADC's full scale of {:.4} {unit} (code {max_code})",
+                    a.bits,
+                    (f64::from(max_code) - zero) * scale
+                ));
+            }
+            if c_lo > c_hi || c_lo < 1.0 {
+                return Err(format!(
+                    "{key} = [{lo}, {hi}] {unit} holds no usable ADC code at {scale} {unit}/code"
+                ));
+            }
+            Ok(CodeRange {
+                lo: c_lo as u16,
+                hi: c_hi as u16,
+            })
+        };
+        let vin_codes = code_range(vlo, vhi, a.vin_volts_per_code, 0.0, "vin", "V")?;
+        let io_codes = code_range(
+            ilo,
+            ihi,
+            a.io_amps_per_code,
+            f64::from(a.io_zero_code),
+            "io",
+            "A",
+        )?;
+        if io_codes.lo <= a.io_zero_code {
+            return Err("io range starts at the sensor zero: the lightest load must read above adc.io_zero_code".into());
+        }
+        let t = &self.timer;
+        let timer = Timer::new(
+            t.clock_hz.0,
+            t.counter_bits,
+            t.driver_delay.0,
+            t.driver_delay_off.0,
+        )
+        .map_err(|e| format!("timer: {e}"))?;
+        let position =
+            WindowPosition::new(t.position).map_err(|e| format!("timer.position: {e}"))?;
+        let tb = &self.table;
+        if !(tb.max_error_ticks.is_finite() && tb.max_error_ticks >= 0.5) {
+            return Err(format!(
+                "table.max_error_ticks = {} must be at least 0.5: rounding to whole ticks alone costs half a tick",
+                tb.max_error_ticks
+            ));
+        }
+        let fallback = match (tb.fallback, tb.fallback_ticks) {
+            (FallbackChoice::Valley, _) => timing_core::table::Fallback::Valley,
+            (FallbackChoice::Fixed, Some(n)) if n <= timer.max_ticks().get() => {
+                timing_core::table::Fallback::Fixed(timing_core::Ticks::new(n))
+            }
+            (FallbackChoice::Fixed, Some(n)) => {
+                return Err(format!(
+                    "table.fallback_ticks = {n} exceeds the {}-bit counter's {}",
+                    t.counter_bits,
+                    timer.max_ticks().get()
+                ))
+            }
+            (FallbackChoice::Fixed, None) => {
+                return Err("table.fallback = \"fixed\" needs table.fallback_ticks".into())
+            }
+        };
+        Ok(DesignSpec {
+            name: self.name.clone(),
+            topology,
+            tank,
+            real,
+            coss_file: self.coss.clone(),
+            zvs_z0_ohm,
+            vin_v: (vlo, vhi),
+            io_a: (ilo, ihi),
+            vout_v: vout,
+            adc_bits: a.bits,
+            vin_volts_per_code: a.vin_volts_per_code,
+            io_amps_per_code: a.io_amps_per_code,
+            io_zero_code: a.io_zero_code,
+            timer,
+            position,
+            max_error_ticks: tb.max_error_ticks,
+            fallback,
+            layout: tb.layout,
+            vin_codes,
+            io_codes,
+            tolerance: self.tolerance.map(|t| t.validate()).transpose()?,
+            // The Coss curve is part of the design: its text joins the hash.
+            hash: match &coss_text {
+                None => timing_core::blob::CRC32.checksum(text.as_bytes()),
+                Some(c) => {
+                    let mut d = timing_core::blob::CRC32.digest();
+                    d.update(text.as_bytes());
+                    d.update(b"\0");
+                    d.update(c.as_bytes());
+                    d.finalize()
+                }
+            },
+        })
+    }
+}

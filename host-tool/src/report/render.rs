@@ -1,0 +1,223 @@
+//! Human-readable rendering of reports.
+
+use std::fmt::Write as _;
+
+use crate::analysis::point::PointReport;
+use crate::units::format_si;
+
+fn ns(t: f64) -> String {
+    format_si(t, "s")
+}
+
+/// The `point` report as a short table, times from gate turn-off.
+#[must_use]
+pub fn point_text(r: &PointReport) -> String {
+    let mut s = String::new();
+    let _ = writeln!(
+        s,
+        "{} cell   V = {}   I = {}   Z0 = {}   f0 = {}",
+        r.topology,
+        format_si(r.cell_voltage_v, "V"),
+        format_si(r.cell_current_a, "A"),
+        format_si(r.z0_ohm, "Ω"),
+        format_si(r.f0_hz, "Hz"),
+    );
+    if let (Some(tr), Some(er), Some(b)) = (
+        r.coss_charge_equivalent_f,
+        r.coss_energy_equivalent_f,
+        r.boundary_capacitance_f,
+    ) {
+        let _ = writeln!(
+            s,
+            "Coss at {}: Co(tr) = {}   Co(er) = {}   boundary-equivalent Cr = {} (cr + 2*Co(tr) - Co(er))",
+            format_si(r.cell_voltage_v, "V"),
+            format_si(tr, "F"),
+            format_si(er, "F"),
+            format_si(b, "F")
+        );
+    }
+    if r.r_tank_ohm > 0.0 {
+        let _ = writeln!(
+            s,
+            "resonant loop resistance {}",
+            format_si(r.r_tank_ohm, "Ω")
+        );
+    }
+    let _ = writeln!(
+        s,
+        "normalised load J = {:.4}   ({}; boundary at I = {})",
+        r.normalized_load,
+        if r.zvs {
+            "ZVS possible"
+        } else {
+            "ZVS impossible"
+        },
+        format_si(r.zvs_boundary_current_a, "A")
+    );
+    let _ = writeln!(s);
+    let _ = writeln!(s, "  event (from gate turn-off)            time");
+    let _ = writeln!(s, "  ------------------------------------  ----------");
+    let row = |s: &mut String, what: &str, t: f64| {
+        let _ = writeln!(s, "  {what:<36}  {:>10}", ns(t));
+    };
+    row(&mut s, "switch voltage reaches V", r.charge_end_s);
+    row(
+        &mut s,
+        &format!(
+            "peak switch voltage {}",
+            format_si(r.peak_switch_voltage_v, "V")
+        ),
+        r.peak_s,
+    );
+    if let (Some(open), Some(close)) = (r.window_open_s, r.window_close_s) {
+        row(&mut s, "ZVS window opens (switch at 0 V)", open);
+        row(&mut s, "ZVS window closes (Lr current at 0)", close);
+        let _ = writeln!(s, "  {:<36}  {:>10}", "  window width", ns(close - open));
+    }
+    if let (Some(v), Some(vv)) = (r.valley_s, r.valley_voltage_v) {
+        row(&mut s, &format!("valley at {}", format_si(vv, "V")), v);
+    }
+    row(&mut s, "current ramp ends", r.current_ramp_end_s);
+    if r.coss_charge_equivalent_f.is_some() {
+        // What the constant-capacitance formulas would have said.
+        let show = |s: &mut String, what: &str, w: Option<(f64, f64)>| {
+            let text = match (w, r.window_open_s, r.window_close_s) {
+                (Some((o, c)), Some(eo), Some(ec)) => format!(
+                    "{} to {} (opens {:+.1} ns, closes {:+.1} ns off the curve's)",
+                    ns(o),
+                    ns(c),
+                    (o - eo) * 1e9,
+                    (c - ec) * 1e9
+                ),
+                (Some((o, c)), _, _) => format!("{} to {} (the curve gives no ZVS)", ns(o), ns(c)),
+                (None, Some(_), _) => "no ZVS (the curve gives a window)".to_owned(),
+                (None, None, _) => "no ZVS".to_owned(),
+            };
+            let _ = writeln!(s, "  ideal formulas with cr + {what}: {text}");
+        };
+        let _ = writeln!(s);
+        show(&mut s, "Co(tr)", r.ideal_co_tr_window_s);
+        show(&mut s, "Co(er)", r.ideal_co_er_window_s);
+    }
+    let _ = writeln!(s);
+    if r.zvs {
+        let _ = writeln!(
+            s,
+            "aim: {:.0} % into the window, at {}",
+            r.window_position * 100.0,
+            ns(r.turn_on_target_s)
+        );
+    } else {
+        let _ = writeln!(s, "aim: valley fallback, at {}", ns(r.turn_on_target_s));
+    }
+    if let (Some(ticks), Some(d), Some(on), Some(tick)) =
+        (r.delay_ticks, r.delay_s, r.commanded_turn_on_s, r.tick_s)
+    {
+        let _ = writeln!(
+            s,
+            "delay: {ticks} ticks of {} = {} after the turn-off command; switch turns on at {}",
+            ns(tick),
+            ns(d),
+            ns(on)
+        );
+        if let (Some(a), Some(b)) = (r.margin_after_open_s, r.margin_before_close_s) {
+            let _ = writeln!(
+                s,
+                "margins: {} after the window opens, {} before it closes",
+                ns(a),
+                ns(b)
+            );
+        }
+    }
+    if let (Some(o), Some(c)) = (r.robust_window_open_s, r.robust_window_close_s) {
+        let _ = writeln!(
+            s,
+            "robust window (every board within the tolerances): {} to {}{}",
+            ns(o),
+            ns(c),
+            r.robust_delay_ticks
+                .map_or_else(String::new, |t| format!("; aim there: {t} ticks"))
+        );
+    }
+    if let (Some(fs), Some(m), Some(ton)) =
+        (r.switching_frequency_hz, r.conversion_ratio, r.on_time_s)
+    {
+        let _ = writeln!(
+            s,
+            "buck: fs = {}  M = Vout/Vin = {m:.4}  on-time {}  (fs at most {})",
+            format_si(fs, "Hz"),
+            ns(ton),
+            format_si(r.max_switching_frequency_hz, "Hz")
+        );
+    }
+    for w in &r.warnings {
+        let _ = writeln!(s, "\nWARNING: {w}");
+    }
+    let _ = writeln!(s, "\n{}", r.caution);
+    s
+}
+
+/// The `size` report: the Z0 interval, the trade-offs where it is empty,
+/// the Lr/Cr pairs and the caution.
+#[must_use]
+pub fn size_text(r: &crate::analysis::size::SizeReport) -> String {
+    let mut s = String::new();
+    let _ = writeln!(
+        s,
+        "ZVS over the load range needs Z0 >= {}; the peak switch voltage within {} needs Z0 <= {}",
+        format_si(r.zvs_z0_min_ohm, "Ω"),
+        format_si(r.vds_limit_v, "V"),
+        format_si(r.stress_z0_max_ohm, "Ω"),
+    );
+    match (r.z0_min_ohm, r.z0_max_ohm) {
+        (Some(lo), Some(hi)) => {
+            let _ = writeln!(
+                s,
+                "feasible Z0: {} to {}",
+                format_si(lo, "Ω"),
+                format_si(hi, "Ω")
+            );
+        }
+        _ => {
+            let _ = writeln!(s, "no Z0 satisfies both; the trade-offs:");
+            for t in &r.trade_offs {
+                let _ = writeln!(s, "  - {t}");
+            }
+        }
+    }
+    if let Some(f0) = r.f0_hz {
+        let _ = writeln!(s, "\nLr/Cr at f0 = {}:", format_si(f0, "Hz"));
+        let _ = writeln!(
+            s,
+            "  {:>10}  {:>10}  {:>10}  {:>12}  switching frequency",
+            "Z0", "Lr", "Cr", "peak Vds"
+        );
+        for p in &r.pairs {
+            let fs = p.fs_range_hz.map_or_else(
+                || "-".to_owned(),
+                |(a, b)| format!("{} to {}", format_si(a, "Hz"), format_si(b, "Hz")),
+            );
+            let _ = writeln!(
+                s,
+                "  {:>10}  {:>10}  {:>10}  {:>12}  {fs}",
+                format_si(p.z0_ohm, "Ω"),
+                format_si(p.lr_h, "H"),
+                format_si(p.cr_f, "F"),
+                format_si(p.peak_switch_voltage_v, "V"),
+            );
+        }
+    }
+    if let (Some(c), Some(z)) = (r.coss_budget_f, r.coss_budget_z0_ohm) {
+        let _ = writeln!(
+            s,
+            "\nMOSFET output capacitance budget: its charge-equivalent Coss at the operating voltage must stay below {} (Cr of the Z0 = {} pair); the external capacitor makes up the rest.",
+            format_si(c, "F"),
+            format_si(z, "Ω")
+        );
+    }
+    for w in &r.warnings {
+        let _ = writeln!(s, "warning: {w}");
+    }
+    let _ = writeln!(s, "\n{}", crate::analysis::point::CAUTION);
+    s
+}

@@ -1,0 +1,187 @@
+//! The house rule of host-tool's source tree (stated in `src/lib.rs`): the
+//! folders are stages, and a module uses only its own folder and the
+//! stages before it; no two modules use each other, directly or around a
+//! loop. Read from the `crate::` paths of every file's code (comments and
+//! `#[cfg(test)]` modules left out: a test may check a stage with the tools
+//! of a later one).
+
+use std::collections::{BTreeMap, BTreeSet};
+use std::path::{Path, PathBuf};
+
+/// The stages in order; files in the same stage may use each other.
+const STAGES: [&[&str]; 8] = [
+    &["units", "par"],
+    &["tank"],
+    &["input"],
+    &["model"],
+    &["check"],
+    &["generate"],
+    &["analysis"],
+    &["emit", "sim", "report"],
+];
+
+fn src() -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR")).join("src")
+}
+
+/// Every library source file (not the binary's `main.rs`) by module path
+/// (`check::verify`, `generate`, `units`).
+fn modules() -> BTreeMap<String, String> {
+    fn walk(dir: &Path, prefix: &str, out: &mut BTreeMap<String, String>) {
+        for e in std::fs::read_dir(dir).unwrap() {
+            let p = e.unwrap().path();
+            let name = p.file_stem().unwrap().to_str().unwrap().to_owned();
+            if p.is_dir() {
+                walk(&p, &format!("{prefix}{name}::"), out);
+            } else if p.extension().is_some_and(|x| x == "rs") {
+                let module = match name.as_str() {
+                    "mod" => prefix.trim_end_matches("::").to_owned(),
+                    "lib" | "main" => continue,
+                    _ => format!("{prefix}{name}"),
+                };
+                out.insert(module, std::fs::read_to_string(&p).unwrap());
+            }
+        }
+    }
+    let mut out = BTreeMap::new();
+    walk(&src(), "", &mut out);
+    out
+}
+
+/// The code of a file: comments and `#[cfg(test)]` modules removed.
+fn code(text: &str) -> String {
+    let mut out = String::new();
+    let mut lines = text.lines();
+    while let Some(l) = lines.next() {
+        let t = l.trim_start();
+        if t.starts_with("#[cfg(test)]") {
+            // Skip the item that follows, to its closing brace at the
+            // same indentation.
+            let indent = l.len() - t.len();
+            for m in lines.by_ref() {
+                if m.len() - m.trim_start().len() == indent && m.trim_start().starts_with('}') {
+                    break;
+                }
+            }
+            continue;
+        }
+        if t.starts_with("//") {
+            continue;
+        }
+        out.push_str(l.split("//").next().unwrap_or(""));
+        out.push('\n');
+    }
+    out
+}
+
+/// The modules `text` uses, among `known` (the longest module path that
+/// prefixes each `crate::` path).
+fn uses(text: &str, known: &BTreeSet<String>) -> BTreeSet<String> {
+    let mut out = BTreeSet::new();
+    let code = code(text);
+    // `crate::a::b::{c, d}` and `crate::a::b::C`: the path up to the first
+    // segment that is not a module.
+    for (at, _) in code.match_indices("crate::") {
+        let path: String = code[at + "crate::".len()..]
+            .chars()
+            .take_while(|c| c.is_alphanumeric() || *c == '_' || *c == ':')
+            .collect();
+        let segs: Vec<&str> = path.split("::").filter(|s| !s.is_empty()).collect();
+        for n in (1..=segs.len()).rev() {
+            let m = segs[..n].join("::");
+            if known.contains(&m) {
+                out.insert(m);
+                break;
+            }
+        }
+    }
+    out
+}
+
+fn stage(module: &str) -> usize {
+    let top = module.split("::").next().unwrap();
+    STAGES
+        .iter()
+        .position(|s| s.contains(&top))
+        .unwrap_or_else(|| {
+            panic!("module {module} is in no stage: add its folder to STAGES and to lib.rs's list")
+        })
+}
+
+#[test]
+fn the_folders_import_only_earlier_stages() {
+    let mods = modules();
+    let known: BTreeSet<String> = mods.keys().cloned().collect();
+    let mut wrong = Vec::new();
+    for (m, text) in &mods {
+        for u in uses(text, &known) {
+            if stage(&u) > stage(m) {
+                wrong.push(format!("{m} uses the later stage {u}"));
+            }
+        }
+    }
+    println!("{} modules in {} stages", mods.len(), STAGES.len());
+    assert!(wrong.is_empty(), "{wrong:#?}");
+}
+
+#[test]
+fn no_module_uses_itself_around_a_loop() {
+    let mods = modules();
+    let known: BTreeSet<String> = mods.keys().cloned().collect();
+    let graph: BTreeMap<String, BTreeSet<String>> = mods
+        .iter()
+        .map(|(m, t)| {
+            let mut u = uses(t, &known);
+            u.remove(m);
+            // A folder's mod.rs declares its files: that is not a use.
+            u.retain(|x| !x.starts_with(&format!("{m}::")));
+            (m.clone(), u)
+        })
+        .collect();
+    // Depth-first search; a module met again on the current path closes a
+    // loop.
+    fn visit(
+        m: &str,
+        graph: &BTreeMap<String, BTreeSet<String>>,
+        path: &mut Vec<String>,
+        done: &mut BTreeSet<String>,
+    ) -> Option<Vec<String>> {
+        if let Some(i) = path.iter().position(|p| p == m) {
+            let mut cycle = path[i..].to_vec();
+            cycle.push(m.to_owned());
+            return Some(cycle);
+        }
+        if done.contains(m) {
+            return None;
+        }
+        path.push(m.to_owned());
+        for n in graph.get(m).into_iter().flatten() {
+            if let Some(c) = visit(n, graph, path, done) {
+                return Some(c);
+            }
+        }
+        path.pop();
+        done.insert(m.to_owned());
+        None
+    }
+    let mut done = BTreeSet::new();
+    for m in graph.keys() {
+        if let Some(cycle) = visit(m, &graph, &mut Vec::new(), &mut done) {
+            panic!("modules in a loop: {}", cycle.join(" -> "));
+        }
+    }
+    println!("{} modules, no loop", graph.len());
+}
+
+#[test]
+fn the_rule_sees_a_later_stage_and_a_loop() {
+    // The checker itself: a use of a later stage and a loop are found.
+    let known: BTreeSet<String> = ["check::verify", "generate", "model::exact"]
+        .iter()
+        .map(|s| (*s).to_owned())
+        .collect();
+    let text = "use crate::generate::Generated;\n// crate::model::exact in a comment\n#[cfg(test)]\nmod tests {\n    use crate::model::exact::ExactModel;\n}\n";
+    let u = uses(text, &known);
+    assert_eq!(u, BTreeSet::from(["generate".to_owned()]));
+    assert!(stage("generate") > stage("check::verify"));
+}
