@@ -3,22 +3,15 @@
 
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)]
 
-use std::process::Command;
+mod common;
 
 const DEMO: &[&str] = &[
     "point", "--lr", "1u", "--cr", "6.8n", "--vin", "48", "--io", "6",
 ];
 
 fn run(args: &[&str]) -> (i32, String, String) {
-    let out = Command::new(env!("CARGO_BIN_EXE_zvs-timing"))
-        .args(args)
-        .output()
-        .unwrap();
-    (
-        out.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&out.stdout).into_owned(),
-        String::from_utf8_lossy(&out.stderr).into_owned(),
-    )
+    let r = common::zvs(args);
+    (r.code, r.stdout, r.stderr)
 }
 
 fn with(extra: &[&str]) -> Vec<&'static str> {
@@ -205,32 +198,27 @@ fn the_cli_writes_the_deck_and_the_prediction() {
     let dir = std::env::temp_dir().join(format!("zvs-netlist-{}", std::process::id()));
     std::fs::create_dir_all(&dir).unwrap();
     let deck = dir.join("cell.cir");
-    let out = std::process::Command::new(env!("CARGO_BIN_EXE_zvs-timing"))
-        .args(["netlist"])
-        .arg(std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("../tables/winch_aux.toml"))
-        .args(["--vin", "48", "--io", "6", "--json", "--out"])
-        .arg(&deck)
-        .output()
-        .unwrap();
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
+    let out = common::run(
+        common::zvs_timing()
+            .args(["netlist"])
+            .arg(std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("../tables/winch_aux.toml"))
+            .args(["--vin", "48", "--io", "6", "--json", "--out"])
+            .arg(&deck),
     );
-    let j: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let j = out.json();
     assert!(j["window_open_s"].as_f64().unwrap() > 0.0);
     assert!(j["caution"].as_str().unwrap().contains("scope"));
     let text = std::fs::read_to_string(&deck).unwrap();
     assert!(text.contains(".tran") && text.contains(".end") && text.contains("CAUTION"));
     // A point the design's timer cannot reach is refused by name.
-    let out = std::process::Command::new(env!("CARGO_BIN_EXE_zvs-timing"))
-        .args(["netlist"])
-        .arg(std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("../tables/winch_aux.toml"))
-        .args(["--vin", "-3", "--io", "6"])
-        .output()
-        .unwrap();
-    assert_eq!(out.status.code(), Some(2));
-    assert!(String::from_utf8_lossy(&out.stderr).contains("input voltage"));
+    let out = common::run(
+        common::zvs_timing()
+            .args(["netlist"])
+            .arg(std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("../tables/winch_aux.toml"))
+            .args(["--vin", "-3", "--io", "6"]),
+    );
+    assert_eq!(out.code, 2);
+    assert!(out.stderr.contains("input voltage"));
 }
 
 /// `point --json` with tolerances: the robust window lies inside the true
@@ -244,25 +232,20 @@ fn point_robust_window_lies_inside_every_true_window() {
         (2.2e-6, 3.3e-9, 30.0, 2.9, 0.05, 0.05, 0.02, 0.01),
         (680e-9, 10e-9, 36.0, 14.0, 0.08, 0.10, 0.01, 0.03),
     ] {
-        let out = std::process::Command::new(env!("CARGO_BIN_EXE_zvs-timing"))
-            .args(["point", "--json"])
-            .args(["--lr", &lr.to_string(), "--cr", &cr.to_string()])
-            .args(["--vin", &vin.to_string(), "--io", &io.to_string()])
-            .args([
-                "--lr-tol",
-                &format!("{}%", lt * 100.0),
-                "--cr-tol",
-                &cr_pct(ct),
-            ])
-            .args(["--vin-err", &ve.to_string(), "--io-err", &ie.to_string()])
-            .output()
-            .unwrap();
-        assert!(
-            out.status.success(),
-            "{}",
-            String::from_utf8_lossy(&out.stderr)
+        let out = common::run(
+            common::zvs_timing()
+                .args(["point", "--json"])
+                .args(["--lr", &lr.to_string(), "--cr", &cr.to_string()])
+                .args(["--vin", &vin.to_string(), "--io", &io.to_string()])
+                .args([
+                    "--lr-tol",
+                    &format!("{}%", lt * 100.0),
+                    "--cr-tol",
+                    &cr_pct(ct),
+                ])
+                .args(["--vin-err", &ve.to_string(), "--io-err", &ie.to_string()]),
         );
-        let j: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+        let j = out.json();
         let (Some(o), Some(c)) = (
             j["robust_window_open_s"].as_f64(),
             j["robust_window_close_s"].as_f64(),
@@ -288,14 +271,11 @@ fn point_robust_window_lies_inside_every_true_window() {
         }
     }
     // A bad tolerance names its option.
-    let out = std::process::Command::new(env!("CARGO_BIN_EXE_zvs-timing"))
-        .args([
-            "point", "--lr", "1u", "--cr", "6.8n", "--vin", "48", "--io", "6", "--lr-tol", "80%",
-        ])
-        .output()
-        .unwrap();
-    assert_eq!(out.status.code(), Some(2));
-    assert!(String::from_utf8_lossy(&out.stderr).contains("--lr-tol"));
+    let out = common::run(common::zvs_timing().args([
+        "point", "--lr", "1u", "--cr", "6.8n", "--vin", "48", "--io", "6", "--lr-tol", "80%",
+    ]));
+    assert_eq!(out.code, 2);
+    assert!(out.stderr.contains("--lr-tol"));
 }
 
 /// The 16 corners of the unit 4-box and `n` interior points from a
@@ -332,22 +312,17 @@ fn point_robust_window_of_a_real_tank_lies_inside_every_true_window() {
         (2.2e-9, 0.25, 58.0, 9.0, 0.08, 0.04, 0.02, 0.03),
         (4.7e-9, 0.0, 38.0, 6.2, 0.03, 0.08, 0.01, 0.01),
     ] {
-        let out = std::process::Command::new(env!("CARGO_BIN_EXE_zvs-timing"))
-            .args(["point", "--json", "--lr", "1u", "--cr", &cr.to_string()])
-            .arg("--coss")
-            .arg(&csv)
-            .args(["--tank-resistance", &r.to_string()])
-            .args(["--vin", &vin.to_string(), "--io", &io.to_string()])
-            .args(["--lr-tol", &cr_pct(lt), "--cr-tol", &cr_pct(ct)])
-            .args(["--vin-err", &ve.to_string(), "--io-err", &ie.to_string()])
-            .output()
-            .unwrap();
-        assert!(
-            out.status.success(),
-            "{}",
-            String::from_utf8_lossy(&out.stderr)
+        let out = common::run(
+            common::zvs_timing()
+                .args(["point", "--json", "--lr", "1u", "--cr", &cr.to_string()])
+                .arg("--coss")
+                .arg(&csv)
+                .args(["--tank-resistance", &r.to_string()])
+                .args(["--vin", &vin.to_string(), "--io", &io.to_string()])
+                .args(["--lr-tol", &cr_pct(lt), "--cr-tol", &cr_pct(ct)])
+                .args(["--vin-err", &ve.to_string(), "--io-err", &ie.to_string()]),
         );
-        let j: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+        let j = out.json();
         let (Some(o), Some(c)) = (
             j["robust_window_open_s"].as_f64(),
             j["robust_window_close_s"].as_f64(),

@@ -4,8 +4,9 @@
 
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)]
 
+mod common;
+
 use std::path::Path;
-use std::process::Command;
 
 use host_tool::input::design::DesignError;
 use host_tool::model::design::Design;
@@ -119,15 +120,8 @@ fn impossible_designs_get_a_plain_sentence() {
 }
 
 fn zvs_timing(args: &[&str]) -> (i32, String, String) {
-    let out = Command::new(env!("CARGO_BIN_EXE_zvs-timing"))
-        .args(args)
-        .output()
-        .unwrap();
-    (
-        out.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&out.stdout).into_owned(),
-        String::from_utf8_lossy(&out.stderr).into_owned(),
-    )
+    let r = common::zvs(args);
+    (r.code, r.stdout, r.stderr)
 }
 
 #[test]

@@ -4,6 +4,8 @@
 
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)]
 
+mod common;
+
 use std::path::Path;
 
 use host_tool::check::montecarlo::{run, MonteCarloError};
@@ -105,33 +107,22 @@ fn monte_carlo_runs() {
 
 #[test]
 fn the_command_reports_in_json_and_names_missing_inputs() {
-    let root = Path::new(env!("CARGO_MANIFEST_DIR")).join("..");
-    let out = std::process::Command::new(env!("CARGO_BIN_EXE_zvs-timing"))
-        .args([
-            "montecarlo",
-            "tables/winch_aux.toml",
-            "--table",
-            "tables/winch_aux.bin",
-        ])
-        .args(["--boards", "5", "--cycles", "50", "--seed", "3", "--json"])
-        .current_dir(&root)
-        .output()
-        .unwrap();
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
+    let out = common::run(
+        common::zvs_timing()
+            .args([
+                "montecarlo",
+                "tables/winch_aux.toml",
+                "--table",
+                "tables/winch_aux.bin",
+            ])
+            .args(["--boards", "5", "--cycles", "50", "--seed", "3", "--json"]),
     );
-    let j: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let j = out.json();
     assert_eq!(j["boards"], 5);
     assert_eq!(j["seed"], 3);
     assert!(j["inside_fraction"].as_f64().unwrap() > 0.8);
     assert!(j["caution"].as_str().unwrap().contains("lethal"));
-    let out = std::process::Command::new(env!("CARGO_BIN_EXE_zvs-timing"))
-        .args(["montecarlo", "tables/winch_aux.toml"])
-        .current_dir(&root)
-        .output()
-        .unwrap();
-    assert_eq!(out.status.code(), Some(2));
-    assert!(String::from_utf8_lossy(&out.stderr).contains("--table"));
+    let out = common::run(common::zvs_timing().args(["montecarlo", "tables/winch_aux.toml"]));
+    assert_eq!(out.code, 2);
+    assert!(out.stderr.contains("--table"));
 }

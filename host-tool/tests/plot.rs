@@ -4,6 +4,8 @@
 
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)]
 
+mod common;
+
 use std::path::Path;
 
 use host_tool::model::design::Design;
@@ -124,18 +126,12 @@ fn the_cycle_shows_traces_and_the_window_where_the_model_puts_them() {
 #[test]
 fn the_command_writes_four_pictures() {
     let dir = std::env::temp_dir().join(format!("zvs-plot-{}", std::process::id()));
-    let out = std::process::Command::new(env!("CARGO_BIN_EXE_zvs-timing"))
-        .arg("plot")
-        .arg(Path::new(env!("CARGO_MANIFEST_DIR")).join("../tables/winch_aux.toml"))
-        .arg("--out")
-        .arg(&dir)
-        .output()
-        .unwrap();
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
+    common::run(
+        common::zvs_timing()
+            .args(["plot", "tables/winch_aux.toml", "--out"])
+            .arg(&dir),
+    )
+    .ok();
     for f in [
         "delay_map.svg",
         "window_map.svg",
@@ -145,13 +141,13 @@ fn the_command_writes_four_pictures() {
         let text = std::fs::read_to_string(dir.join(f)).unwrap();
         assert!(text.starts_with("<svg"), "{f}");
     }
-    let out = std::process::Command::new(env!("CARGO_BIN_EXE_zvs-timing"))
-        .arg("plot")
-        .arg(Path::new(env!("CARGO_MANIFEST_DIR")).join("../tables/winch_aux.toml"))
-        .args(["--out", "/tmp/unused", "--vin", "48"])
-        .output()
-        .unwrap();
-    assert_eq!(out.status.code(), Some(2));
+    let out = common::run(
+        common::zvs_timing()
+            .arg("plot")
+            .arg(Path::new(env!("CARGO_MANIFEST_DIR")).join("../tables/winch_aux.toml"))
+            .args(["--out", "/tmp/unused", "--vin", "48"]),
+    );
+    assert_eq!(out.code, 2);
 }
 
 #[test]

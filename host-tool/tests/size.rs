@@ -7,7 +7,7 @@
 
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)]
 
-use std::process::Command;
+mod common;
 
 use host_tool::analysis::size::{size, SizeInput};
 use timing_core::Topology;
@@ -141,11 +141,8 @@ fn an_empty_interval_comes_with_its_trade_offs() {
     assert!(r.trade_offs[0].contains("valley"), "{:?}", r.trade_offs);
 }
 
-fn zvs_timing(args: &[&str]) -> std::process::Output {
-    Command::new(env!("CARGO_BIN_EXE_zvs-timing"))
-        .args(args)
-        .output()
-        .unwrap()
+fn zvs_timing(args: &[&str]) -> common::Run {
+    common::zvs(args)
 }
 
 #[test]
@@ -164,12 +161,7 @@ fn the_cli_reports_the_interval_in_json_and_refuses_bad_input() {
         "1M",
         "--json",
     ]);
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    let j: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let j = out.json();
     assert!((j["z0_min_ohm"].as_f64().unwrap() - 15.0).abs() < 1e-9);
     assert!((j["z0_max_ohm"].as_f64().unwrap() - 17.5).abs() < 1e-9);
     assert!(j["caution"].as_str().unwrap().contains("reduced voltage"));
@@ -183,11 +175,11 @@ fn the_cli_reports_the_interval_in_json_and_refuses_bad_input() {
         "150",
         "--json",
     ]);
-    let j: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let j: serde_json::Value = serde_json::from_str(&out.stdout).unwrap();
     assert!(j["z0_min_ohm"].is_null() && j["z0_max_ohm"].is_null());
     let out = zvs_timing(&["size", "--vin", "60", "--io", "1:8", "--vds-rating", "150"]);
-    assert_eq!(out.status.code(), Some(2));
-    assert!(String::from_utf8_lossy(&out.stderr).contains("--vin"));
+    assert_eq!(out.code, 2);
+    assert!(out.stderr.contains("--vin"));
     let out = zvs_timing(&[
         "size",
         "--vin",
@@ -199,6 +191,6 @@ fn the_cli_reports_the_interval_in_json_and_refuses_bad_input() {
         "--derating",
         "1.5",
     ]);
-    assert_eq!(out.status.code(), Some(2));
-    assert!(String::from_utf8_lossy(&out.stderr).contains("--derating"));
+    assert_eq!(out.code, 2);
+    assert!(out.stderr.contains("--derating"));
 }

@@ -630,11 +630,24 @@ fn robust(
     if let (Some(ti), Some(on)) = (input.timer, report.commanded_turn_on_s) {
         report.robust_margin_after_open_s = Some(on - rw.open_s);
         report.robust_margin_before_close_s = Some(rw.close_s - on);
-        let lead = ti.turn_on_delay_s - ti.turn_off_delay_s;
-        let ticks = |s: f64| (s - lead) * ti.clock_hz;
-        let target = ticks(rw.open_s + input.position * (rw.close_s - rw.open_s)).round();
-        let (lo, hi) = (ticks(rw.open_s).ceil().max(0.0), ticks(rw.close_s).floor());
-        report.robust_delay_ticks = (lo <= hi).then(|| target.clamp(lo, hi) as u32);
+        // The timer's own placement (timing-core), on the robust window:
+        // none where no tick lands in it.
+        let timer = Timer::new(
+            ti.clock_hz,
+            ti.counter_bits,
+            ti.turn_on_delay_s,
+            ti.turn_off_delay_s,
+        )?;
+        let robust = timing_core::TurnOn::Zvs(timing_core::ZvsWindow {
+            open_s: rw.open_s,
+            close_s: rw.close_s,
+            ramp_end_s: rw.open_s,
+        });
+        report.robust_delay_ticks = WindowPosition::new(input.position)
+            .and_then(|p| timer.command_for(&robust, p))
+            .ok()
+            .filter(|c| c.is_in_window())
+            .map(|c| c.ticks().get());
         if report.robust_delay_ticks.is_none() {
             report.warnings.push(format!(
                 "the robust window is {:.2} ns wide, narrower than a tick ({:.2} ns): no delay is \
@@ -664,15 +677,7 @@ fn real_robust_window(
     use crate::tank::robust_grid::{true_range, TankSpread, WindowGrid};
     let vin = true_range(input.vin_v, u.vin_rel, u.vin_abs_v);
     let io = true_range(input.io_a, u.io_rel, u.io_abs_a);
-    let (mut v, mut i) = ((f64::INFINITY, 0.0f64), (f64::INFINITY, 0.0f64));
-    for x in [vin.0, vin.1] {
-        for y in [io.0, io.1] {
-            let c =
-                CellPoint::from_converter(input.topology, x, input.vout_v.unwrap_or(f64::NAN), y)?;
-            v = (v.0.min(c.v_volt()), v.1.max(c.v_volt()));
-            i = (i.0.min(c.i_amp()), i.1.max(c.i_amp()));
-        }
-    }
+    let (v, i) = crate::tank::cell_box::cell_box(input.topology, input.vout_v, vin, io)?;
     let spread = TankSpread::new(u.lr_rel, u.cr_rel);
     let grid = WindowGrid::new(real, &spread, v, i)?;
     Ok(grid.robust(v, i, &spread, u.jitter_s))

@@ -10,10 +10,9 @@
 
 use std::ops::{Deref, DerefMut};
 
-use timing_core::CellPoint;
-
 use crate::input::design::{DesignError, DesignSpec};
 use crate::model::robust_aim::{AimCache, RobustAim};
+use crate::tank::cell_box::cell_box;
 use crate::tank::event_grid::EventGrid;
 use crate::tank::load_grid::LoadGrid;
 
@@ -118,22 +117,16 @@ impl Design {
         self.aim.get(self)
     }
 
-    /// The cells at the corners of the design range (every cell voltage,
-    /// current and load of the range lies between theirs); `None` where
-    /// one is refused. Codes at or below the sensor zero read no current
+    /// The cell's voltage and current ranges over the design range;
+    /// `None` where a corner is refused. Codes at or below the sensor zero read no current
     /// (the model refuses them whatever a grid holds): the lowest current
     /// taken is at least 1e-3 of the highest.
-    fn corner_cells(&self) -> Option<[CellPoint<f64>; 4]> {
+    fn cell_range(&self) -> Option<((f64, f64), (f64, f64))> {
         let (v, i) = (self.vin_codes, self.io_codes);
         let io_hi = self.io_of(i.hi);
         let io_lo = self.io_of(i.lo).max(1e-3 * io_hi);
-        let (v_lo, v_hi) = (self.vin_of(v.lo), self.vin_of(v.hi));
-        Some([
-            self.cell(v_lo, io_lo).ok()?,
-            self.cell(v_lo, io_hi).ok()?,
-            self.cell(v_hi, io_lo).ok()?,
-            self.cell(v_hi, io_hi).ok()?,
-        ])
+        let vin = (self.vin_of(v.lo), self.vin_of(v.hi));
+        cell_box(self.topology, self.vout_v, vin, (io_lo, io_hi)).ok()
     }
 
     /// The ring's events tabulated over the design's cell range
@@ -148,11 +141,7 @@ impl Design {
                 let Ok(crate::tank::real_tank::CellSolver::Ring(ring)) = self.real.solver() else {
                     return None;
                 };
-                let (mut cv, mut ci) = ((f64::INFINITY, 0.0f64), (f64::INFINITY, 0.0f64));
-                for c in self.corner_cells()? {
-                    cv = (cv.0.min(c.v_volt()), cv.1.max(c.v_volt()));
-                    ci = (ci.0.min(c.i_amp()), ci.1.max(c.i_amp()));
-                }
+                let (cv, ci) = self.cell_range()?;
                 EventGrid::new(&ring, cv, ci).ok()
             })
             .as_ref()
@@ -170,11 +159,10 @@ impl Design {
                 let Ok(crate::tank::real_tank::CellSolver::Ideal(tank)) = self.real.solver() else {
                     return None;
                 };
-                let (mut lo, mut hi) = (f64::INFINITY, 0.0f64);
-                for c in self.corner_cells()? {
-                    let j = c.i_amp() * tank.z0_ohm() / c.v_volt();
-                    (lo, hi) = (lo.min(j), hi.max(j));
-                }
+                // J = I*Z0/V is least at the least current and the
+                // highest voltage of the cell's range, and the reverse.
+                let (v, i) = self.cell_range()?;
+                let (lo, hi) = (i.0 * tank.z0_ohm() / v.1, i.1 * tank.z0_ohm() / v.0);
                 LoadGrid::new(&tank, lo, hi).ok()
             })
             .as_ref()

@@ -253,22 +253,15 @@ fn sensed_io(design: &DesignSpec, tol: &Tolerance, io_a: f64) -> (f64, f64) {
     true_range(io_a, tol.io_gain_rel, abs)
 }
 
-/// Cell voltage and current ranges of a converter box (through its
-/// corners), `None` where a corner is not a valid operating point.
+/// Cell voltage and current ranges of a converter box
+/// ([`crate::tank::cell_box::cell_box`]), `None` where a corner is not a
+/// valid operating point.
 fn cell_box(
     design: &DesignSpec,
     vin: (f64, f64),
     io: (f64, f64),
 ) -> Option<((f64, f64), (f64, f64))> {
-    let (mut v, mut i) = ((f64::INFINITY, 0.0f64), (f64::INFINITY, 0.0f64));
-    for x in [vin.0, vin.1] {
-        for y in [io.0, io.1] {
-            let c = design.cell(x, y).ok()?;
-            v = (v.0.min(c.v_volt()), v.1.max(c.v_volt()));
-            i = (i.0.min(c.i_amp()), i.1.max(c.i_amp()));
-        }
-    }
-    Some((v, i))
+    crate::tank::cell_box::cell_box(design.topology, design.vout_v, vin, io).ok()
 }
 
 /// A design's [`RobustAim`], built on first use. A clone starts empty, and

@@ -4,11 +4,13 @@
 //! tabulated with their error counted ([`event_grid`]), the ideal tank's as
 //! a function of the load alone ([`load_grid`]); and the windows a box of
 //! tanks shares ([`robust_grid`]) or the minimax aim over it
-//! ([`aim_grid`]). Nothing here knows a design file.
+//! ([`aim_grid`]). The cell's ranges over a box of operating points ([`cell_box`]).
+//! Nothing here knows a design file.
 //!
 //! Imports: the leaves ([`crate::units`], [`crate::par`]) and timing-core.
 
 pub mod aim_grid;
+pub mod cell_box;
 pub mod event_grid;
 pub mod load_grid;
 pub mod real_tank;
