@@ -23,7 +23,8 @@
 //! 7. [`analysis`]: one operating point, tank sizing;
 //! 8. [`emit`] (firmware sources and blobs), [`sim`] (SPICE decks and
 //!    ngspice), [`report`] (text and pictures);
-//! 9. the `zvs-timing` binary (`main.rs`).
+//! 9. the `zvs-timing` binary (`bin/zvs-timing/`, a file a command with
+//!    the arguments it takes).
 //!
 //! **Caution:** resonant converters run at lethal voltages. See
 //! [`analysis::point::CAUTION`].

@@ -24,14 +24,17 @@ fn src() -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR")).join("src")
 }
 
-/// Every library source file (not the binary's `main.rs`) by module path
+/// Every library source file (not the binary's, under `src/bin`) by module path
 /// (`check::verify`, `generate`, `units`).
 fn modules() -> BTreeMap<String, String> {
     fn walk(dir: &Path, prefix: &str, out: &mut BTreeMap<String, String>) {
         for e in std::fs::read_dir(dir).unwrap() {
             let p = e.unwrap().path();
             let name = p.file_stem().unwrap().to_str().unwrap().to_owned();
-            if p.is_dir() {
+            if p.is_dir() && name == "bin" {
+                // The binary: the last stage, using the library's API.
+                continue;
+            } else if p.is_dir() {
                 walk(&p, &format!("{prefix}{name}::"), out);
             } else if p.extension().is_some_and(|x| x == "rs") {
                 let module = match name.as_str() {

@@ -3,6 +3,8 @@
 use std::fmt::Write as _;
 
 use crate::analysis::point::PointReport;
+use crate::check::montecarlo::MonteCarloReport;
+use crate::check::verify::VerifyReport;
 use crate::units::format_si;
 
 fn ns(t: f64) -> String {
@@ -219,5 +221,119 @@ pub fn size_text(r: &crate::analysis::size::SizeReport) -> String {
         let _ = writeln!(s, "warning: {w}");
     }
     let _ = writeln!(s, "\n{}", crate::analysis::point::CAUTION);
+    s
+}
+
+/// The verification report as people read it: pairs checked, the worst
+/// error and where, the window's hits and misses, margins, and what the
+/// tolerances leave; `clock_hz` (hertz) turns margins into ticks.
+#[must_use]
+pub fn verification_text(v: &VerifyReport, clock_hz: f64) -> String {
+    let mut s = String::new();
+    let _ = writeln!(
+        s,
+        "method {}: verified {} of {} code pairs: max error {:.3} ticks at vin code {} ({:.3} V), io code {} ({:.4} A); RMS {:.3} ticks",
+        v.method, v.points_checked, v.pairs_in_range, v.max_error_ticks, v.worst_vin_code, v.worst_vin_v, v.worst_io_code, v.worst_io_a, v.rms_error_ticks
+    );
+    if v.pairs_evaluated < v.points_checked {
+        let _ = writeln!(
+        s,
+            "{} pairs evaluated; the other {} double both codes of one of them (ideal tank, table indexed by the code ratio: the same load, window and command), so share its verdict",
+            v.pairs_evaluated,
+            v.points_checked - v.pairs_evaluated
+        );
+    }
+    if let (Some(e), Some((cv, ci))) = (
+        v.max_approximation_error_ticks,
+        v.max_approximation_error_at,
+    ) {
+        let _ = writeln!(
+        s,
+            "approximation error before rounding to whole ticks: at most {e:.4} ticks (vin code {cv}, io code {ci})"
+        );
+    }
+    let _ = writeln!(
+        s,
+        "ZVS pairs: {}; commanded turn-ons outside the true window: {} ({} early, {} late), {} of them where the window is a tick wide or more; windows narrower than a tick: {}",
+        v.zvs_points, v.outside_window, v.early, v.late, v.outside_window_wide, v.narrower_than_a_tick
+    );
+    if let (Some(j), Some(width)) = (v.outside_window_max_load, v.outside_window_max_width_ticks) {
+        let _ = writeln!(
+            s,
+            "every miss is at J <= {j:.4}, where the ZVS window is at most {width:.2} ticks wide"
+        );
+    }
+    if let Some(m) = v.min_margin_s {
+        let _ = writeln!(
+            s,
+            "smallest margin to a window edge: {} ({:.2} ticks)",
+            format_si(m, "s"),
+            m * clock_hz
+        );
+    }
+    if v.robust_points + v.zvs_unreliable > 0 {
+        let _ = writeln!(
+        s,
+            "tolerances: {} ZVS pairs have a robust window a tick wide or more, {} outside it; {} are treated as ZVS-impossible (no window every board shares, a tick wide)",
+            v.robust_points, v.outside_robust_window, v.zvs_unreliable
+        );
+        if let Some(m) = v.min_robust_margin_s {
+            let _ = writeln!(
+                s,
+                "worst margin to a robust-window edge: {} ({:.2} ticks{})",
+                format_si(m, "s"),
+                m * clock_hz,
+                if m < 0.0 { ", outside" } else { "" }
+            );
+        }
+    }
+    s
+}
+
+/// The Monte Carlo report as people read it: turn-ons inside the true
+/// window, early and late, the worst board, the readings with a robust
+/// window, and the tolerances drawn from.
+#[must_use]
+pub fn montecarlo_text(r: &MonteCarloReport) -> String {
+    let mut s = String::new();
+    let _ = writeln!(
+        s,
+        "method {}: {} boards x {} cycles (seed {}): {} of {} ZVS turn-ons inside the true window ({:.3} %), {} early, {} late; worst board {:.3} %; {} cycles below the boundary",
+        r.method,
+        r.boards,
+        r.cycles_per_board,
+        r.seed,
+        r.inside,
+        r.zvs_cycles,
+        100.0 * r.inside_fraction,
+        r.early,
+        r.late,
+        100.0 * r.worst_board_inside_fraction,
+        r.valley_cycles
+    );
+    let _ = writeln!(
+        s,
+        "readings with a robust window a tick wide: {} cycles, {} of them inside the true window{}",
+        r.robust_cycles,
+        r.robust_cycles_inside,
+        if r.robust_cycles_inside == r.robust_cycles {
+            ""
+        } else {
+            " (WARNING: the method misses where the tolerances promise a window)"
+        }
+    );
+    let t = r.tolerance;
+    let _ = writeln!(
+        s,
+        "tolerances: Lr ±{:.1} %, C ±{:.1} %, gain ±{:.1} % / ±{:.1} %, offset ±{} / ±{} codes, noise ±{} codes, jitter ±{}",
+        100.0 * t.lr_rel,
+        100.0 * t.cr_rel,
+        100.0 * t.vin_gain_rel,
+        100.0 * t.io_gain_rel,
+        t.vin_offset_codes,
+        t.io_offset_codes,
+        t.noise_codes,
+        format_si(t.jitter_s, "s")
+    );
     s
 }

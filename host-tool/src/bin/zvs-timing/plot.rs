@@ -1,0 +1,36 @@
+//! `zvs-timing plot`: SVG pictures of a design.
+
+use clap::Args;
+
+use crate::args::opt_num;
+
+#[derive(Args)]
+pub(crate) struct PlotArgs {
+    /// Design file (TOML).
+    design: std::path::PathBuf,
+    /// Output folder for delay_map.svg, window_map.svg, error_map.svg and cycle.svg.
+    #[arg(long)]
+    out: std::path::PathBuf,
+    /// Input voltage of the cycle picture, volt (default: mid-range).
+    #[arg(long, allow_hyphen_values = true)]
+    vin: Option<String>,
+    /// Output current of the cycle picture, ampere (default: J = 1.5 at that voltage).
+    #[arg(long, allow_hyphen_values = true)]
+    io: Option<String>,
+}
+
+pub(crate) fn run_plot(args: &PlotArgs) -> anyhow::Result<()> {
+    let design = host_tool::model::design::Design::load(&args.design)?;
+    let vin = opt_num("--vin", args.vin.as_ref(), "V")?;
+    let io = opt_num("--io", args.io.as_ref(), "A")?;
+    let point = match (vin, io) {
+        (Some(v), Some(i)) => Some((v, i)),
+        (None, None) => None,
+        _ => anyhow::bail!("give both --vin and --io for the cycle picture, or neither"),
+    };
+    for f in host_tool::report::plot::write_all(&design, &args.out, point)? {
+        outln!("wrote {}", f.display());
+    }
+    outln!("{}", host_tool::analysis::point::CAUTION);
+    Ok(())
+}

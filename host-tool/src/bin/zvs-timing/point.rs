@@ -1,0 +1,180 @@
+//! `zvs-timing point`: one operating point in detail.
+
+use clap::Args;
+use host_tool::analysis::point::{self, InputError, PointInput, TimerInput};
+
+use crate::args::{fraction, num, opt_num, topology, TopologyArg};
+
+/// Numbers take SI (2e-6) or engineering prefixes (2u, 10n, 170M), optionally with the unit (2uH).
+#[derive(Args)]
+pub(crate) struct PointArgs {
+    /// Resonant inductance Lr, henry.
+    #[arg(long, allow_hyphen_values = true)]
+    lr: String,
+    /// Resonant capacitance Cr across the switch, farad: the whole of it (external plus the
+    /// MOSFET's, taken as constant), or with --coss the external part in parallel with the curve.
+    #[arg(long, allow_hyphen_values = true)]
+    cr: Option<String>,
+    /// CSV file of the MOSFET's output capacitance curve, `volts,farads` per line (a datasheet
+    /// plot read off by hand): the timings come from the non-linear ring.
+    #[arg(long)]
+    coss: Option<std::path::PathBuf>,
+    /// Series resistance of the resonant loop, ohm: the damped ring.
+    #[arg(long, allow_hyphen_values = true)]
+    tank_resistance: Option<String>,
+    /// Input voltage, volt.
+    #[arg(long, allow_hyphen_values = true)]
+    vin: String,
+    /// Output current, ampere.
+    #[arg(long, allow_hyphen_values = true)]
+    io: String,
+    /// Converter the switch sits in.
+    #[arg(long, value_enum, default_value = "buck")]
+    topology: TopologyArg,
+    /// Output voltage, volt: required for boost and buck-boost; for the buck, asks for the
+    /// switching frequency that regulates to it.
+    #[arg(long, allow_hyphen_values = true)]
+    vout: Option<String>,
+    /// Timer clock, hertz: gives the delay in ticks.
+    #[arg(long, allow_hyphen_values = true)]
+    timer_hz: Option<String>,
+    /// Timer counter width, bits.
+    #[arg(long, default_value = "16", allow_hyphen_values = true)]
+    counter_bits: String,
+    /// Gate-driver turn-on propagation delay, second.
+    #[arg(long, default_value = "0", allow_hyphen_values = true)]
+    driver_delay: String,
+    /// Gate-driver turn-off propagation delay, second (the timer counts from the turn-off command).
+    #[arg(long, default_value = "0", allow_hyphen_values = true)]
+    driver_delay_off: String,
+    /// Where in the ZVS window to aim: 0 = earliest (switch at 0 V), 1 = latest (Lr current at 0).
+    #[arg(long, default_value = "0.25", allow_hyphen_values = true)]
+    position: String,
+    /// Switching frequency, hertz: gives the buck conversion ratio.
+    #[arg(long, allow_hyphen_values = true)]
+    fs: Option<String>,
+    /// MOSFET drain-source voltage rating, volt, for the stress warning.
+    #[arg(long, allow_hyphen_values = true)]
+    vds_rating: Option<String>,
+    /// Fraction of the voltage rating allowed in use.
+    #[arg(long, default_value = "0.8", allow_hyphen_values = true)]
+    derating: String,
+    /// Tolerance of Lr, a fraction or a percentage (10%): asks for the robust window.
+    #[arg(long, allow_hyphen_values = true)]
+    lr_tol: Option<String>,
+    /// Tolerance of Cr, a fraction or a percentage.
+    #[arg(long, allow_hyphen_values = true)]
+    cr_tol: Option<String>,
+    /// Relative error of the sensed input voltage (gain), a fraction or a percentage.
+    #[arg(long, allow_hyphen_values = true)]
+    vin_err: Option<String>,
+    /// Relative error of the sensed output current (gain), a fraction or a percentage.
+    #[arg(long, allow_hyphen_values = true)]
+    io_err: Option<String>,
+    /// Absolute error of the sensed input voltage (offset plus peak noise), volt.
+    #[arg(long, allow_hyphen_values = true)]
+    vin_offset: Option<String>,
+    /// Absolute error of the sensed output current (offset plus peak noise), ampere.
+    #[arg(long, allow_hyphen_values = true)]
+    io_offset: Option<String>,
+    /// Peak timer jitter, second.
+    #[arg(long, allow_hyphen_values = true)]
+    jitter: Option<String>,
+    /// Print one JSON object instead of the table.
+    #[arg(long)]
+    json: bool,
+}
+
+impl PointArgs {
+    fn to_input(&self) -> Result<PointInput, InputError> {
+        let timer = match opt_num("--timer-hz", self.timer_hz.as_ref(), "Hz")? {
+            Some(clock_hz) => {
+                let bits = num("--counter-bits", &self.counter_bits, "")?;
+                if !(1.0..=32.0).contains(&bits) || bits.fract() != 0.0 {
+                    return Err(InputError::new(
+                        "--counter-bits",
+                        format!(
+                            "must be a whole number from 1 to 32, got {}",
+                            self.counter_bits
+                        ),
+                    ));
+                }
+                Some(TimerInput {
+                    clock_hz,
+                    counter_bits: bits as u8,
+                    turn_on_delay_s: num("--driver-delay", &self.driver_delay, "s")?,
+                    turn_off_delay_s: num("--driver-delay-off", &self.driver_delay_off, "s")?,
+                })
+            }
+            None => None,
+        };
+        Ok(PointInput {
+            topology: topology(self.topology),
+            lr_h: num("--lr", &self.lr, "H")?,
+            cr_f: match (&self.cr, &self.coss) {
+                (Some(c), _) => num("--cr", c, "F")?,
+                (None, Some(_)) => 0.0,
+                (None, None) => {
+                    return Err(InputError::new(
+                        "--cr",
+                        "is needed (the resonant capacitance), or --coss with a Coss curve",
+                    ))
+                }
+            },
+            coss: match &self.coss {
+                Some(path) => {
+                    host_tool::input::coss_csv::load(path)
+                        .map_err(|e| InputError::new("--coss", e.to_string()))?
+                        .0
+                }
+                None => Vec::new(),
+            },
+            r_tank_ohm: opt_num("--tank-resistance", self.tank_resistance.as_ref(), "ohm")?
+                .unwrap_or(0.0),
+            vin_v: num("--vin", &self.vin, "V")?,
+            vout_v: opt_num("--vout", self.vout.as_ref(), "V")?,
+            io_a: num("--io", &self.io, "A")?,
+            timer,
+            position: num("--position", &self.position, "")?,
+            fs_hz: opt_num("--fs", self.fs.as_ref(), "Hz")?,
+            vds_rating_v: opt_num("--vds-rating", self.vds_rating.as_ref(), "V")?,
+            derating: num("--derating", &self.derating, "")?,
+            uncertainty: self.uncertainty()?,
+        })
+    }
+
+    fn uncertainty(&self) -> Result<Option<point::UncertaintyInput>, InputError> {
+        let parts = [
+            fraction("--lr-tol", self.lr_tol.as_ref())?,
+            fraction("--cr-tol", self.cr_tol.as_ref())?,
+            fraction("--vin-err", self.vin_err.as_ref())?,
+            fraction("--io-err", self.io_err.as_ref())?,
+            opt_num("--jitter", self.jitter.as_ref(), "s")?,
+            opt_num("--vin-offset", self.vin_offset.as_ref(), "V")?,
+            opt_num("--io-offset", self.io_offset.as_ref(), "A")?,
+        ];
+        if parts.iter().all(Option::is_none) {
+            return Ok(None);
+        }
+        let [lr, cr, v, i, j, va, ia] = parts.map(|p| p.unwrap_or(0.0));
+        Ok(Some(point::UncertaintyInput {
+            lr_rel: lr,
+            cr_rel: cr,
+            vin_rel: v,
+            io_rel: i,
+            jitter_s: j,
+            vin_abs_v: va,
+            io_abs_a: ia,
+        }))
+    }
+}
+
+pub(crate) fn run_point(args: &PointArgs) -> anyhow::Result<()> {
+    let report = point::evaluate(&args.to_input()?)?;
+    if args.json {
+        outln!("{}", serde_json::to_string_pretty(&report)?);
+    } else {
+        out!("{}", host_tool::report::render::point_text(&report));
+    }
+    Ok(())
+}

@@ -1,0 +1,156 @@
+//! `zvs-timing verify`: a table blob or a closed-form method against its
+//! design at every code pair; the table file and method readers the
+//! other commands share.
+
+use std::process::ExitCode;
+
+use clap::{Args, ValueEnum};
+
+#[derive(Args)]
+pub(crate) struct VerifyArgs {
+    /// Design file (TOML).
+    design: std::path::PathBuf,
+    /// Table blob written by `table` (<name>.bin); needed for `--method table`.
+    #[arg(long)]
+    table: Option<std::path::PathBuf>,
+    /// The runtime method to check: the table lookup or one of timing-core's
+    /// closed forms (evaluated exactly as the firmware does).
+    #[arg(long, value_enum, default_value = "table")]
+    method: MethodArg,
+    /// Print one JSON object instead of the summary.
+    #[arg(long)]
+    json: bool,
+}
+
+#[derive(Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub(crate) enum MethodArg {
+    /// The flash table (`--table`).
+    Table,
+    /// Closed form in f32 with timing-core's fast approximations.
+    ClosedFormF32,
+    /// Closed form in 32-bit integers (no FPU, no divider).
+    FixedPoint,
+    /// Closed form in f32 with libm (baseline).
+    LibmF32,
+}
+
+/// A table blob read from its file and opened (its integrity and the
+/// design's hash checked), its entries decoded into a `u16` array: the
+/// lookup checked is the one over the entries as firmware holds them in a
+/// Rust or C array, the same code as over the blob's bytes but for the
+/// read of an entry (`timing_core::table::LeBytes`, which
+/// `tests/blob_lookup.rs` checks against the array at every code pair).
+pub(crate) struct TableFile {
+    sensing: timing_core::table::Sensing,
+    layout: timing_core::table::Layout,
+    frac_bits: u8,
+    fallback: timing_core::table::Fallback,
+    entries: Vec<u16>,
+}
+
+/// The table file `table` for the method `which` (`None` for a closed
+/// form).
+pub(crate) fn read_table(
+    design: &host_tool::model::design::Design,
+    table: Option<&std::path::Path>,
+    which: MethodArg,
+) -> anyhow::Result<Option<TableFile>> {
+    use timing_core::table::Entries;
+    let path = match (table, which) {
+        (Some(path), MethodArg::Table) => path,
+        (None, MethodArg::Table) => {
+            anyhow::bail!("--method table needs --table <name>.bin (written by `zvs-timing table`)")
+        }
+        _ => return Ok(None),
+    };
+    let name = path.display();
+    let blob = std::fs::read(path).map_err(|e| anyhow::anyhow!("cannot read {name}: {e}"))?;
+    let (_, t) = timing_core::blob::open(&blob, Some(design.hash))
+        .map_err(|e| anyhow::anyhow!("{name}: integrity check failed: {e}"))?;
+    Ok(Some(TableFile {
+        sensing: *t.sensing(),
+        layout: *t.layout(),
+        frac_bits: t.frac_bits(),
+        fallback: t.fallback(),
+        entries: (0..t.entries().count())
+            .map(|k| t.entries().at(k))
+            .collect(),
+    }))
+}
+
+/// The runtime method `which`: the table of `file` or one of the closed
+/// forms `cf`.
+pub(crate) fn open_method<'a>(
+    cf: &timing_core::closed_form::ClosedForm,
+    file: Option<&'a TableFile>,
+    which: MethodArg,
+) -> anyhow::Result<Box<dyn host_tool::check::verify::DelayMethod + 'a>> {
+    Ok(match (which, file) {
+        (MethodArg::Table, Some(f)) => Box::new(timing_core::table::DelayTable::new(
+            f.sensing,
+            f.layout,
+            f.frac_bits,
+            f.fallback,
+            f.entries.as_slice(),
+        )?),
+        (MethodArg::Table, None) => anyhow::bail!("--method table needs --table <name>.bin"),
+        (MethodArg::ClosedFormF32, _) => Box::new(cf.fast_f32()?),
+        (MethodArg::FixedPoint, _) => Box::new(cf.fixed_point()?),
+        (MethodArg::LibmF32, _) => Box::new(cf.libm_f32()?),
+    })
+}
+
+pub(crate) fn run_verify(args: &VerifyArgs) -> anyhow::Result<ExitCode> {
+    use host_tool::model::design::Design;
+    let design = Design::load(&args.design)?;
+    let cf = design.closed_form()?;
+    let file = read_table(&design, args.table.as_deref(), args.method)?;
+    let method = open_method(&cf, file.as_ref(), args.method)?;
+    let total = u64::from(design.vin_codes.len());
+    let bar = indicatif::ProgressBar::new(total);
+    bar.set_style(
+        indicatif::ProgressStyle::with_template("verifying {bar:40} {percent}% ({eta} left)")
+            .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
+    );
+    // Shown only when the run takes longer than a second.
+    bar.set_draw_target(indicatif::ProgressDrawTarget::hidden());
+    let start = std::time::Instant::now();
+    let mut shown = false;
+    let mut tick = |f: f64| {
+        if !shown && start.elapsed().as_secs_f64() > 1.0 && !args.json {
+            bar.set_draw_target(indicatif::ProgressDrawTarget::stderr());
+            shown = true;
+        }
+        bar.set_position((f * total as f64) as u64);
+    };
+    let v = host_tool::check::verify::verify(&design, method.as_ref(), Some(&mut tick));
+    bar.finish_and_clear();
+    let ok = v.max_error_ticks <= design.max_error_ticks
+        && v.model_errors == 0
+        && v.points_checked == v.pairs_in_range;
+    if args.json {
+        let j = serde_json::json!({
+            "ok": ok,
+            "max_error_ticks": v.max_error_ticks,
+            "max_error_budget_ticks": design.max_error_ticks,
+            "points_checked": v.points_checked,
+            "report": v,
+            "seconds": start.elapsed().as_secs_f64(),
+        });
+        outln!("{}", serde_json::to_string_pretty(&j)?);
+    } else {
+        out!(
+            "{}",
+            host_tool::report::render::verification_text(&v, design.timer.clock_hz())
+        );
+    }
+    if ok {
+        Ok(ExitCode::SUCCESS)
+    } else {
+        eprintln!(
+            "zvs-timing: error: {} error {:.3} ticks exceeds max_error_ticks = {}",
+            v.method, v.max_error_ticks, design.max_error_ticks
+        );
+        Ok(ExitCode::from(1))
+    }
+}
