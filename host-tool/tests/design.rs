@@ -29,7 +29,7 @@ fn malformed(text: &str) -> String {
 
 fn invalid(text: &str) -> String {
     match Design::parse(text, ORIGIN) {
-        Err(DesignError::Invalid { message, .. }) => message,
+        Err(DesignError::Invalid { problem, .. }) => problem.to_string(),
         other => panic!("expected an invalid-design error, got {other:?}"),
     }
 }
@@ -244,7 +244,7 @@ fn coss_curves_in_design_files() {
     let ideal = Design::parse(&no_curve.replace("r_tank = \"80m\"", ""), origin).unwrap();
     assert!(ideal.model_summary().contains("closed forms"));
     let m = match Design::parse(&no_curve.replace("cr = \"5.6n\"", ""), origin) {
-        Err(DesignError::Invalid { message, .. }) => message,
+        Err(DesignError::Invalid { problem, .. }) => problem.to_string(),
         other => panic!("{other:?}"),
     };
     assert!(m.contains("cr is missing"), "{m}");
@@ -272,7 +272,7 @@ fn coss_curves_in_design_files() {
         }
         let t = demo_text().replace("winch_aux_coss.csv", file);
         let m = match Design::parse(&t, origin) {
-            Err(DesignError::Invalid { message, .. }) => message,
+            Err(DesignError::Invalid { problem, .. }) => problem.to_string(),
             other => panic!("{other:?}"),
         };
         assert!(m.contains(phrase), "`{m}` should say `{phrase}`");
@@ -282,7 +282,7 @@ fn coss_curves_in_design_files() {
         &demo_text().replace("r_tank = \"80m\"", "r_tank = \"-1\""),
         origin,
     ) {
-        Err(DesignError::Invalid { message, .. }) => message,
+        Err(DesignError::Invalid { problem, .. }) => problem.to_string(),
         other => panic!("{other:?}"),
     };
     assert!(m.starts_with("r_tank: ") && m.contains("-1"), "{m}");

@@ -99,7 +99,7 @@ fn monte_carlo_runs() {
         ),
         ORIGIN,
     ) {
-        Err(host_tool::input::design::DesignError::Invalid { message, .. }) => message,
+        Err(host_tool::input::design::DesignError::Invalid { problem, .. }) => problem.to_string(),
         other => panic!("{other:?}"),
     };
     assert!(m.contains("tolerance.cr = 0.7"), "{m}");

@@ -81,8 +81,8 @@ fn proof_line(s: &mut String, v: &VerifyReport) {
 /// out with a comment that says why.
 ///
 /// # Errors
-/// timing-core's refusal of the design's code scaling, as a sentence.
-pub fn closed_form_source(design: &Design) -> Result<String, String> {
+/// timing-core's refusal of the design's code scaling.
+pub fn closed_form_source(design: &Design) -> Result<String, timing_core::Error> {
     closed_form_source_with(design, None)
 }
 
@@ -95,8 +95,8 @@ pub fn closed_form_source(design: &Design) -> Result<String, String> {
 pub fn closed_form_source_with(
     design: &Design,
     done: Option<&[VerifyReport]>,
-) -> Result<String, String> {
-    let cf = design.closed_form().map_err(|e| e.to_string())?;
+) -> Result<String, timing_core::Error> {
+    let cf = design.closed_form()?;
     let fast = cf.fast_f32();
     let fixed = cf.fixed_point();
     let libm = cf.libm_f32();
@@ -116,26 +116,13 @@ pub fn closed_form_source_with(
         design.io_codes.hi
     );
     // One pass over the code pairs for all three methods.
-    let named: [(&str, Result<&dyn DelayMethod, String>); 3] = [
+    let named: [(&str, Result<&dyn DelayMethod, &timing_core::Error>); 3] = [
         (
             "closed-form-f32",
-            fast.as_ref()
-                .map(|m| m as &dyn DelayMethod)
-                .map_err(ToString::to_string),
+            fast.as_ref().map(|m| m as &dyn DelayMethod),
         ),
-        (
-            "fixed-point",
-            fixed
-                .as_ref()
-                .map(|m| m as &dyn DelayMethod)
-                .map_err(ToString::to_string),
-        ),
-        (
-            "libm-f32",
-            libm.as_ref()
-                .map(|m| m as &dyn DelayMethod)
-                .map_err(ToString::to_string),
-        ),
+        ("fixed-point", fixed.as_ref().map(|m| m as &dyn DelayMethod)),
+        ("libm-f32", libm.as_ref().map(|m| m as &dyn DelayMethod)),
     ];
     let known = |name: &str| done.and_then(|d| d.iter().find(|r| r.method == name));
     let missing: Vec<&dyn DelayMethod> = named

@@ -727,13 +727,33 @@ fn write_with(
     Ok(w)
 }
 
+/// Why a firmware build's table could not be made.
+#[derive(Debug, thiserror::Error)]
+#[non_exhaustive]
+pub enum FirmwareError {
+    /// The design file is unreadable, malformed or invalid.
+    #[error(transparent)]
+    Design(#[from] crate::input::design::DesignError),
+    /// No table meets the design's budget, or the model refused it.
+    #[error("{path}: {source}")]
+    Generate {
+        /// The design file.
+        path: String,
+        /// Generation's error.
+        source: crate::generate::GenerateError,
+    },
+    /// The blob could not be encoded.
+    #[error("blob: {0}")]
+    Blob(#[from] postcard::Error),
+}
+
 /// For a firmware crate's `build.rs`: read the design file at `path`,
 /// generate and verify its table, and return the Rust source to write into
 /// `OUT_DIR` (the same text `zvs-timing table` writes as `<name>.rs`).
 ///
 /// # Errors
-/// The design, generation or verification error as a sentence.
-pub fn rust_source_for_design_file(path: &std::path::Path) -> Result<String, String> {
+/// [`FirmwareError`].
+pub fn rust_source_for_design_file(path: &std::path::Path) -> Result<String, FirmwareError> {
     firmware_table(path, None).map(|(source, _)| source)
 }
 
@@ -782,17 +802,20 @@ pub fn firmware_layout(target: &str) -> crate::input::design::LayoutChoice {
 /// build scripts.
 ///
 /// # Errors
-/// The design's or generation's error as text.
+/// [`FirmwareError`].
 pub fn firmware_table(
     path: &std::path::Path,
     layout: Option<crate::input::design::LayoutChoice>,
-) -> Result<(String, Vec<u8>), String> {
-    let mut design = Design::load(path).map_err(|e| e.to_string())?;
+) -> Result<(String, Vec<u8>), FirmwareError> {
+    let mut design = Design::load(path)?;
     if let Some(l) = layout {
         design.layout = l;
     }
-    let out = crate::generate::generate(&design).map_err(|e| format!("{}: {e}", path.display()))?;
-    let bin = blob(&design, &out.table).map_err(|e| e.to_string())?;
+    let out = crate::generate::generate(&design).map_err(|source| FirmwareError::Generate {
+        path: path.display().to_string(),
+        source,
+    })?;
+    let bin = blob(&design, &out.table)?;
     Ok((rust_source(&design, &out.table, &out.verification), bin))
 }
 

@@ -198,7 +198,7 @@ pub struct Tolerance {
 }
 
 impl ToleranceFile {
-    fn validate(&self) -> Result<Tolerance, String> {
+    fn validate(&self) -> Result<Tolerance, Invalid> {
         for (key, v, max) in [
             ("tolerance.lr", self.lr.0, 0.5),
             ("tolerance.cr", self.cr.0, 0.5),
@@ -210,7 +210,7 @@ impl ToleranceFile {
             ("tolerance.jitter", self.jitter.0, 1e-6),
         ] {
             if !(v.is_finite() && (0.0..=max).contains(&v)) {
-                return Err(format!("{key} = {v} must lie in [0, {max}] (a half-width)"));
+                return Err(Invalid::Tolerance { key, value: v, max });
             }
         }
         Ok(Tolerance {
@@ -382,6 +382,172 @@ pub struct DesignSpec {
     pub tolerance: Option<Tolerance>,
 }
 
+/// What makes a design file's values impossible or inconsistent: each
+/// names the key and the value at fault (its text is the sentence
+/// `zvs-timing` prints).
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[non_exhaustive]
+pub enum Invalid {
+    /// The name is not a C identifier.
+    #[error("name `{0}` must be a C identifier (letters, digits, _; not starting with a digit): it prefixes the C symbols")]
+    Name(String),
+    /// The Coss curve file could not be used.
+    #[error("coss: {0}")]
+    Coss(#[from] crate::input::coss_csv::CossCsvError),
+    /// Neither `cr` nor a Coss curve.
+    #[error("cr is missing: give the resonant capacitance, or a Coss curve (coss = \"FILE.csv\") with cr as the external part")]
+    MissingCr,
+    /// timing-core refused the value of `key`.
+    #[error("{key}: {source}")]
+    Refused {
+        /// The design-file key (or keys) at fault.
+        key: &'static str,
+        /// timing-core's error, which names the quantity and the value.
+        source: timing_core::Error,
+    },
+    /// The lossy tank cannot reach ZVS at a cell voltage of the range.
+    #[error("r_tank: no ZVS at {cell_v} V cell voltage: {source}")]
+    NoZvs {
+        /// Cell voltage, volt.
+        cell_v: f64,
+        /// timing-core's error.
+        source: timing_core::Error,
+    },
+    /// An operating point of the range is no valid point of the cell.
+    #[error("at {vin_v} V, {io_a} A: {source}")]
+    Point {
+        /// Input voltage, volt.
+        vin_v: f64,
+        /// Output current, ampere (NaN where only the voltage matters).
+        io_a: f64,
+        /// timing-core's error.
+        source: timing_core::Error,
+    },
+    /// A range end that is not a positive number.
+    #[error("{key} = {value}: the range must be positive (at zero current the valley delay is unbounded; start the range at the lightest load the table must serve)")]
+    RangeNotPositive {
+        /// `vin` or `io`.
+        key: &'static str,
+        /// The value given.
+        value: f64,
+    },
+    /// A range whose first value is not below its second.
+    #[error("{key} = [{lo}, {hi}] is an empty range: the first value must be below the second")]
+    EmptyRange {
+        /// `vin` or `io`.
+        key: &'static str,
+        /// First value.
+        lo: f64,
+        /// Second value.
+        hi: f64,
+    },
+    /// A boost or buck-boost without `vout`.
+    #[error("a {topology} design needs `vout`")]
+    NeedsVout {
+        /// Topology name.
+        topology: &'static str,
+    },
+    /// `vout` not a positive voltage.
+    #[error("vout = {0} must be a positive voltage")]
+    VoutNotPositive(f64),
+    /// `vout` on the wrong side of the input range for the topology.
+    #[error("vout = {vout} V must {rule} ({limit} V) for a {topology}")]
+    VoutOutside {
+        /// The value given, volt.
+        vout: f64,
+        /// What it must be, e.g. "exceed the highest input voltage".
+        rule: &'static str,
+        /// The input voltage it must clear, volt.
+        limit: f64,
+        /// Topology name.
+        topology: &'static str,
+    },
+    /// ADC resolution out of range.
+    #[error("adc.bits = {0} must be 8 to 16")]
+    AdcBits(u8),
+    /// An ADC scale that is not a positive number.
+    #[error("{key} = {value} must be a positive scale")]
+    Scale {
+        /// The key.
+        key: &'static str,
+        /// The value given.
+        value: f64,
+    },
+    /// The current sensor's zero beyond the ADC's codes.
+    #[error("adc.io_zero_code = {code} is beyond the {bits}-bit ADC's {max_code}")]
+    ZeroCode {
+        /// The value given.
+        code: u16,
+        /// ADC bits.
+        bits: u8,
+        /// Largest code.
+        max_code: u32,
+    },
+    /// A range that reaches beyond the ADC's full scale.
+    #[error("{key} reaches {hi} {unit}, code {code:.0}, beyond the {bits}-bit ADC's full scale of {full_scale:.4} {unit} (code {max_code})")]
+    BeyondFullScale {
+        /// `vin` or `io`.
+        key: &'static str,
+        /// The range's top, in `unit`.
+        hi: f64,
+        /// `V` or `A`.
+        unit: &'static str,
+        /// The code it would need.
+        code: f64,
+        /// ADC bits.
+        bits: u8,
+        /// Full scale, in `unit`.
+        full_scale: f64,
+        /// Largest code.
+        max_code: u32,
+    },
+    /// A range that holds no ADC code.
+    #[error("{key} = [{lo}, {hi}] {unit} holds no usable ADC code at {scale} {unit}/code")]
+    NoCodes {
+        /// `vin` or `io`.
+        key: &'static str,
+        /// Range start.
+        lo: f64,
+        /// Range end.
+        hi: f64,
+        /// `V` or `A`.
+        unit: &'static str,
+        /// Scale, `unit` per code.
+        scale: f64,
+    },
+    /// The current range starts at or below the sensor's zero code.
+    #[error(
+        "io range starts at the sensor zero: the lightest load must read above adc.io_zero_code"
+    )]
+    RangeAtZero,
+    /// An error budget below what rounding alone costs.
+    #[error("table.max_error_ticks = {0} must be at least 0.5: rounding to whole ticks alone costs half a tick")]
+    MaxError(f64),
+    /// A fixed fallback beyond the counter.
+    #[error("table.fallback_ticks = {ticks} exceeds the {bits}-bit counter's {max}")]
+    FallbackTicks {
+        /// The value given.
+        ticks: u32,
+        /// Counter bits.
+        bits: u8,
+        /// Largest count.
+        max: u32,
+    },
+    /// A fixed fallback without its delay.
+    #[error("table.fallback = \"fixed\" needs table.fallback_ticks")]
+    FallbackNeedsTicks,
+    /// A tolerance half-width out of range.
+    #[error("{key} = {value} must lie in [0, {max}] (a half-width)")]
+    Tolerance {
+        /// The key.
+        key: &'static str,
+        /// The value given.
+        value: f64,
+        /// Largest allowed.
+        max: f64,
+    },
+}
+
 /// A design that cannot be used.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum DesignError {
@@ -403,12 +569,12 @@ pub enum DesignError {
         message: String,
     },
     /// The design is physically impossible or inconsistent.
-    #[error("{path}: {message}")]
+    #[error("{path}: {problem}")]
     Invalid {
         /// File path.
         path: String,
-        /// Plain sentence.
-        message: String,
+        /// What is wrong, naming the key and the value.
+        problem: Invalid,
     },
 }
 
@@ -439,9 +605,9 @@ impl DesignSpec {
             .map(std::path::Path::to_path_buf)
             .unwrap_or_default();
         file.validate(text, &base)
-            .map_err(|message| DesignError::Invalid {
+            .map_err(|problem| DesignError::Invalid {
                 path: origin.to_owned(),
-                message,
+                problem,
             })
     }
 
@@ -532,33 +698,58 @@ fn fitted_tank(
     vin: (f64, f64),
     io: (f64, f64),
     position: f64,
-) -> Result<Tank<f64>, String> {
-    let solver = real.solver().map_err(|e| format!("cr: {e}"))?;
-    let position = WindowPosition::new(position).map_err(|e| format!("timer.position: {e}"))?;
+) -> Result<Tank<f64>, Invalid> {
+    let solver = real
+        .solver()
+        .map_err(|source| Invalid::Refused { key: "cr", source })?;
+    let position = WindowPosition::new(position).map_err(|source| Invalid::Refused {
+        key: "timer.position",
+        source,
+    })?;
     let cell = |v: f64, i: f64| {
-        CellPoint::from_converter(topology, v, vout.unwrap_or(f64::NAN), i)
-            .map_err(|e| format!("vin = {v}, io = {i}: {e}"))
+        CellPoint::from_converter(topology, v, vout.unwrap_or(f64::NAN), i).map_err(|source| {
+            Invalid::Point {
+                vin_v: v,
+                io_a: i,
+                source,
+            }
+        })
     };
     let mid = cell(0.5 * (vin.0 + vin.1), 1.0)?.v_volt();
     let z0 = mid
         / solver
             .boundary_current_a(mid)
-            .map_err(|e| format!("r_tank: no ZVS at {mid} V cell voltage: {e}"))?;
+            .map_err(|source| Invalid::NoZvs {
+                cell_v: mid,
+                source,
+            })?;
     let reference = real
         .equivalent_tank(mid)
-        .map_err(|e| format!("lr/cr: {e}"))?;
+        .map_err(|source| Invalid::Refused {
+            key: "lr/cr",
+            source,
+        })?;
     let w_ref = reference.w0_rad_s();
-    let unit = Tank::new(z0 / w_ref, 1.0 / (z0 * w_ref)).map_err(|e| format!("lr/cr: {e}"))?;
+    let unit = Tank::new(z0 / w_ref, 1.0 / (z0 * w_ref)).map_err(|source| Invalid::Refused {
+        key: "lr/cr",
+        source,
+    })?;
     let (mut num, mut den) = (0.0, 0.0);
     for a in 0..9 {
         for b in 0..17 {
             let v = vin.0 + (vin.1 - vin.0) * f64::from(a) / 8.0;
             let i = io.0 + (io.1 - io.0) * f64::from(b) / 16.0;
             let c = cell(v, i)?;
-            let exact = solver
-                .transition(&c)
-                .map_err(|e| format!("at {v} V, {i} A: {e}"))?;
-            let ideal = Transition::new(&unit, &c).map_err(|e| format!("at {v} V, {i} A: {e}"))?;
+            let exact = solver.transition(&c).map_err(|source| Invalid::Point {
+                vin_v: v,
+                io_a: i,
+                source,
+            })?;
+            let ideal = Transition::new(&unit, &c).map_err(|source| Invalid::Point {
+                vin_v: v,
+                io_a: i,
+                source,
+            })?;
             let (te, ti) = (
                 exact.turn_on.target_s(position),
                 ideal.turn_on_target_s(position),
@@ -568,11 +759,14 @@ fn fitted_tank(
         }
     }
     let w = w_ref * den / num;
-    Tank::new(z0 / w, 1.0 / (z0 * w)).map_err(|e| format!("lr/cr: {e}"))
+    Tank::new(z0 / w, 1.0 / (z0 * w)).map_err(|source| Invalid::Refused {
+        key: "lr/cr",
+        source,
+    })
 }
 
 impl DesignFile {
-    fn validate(&self, text: &str, base: &std::path::Path) -> Result<DesignSpec, String> {
+    fn validate(&self, text: &str, base: &std::path::Path) -> Result<DesignSpec, Invalid> {
         let name_ok = self
             .name
             .chars()
@@ -583,15 +777,11 @@ impl DesignFile {
                 .chars()
                 .all(|c| c.is_ascii_alphanumeric() || c == '_');
         if !name_ok {
-            return Err(format!(
-                "name `{}` must be a C identifier (letters, digits, _; not starting with a digit): it prefixes the C symbols",
-                self.name
-            ));
+            return Err(Invalid::Name(self.name.clone()));
         }
         let (coss, coss_text) = match &self.coss {
             Some(f) => {
-                let (points, text) = crate::input::coss_csv::load(&base.join(f))
-                    .map_err(|e| format!("coss: {e}"))?;
+                let (points, text) = crate::input::coss_csv::load(&base.join(f))?;
                 (points, Some(text))
             }
             None => (Vec::new(), None),
@@ -599,9 +789,7 @@ impl DesignFile {
         let cr_fixed = match (self.cr, coss.is_empty()) {
             (Some(c), _) => c.0,
             (None, false) => 0.0,
-            (None, true) => {
-                return Err("cr is missing: give the resonant capacitance, or a Coss curve (coss = \"FILE.csv\") with cr as the external part".into())
-            }
+            (None, true) => return Err(Invalid::MissingCr),
         };
         let r_tank = self.r_tank.map_or(0.0, |r| r.0);
         let real = RealTank {
@@ -610,8 +798,8 @@ impl DesignFile {
             coss,
             r_tank_ohm: r_tank,
         };
-        real.solver().map_err(|e| {
-            let key = match e {
+        real.solver().map_err(|source| {
+            let key = match source {
                 timing_core::Error::NotPositive {
                     quantity: timing_core::Quantity::ResonantInductance,
                     ..
@@ -622,7 +810,7 @@ impl DesignFile {
                 } => "lr",
                 _ if self.r_tank.is_some()
                     && matches!(
-                        e,
+                        source,
                         timing_core::Error::Negative {
                             quantity: timing_core::Quantity::TankResistance,
                             ..
@@ -636,7 +824,7 @@ impl DesignFile {
                 }
                 _ => "cr",
             };
-            format!("{key}: {e}")
+            Invalid::Refused { key, source }
         })?;
         let topology = match self.topology {
             TopologyFile::Buck => Topology::Buck,
@@ -647,49 +835,69 @@ impl DesignFile {
         let (ilo, ihi) = (self.io[0].0, self.io[1].0);
         for (what, v) in [("vin", vlo), ("vin", vhi), ("io", ilo), ("io", ihi)] {
             if !(v.is_finite() && v > 0.0) {
-                return Err(format!(
-                    "{what} = {v}: the range must be positive (at zero current the valley delay is unbounded; start the range at the lightest load the table must serve)"
-                ));
+                return Err(Invalid::RangeNotPositive {
+                    key: what,
+                    value: v,
+                });
             }
         }
         if vlo >= vhi {
-            return Err(format!(
-                "vin = [{vlo}, {vhi}] is an empty range: the first value must be below the second"
-            ));
+            return Err(Invalid::EmptyRange {
+                key: "vin",
+                lo: vlo,
+                hi: vhi,
+            });
         }
         if ilo >= ihi {
-            return Err(format!(
-                "io = [{ilo}, {ihi}] is an empty range: the first value must be below the second"
-            ));
+            return Err(Invalid::EmptyRange {
+                key: "io",
+                lo: ilo,
+                hi: ihi,
+            });
         }
         let vout = self.vout.map(|v| v.0);
         if topology.needs_vout() && vout.is_none() {
-            return Err(format!("a {} design needs `vout`", topology.name()));
+            return Err(Invalid::NeedsVout {
+                topology: topology.name(),
+            });
         }
         if let Some(v) = vout {
             if !(v.is_finite() && v > 0.0) {
-                return Err(format!("vout = {v} must be a positive voltage"));
+                return Err(Invalid::VoutNotPositive(v));
             }
             if topology == Topology::Boost && v <= vhi {
-                return Err(format!(
-                    "vout = {v} V must exceed the highest input voltage ({vhi} V) for a boost"
-                ));
+                return Err(Invalid::VoutOutside {
+                    vout: v,
+                    rule: "exceed the highest input voltage",
+                    limit: vhi,
+                    topology: topology.name(),
+                });
             }
             if topology == Topology::Buck && v >= vlo {
-                return Err(format!(
-                    "vout = {v} V must be below the lowest input voltage ({vlo} V) for a buck"
-                ));
+                return Err(Invalid::VoutOutside {
+                    vout: v,
+                    rule: "be below the lowest input voltage",
+                    limit: vlo,
+                    topology: topology.name(),
+                });
             }
         }
         // Cell voltages over the range (the boost's is Vout, the others vary).
         let cell_v = |vin: f64| {
             CellPoint::from_converter(topology, vin, vout.unwrap_or(f64::NAN), 1.0)
                 .map(|c| c.v_volt())
-                .map_err(|e| format!("vin = {vin}: {e}"))
+                .map_err(|source| Invalid::Point {
+                    vin_v: vin,
+                    io_a: 1.0,
+                    source,
+                })
         };
         let tank = if real.is_ideal() {
             real.equivalent_tank(cell_v(0.5 * (vlo + vhi))?)
-                .map_err(|e| format!("lr/cr: {e}"))?
+                .map_err(|source| Invalid::Refused {
+                    key: "lr/cr",
+                    source,
+                })?
         } else {
             fitted_tank(
                 &real,
@@ -703,57 +911,68 @@ impl DesignFile {
         let zvs_z0_ohm = if real.is_ideal() {
             tank.z0_ohm()
         } else {
-            let solver = real.solver().map_err(|e| format!("cr: {e}"))?;
+            let solver = real
+                .solver()
+                .map_err(|source| Invalid::Refused { key: "cr", source })?;
             let mut z = f64::INFINITY;
             for k in 0..=16 {
                 let v = cell_v(vlo + (vhi - vlo) * f64::from(k) / 16.0)?;
                 let ib = solver
                     .boundary_current_a(v)
-                    .map_err(|e| format!("r_tank: no ZVS at {v} V cell voltage: {e}"))?;
+                    .map_err(|source| Invalid::NoZvs { cell_v: v, source })?;
                 z = z.min(v / ib);
             }
             z
         };
         let a = &self.adc;
         if !(8..=16).contains(&a.bits) {
-            return Err(format!("adc.bits = {} must be 8 to 16", a.bits));
+            return Err(Invalid::AdcBits(a.bits));
         }
         for (key, v) in [
             ("adc.vin_volts_per_code", a.vin_volts_per_code),
             ("adc.io_amps_per_code", a.io_amps_per_code),
         ] {
             if !(v.is_finite() && v > 0.0) {
-                return Err(format!("{key} = {v} must be a positive scale"));
+                return Err(Invalid::Scale { key, value: v });
             }
         }
         let max_code = (1u32 << a.bits) - 1;
         if u32::from(a.io_zero_code) > max_code {
-            return Err(format!(
-                "adc.io_zero_code = {} is beyond the {}-bit ADC's {max_code}",
-                a.io_zero_code, a.bits
-            ));
+            return Err(Invalid::ZeroCode {
+                code: a.io_zero_code,
+                bits: a.bits,
+                max_code,
+            });
         }
         // Codes inside the design range: those that read within it.
         let code_range = |lo: f64,
                           hi: f64,
                           scale: f64,
                           zero: f64,
-                          key: &str,
-                          unit: &str|
-         -> Result<CodeRange, String> {
+                          key: &'static str,
+                          unit: &'static str|
+         -> Result<CodeRange, Invalid> {
             let c_lo = (lo / scale + zero - 1e-9).ceil();
             let c_hi = (hi / scale + zero + 1e-9).floor();
             if c_hi > f64::from(max_code) {
-                return Err(format!(
-                    "{key} reaches {hi} {unit}, code {c_hi:.0}, beyond the {}-bit ADC's full scale of {:.4} {unit} (code {max_code})",
-                    a.bits,
-                    (f64::from(max_code) - zero) * scale
-                ));
+                return Err(Invalid::BeyondFullScale {
+                    key,
+                    hi,
+                    unit,
+                    code: c_hi,
+                    bits: a.bits,
+                    full_scale: (f64::from(max_code) - zero) * scale,
+                    max_code,
+                });
             }
             if c_lo > c_hi || c_lo < 1.0 {
-                return Err(format!(
-                    "{key} = [{lo}, {hi}] {unit} holds no usable ADC code at {scale} {unit}/code"
-                ));
+                return Err(Invalid::NoCodes {
+                    key,
+                    lo,
+                    hi,
+                    unit,
+                    scale,
+                });
             }
             Ok(CodeRange {
                 lo: c_lo as u16,
@@ -770,7 +989,7 @@ impl DesignFile {
             "A",
         )?;
         if io_codes.lo <= a.io_zero_code {
-            return Err("io range starts at the sensor zero: the lightest load must read above adc.io_zero_code".into());
+            return Err(Invalid::RangeAtZero);
         }
         let t = &self.timer;
         let timer = Timer::new(
@@ -779,15 +998,17 @@ impl DesignFile {
             t.driver_delay.0,
             t.driver_delay_off.0,
         )
-        .map_err(|e| format!("timer: {e}"))?;
-        let position =
-            WindowPosition::new(t.position).map_err(|e| format!("timer.position: {e}"))?;
+        .map_err(|source| Invalid::Refused {
+            key: "timer",
+            source,
+        })?;
+        let position = WindowPosition::new(t.position).map_err(|source| Invalid::Refused {
+            key: "timer.position",
+            source,
+        })?;
         let tb = &self.table;
         if !(tb.max_error_ticks.is_finite() && tb.max_error_ticks >= 0.5) {
-            return Err(format!(
-                "table.max_error_ticks = {} must be at least 0.5: rounding to whole ticks alone costs half a tick",
-                tb.max_error_ticks
-            ));
+            return Err(Invalid::MaxError(tb.max_error_ticks));
         }
         let fallback = match (tb.fallback, tb.fallback_ticks) {
             (FallbackChoice::Valley, _) => timing_core::table::Fallback::Valley,
@@ -795,15 +1016,13 @@ impl DesignFile {
                 timing_core::table::Fallback::Fixed(timing_core::Ticks::new(n))
             }
             (FallbackChoice::Fixed, Some(n)) => {
-                return Err(format!(
-                    "table.fallback_ticks = {n} exceeds the {}-bit counter's {}",
-                    t.counter_bits,
-                    timer.max_ticks().get()
-                ))
+                return Err(Invalid::FallbackTicks {
+                    ticks: n,
+                    bits: t.counter_bits,
+                    max: timer.max_ticks().get(),
+                })
             }
-            (FallbackChoice::Fixed, None) => {
-                return Err("table.fallback = \"fixed\" needs table.fallback_ticks".into())
-            }
+            (FallbackChoice::Fixed, None) => return Err(Invalid::FallbackNeedsTicks),
         };
         Ok(DesignSpec {
             name: self.name.clone(),
