@@ -80,15 +80,52 @@ fn code(text: &str) -> String {
 /// The modules `text` uses, among `known` (the longest module path that
 /// prefixes each `crate::` path).
 fn uses(text: &str, known: &BTreeSet<String>) -> BTreeSet<String> {
+    uses_from(text, known, "")
+}
+
+/// [`uses`] in module `module` (`a::b`): its `super::` paths and the paths
+/// through its own child modules count as well.
+fn uses_from(text: &str, known: &BTreeSet<String>, module: &str) -> BTreeSet<String> {
     let mut out = BTreeSet::new();
     let code = code(text);
     // `crate::a::b::{c, d}` and `crate::a::b::C`: the path up to the first
     // segment that is not a module.
-    for (at, _) in code.match_indices("crate::") {
-        let path: String = code[at + "crate::".len()..]
+    let parent = module.rsplit_once("::").map_or("", |(p, _)| p);
+    let mut paths = Vec::new();
+    let word = |at: usize| -> String {
+        code[at..]
             .chars()
             .take_while(|c| c.is_alphanumeric() || *c == '_' || *c == ':')
-            .collect();
+            .collect()
+    };
+    for (at, _) in code.match_indices("crate::") {
+        paths.push(word(at + "crate::".len()));
+    }
+    for (at, _) in code.match_indices("super::") {
+        let rest = word(at + "super::".len());
+        paths.push(if parent.is_empty() {
+            rest
+        } else {
+            format!("{parent}::{rest}")
+        });
+    }
+    // `use child::...` in a folder's mod.rs.
+    for line in code.lines() {
+        let t = line.trim_start();
+        for prefix in ["use ", "pub use "] {
+            if let Some(rest) = t.strip_prefix(prefix) {
+                let first: String = rest
+                    .chars()
+                    .take_while(|c| c.is_alphanumeric() || *c == '_')
+                    .collect();
+                let child = format!("{module}::{first}");
+                if !module.is_empty() && known.contains(&child) {
+                    paths.push(format!("{child}{}", &rest[first.len()..]));
+                }
+            }
+        }
+    }
+    for path in paths {
         let segs: Vec<&str> = path.split("::").filter(|s| !s.is_empty()).collect();
         for n in (1..=segs.len()).rev() {
             let m = segs[..n].join("::");
@@ -117,7 +154,7 @@ fn the_folders_import_only_earlier_stages() {
     let known: BTreeSet<String> = mods.keys().cloned().collect();
     let mut wrong = Vec::new();
     for (m, text) in &mods {
-        for u in uses(text, &known) {
+        for u in uses_from(text, &known, m) {
             if stage(&u) > stage(m) {
                 wrong.push(format!("{m} uses the later stage {u}"));
             }
@@ -134,10 +171,8 @@ fn no_module_uses_itself_around_a_loop() {
     let graph: BTreeMap<String, BTreeSet<String>> = mods
         .iter()
         .map(|(m, t)| {
-            let mut u = uses(t, &known);
+            let mut u = uses_from(t, &known, m);
             u.remove(m);
-            // A folder's mod.rs declares its files: that is not a use.
-            u.retain(|x| !x.starts_with(&format!("{m}::")));
             (m.clone(), u)
         })
         .collect();
@@ -187,4 +222,17 @@ fn the_rule_sees_a_later_stage_and_a_loop() {
     let u = uses(text, &known);
     assert_eq!(u, BTreeSet::from(["generate".to_owned()]));
     assert!(stage("generate") > stage("check::verify"));
+    // Paths through `super::` and a folder's own children count.
+    let known: BTreeSet<String> = ["generate", "generate::error", "generate::layouts"]
+        .iter()
+        .map(|s| (*s).to_owned())
+        .collect();
+    let u = uses_from(
+        "use super::error::GenerateError;\n",
+        &known,
+        "generate::layouts",
+    );
+    assert_eq!(u, BTreeSet::from(["generate::error".to_owned()]));
+    let u = uses_from("use layouts::{a, b};\n", &known, "generate");
+    assert_eq!(u, BTreeSet::from(["generate::layouts".to_owned()]));
 }

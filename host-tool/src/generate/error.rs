@@ -1,0 +1,50 @@
+//! Why no table: generation's error.
+
+/// Why generation failed.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum GenerateError {
+    /// A delay in the design range exceeds the timer counter.
+    #[error("the delay reaches {ticks:.0} ticks at Vin = {vin_v:.3} V, Io = {io_a:.4} A, beyond the {bits}-bit timer counter's limit of {max} ticks; use a wider counter, a slower timer clock, raise the lightest load in `io`, or `fallback = \"fixed\"`")]
+    CounterOverflow {
+        /// Ticks needed.
+        ticks: f64,
+        /// Where.
+        vin_v: f64,
+        /// Where.
+        io_a: f64,
+        /// Counter width.
+        bits: u8,
+        /// Counter limit.
+        max: u32,
+    },
+    /// A delay would be negative: the driver lead is longer than the target.
+    #[error("the gate driver's net lead exceeds the turn-on target at Vin = {vin_v:.3} V, Io = {io_a:.4} A: no non-negative delay reaches it")]
+    NegativeDelay {
+        /// Where.
+        vin_v: f64,
+        /// Where.
+        io_a: f64,
+    },
+    /// The model refused a point of the design range.
+    #[error("at Vin = {vin_v:.3} V, Io = {io_a:.4} A: {message}")]
+    Model {
+        /// Where.
+        vin_v: f64,
+        /// Where.
+        io_a: f64,
+        /// timing-core's message.
+        message: String,
+    },
+    /// No candidate layout meets the error budget.
+    #[error("no table layout of up to 16 KiB meets max_error_ticks = {budget}: the best ({layout}) reached {best:.3} ticks with {misses} code pairs outside their window; widen max_error_ticks, narrow the design range, or allow another layout")]
+    NoLayout {
+        /// Budget.
+        budget: f64,
+        /// Best error found, ticks, checked at every code pair.
+        best: f64,
+        /// Code pairs of that candidate commanded outside their interval.
+        misses: usize,
+        /// Its layout.
+        layout: &'static str,
+    },
+}
