@@ -39,7 +39,8 @@ fn modules() -> BTreeMap<String, String> {
             } else if p.extension().is_some_and(|x| x == "rs") {
                 let module = match name.as_str() {
                     "mod" => prefix.trim_end_matches("::").to_owned(),
-                    "lib" | "main" => continue,
+                    // A test module's file, as a `#[cfg(test)]` module.
+                    "lib" | "main" | "tests" => continue,
                     _ => format!("{prefix}{name}"),
                 };
                 out.insert(module, std::fs::read_to_string(&p).unwrap());
@@ -60,9 +61,14 @@ fn code(text: &str) -> String {
         if t.starts_with("#[cfg(test)]") {
             // Skip the item that follows, to its closing brace at the
             // same indentation.
+            // (`mod tests;` is one line: its file is left out by name.)
             let indent = l.len() - t.len();
             for m in lines.by_ref() {
-                if m.len() - m.trim_start().len() == indent && m.trim_start().starts_with('}') {
+                let mt = m.trim_start();
+                if mt.ends_with(';') && !mt.contains('{') && m.len() - mt.len() == indent {
+                    break;
+                }
+                if m.len() - mt.len() == indent && mt.starts_with('}') {
                     break;
                 }
             }
