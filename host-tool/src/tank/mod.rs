@@ -15,3 +15,4 @@ pub mod event_grid;
 pub mod load_grid;
 pub mod real_tank;
 pub mod robust_grid;
+pub mod stand_in;
