@@ -69,6 +69,14 @@ impl<F: Real> Tank<F> {
         self.z0
     }
 
+    /// Normalised load J = I*Z0/V of `cell` on this tank (dimensionless,
+    /// within 2 ulp): ZVS needs J >= 1. For the buck, boost and buck-boost
+    /// cells alike it equals Io*Z0/Vin of the converter.
+    #[must_use]
+    pub fn normalized_load(&self, cell: &crate::CellPoint<F>) -> F {
+        cell.i_amp() * self.z0 / cell.v_volt()
+    }
+
     /// Resonant angular frequency w0 = 1/sqrt(Lr*Cr), rad/s (within 2 ulp).
     #[must_use]
     pub fn w0_rad_s(&self) -> F {

@@ -163,7 +163,7 @@ impl<F: Real> Transition<F> {
     pub fn new(tank: &Tank<F>, cell: &CellPoint<F>) -> Result<Self, Error> {
         let (v, i) = (cell.v_volt(), cell.i_amp());
         let w0 = tank.w0_rad_s();
-        let j = derived(Quantity::NormalizedLoad, i * tank.z0_ohm() / v)?;
+        let j = derived(Quantity::NormalizedLoad, tank.normalized_load(cell))?;
         let time = |angle: F| derived(Quantity::Interval, angle / w0);
         let charge_end_s = derived(Quantity::Interval, tank.cr_f() * v / i)?;
         let peak_s = charge_end_s + time(F::FRAC_PI_2)?;

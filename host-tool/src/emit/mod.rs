@@ -4,5 +4,7 @@
 //!
 //! Imports: every earlier stage.
 
+pub mod c_header;
 pub mod closed_form_source;
 pub mod export;
+mod summary;

@@ -427,7 +427,7 @@ pub fn cycle(design: &Design, vin_v: f64, io_a: f64) -> Result<String, PlotError
                 format!(
                     "{}: one transition at Vin = {vin_v:.1} V, Io = {io_a:.2} A (J = {:.3}), turn-on after {} ticks",
                     design.name,
-                    cell.i_amp() * design.tank.z0_ohm() / cell.v_volt(),
+                    design.tank.normalized_load(&cell),
                     ticks.get()
                 ),
                 ("sans-serif", 18),

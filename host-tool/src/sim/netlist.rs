@@ -85,7 +85,7 @@ pub fn netlist(
         average_over_s: None,
     };
     let p = Prediction {
-        normalized_load: cell.i_amp() * design.tank.z0_ohm() / cell.v_volt(),
+        normalized_load: design.tank.normalized_load(&cell),
         window_open_s: t.turn_on.window().map(|w| w.open_s),
         window_close_s: t.turn_on.window().map(|w| w.close_s),
         valley_s: t.turn_on.valley().map(|v| v.valley_s),
