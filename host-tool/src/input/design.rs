@@ -2,6 +2,9 @@
 //! requirements of one converter. Parsing reports malformed files with line,
 //! column and key (from the TOML parser); validation then refuses
 //! physically impossible or inconsistent designs in plain sentences.
+//!
+//! Over 500 lines because validation is one pass through the file's keys
+//! in order, each refusal beside the key it checks.
 
 use timing_core::{CellPoint, CodeRange, Tank, Timer, Topology, WindowPosition};
 

@@ -5,6 +5,10 @@
 //! ring itself. Answers come from the grids of [`crate::tank`] where they
 //! decide, from timing-core's ring or closed forms otherwise. All physics
 //! comes from timing-core.
+//!
+//! One file of about 580 lines: the model at a point and at a row of code
+//! pairs (the sweeps' fast path) answer alike to the bit, which a test
+//! checks; keeping them side by side keeps them alike.
 
 use timing_core::robust::RobustWindow;
 use timing_core::table::Fallback;

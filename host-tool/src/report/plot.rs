@@ -5,6 +5,9 @@
 //! capture (switch voltage, inductor current, gate command, the window
 //! shaded). Every number comes from timing-core (the transition, the
 //! waveform, the table lookup).
+//!
+//! Over 500 lines: four pictures, each a short function over the same
+//! axes, colours and map helpers.
 
 use std::path::{Path, PathBuf};
 

@@ -44,6 +44,9 @@
 //! tested against the ring at dense random points, the band around the
 //! boundary included (`cargo test -p host-tool --test event_grid --
 //! --nocapture`).
+//!
+//! Over 500 lines: building the grid and bounding its cells share the
+//! node layout, which stays private to this file.
 
 use timing_core::ring::{clamp_time_s, RingCell};
 use timing_core::{CellPoint, Error, TurnOn, Valley, ZvsWindow};

@@ -48,6 +48,10 @@
 //! (opening) or earlier (close) than the grid model allows; the tests
 //! compare it with the ring evaluated at every corner and at sampled
 //! interior points of held-out boxes.
+//!
+//! One file of about 740 lines: the grid, its per-cell bound and both ways
+//! of reading it (a box at a time, a row of boxes at a time) share the
+//! private cell arithmetic; apart, that arithmetic would have to be public.
 
 use timing_core::robust::RobustWindow;
 use timing_core::{CellPoint, Error};
