@@ -39,41 +39,52 @@ fn rustup_has(target: &str) -> bool {
 
 fn thumb() -> Result<(), String> {
     let debian = Path::new("/usr/bin/rustc").exists() && Path::new("/usr/bin/cargo").exists();
-    for target in TARGETS {
-        let mut cmd = if rustup_has(target) {
-            let mut c = Command::new(std::env::var("CARGO").unwrap_or_else(|_| "cargo".into()));
-            c.args(["check", "--target-dir", "target/thumb-rustup"]);
-            c
-        } else if debian {
-            let mut c = Command::new("/usr/bin/cargo");
-            c.env("RUSTC", "/usr/bin/rustc")
-                .env("RUSTC_BOOTSTRAP", "1")
-                .env_remove("RUSTUP_TOOLCHAIN")
-                .args([
-                    "check",
-                    "-Z",
-                    "build-std=core",
-                    "--target-dir",
-                    "target/thumb",
-                ]);
-            c
-        } else {
-            return Err(format!(
-                "no toolchain for {target}: run `rustup target add {target}` or, on Debian, \
-                 `apt-get install rustc-web cargo-web rust-web-src`"
-            ));
-        };
-        cmd.args(["--quiet", "-p", "timing-core", "--target", target]);
-        for features in FEATURE_SETS {
-            let mut c = Command::new(cmd.get_program());
-            c.args(cmd.get_args()).args(features);
-            for (k, v) in cmd.get_envs() {
-                match v {
-                    Some(v) => c.env(k, v),
-                    None => c.env_remove(k),
-                };
+    // Targets grouped by toolchain: one cargo invocation a feature set
+    // checks every target of a toolchain, side by side on the cores.
+    let (rustup, rest): (Vec<&str>, Vec<&str>) = TARGETS.iter().partition(|t| rustup_has(t));
+    if !rest.is_empty() && !debian {
+        return Err(format!(
+            "no toolchain for {}: run `rustup target add ...` or, on Debian, \
+             `apt-get install rustc-web cargo-web rust-web-src`",
+            rest.join(" and ")
+        ));
+    }
+    for (targets, route) in [(rustup, "rustup"), (rest, "debian")] {
+        if targets.is_empty() {
+            continue;
+        }
+        let base = || {
+            if route == "rustup" {
+                let mut c = Command::new(std::env::var("CARGO").unwrap_or_else(|_| "cargo".into()));
+                c.args(["check", "--target-dir", "target/thumb-rustup"]);
+                c
+            } else {
+                let mut c = Command::new("/usr/bin/cargo");
+                c.env("RUSTC", "/usr/bin/rustc")
+                    .env("RUSTC_BOOTSTRAP", "1")
+                    .env_remove("RUSTUP_TOOLCHAIN")
+                    .args([
+                        "check",
+                        "-Z",
+                        "build-std=core",
+                        "--target-dir",
+                        "target/thumb",
+                    ]);
+                c
             }
-            let shown = format!("timing-core for {target} {}", features.join(" "));
+        };
+        for features in FEATURE_SETS {
+            let mut c = base();
+            c.args(["--quiet", "-p", "timing-core"]);
+            for t in &targets {
+                c.args(["--target", t]);
+            }
+            c.args(features);
+            let shown = format!(
+                "timing-core for {} {}",
+                targets.join(" and "),
+                features.join(" ")
+            );
             eprintln!("xtask: checking {shown}");
             let status = c.status().map_err(|e| format!("{shown}: {e}"))?;
             if !status.success() {

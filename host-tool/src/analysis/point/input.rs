@@ -1,7 +1,7 @@
 //! What `point` takes: the operating point, the tank, the timer and the
 //! tolerances, and the error that names the option at fault.
 
-use timing_core::{Error as CoreError, Quantity, Topology};
+use timing_core::{Error as CoreError, Quantity, Timer, Topology};
 
 /// The timer and gate driver of a [`PointInput`].
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -14,6 +14,22 @@ pub struct TimerInput {
     pub turn_on_delay_s: f64,
     /// Gate-driver turn-off propagation delay, second.
     pub turn_off_delay_s: f64,
+}
+
+impl TimerInput {
+    /// timing-core's validated timer for these values.
+    ///
+    /// # Errors
+    /// timing-core's error naming the value (a clock of zero, a counter
+    /// width beyond 32 bits, a negative delay).
+    pub fn timer(&self) -> Result<Timer<f64>, CoreError> {
+        Timer::new(
+            self.clock_hz,
+            self.counter_bits,
+            self.turn_on_delay_s,
+            self.turn_off_delay_s,
+        )
+    }
 }
 
 /// Everything the `point` command takes, in SI units.

@@ -3,7 +3,7 @@
 //! people and for scripts. All physics comes from timing-core.
 
 use timing_core::{
-    CellPoint, Error as CoreError, Quantity, Tank, Timer, Topology, Transition, WindowPosition,
+    CellPoint, Error as CoreError, Quantity, Tank, Topology, Transition, WindowPosition,
 };
 
 mod input;
@@ -222,12 +222,7 @@ pub fn evaluate(input: &PointInput) -> Result<PointReport, InputError> {
     };
 
     if let Some(ti) = input.timer {
-        let timer = Timer::new(
-            ti.clock_hz,
-            ti.counter_bits,
-            ti.turn_on_delay_s,
-            ti.turn_off_delay_s,
-        )?;
+        let timer = ti.timer()?;
         let cmd = timer.command_for(&exact.turn_on, position)?;
         let on = cmd.turn_on_s();
         report.delay_ticks = Some(cmd.ticks().get());

@@ -3,7 +3,7 @@
 //! grid of [`crate::tank::robust_grid`] for a real one), and the commands
 //! against it.
 
-use timing_core::{CellPoint, Tank, Timer, WindowPosition};
+use timing_core::{CellPoint, Tank, WindowPosition};
 
 use super::input::{InputError, PointInput, UncertaintyInput};
 use super::report::PointReport;
@@ -82,12 +82,7 @@ pub(super) fn robust(
         report.robust_margin_before_close_s = Some(rw.close_s - on);
         // The timer's own placement (timing-core), on the robust window:
         // none where no tick lands in it.
-        let timer = Timer::new(
-            ti.clock_hz,
-            ti.counter_bits,
-            ti.turn_on_delay_s,
-            ti.turn_off_delay_s,
-        )?;
+        let timer = ti.timer()?;
         let robust = timing_core::TurnOn::Zvs(timing_core::ZvsWindow {
             open_s: rw.open_s,
             close_s: rw.close_s,
