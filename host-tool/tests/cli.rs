@@ -33,7 +33,7 @@ fn replace(opt: &str, value: &str) -> Vec<&'static str> {
 #[test]
 fn json_has_the_documented_fields() {
     let (code, out, err) = run(&with(&[
-        "--timer-hz",
+        "--clock-hz",
         "170M",
         "--driver-delay",
         "25n",
@@ -80,7 +80,7 @@ fn json_below_the_boundary_reports_the_valley() {
 
 #[test]
 fn human_output_has_the_window_and_the_caution() {
-    let (code, out, _) = run(&with(&["--timer-hz", "170M", "--driver-delay", "25n"]));
+    let (code, out, _) = run(&with(&["--clock-hz", "170M", "--driver-delay", "25n"]));
     assert_eq!(code, 0);
     assert!(out.contains("ZVS window opens"));
     assert!(out.contains("ticks"));
@@ -124,27 +124,27 @@ fn every_bad_input_gets_one_clear_line() {
         (with(&["--position", "1.5"]), "--position", "[0, 1]"),
         (with(&["--position", "-0.1"]), "--position", "[0, 1]"),
         (
-            with(&["--timer-hz", "0"]),
-            "--timer-hz",
+            with(&["--clock-hz", "0"]),
+            "--clock-hz",
             "greater than zero",
         ),
         (
-            with(&["--timer-hz", "170M", "--counter-bits", "40"]),
+            with(&["--clock-hz", "170M", "--counter-bits", "40"]),
             "--counter-bits",
             "1 to 32",
         ),
         (
-            with(&["--timer-hz", "170M", "--counter-bits", "4"]),
-            "--timer-hz",
+            with(&["--clock-hz", "170M", "--counter-bits", "4"]),
+            "--clock-hz",
             "counter",
         ),
         (
-            with(&["--timer-hz", "170M", "--driver-delay", "-5n"]),
+            with(&["--clock-hz", "170M", "--driver-delay", "-5n"]),
             "--driver-delay",
             "negative",
         ),
         (
-            with(&["--timer-hz", "170M", "--driver-delay", "900n"]),
+            with(&["--clock-hz", "170M", "--driver-delay", "900n"]),
             "--driver-delay",
             "lead",
         ),
@@ -183,7 +183,7 @@ fn high_stress_and_narrow_windows_are_warned_about() {
     let (_, out, _) = run(&with(&["--vds-rating", "100"]));
     assert!(out.contains("exceeds the switch rating"), "{out}");
     // Just above the boundary the window is narrower than a 170 MHz tick.
-    let (_, out, _) = run(&with(&["--timer-hz", "170M"])
+    let (_, out, _) = run(&with(&["--clock-hz", "170M"])
         .into_iter()
         .map(|a| if a == "6" { "3.96" } else { a })
         .collect::<Vec<_>>());
@@ -218,7 +218,7 @@ fn the_cli_writes_the_deck_and_the_prediction() {
             .args(["--vin", "-3", "--io", "6"]),
     );
     assert_eq!(out.code, 2);
-    assert!(out.stderr.contains("input voltage"));
+    assert!(out.stderr.contains("--vin = -3 V"), "{}", out.stderr);
 }
 
 /// `point --json` with tolerances: the robust window lies inside the true
@@ -243,7 +243,7 @@ fn point_robust_window_lies_inside_every_true_window() {
                     "--cr-tol",
                     &cr_pct(ct),
                 ])
-                .args(["--vin-err", &ve.to_string(), "--io-err", &ie.to_string()]),
+                .args(["--vin-gain", &ve.to_string(), "--io-gain", &ie.to_string()]),
         );
         let j = out.json();
         let (Some(o), Some(c)) = (
@@ -317,10 +317,10 @@ fn point_robust_window_of_a_real_tank_lies_inside_every_true_window() {
                 .args(["point", "--json", "--lr", "1u", "--cr", &cr.to_string()])
                 .arg("--coss")
                 .arg(&csv)
-                .args(["--tank-resistance", &r.to_string()])
+                .args(["--r-tank", &r.to_string()])
                 .args(["--vin", &vin.to_string(), "--io", &io.to_string()])
                 .args(["--lr-tol", &cr_pct(lt), "--cr-tol", &cr_pct(ct)])
-                .args(["--vin-err", &ve.to_string(), "--io-err", &ie.to_string()]),
+                .args(["--vin-gain", &ve.to_string(), "--io-gain", &ie.to_string()]),
         );
         let j = out.json();
         let (Some(o), Some(c)) = (
@@ -358,7 +358,7 @@ fn point_robust_window_of_a_real_tank_lies_inside_every_true_window() {
     }
 }
 
-/// `--vin-offset` and `--io-offset` (absolute sensing errors: offset plus
+/// `--vin-offset-volts` and `--io-offset-amps` (absolute sensing errors: offset plus
 /// peak noise) widen the box: the robust window still lies inside the true
 /// window at every corner and sampled interior point of the wider box, is
 /// narrower than without them, and a bad value names its option.
@@ -382,9 +382,9 @@ fn point_absolute_sensing_errors_widen_the_box() {
             "4%",
             "--cr-tol",
             "4%",
-            "--vin-err",
+            "--vin-gain",
             "1%",
-            "--io-err",
+            "--io-gain",
             "2%",
         ];
         args.extend_from_slice(extra);
@@ -397,7 +397,7 @@ fn point_absolute_sensing_errors_widen_the_box() {
         )
     };
     let plain = robust(&[]);
-    let (o, c) = robust(&["--vin-offset", "0.4", "--io-offset", "150m"]);
+    let (o, c) = robust(&["--vin-offset-volts", "0.4", "--io-offset-amps", "150m"]);
     assert!(o > plain.0 && c < plain.1, "[{o}, {c}] vs {plain:?}");
     for [a, b, v, i] in box_points(0x0ff5, 300) {
         let tank = Tank::new(lr * (0.96 + 0.08 * a), cr * (0.96 + 0.08 * b)).unwrap();
@@ -422,9 +422,12 @@ fn point_absolute_sensing_errors_widen_the_box() {
         "48",
         "--io",
         "6",
-        "--io-offset",
+        "--io-offset-amps",
         "-0.1",
     ]);
     assert_eq!(code, 2);
-    assert!(err.contains("--io-offset") && err.contains("-0.1"), "{err}");
+    assert!(
+        err.contains("--io-offset-amps") && err.contains("-0.1"),
+        "{err}"
+    );
 }

@@ -249,6 +249,12 @@ fn check(inp: &SizeInput) -> Result<(), SizeError> {
     if !(inp.derating > 0.0 && inp.derating <= 1.0) {
         return bad("--derating", inp.derating, "must lie in (0, 1]");
     }
+    if inp.topology.needs_vout() && inp.vout_v.is_none() {
+        return Err(SizeError::Input(format!(
+            "--vout is needed for a {}: its cell runs at the output voltage",
+            inp.topology.name()
+        )));
+    }
     for (name, f) in [("--f0", inp.f0_hz), ("--fs-max", inp.fs_max_hz)] {
         if let Some(f) = f {
             if !(f.is_finite() && f > 0.0) {

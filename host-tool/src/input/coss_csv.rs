@@ -10,7 +10,7 @@ use crate::units::parse_quantity;
 
 /// A curve that could not be read, with the file and line at fault.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
-#[error("{path}:{line}: {message}")]
+#[error("{path}{}: {message}", line_part(*.line))]
 pub struct CossCsvError {
     /// File path.
     pub path: String,
@@ -18,6 +18,15 @@ pub struct CossCsvError {
     pub line: usize,
     /// What is wrong, naming the value.
     pub message: String,
+}
+
+/// `:line` for an error at a line, nothing for the file as a whole.
+fn line_part(line: usize) -> String {
+    if line == 0 {
+        String::new()
+    } else {
+        format!(":{line}")
+    }
 }
 
 /// Parse the text of a Coss CSV; `path` names it in errors.
@@ -80,6 +89,29 @@ pub fn parse(text: &str, path: &str) -> Result<Vec<CossPoint<f64>>, CossCsvError
     }
     if points.is_empty() {
         return Err(err(0, "no `volts,farads` points in the file".into()));
+    }
+    if points.len() == 1 {
+        return Err(err(
+            lines_of.first().copied().unwrap_or(0),
+            "one point is a constant capacitance, not a curve: give it as `cr` (or --cr), or add points"
+                .into(),
+        ));
+    }
+    // Voltages must rise from point to point (the curve is read off a
+    // datasheet plot left to right).
+    for (k, w) in points.windows(2).enumerate() {
+        if let [a, b] = w {
+            if b.volts.partial_cmp(&a.volts) != Some(std::cmp::Ordering::Greater) {
+                let line = lines_of.get(k + 1).copied().unwrap_or(0);
+                return Err(err(
+                    line,
+                    format!(
+                        "volts must increase from point to point: {} V follows {} V",
+                        b.volts, a.volts
+                    ),
+                ));
+            }
+        }
     }
     if let Err(e) = SwitchCapacitance::new(0.0, &points) {
         // Find the point at fault for the line number.

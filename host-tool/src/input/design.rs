@@ -12,7 +12,7 @@ use crate::input::design_file::TopologyFile;
 pub use crate::input::design_file::{
     AdcFile, DesignFile, FallbackChoice, LayoutChoice, TableFile, TimerFile, ToleranceFile,
 };
-pub use crate::input::invalid::Invalid;
+pub use crate::input::invalid::{BadPoint, Invalid};
 use crate::tank::real_tank::RealTank;
 use crate::tank::stand_in::fitted_tank;
 
@@ -188,6 +188,84 @@ impl DesignSpec {
             })
     }
 
+    /// Check an operating point given as `--vin` (volt) and `--io`
+    /// (ampere) against the design: an error naming the option where the
+    /// cell cannot run it (a value not above zero; a boost's input at or
+    /// above its output), and warnings where it lies outside the design
+    /// range (no table was proven there) or beyond the ADC's full scale (the
+    /// converter would read a clamped code).
+    ///
+    /// # Errors
+    /// [`BadPoint`] naming `--vin` or `--io`.
+    pub fn check_point(&self, vin_v: f64, io_a: f64) -> Result<Vec<String>, BadPoint> {
+        let bad = |option, value, unit, why: String| BadPoint {
+            option,
+            value,
+            unit,
+            why,
+        };
+        for (option, value, unit) in [("--vin", vin_v, "V"), ("--io", io_a, "A")] {
+            if !(value.is_finite() && value > 0.0) {
+                return Err(bad(
+                    option,
+                    value,
+                    unit,
+                    "must be a number above zero".into(),
+                ));
+            }
+        }
+        if let Some(vout) = self.vout_v {
+            if self.topology == Topology::Boost && vin_v >= vout {
+                return Err(bad(
+                    "--vin",
+                    vin_v,
+                    "V",
+                    format!("a boost's input must stay below its output, vout = {vout} V"),
+                ));
+            }
+            if self.topology == Topology::Buck && vin_v <= vout {
+                return Err(bad(
+                    "--vin",
+                    vin_v,
+                    "V",
+                    format!("a buck's input must stay above its output, vout = {vout} V"),
+                ));
+            }
+        }
+        self.cell(vin_v, io_a)
+            .map_err(|e| bad("--vin", vin_v, "V", e.to_string()))?;
+        let mut warnings = Vec::new();
+        let full_scale =
+            |per_code: f64, zero: f64| (f64::from((1u32 << self.adc_bits) - 1) - zero) * per_code;
+        for (option, value, unit, (lo, hi), fs) in [
+            (
+                "--vin",
+                vin_v,
+                "V",
+                self.vin_v,
+                full_scale(self.vin_volts_per_code, 0.0),
+            ),
+            (
+                "--io",
+                io_a,
+                "A",
+                self.io_a,
+                full_scale(self.io_amps_per_code, f64::from(self.io_zero_code)),
+            ),
+        ] {
+            if value > fs {
+                warnings.push(format!(
+                    "{option} = {value} {unit} is beyond the ADC's full scale of {fs:.4} {unit}: the converter would read a clamped code there"
+                ));
+            } else if !(lo..=hi).contains(&value) {
+                warnings.push(format!(
+                    "{option} = {value} {unit} lies outside the design range {lo} to {hi} {unit}: no table was proven there"
+                ));
+            }
+        }
+        Ok(warnings)
+    }
+
     /// The cell quantities at converter input voltage `vin` and output current `io`.
     ///
     /// # Errors
@@ -328,8 +406,15 @@ impl DesignFile {
             TopologyFile::Boost => Topology::Boost,
             TopologyFile::BuckBoost => Topology::BuckBoost,
         };
-        let (vlo, vhi) = (self.vin[0].0, self.vin[1].0);
-        let (ilo, ihi) = (self.io[0].0, self.io[1].0);
+        let pair = |key: &'static str, values: &[f64]| match values {
+            [lo, hi] => Ok((*lo, *hi)),
+            _ => Err(Invalid::RangeLength {
+                key,
+                given: format!("{values:?}"),
+            }),
+        };
+        let (vlo, vhi) = pair("vin", &self.vin.iter().map(|v| v.0).collect::<Vec<_>>())?;
+        let (ilo, ihi) = pair("io", &self.io.iter().map(|v| v.0).collect::<Vec<_>>())?;
         for (what, v) in [("vin", vlo), ("vin", vhi), ("io", ilo), ("io", ihi)] {
             if !(v.is_finite() && v > 0.0) {
                 return Err(Invalid::RangeNotPositive {

@@ -248,9 +248,9 @@ pub struct DesignFile {
     #[serde(default)]
     pub r_tank: Option<Ohm>,
     /// Input-voltage range [min, max].
-    pub vin: [Volt; 2],
+    pub vin: Vec<Volt>,
     /// Output-current range [min, max].
-    pub io: [Amp; 2],
+    pub io: Vec<Amp>,
     /// Output voltage (boost and buck-boost need it; it sets the stress).
     #[serde(default)]
     pub vout: Option<Volt>,

@@ -42,6 +42,14 @@ pub enum Invalid {
         /// timing-core's error.
         source: timing_core::Error,
     },
+    /// A range given with other than two values.
+    #[error("{key} = {given}: a range is two values, `[low, high]`")]
+    RangeLength {
+        /// `vin` or `io`.
+        key: &'static str,
+        /// The values given, as written.
+        given: String,
+    },
     /// A range end that is not a positive number.
     #[error("{key} = {value}: the range must be positive (at zero current the valley delay is unbounded; start the range at the lightest load the table must serve)")]
     RangeNotPositive {
@@ -191,4 +199,20 @@ impl From<crate::tank::stand_in::StandInError> for Invalid {
             E::NoZvs { cell_v, source } => Self::NoZvs { cell_v, source },
         }
     }
+}
+
+/// An operating point given on the command line (`--vin`, `--io`) that the
+/// design's cell cannot run, naming the option, the value and what is
+/// valid.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[error("{option} = {value} {unit}: {why}")]
+pub struct BadPoint {
+    /// The option at fault.
+    pub option: &'static str,
+    /// Its value.
+    pub value: f64,
+    /// Its unit.
+    pub unit: &'static str,
+    /// What would be valid.
+    pub why: String,
 }

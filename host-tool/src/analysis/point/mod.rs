@@ -48,7 +48,7 @@ pub fn evaluate(input: &PointInput) -> Result<PointReport, InputError> {
         plausible("--fs", fs)?;
     }
     if let Some(t) = input.timer {
-        plausible("--timer-hz", t.clock_hz)?;
+        plausible("--clock-hz", t.clock_hz)?;
         plausible("--driver-delay", t.turn_on_delay_s)?;
         plausible("--driver-delay-off", t.turn_off_delay_s)?;
     }
@@ -66,7 +66,7 @@ pub fn evaluate(input: &PointInput) -> Result<PointReport, InputError> {
         | CoreError::NotFinite {
             quantity: Quantity::TankResistance,
             ..
-        } => InputError::new("--tank-resistance", e.to_string()),
+        } => InputError::new("--r-tank", e.to_string()),
         CoreError::NotPositive {
             quantity: Quantity::ResonantCapacitance,
             ..
@@ -95,7 +95,7 @@ pub fn evaluate(input: &PointInput) -> Result<PointReport, InputError> {
         CoreError::OutOfRange {
             quantity: Quantity::TankResistance,
             ..
-        } => InputError::new("--tank-resistance", e.to_string()),
+        } => InputError::new("--r-tank", e.to_string()),
         _ => e.into(),
     })?;
     let position = WindowPosition::new(input.position)?;

@@ -21,8 +21,8 @@ pub(super) fn robust(
     // Absolute errors join the relative ones at the sensed point: a true
     // value within m*(1 +- g) +- a lies within m*(1 +- (g + a/m)).
     for (option, a, m) in [
-        ("--vin-offset", u.vin_abs_v, input.vin_v),
-        ("--io-offset", u.io_abs_a, input.io_a),
+        ("--vin-offset-volts", u.vin_abs_v, input.vin_v),
+        ("--io-offset-amps", u.io_abs_a, input.io_a),
     ] {
         if !(a.is_finite() && a >= 0.0 && a < m) {
             return Err(InputError::new(
@@ -52,14 +52,25 @@ pub(super) fn robust(
                     timing_core::Error::OutOfRange {
                         quantity: timing_core::Quantity::InputVoltage,
                         ..
-                    } => "--vin-err",
+                    } => "--vin-gain",
                     timing_core::Error::OutOfRange {
                         quantity: timing_core::Quantity::OutputCurrent,
                         ..
-                    } => "--io-err",
+                    } => "--io-gain",
                     _ => "--jitter",
                 };
-                InputError::new(option, e.to_string())
+                let message = match e {
+                    timing_core::Error::OutOfRange {
+                        value, min, max, ..
+                    } if option != "--jitter" => format!(
+                        "a tolerance half-width must lie in [{min}, {max}] ({} % to {} %), got {value} ({} %)",
+                        100.0 * min,
+                        100.0 * max,
+                        100.0 * value
+                    ),
+                    e => e.to_string(),
+                };
+                InputError::new(option, message)
             })?;
     let found = if real.is_ideal() {
         timing_core::robust::robust_window(tank, cell, &unc)?
@@ -93,18 +104,20 @@ pub(super) fn robust(
             .ok()
             .filter(|c| c.is_in_window())
             .map(|c| c.ticks().get());
-        if report.robust_delay_ticks.is_none() {
+        if let Some(t) = report
+            .robust_delay_ticks
+            .filter(|_| on < rw.open_s || on > rw.close_s)
+        {
+            report.warnings.push(format!(
+                "the nominal delay lies outside the robust window: command the robust delay, {t} ticks, instead"
+            ));
+        } else if report.robust_delay_ticks.is_none() {
             report.warnings.push(format!(
                 "the robust window is {:.2} ns wide, narrower than a tick ({:.2} ns): no delay is \
                  reliably ZVS on every board; treat this point as ZVS-impossible",
                 (rw.close_s - rw.open_s) * 1e9,
                 1e9 / ti.clock_hz
             ));
-        } else if on < rw.open_s || on > rw.close_s {
-            report.warnings.push(
-                "the nominal delay lies outside the robust window: use robust_delay_ticks"
-                    .to_owned(),
-            );
         }
     }
     Ok(())

@@ -25,10 +25,12 @@ pub(crate) fn range(
     text: &str,
     unit: &'static str,
 ) -> Result<(f64, f64), InputError> {
-    let Some((a, b)) = text.split_once(':') else {
+    // `36:60`, or as in a design file, `[36, 60]` (brackets optional).
+    let inner = text.trim().trim_start_matches('[').trim_end_matches(']');
+    let Some((a, b)) = inner.split_once(':').or_else(|| inner.split_once(',')) else {
         return Err(InputError::new(
             option,
-            format!("expected LOW:HIGH, e.g. 36:60, got `{text}`"),
+            format!("expected LOW:HIGH or [LOW, HIGH], e.g. 36:60, got `{text}`"),
         ));
     };
     Ok((num(option, a.trim(), unit)?, num(option, b.trim(), unit)?))
@@ -60,4 +62,40 @@ pub(crate) fn opt_num(
     unit: &'static str,
 ) -> Result<Option<f64>, InputError> {
     text.map(|t| num(option, t, unit)).transpose()
+}
+
+/// Make sure `dir` is a folder the results can be written to, before any
+/// work: created when missing; an error naming the path otherwise.
+pub(crate) fn writable_dir(dir: &std::path::Path) -> anyhow::Result<()> {
+    std::fs::create_dir_all(dir)
+        .map_err(|e| anyhow::anyhow!("--out {}: cannot create the folder: {e}", dir.display()))?;
+    let probe = dir.join(format!(".zvs-timing-probe-{}", std::process::id()));
+    std::fs::write(&probe, b"").map_err(|e| {
+        anyhow::anyhow!("--out {}: cannot write into the folder: {e}", dir.display())
+    })?;
+    let _ = std::fs::remove_file(&probe);
+    Ok(())
+}
+
+/// Make sure `file` can be written, before any work: its folder exists and
+/// it is not a folder itself; an error naming the path otherwise.
+pub(crate) fn writable_file(file: &std::path::Path) -> anyhow::Result<()> {
+    if file.is_dir() {
+        anyhow::bail!("--out {}: is a folder; give a file name", file.display());
+    }
+    if let Some(dir) = file.parent().filter(|d| !d.as_os_str().is_empty()) {
+        if !dir.is_dir() {
+            anyhow::bail!(
+                "--out {}: the folder {} does not exist",
+                file.display(),
+                dir.display()
+            );
+        }
+    }
+    std::fs::OpenOptions::new()
+        .append(true)
+        .create(true)
+        .open(file)
+        .map_err(|e| anyhow::anyhow!("--out {}: cannot write the file: {e}", file.display()))?;
+    Ok(())
 }

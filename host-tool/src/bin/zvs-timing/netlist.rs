@@ -26,6 +26,12 @@ pub(crate) fn run_netlist(args: &NetlistArgs) -> anyhow::Result<()> {
     let design = host_tool::model::design::Design::load(&args.design)?;
     let vin = num("--vin", &args.vin, "V")?;
     let io = num("--io", &args.io, "A")?;
+    for w in design.check_point(vin, io)? {
+        eprintln!("zvs-timing: WARNING: {w}");
+    }
+    if let Some(path) = &args.out {
+        crate::args::writable_file(path)?;
+    }
     let (deck, prediction) = host_tool::sim::netlist::netlist(&design, vin, io)?;
     match &args.out {
         Some(path) => std::fs::write(path, &deck)

@@ -28,6 +28,12 @@ pub(crate) fn run_plot(args: &PlotArgs) -> anyhow::Result<()> {
         (None, None) => None,
         _ => anyhow::bail!("give both --vin and --io for the cycle picture, or neither"),
     };
+    if let Some((v, i)) = point {
+        for w in design.check_point(v, i)? {
+            eprintln!("zvs-timing: WARNING: {w}");
+        }
+    }
+    crate::args::writable_dir(&args.out)?;
     for f in host_tool::report::plot::write_all(&design, &args.out, point)? {
         outln!("wrote {}", f.display());
     }

@@ -19,9 +19,10 @@ pub(crate) struct PointArgs {
     /// plot read off by hand): the timings come from the non-linear ring.
     #[arg(long)]
     coss: Option<std::path::PathBuf>,
-    /// Series resistance of the resonant loop, ohm: the damped ring.
-    #[arg(long, allow_hyphen_values = true)]
-    tank_resistance: Option<String>,
+    /// Series resistance of the resonant loop, ohm: the damped ring (design file: `r_tank`;
+    /// formerly --tank-resistance).
+    #[arg(long, alias = "tank-resistance", allow_hyphen_values = true)]
+    r_tank: Option<String>,
     /// Input voltage, volt.
     #[arg(long, allow_hyphen_values = true)]
     vin: String,
@@ -35,9 +36,10 @@ pub(crate) struct PointArgs {
     /// switching frequency that regulates to it.
     #[arg(long, allow_hyphen_values = true)]
     vout: Option<String>,
-    /// Timer clock, hertz: gives the delay in ticks.
-    #[arg(long, allow_hyphen_values = true)]
-    timer_hz: Option<String>,
+    /// Timer clock, hertz: gives the delay in ticks (design file: `[timer] clock_hz`; formerly
+    /// --timer-hz).
+    #[arg(long, alias = "timer-hz", allow_hyphen_values = true)]
+    clock_hz: Option<String>,
     /// Timer counter width, bits.
     #[arg(long, default_value = "16", allow_hyphen_values = true)]
     counter_bits: String,
@@ -65,18 +67,22 @@ pub(crate) struct PointArgs {
     /// Tolerance of Cr, a fraction or a percentage.
     #[arg(long, allow_hyphen_values = true)]
     cr_tol: Option<String>,
-    /// Relative error of the sensed input voltage (gain), a fraction or a percentage.
-    #[arg(long, allow_hyphen_values = true)]
-    vin_err: Option<String>,
-    /// Relative error of the sensed output current (gain), a fraction or a percentage.
-    #[arg(long, allow_hyphen_values = true)]
-    io_err: Option<String>,
-    /// Absolute error of the sensed input voltage (offset plus peak noise), volt.
-    #[arg(long, allow_hyphen_values = true)]
-    vin_offset: Option<String>,
-    /// Absolute error of the sensed output current (offset plus peak noise), ampere.
-    #[arg(long, allow_hyphen_values = true)]
-    io_offset: Option<String>,
+    /// Relative (gain) error of the sensed input voltage, a fraction or a percentage (design
+    /// file: `[tolerance] vin_gain`; formerly --vin-err).
+    #[arg(long, alias = "vin-err", allow_hyphen_values = true)]
+    vin_gain: Option<String>,
+    /// Relative (gain) error of the sensed output current, a fraction or a percentage (design
+    /// file: `[tolerance] io_gain`; formerly --io-err).
+    #[arg(long, alias = "io-err", allow_hyphen_values = true)]
+    io_gain: Option<String>,
+    /// Absolute error of the sensed input voltage (offset plus peak noise), volt (the design
+    /// file gives it in codes, `[tolerance] vin_offset_codes`; formerly --vin-offset).
+    #[arg(long, alias = "vin-offset", allow_hyphen_values = true)]
+    vin_offset_volts: Option<String>,
+    /// Absolute error of the sensed output current (offset plus peak noise), ampere (the
+    /// design file gives it in codes, `[tolerance] io_offset_codes`; formerly --io-offset).
+    #[arg(long, alias = "io-offset", allow_hyphen_values = true)]
+    io_offset_amps: Option<String>,
     /// Peak timer jitter, second.
     #[arg(long, allow_hyphen_values = true)]
     jitter: Option<String>,
@@ -87,7 +93,7 @@ pub(crate) struct PointArgs {
 
 impl PointArgs {
     fn to_input(&self) -> Result<PointInput, InputError> {
-        let timer = match opt_num("--timer-hz", self.timer_hz.as_ref(), "Hz")? {
+        let timer = match opt_num("--clock-hz", self.clock_hz.as_ref(), "Hz")? {
             Some(clock_hz) => {
                 let bits = num("--counter-bits", &self.counter_bits, "")?;
                 if !(1.0..=32.0).contains(&bits) || bits.fract() != 0.0 {
@@ -129,8 +135,7 @@ impl PointArgs {
                 }
                 None => Vec::new(),
             },
-            r_tank_ohm: opt_num("--tank-resistance", self.tank_resistance.as_ref(), "ohm")?
-                .unwrap_or(0.0),
+            r_tank_ohm: opt_num("--r-tank", self.r_tank.as_ref(), "ohm")?.unwrap_or(0.0),
             vin_v: num("--vin", &self.vin, "V")?,
             vout_v: opt_num("--vout", self.vout.as_ref(), "V")?,
             io_a: num("--io", &self.io, "A")?,
@@ -147,11 +152,11 @@ impl PointArgs {
         let parts = [
             fraction("--lr-tol", self.lr_tol.as_ref())?,
             fraction("--cr-tol", self.cr_tol.as_ref())?,
-            fraction("--vin-err", self.vin_err.as_ref())?,
-            fraction("--io-err", self.io_err.as_ref())?,
+            fraction("--vin-gain", self.vin_gain.as_ref())?,
+            fraction("--io-gain", self.io_gain.as_ref())?,
             opt_num("--jitter", self.jitter.as_ref(), "s")?,
-            opt_num("--vin-offset", self.vin_offset.as_ref(), "V")?,
-            opt_num("--io-offset", self.io_offset.as_ref(), "A")?,
+            opt_num("--vin-offset-volts", self.vin_offset_volts.as_ref(), "V")?,
+            opt_num("--io-offset-amps", self.io_offset_amps.as_ref(), "A")?,
         ];
         if parts.iter().all(Option::is_none) {
             return Ok(None);

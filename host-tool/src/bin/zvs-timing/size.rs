@@ -5,7 +5,8 @@ use host_tool::analysis::point::InputError;
 
 use crate::args::{num, opt_num, range, topology, TopologyArg};
 
-/// Ranges are `LOW:HIGH`; numbers take SI or engineering prefixes as in `point`.
+/// Ranges are `LOW:HIGH` or, as in a design file, `[LOW, HIGH]`; numbers take SI or engineering
+/// prefixes as in `point`.
 #[derive(Args)]
 pub(crate) struct SizeArgs {
     /// Input-voltage range, volt, e.g. 36:60.

@@ -20,8 +20,10 @@ pub(crate) struct TableArgs {
 pub(crate) fn run_table(args: &TableArgs) -> anyhow::Result<()> {
     use host_tool::{emit::export, generate, model::design::Design};
     let design = Design::load(&args.design)?;
+    crate::args::writable_dir(&args.out)?;
     let out = generate::generate(&design)?;
-    let written = export::write_outcome(&args.out, &design, &out)?;
+    let written = export::write_outcome(&args.out, &design, &out)
+        .map_err(|e| anyhow::anyhow!("--out {}: {e}", args.out.display()))?;
     if args.json {
         let j = serde_json::json!({
             "name": design.name,

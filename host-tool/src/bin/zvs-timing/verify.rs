@@ -34,6 +34,18 @@ pub(crate) enum MethodArg {
     LibmF32,
 }
 
+impl MethodArg {
+    /// The name as given to `--method`.
+    pub(crate) fn name(self) -> &'static str {
+        match self {
+            Self::Table => "table",
+            Self::ClosedFormF32 => "closed-form-f32",
+            Self::FixedPoint => "fixed-point",
+            Self::LibmF32 => "libm-f32",
+        }
+    }
+}
+
 /// A table blob read from its file and opened (its integrity and the
 /// design's hash checked), its entries decoded into a `u16` array: the
 /// lookup checked is the one over the entries as firmware holds them in a
@@ -61,7 +73,12 @@ pub(crate) fn read_table(
         (None, MethodArg::Table) => {
             anyhow::bail!("--method table needs --table <name>.bin (written by `zvs-timing table`)")
         }
-        _ => return Ok(None),
+        (Some(path), m) => anyhow::bail!(
+            "--table {} is for --method table; --method {} computes the delay without one: drop one of the two",
+            path.display(),
+            m.name()
+        ),
+        (None, _) => return Ok(None),
     };
     let name = path.display();
     let blob = std::fs::read(path).map_err(|e| anyhow::anyhow!("cannot read {name}: {e}"))?;

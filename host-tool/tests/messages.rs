@@ -1,0 +1,171 @@
+//! Messages a user can act on: every kind of bad or doubtful input named
+//! in the tracker gets one line that names the option or key, the value
+//! and what would be valid, with the exit status the README promises (2
+//! for bad input; 0 with a WARNING line where the run goes on). One table
+//! of cases, run as a user runs the command.
+
+mod common;
+
+use std::path::{Path, PathBuf};
+
+/// A scratch folder with the files the cases refer to.
+fn scratch() -> PathBuf {
+    let dir = std::env::temp_dir().join(format!("zvs-messages-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let demo = std::fs::read_to_string(common::root().join("tables/winch_aux.toml")).unwrap();
+    let write = |name: &str, text: &str| std::fs::write(dir.join(name), text).unwrap();
+    write(
+        "winch_aux_coss.csv",
+        &std::fs::read_to_string(common::root().join("tables/winch_aux_coss.csv")).unwrap(),
+    );
+    write("demo.toml", &demo);
+    write(
+        "boost.toml",
+        "name = \"bst\"\ntopology = \"boost\"\nlr = \"1u\"\ncr = \"6.8n\"\nvin = [20, 40]\nio = [1, 4]\nvout = 48\n\
+         [adc]\nbits = 12\nvin_volts_per_code = 0.0161\nio_amps_per_code = 0.00488\n\
+         [timer]\nclock_hz = \"170M\"\ndriver_delay = \"25n\"\n",
+    );
+    write(
+        "three.toml",
+        &demo.replace("io = [1, 10]", "io = [0.5, 3, 5]"),
+    );
+    // A 10-16 V design whose ADC reads up to 20 V.
+    write(
+        "low.toml",
+        &demo
+            .replace("vin = [36, 60]", "vin = [10, 16]")
+            .replace(
+                "vin_volts_per_code = 0.0161",
+                "vin_volts_per_code = 0.00489",
+            )
+            .replace("vout = 12", "vout = 5"),
+    );
+    write("rising.csv", "0,1n\n20,2n\n10,3n\n");
+    write("empty.csv", "# nothing here\n");
+    write("one.csv", "10,1n\n");
+    write("a_file", "");
+    dir
+}
+
+struct Case {
+    args: &'static str,
+    code: i32,
+    /// Each must appear in standard error.
+    says: &'static [&'static str],
+}
+
+const CASES: &[Case] = &[
+    Case {
+        args: "point --lr 1u --cr 6.8n --vin 48 --io 6 --lr-tol 200%",
+        code: 2,
+        says: &["--lr-tol", "200 %", "50 %"],
+    },
+    Case {
+        args: "netlist boost.toml --vin 100 --io 2",
+        code: 2,
+        says: &["--vin = 100 V", "below its output, vout = 48 V"],
+    },
+    Case {
+        args: "plot boost.toml --vin 100 --io 2 --out pics",
+        code: 2,
+        says: &["--vin = 100 V", "below its output"],
+    },
+    Case {
+        args: "size --vin 20:40 --io 1:4 --vds-rating 100 --topology boost",
+        code: 2,
+        says: &["--vout", "boost"],
+    },
+    Case {
+        args: "point --lr 1u --cr 1n --coss rising.csv --vin 48 --io 6",
+        code: 2,
+        says: &["rising.csv:3", "volts must increase", "10 V follows 20 V"],
+    },
+    Case {
+        args: "point --lr 1u --cr 1n --coss empty.csv --vin 48 --io 6",
+        code: 2,
+        says: &["empty.csv: no `volts,farads` points"],
+    },
+    Case {
+        args: "point --lr 1u --cr 1n --coss one.csv --vin 48 --io 6",
+        code: 2,
+        says: &["one.csv:1", "one point is a constant", "cr"],
+    },
+    Case {
+        args: "table demo.toml --out a_file",
+        code: 2,
+        says: &["--out a_file", "cannot create the folder"],
+    },
+    Case {
+        args: "netlist demo.toml --vin 48 --io 6 --out missing/cell.cir",
+        code: 2,
+        says: &["--out missing/cell.cir", "missing does not exist"],
+    },
+    Case {
+        args: "verify three.toml --method fixed-point",
+        code: 2,
+        says: &["io = [0.5, 3.0, 5.0]", "a range is two values"],
+    },
+    Case {
+        args: "verify demo.toml --method fixed-point --table winch_aux.bin",
+        code: 2,
+        says: &["--table winch_aux.bin", "--method fixed-point", "drop one"],
+    },
+    Case {
+        args: "netlist low.toml --vin 40 --io 6",
+        code: 0,
+        says: &["WARNING", "--vin = 40 V", "full scale of 20.0246 V"],
+    },
+    Case {
+        args: "netlist low.toml --vin 18 --io 6",
+        code: 0,
+        says: &["WARNING", "--vin = 18 V", "outside the design range 10 to 16 V"],
+    },
+    Case {
+        args: "netlist demo.toml --vin -3 --io 6",
+        code: 2,
+        says: &["--vin = -3 V", "above zero"],
+    },
+    // The old spellings of renamed options are still accepted.
+    Case {
+        args: "point --lr 1u --cr 6.8n --vin 48 --io 6 --timer-hz 170M --tank-resistance 0.1 --vin-err 1% --io-err 2% --vin-offset 0.1 --io-offset 0.05",
+        code: 0,
+        says: &[],
+    },
+];
+
+#[test]
+fn every_bad_input_names_the_option_the_value_and_what_is_valid() {
+    let dir = scratch();
+    let mut failures = Vec::new();
+    for case in CASES {
+        let args: Vec<&str> = case.args.split(' ').collect();
+        let r = common::run(
+            std::process::Command::new(env!("CARGO_BIN_EXE_zvs-timing"))
+                .args(&args)
+                .current_dir(&dir),
+        );
+        let missing: Vec<&&str> = case
+            .says
+            .iter()
+            .filter(|s| !r.stderr.contains(**s))
+            .collect();
+        if r.code != case.code || !missing.is_empty() {
+            failures.push(format!(
+                "`zvs-timing {}`: exit {} (want {}), missing {missing:?} in:\n{}",
+                case.args, r.code, case.code, r.stderr
+            ));
+        }
+        if case.code == 2 {
+            // One line, no panic.
+            let lines = r.stderr.lines().filter(|l| !l.trim().is_empty()).count();
+            if lines != 1 || r.stderr.contains("panicked") {
+                failures.push(format!(
+                    "`zvs-timing {}`: not one line:\n{}",
+                    case.args, r.stderr
+                ));
+            }
+        }
+    }
+    let _ = std::fs::remove_dir_all(Path::new(&dir));
+    assert!(failures.is_empty(), "{}", failures.join("\n\n"));
+}
