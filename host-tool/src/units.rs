@@ -177,6 +177,8 @@ pub fn parse_fraction(text: &str) -> Option<f64> {
 /// digits: `3.729e-7, "s"` gives `"372.9 ns"`.
 #[must_use]
 pub fn format_si(value: f64, unit: &str) -> String {
+    // One spelling of the ohm in every output.
+    let unit = if unit == "ohm" { "Ω" } else { unit };
     if !value.is_finite() {
         return format!("{value} {unit}");
     }

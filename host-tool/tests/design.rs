@@ -253,7 +253,7 @@ fn coss_curves_in_design_files() {
 
     // A missing file, a bad number and a falling voltage: file, line, value.
     let cases = [
-        ("nowhere.csv", None, "nowhere.csv:0: cannot read"),
+        ("nowhere.csv", None, "nowhere.csv: cannot read"),
         (
             "bad.csv",
             Some("volts,farads\n0,2.4n\n5,lots\n"),

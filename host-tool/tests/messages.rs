@@ -48,10 +48,13 @@ fn scratch() -> PathBuf {
 }
 
 struct Case {
+    /// Arguments, split at spaces; `{root}` is the repository's root.
     args: &'static str,
     code: i32,
     /// Each must appear in standard error.
     says: &'static [&'static str],
+    /// Each must appear in standard output.
+    out: &'static [&'static str],
 }
 
 const CASES: &[Case] = &[
@@ -59,77 +62,113 @@ const CASES: &[Case] = &[
         args: "point --lr 1u --cr 6.8n --vin 48 --io 6 --lr-tol 200%",
         code: 2,
         says: &["--lr-tol", "200 %", "50 %"],
+        out: &[],
     },
     Case {
         args: "netlist boost.toml --vin 100 --io 2",
         code: 2,
         says: &["--vin = 100 V", "below its output, vout = 48 V"],
+        out: &[],
     },
     Case {
         args: "plot boost.toml --vin 100 --io 2 --out pics",
         code: 2,
         says: &["--vin = 100 V", "below its output"],
+        out: &[],
     },
     Case {
         args: "size --vin 20:40 --io 1:4 --vds-rating 100 --topology boost",
         code: 2,
         says: &["--vout", "boost"],
+        out: &[],
     },
     Case {
         args: "point --lr 1u --cr 1n --coss rising.csv --vin 48 --io 6",
         code: 2,
         says: &["rising.csv:3", "volts must increase", "10 V follows 20 V"],
+        out: &[],
     },
     Case {
         args: "point --lr 1u --cr 1n --coss empty.csv --vin 48 --io 6",
         code: 2,
         says: &["empty.csv: no `volts,farads` points"],
+        out: &[],
     },
     Case {
         args: "point --lr 1u --cr 1n --coss one.csv --vin 48 --io 6",
         code: 2,
         says: &["one.csv:1", "one point is a constant", "cr"],
+        out: &[],
     },
     Case {
         args: "table demo.toml --out a_file",
         code: 2,
         says: &["--out a_file", "cannot create the folder"],
+        out: &[],
     },
     Case {
         args: "netlist demo.toml --vin 48 --io 6 --out missing/cell.cir",
         code: 2,
         says: &["--out missing/cell.cir", "missing does not exist"],
+        out: &[],
     },
     Case {
         args: "verify three.toml --method fixed-point",
         code: 2,
         says: &["io = [0.5, 3.0, 5.0]", "a range is two values"],
+        out: &[],
     },
     Case {
         args: "verify demo.toml --method fixed-point --table winch_aux.bin",
         code: 2,
         says: &["--table winch_aux.bin", "--method fixed-point", "drop one"],
+        out: &[],
     },
     Case {
         args: "netlist low.toml --vin 40 --io 6",
         code: 0,
         says: &["WARNING", "--vin = 40 V", "full scale of 20.0246 V"],
+        out: &[],
     },
     Case {
         args: "netlist low.toml --vin 18 --io 6",
         code: 0,
         says: &["WARNING", "--vin = 18 V", "outside the design range 10 to 16 V"],
+        out: &[],
     },
     Case {
         args: "netlist demo.toml --vin -3 --io 6",
         code: 2,
         says: &["--vin = -3 V", "above zero"],
+        out: &[],
     },
     // The old spellings of renamed options are still accepted.
     Case {
         args: "point --lr 1u --cr 6.8n --vin 48 --io 6 --timer-hz 170M --tank-resistance 0.1 --vin-err 1% --io-err 2% --vin-offset 0.1 --io-offset 0.05",
         code: 0,
         says: &[],
+        out: &[],
+    },
+    // Every command's short help carries the caution.
+    Case {
+        args: "point -h",
+        code: 0,
+        says: &[],
+        out: &["CAUTION", "reduced voltage"],
+    },
+    // A passing verification ends with one plain line and the budget.
+    Case {
+        args: "verify demo.toml --table {root}/tables/winch_aux.bin",
+        code: 0,
+        says: &[],
+        out: &["PASS: table within max_error_ticks = 1 (worst 0.999 ticks) at all 2749050 code pairs"],
+    },
+    // The deck's comments give times with their unit at a sensible precision.
+    Case {
+        args: "netlist demo.toml --vin 48 --io 6",
+        code: 0,
+        says: &[],
+        out: &["gate off at 1.550 µs", "ZVS window 350.3 ns to 442.1 ns", "80.00 mΩ"],
     },
 ];
 
@@ -138,7 +177,12 @@ fn every_bad_input_names_the_option_the_value_and_what_is_valid() {
     let dir = scratch();
     let mut failures = Vec::new();
     for case in CASES {
-        let args: Vec<&str> = case.args.split(' ').collect();
+        let root = common::root().display().to_string();
+        let args: Vec<String> = case
+            .args
+            .split(' ')
+            .map(|a| a.replace("{root}", &root))
+            .collect();
         let r = common::run(
             std::process::Command::new(env!("CARGO_BIN_EXE_zvs-timing"))
                 .args(&args)
@@ -148,11 +192,12 @@ fn every_bad_input_names_the_option_the_value_and_what_is_valid() {
             .says
             .iter()
             .filter(|s| !r.stderr.contains(**s))
+            .chain(case.out.iter().filter(|s| !r.stdout.contains(**s)))
             .collect();
         if r.code != case.code || !missing.is_empty() {
             failures.push(format!(
-                "`zvs-timing {}`: exit {} (want {}), missing {missing:?} in:\n{}",
-                case.args, r.code, case.code, r.stderr
+                "`zvs-timing {}`: exit {} (want {}), missing {missing:?} in:\n{}\n{}",
+                case.args, r.code, case.code, r.stderr, r.stdout
             ));
         }
         if case.code == 2 {

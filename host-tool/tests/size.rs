@@ -194,3 +194,18 @@ fn the_cli_reports_the_interval_in_json_and_refuses_bad_input() {
     assert_eq!(out.code, 2);
     assert!(out.stderr.contains("--derating"));
 }
+
+#[test]
+fn an_interval_of_zero_width_offers_one_pair() {
+    // Z0 >= 60 V / 4 A = 15 ohm for ZVS; Z0 <= (180 V - 60 V) / 8 A = 15 ohm
+    // within the rating: one impedance, so one Lr/Cr pair, not three equal
+    // rows.
+    let r = size(&SizeInput {
+        derating: 1.0,
+        ..input(Topology::Buck, (36.0, 60.0), (4.0, 8.0), Some(12.0), 180.0)
+    })
+    .unwrap();
+    assert_eq!(r.z0_min_ohm, Some(15.0));
+    assert_eq!(r.z0_max_ohm, Some(15.0));
+    assert_eq!(r.pairs.len(), 1, "{:?}", r.pairs);
+}

@@ -325,7 +325,10 @@ pub fn size(inp: &SizeInput) -> Result<SizeReport, SizeError> {
     }
     // The impedances to offer: the interval's ends and geometric middle,
     // or the two bounds where it is empty.
-    let zs: Vec<f64> = if feasible {
+    let zs: Vec<f64> = if feasible && zvs_min == stress_max {
+        // An interval of zero width: one impedance, one row.
+        vec![zvs_min]
+    } else if feasible {
         vec![zvs_min, (zvs_min * stress_max).sqrt(), stress_max]
     } else {
         [zvs_min, stress_max]

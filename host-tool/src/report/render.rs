@@ -7,6 +7,18 @@ use crate::check::montecarlo::MonteCarloReport;
 use crate::check::verify::VerifyReport;
 use crate::units::format_si;
 
+/// A margin (second) in ticks of `clock_hz` and in time, at a precision
+/// that shows it: under a hundredth of a tick it is said to be so, with the
+/// time in picoseconds.
+fn margin_text(m: f64, clock_hz: f64) -> String {
+    let ticks = m * clock_hz;
+    if ticks.abs() >= 0.01 {
+        format!("{ticks:.2} ticks ({:.3} ns)", m * 1e9)
+    } else {
+        format!("under 0.01 tick ({:.2} ps)", m * 1e12)
+    }
+}
+
 fn ns(t: f64) -> String {
     format_si(t, "s")
 }
@@ -218,7 +230,7 @@ pub fn size_text(r: &crate::analysis::size::SizeReport) -> String {
         );
     }
     for w in &r.warnings {
-        let _ = writeln!(s, "warning: {w}");
+        let _ = writeln!(s, "WARNING: {w}");
     }
     let _ = writeln!(s, "\n{}", crate::analysis::point::CAUTION);
     s
@@ -266,9 +278,8 @@ pub fn verification_text(v: &VerifyReport, clock_hz: f64) -> String {
     if let Some(m) = v.min_margin_s {
         let _ = writeln!(
             s,
-            "smallest margin to a window edge: {} ({:.2} ticks)",
-            format_si(m, "s"),
-            m * clock_hz
+            "smallest margin to a window edge: {}",
+            margin_text(m, clock_hz)
         );
     }
     if v.robust_points + v.zvs_unreliable > 0 {
@@ -280,9 +291,8 @@ pub fn verification_text(v: &VerifyReport, clock_hz: f64) -> String {
         if let Some(m) = v.min_robust_margin_s {
             let _ = writeln!(
                 s,
-                "worst margin to a robust-window edge: {} ({:.2} ticks{})",
-                format_si(m, "s"),
-                m * clock_hz,
+                "worst margin to a robust-window edge: {}{}",
+                margin_text(m, clock_hz),
                 if m < 0.0 { ", outside" } else { "" }
             );
         }
@@ -325,7 +335,7 @@ pub fn montecarlo_text(r: &MonteCarloReport) -> String {
     let t = r.tolerance;
     let _ = writeln!(
         s,
-        "tolerances: Lr ±{:.1} %, C ±{:.1} %, gain ±{:.1} % / ±{:.1} %, offset ±{} / ±{} codes, noise ±{} codes, jitter ±{}",
+        "tolerances: Lr ±{:.1} %, C ±{:.1} %, gain Vin ±{:.1} % and Io ±{:.1} %, offset Vin ±{} and Io ±{} codes, noise ±{} codes, jitter ±{}",
         100.0 * t.lr_rel,
         100.0 * t.cr_rel,
         100.0 * t.vin_gain_rel,

@@ -109,16 +109,19 @@ pub fn netlist(
         "* CAUTION: a simulation of a model of the cell; verify on the bench at reduced voltage with a scope."
     );
     let _ = writeln!(s, "* Model: {}.", design.model_summary());
+    let q = crate::units::format_si;
     let _ = writeln!(
         s,
-        "* Gate edges are the switch's (driver delays applied): off at {t_off_s:e} s, on {turn_on_s:e} s later"
+        "* Gate edges are the switch's (driver delays applied): off at {}, on {} later",
+        q(t_off_s, "s"),
+        q(turn_on_s, "s")
     );
     let _ = writeln!(
         s,
-        "* (the timer's {} ticks at {} Hz plus the driver's net lead of {:e} s).",
+        "* (the timer's {} ticks at {} plus the driver's net lead of {}).",
         ticks.get(),
-        timer.clock_hz(),
-        timer.lead_s()
+        q(timer.clock_hz(), "Hz"),
+        q(timer.lead_s(), "s")
     );
     let _ = writeln!(
         s,
@@ -129,14 +132,17 @@ pub fn netlist(
         (Some(o), Some(c), _) => {
             let _ = writeln!(
                 s,
-                "*   ZVS window {o:e} s to {c:e} s (.meas t_open - t_off and t_rise - t_off); v_on = 0 V"
+                "*   ZVS window {} to {} (.meas t_open - t_off and t_rise - t_off); v_on = 0 V",
+                q(o, "s"),
+                q(c, "s")
             );
         }
         (_, _, Some(v)) => {
             let _ = writeln!(
                 s,
-                "*   no ZVS: valley at {v:e} s, switch voltage there {:e} V (.meas v_on)",
-                p.expected_switch_voltage_at_turn_on_v
+                "*   no ZVS: valley at {}, switch voltage there {} (.meas v_on)",
+                q(v, "s"),
+                q(p.expected_switch_voltage_at_turn_on_v, "V")
             );
         }
         _ => {}

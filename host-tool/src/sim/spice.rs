@@ -179,8 +179,9 @@ impl CellDeck {
         let mut d = String::new();
         let _ = writeln!(
             d,
-            "* zvs-timing: {} ZVS quasi-resonant switch cell, gate off at {t0:e} s",
-            self.topology.name()
+            "* zvs-timing: {} ZVS quasi-resonant switch cell, gate off at {}",
+            self.topology.name(),
+            crate::units::format_si(t0, "s")
         );
         // Gate: on in the DC operating point, off at t0, optionally on again.
         let edge = 1e-12;

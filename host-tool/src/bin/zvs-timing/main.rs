@@ -48,9 +48,7 @@ use clap::{Parser, Subcommand};
     about = "Turn-on timing for zero-voltage-switching quasi-resonant converters",
     long_about = "Computes, from the resonant tank and the operating point, the window after gate \
 turn-off in which the MOSFET turns on at zero voltage, the valley fallback below the ZVS boundary, \
-and the timer delay that lands the turn-on inside the window.\n\n\
-CAUTION: these converters run at lethal voltages. Verify every timing at reduced voltage with a \
-scope, and follow local electrical codes and licensed practice."
+and the timer delay that lands the turn-on inside the window."
 )]
 struct Cli {
     #[command(subcommand)]
@@ -76,8 +74,20 @@ enum Cmd {
     Montecarlo(montecarlo::MonteCarloArgs),
 }
 
+/// Shown under every command's help, short (`-h`) and long (`--help`).
+const HELP_CAUTION: &str =
+    "CAUTION: these converters run at lethal voltages. Verify every timing at \
+reduced voltage with a scope, and follow local electrical codes and licensed practice.";
+
 fn main() -> ExitCode {
-    let cli = Cli::parse();
+    use clap::{CommandFactory, FromArgMatches};
+    let command = Cli::command()
+        .after_help(HELP_CAUTION)
+        .mut_subcommands(|c| c.after_help(HELP_CAUTION));
+    let cli = match Cli::from_arg_matches(&command.get_matches()) {
+        Ok(cli) => cli,
+        Err(e) => e.exit(),
+    };
     let result = match &cli.command {
         Cmd::Point(args) => point::run_point(args),
         Cmd::Table(args) => table::run_table(args),

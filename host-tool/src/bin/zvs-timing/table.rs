@@ -6,7 +6,9 @@ use clap::Args;
 pub(crate) struct TableArgs {
     /// Design file (TOML).
     design: std::path::PathBuf,
-    /// Output folder for <name>.rs, .h, .bin and .csv.
+    /// Output folder for <name>.rs (Rust table), <name>.h (C header), <name>.bin (flash blob),
+    /// <name>.csv (the nodes) and <name>_closed_form.rs (the closed-form methods' coefficients);
+    /// created when missing.
     #[arg(long)]
     out: std::path::PathBuf,
     /// Print one JSON object instead of the summary.

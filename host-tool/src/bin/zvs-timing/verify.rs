@@ -162,6 +162,15 @@ pub(crate) fn run_verify(args: &VerifyArgs) -> anyhow::Result<ExitCode> {
         );
     }
     if ok {
+        if !args.json {
+            outln!(
+                "PASS: {} within max_error_ticks = {} (worst {:.3} ticks) at all {} code pairs",
+                v.method,
+                design.max_error_ticks,
+                v.max_error_ticks,
+                v.points_checked
+            );
+        }
         Ok(ExitCode::SUCCESS)
     } else {
         eprintln!(
