@@ -40,6 +40,14 @@ fn scratch() -> PathBuf {
             )
             .replace("vout = 12", "vout = 5"),
     );
+    // A design with 16-bit converters over the demo's range: 720 M pairs.
+    write(
+        "big.toml",
+        &demo
+            .replace("bits = 12", "bits = 16")
+            .replace("vin_volts_per_code = 0.0161", "vin_volts_per_code = 0.001")
+            .replace("io_amps_per_code = 0.00488", "io_amps_per_code = 0.0003"),
+    );
     write("rising.csv", "0,1n\n20,2n\n10,3n\n");
     write("empty.csv", "# nothing here\n");
     write("one.csv", "10,1n\n");
@@ -169,6 +177,26 @@ const CASES: &[Case] = &[
         code: 0,
         says: &[],
         out: &["gate off at 1.550 µs", "ZVS window 350.3 ns to 442.1 ns", "80.00 mΩ"],
+    },
+    // Work over a few minutes is refused with its estimate unless asked for.
+    Case {
+        args: "table big.toml --out big",
+        code: 2,
+        says: &["720030000 code pairs", "13 min", "--allow-long", "narrow the design range"],
+        out: &[],
+    },
+    Case {
+        args: "montecarlo demo.toml --table {root}/tables/winch_aux.bin --boards 1000000000",
+        code: 2,
+        says: &["1000000000 boards x 500 cycles", "--allow-long", "fewer boards"],
+        out: &[],
+    },
+    // plot reads a table instead of generating one again.
+    Case {
+        args: "plot demo.toml --out pics --table {root}/tables/winch_aux.bin",
+        code: 0,
+        says: &[],
+        out: &["wrote pics/error_map.svg"],
     },
 ];
 

@@ -6,6 +6,7 @@
 //!
 //! Imports: the leaves, [`crate::tank`], [`crate::input`], [`crate::model`].
 
+pub mod cost;
 pub mod doubling;
 pub mod montecarlo;
 pub mod verify;

@@ -166,6 +166,21 @@ impl Plan {
 /// # Errors
 /// [`GenerateError`].
 pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
+    generate_with_progress(design, &mut |_, _| {})
+}
+
+/// [`generate`], telling `progress` what it is doing and how far along
+/// (the stage's name and the fraction of it done, 0 to 1) now and then:
+/// the robust windows of the readings, the candidate layouts, the proof at
+/// every code pair.
+///
+/// # Errors
+/// As [`generate`].
+pub fn generate_with_progress(
+    design: &Design,
+    progress: &mut dyn FnMut(&str, f64),
+) -> Result<Outcome, GenerateError> {
+    progress("bounding the robust window of every reading", 0.0);
     design.robust_aim().map_err(|e| GenerateError::Model {
         vin_v: design.vin_v.0,
         io_a: design.io_a.0,
@@ -175,6 +190,7 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
     // Every reading's robust window and aim, once: the requirements and
     // the verification read them.
     let readings = model.readings();
+    progress("bounding the robust window of every reading", 1.0);
     let model = match &readings {
         Some(r) => model.with_readings(r),
         None => model,
@@ -308,7 +324,9 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
     let mut best: Option<(f64, usize, &'static str)> = None;
     let mut chosen = None;
     let mut fallback = None;
-    for (g, plan) in pool {
+    let n_pool = pool.len().max(1) as f64;
+    for (k, (g, plan)) in pool.into_iter().enumerate() {
+        progress("fitting the candidate layouts", k as f64 / n_pool);
         if chosen.is_some() {
             candidates.push(Candidate {
                 layout: g.layout_name(),
@@ -366,7 +384,7 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
             best = Some((err, miss, g.layout_name()));
         }
         if meets {
-            if let Some(c) = accept(design, &model, g, &mut candidates)? {
+            if let Some(c) = accept(design, &model, g, &mut candidates, progress)? {
                 chosen = Some(c);
             }
         } else if fallback.is_none() && all && err <= design.max_error_ticks {
@@ -379,7 +397,7 @@ pub fn generate(design: &Design) -> Result<Outcome, GenerateError> {
     // and reported.
     if chosen.is_none() {
         if let Some(g) = fallback {
-            chosen = accept(design, &model, g, &mut candidates)?;
+            chosen = accept(design, &model, g, &mut candidates, progress)?;
         }
     }
     match chosen {
@@ -410,6 +428,7 @@ fn accept(
     model: &ExactModel<'_>,
     g: Generated,
     candidates: &mut [Candidate],
+    progress: &mut dyn FnMut(&str, f64),
 ) -> Result<Option<(Generated, VerifyReport, Vec<VerifyReport>)>, GenerateError> {
     let table = g.table().map_err(|e| GenerateError::Model {
         vin_v: 0.0,
@@ -432,7 +451,9 @@ fn accept(
     if let Some(m) = &libm {
         methods.push(m);
     }
-    let mut reports = crate::check::verify::verify_all_with(design, model, &methods);
+    let mut tick = |f: f64| progress("proving the table at every code pair", f);
+    let mut reports =
+        crate::check::verify::verify_all_with_progress(design, model, &methods, &mut tick);
     let closed_forms = reports.split_off(1);
     let Some(report) = reports.pop() else {
         return Ok(None);

@@ -16,6 +16,7 @@ use plotters::prelude::*;
 use timing_core::waveform::Waveform;
 use timing_core::AdcCode;
 
+use crate::generate::generated::Generated;
 use crate::model::design::Design;
 use crate::model::exact::ExactModel;
 
@@ -295,8 +296,16 @@ pub fn window_map(design: &Design) -> Result<String, PlotError> {
 /// [`PlotError`].
 pub fn error_map(design: &Design) -> Result<String, PlotError> {
     let out = crate::generate::generate(design).map_err(|e| PlotError::Generate(e.to_string()))?;
-    let table = out
-        .table
+    error_map_of(design, &out.table)
+}
+
+/// [`error_map`] of a table already made (`zvs-timing plot --table`: read
+/// from its blob, not generated again).
+///
+/// # Errors
+/// [`PlotError`].
+pub fn error_map_of(design: &Design, generated: &Generated) -> Result<String, PlotError> {
+    let table = generated
         .table()
         .map_err(|e| PlotError::Generate(e.to_string()))?;
     let model = ExactModel::new(design);
@@ -342,8 +351,8 @@ pub fn error_map(design: &Design) -> Result<String, PlotError> {
             &format!(
                 "{}: table error against the exact model ({} layout, {} bytes)",
                 design.name,
-                out.table.layout_name(),
-                out.table.table_bytes()
+                generated.layout_name(),
+                generated.table_bytes()
             ),
             "ticks",
         )
@@ -523,6 +532,19 @@ pub fn write_all(
     dir: &Path,
     point: Option<(f64, f64)>,
 ) -> Result<Vec<PathBuf>, PlotError> {
+    write_all_with(design, dir, point, None)
+}
+
+/// [`write_all`] with the table of the error map given (`None`: generated).
+///
+/// # Errors
+/// [`PlotError`].
+pub fn write_all_with(
+    design: &Design,
+    dir: &Path,
+    point: Option<(f64, f64)>,
+    table: Option<&Generated>,
+) -> Result<Vec<PathBuf>, PlotError> {
     std::fs::create_dir_all(dir).map_err(|e| PlotError::Io {
         path: dir.display().to_string(),
         message: e.to_string(),
@@ -531,7 +553,13 @@ pub fn write_all(
     let files = [
         ("delay_map.svg", delay_map(design)?),
         ("window_map.svg", window_map(design)?),
-        ("error_map.svg", error_map(design)?),
+        (
+            "error_map.svg",
+            match table {
+                Some(g) => error_map_of(design, g)?,
+                None => error_map(design)?,
+            },
+        ),
         ("cycle.svg", cycle(design, vin, io)?),
     ];
     let mut written = Vec::new();

@@ -99,3 +99,75 @@ pub(crate) fn writable_file(file: &std::path::Path) -> anyhow::Result<()> {
         .map_err(|e| anyhow::anyhow!("--out {}: cannot write the file: {e}", file.display()))?;
     Ok(())
 }
+
+/// Refuse work estimated beyond [`host_tool::check::cost::LIMIT_S`] unless
+/// `allow_long` (`--allow-long`), naming the estimate and `advice` (what
+/// would make it shorter); say the estimate
+/// before work of more than ten seconds.
+pub(crate) fn check_cost(
+    what: &str,
+    estimate_s: f64,
+    allow_long: bool,
+    advice: &str,
+) -> anyhow::Result<()> {
+    use host_tool::check::cost::{spoken, LIMIT_S};
+    if estimate_s > LIMIT_S && !allow_long {
+        anyhow::bail!(
+            "{what} would take about {} on a 2-core machine (estimated); pass --allow-long to run it, or {advice}",
+            spoken(estimate_s)
+        );
+    }
+    if estimate_s > 10.0 {
+        eprintln!(
+            "zvs-timing: {what}: about {} (estimated)",
+            spoken(estimate_s)
+        );
+    }
+    Ok(())
+}
+
+/// A progress bar on standard error for a long step: its stage and how far
+/// along, with an estimate of the time left; drawn only once the work has
+/// run a second, and never with `quiet` (JSON output).
+pub(crate) struct Progress {
+    bar: indicatif::ProgressBar,
+    start: std::time::Instant,
+    shown: bool,
+    quiet: bool,
+}
+
+impl Progress {
+    pub(crate) fn new(quiet: bool) -> Self {
+        let bar = indicatif::ProgressBar::new(1000);
+        bar.set_style(
+            indicatif::ProgressStyle::with_template("{msg} {bar:30} {percent}% ({eta} left)")
+                .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
+        );
+        bar.set_draw_target(indicatif::ProgressDrawTarget::hidden());
+        Self {
+            bar,
+            start: std::time::Instant::now(),
+            shown: false,
+            quiet,
+        }
+    }
+
+    /// At `done` (0 to 1) of the stage `stage`.
+    pub(crate) fn set(&mut self, stage: &str, done: f64) {
+        if !self.shown && !self.quiet && self.start.elapsed().as_secs_f64() > 1.0 {
+            self.bar
+                .set_draw_target(indicatif::ProgressDrawTarget::stderr());
+            self.shown = true;
+        }
+        if self.bar.message() != stage {
+            self.bar.set_message(stage.to_owned());
+            self.bar.reset_eta();
+        }
+        self.bar
+            .set_position((done.clamp(0.0, 1.0) * 1000.0) as u64);
+    }
+
+    pub(crate) fn finish(self) {
+        self.bar.finish_and_clear();
+    }
+}

@@ -27,6 +27,9 @@ pub(crate) struct MonteCarloArgs {
     /// Print one JSON object instead of the summary.
     #[arg(long)]
     json: bool,
+    /// Run even when the work is estimated to take more than five minutes.
+    #[arg(long)]
+    allow_long: bool,
 }
 
 pub(crate) fn run_montecarlo(args: &MonteCarloArgs) -> anyhow::Result<()> {
@@ -34,6 +37,12 @@ pub(crate) fn run_montecarlo(args: &MonteCarloArgs) -> anyhow::Result<()> {
     let cf = design.closed_form()?;
     let file = read_table(&design, args.table.as_deref(), args.method)?;
     let method = open_method(&cf, file.as_ref(), args.method)?;
+    crate::args::check_cost(
+        &format!("{} boards x {} cycles", args.boards, args.cycles),
+        host_tool::check::cost::montecarlo_s(u64::from(args.boards), u64::from(args.cycles)),
+        args.allow_long,
+        "draw fewer boards or cycles",
+    )?;
     let bar = indicatif::ProgressBar::new(u64::from(args.boards));
     bar.set_style(
         indicatif::ProgressStyle::with_template("boards {bar:40} {pos}/{len} ({eta} left)")

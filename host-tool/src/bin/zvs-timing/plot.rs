@@ -17,6 +17,13 @@ pub(crate) struct PlotArgs {
     /// Output current of the cycle picture, ampere (default: J = 1.5 at that voltage).
     #[arg(long, allow_hyphen_values = true)]
     io: Option<String>,
+    /// Table blob written by `table` (<name>.bin) for the error map; without it the table is
+    /// generated again.
+    #[arg(long)]
+    table: Option<std::path::PathBuf>,
+    /// Run even when the work is estimated to take more than five minutes.
+    #[arg(long)]
+    allow_long: bool,
 }
 
 pub(crate) fn run_plot(args: &PlotArgs) -> anyhow::Result<()> {
@@ -34,7 +41,21 @@ pub(crate) fn run_plot(args: &PlotArgs) -> anyhow::Result<()> {
         }
     }
     crate::args::writable_dir(&args.out)?;
-    for f in host_tool::report::plot::write_all(&design, &args.out, point)? {
+    let table = match &args.table {
+        Some(path) => {
+            crate::verify::read_table(&design, Some(path), crate::verify::MethodArg::Table)?
+        }
+        None => None,
+    };
+    if table.is_none() {
+        crate::args::check_cost(
+            "generating the table for the error map",
+            host_tool::check::cost::table_s(&design),
+            args.allow_long,
+            "give the table written by `zvs-timing table` as --table",
+        )?;
+    }
+    for f in host_tool::report::plot::write_all_with(&design, &args.out, point, table.as_ref())? {
         outln!("wrote {}", f.display());
     }
     outln!("{}", host_tool::analysis::point::CAUTION);

@@ -17,13 +17,28 @@ pub(crate) struct TableArgs {
     /// List every candidate evaluated, not one line per layout family.
     #[arg(long)]
     verbose: bool,
+    /// Run even when the work is estimated to take more than five minutes.
+    #[arg(long)]
+    allow_long: bool,
 }
 
 pub(crate) fn run_table(args: &TableArgs) -> anyhow::Result<()> {
     use host_tool::{emit::export, generate, model::design::Design};
     let design = Design::load(&args.design)?;
     crate::args::writable_dir(&args.out)?;
-    let out = generate::generate(&design)?;
+    crate::args::check_cost(
+        &format!(
+            "generating and proving the table at {} code pairs",
+            host_tool::check::cost::pairs(&design)
+        ),
+        host_tool::check::cost::table_s(&design),
+        args.allow_long,
+        "narrow the design range",
+    )?;
+    let mut bar = crate::args::Progress::new(args.json);
+    let out = generate::generate_with_progress(&design, &mut |stage, f| bar.set(stage, f));
+    bar.finish();
+    let out = out?;
     let written = export::write_outcome(&args.out, &design, &out)
         .map_err(|e| anyhow::anyhow!("--out {}: {e}", args.out.display()))?;
     if args.json {

@@ -20,6 +20,9 @@ pub(crate) struct VerifyArgs {
     /// Print one JSON object instead of the summary.
     #[arg(long)]
     json: bool,
+    /// Run even when the work is estimated to take more than five minutes.
+    #[arg(long)]
+    allow_long: bool,
 }
 
 #[derive(Clone, Copy, PartialEq, Eq, ValueEnum)]
@@ -52,13 +55,7 @@ impl MethodArg {
 /// Rust or C array, the same code as over the blob's bytes but for the
 /// read of an entry (`timing_core::table::LeBytes`, which
 /// `tests/blob_lookup.rs` checks against the array at every code pair).
-pub(crate) struct TableFile {
-    sensing: timing_core::table::Sensing,
-    layout: timing_core::table::Layout,
-    frac_bits: u8,
-    fallback: timing_core::table::Fallback,
-    entries: Vec<u16>,
-}
+pub(crate) type TableFile = host_tool::generate::Generated;
 
 /// The table file `table` for the method `which` (`None` for a closed
 /// form).
@@ -103,13 +100,7 @@ pub(crate) fn open_method<'a>(
     which: MethodArg,
 ) -> anyhow::Result<Box<dyn host_tool::check::verify::DelayMethod + 'a>> {
     Ok(match (which, file) {
-        (MethodArg::Table, Some(f)) => Box::new(timing_core::table::DelayTable::new(
-            f.sensing,
-            f.layout,
-            f.frac_bits,
-            f.fallback,
-            f.entries.as_slice(),
-        )?),
+        (MethodArg::Table, Some(f)) => Box::new(f.table()?),
         (MethodArg::Table, None) => anyhow::bail!("--method table needs --table <name>.bin"),
         (MethodArg::ClosedFormF32, _) => Box::new(cf.fast_f32()?),
         (MethodArg::FixedPoint, _) => Box::new(cf.fixed_point()?),
@@ -123,6 +114,16 @@ pub(crate) fn run_verify(args: &VerifyArgs) -> anyhow::Result<ExitCode> {
     let cf = design.closed_form()?;
     let file = read_table(&design, args.table.as_deref(), args.method)?;
     let method = open_method(&cf, file.as_ref(), args.method)?;
+    crate::args::check_cost(
+        &format!(
+            "verifying {} at {} code pairs",
+            args.method.name(),
+            host_tool::check::cost::pairs(&design)
+        ),
+        host_tool::check::cost::verify_s(&design),
+        args.allow_long,
+        "narrow the design range",
+    )?;
     let total = u64::from(design.vin_codes.len());
     let bar = indicatif::ProgressBar::new(total);
     bar.set_style(

@@ -160,6 +160,20 @@ pub fn verify_all_with(
     verify_rows(design, model, methods, None, &|_| {}, true)
 }
 
+/// [`verify_all_with`], calling `progress` with the fraction done (0..1)
+/// now and then.
+pub fn verify_all_with_progress(
+    design: &Design,
+    model: &ExactModel<'_>,
+    methods: &[&dyn DelayMethod],
+    progress: &mut dyn FnMut(f64),
+) -> Vec<VerifyReport> {
+    if methods.is_empty() {
+        return Vec::new();
+    }
+    verify_rows(design, model, methods, Some(progress), &|_| {}, true)
+}
+
 /// [`verify_all`] with `each_row` called in the worker before each row of
 /// voltage codes (tests inject a fault there: a panicking worker must fail
 /// the verification, never shorten it); doubled pairs take their halves'
