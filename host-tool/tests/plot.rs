@@ -168,3 +168,19 @@ fn the_readme_pictures_are_fresh() {
         );
     }
 }
+
+#[test]
+fn the_cycle_says_valley_below_the_boundary_and_draws_the_gate_in_its_own_lane() {
+    let d = demo();
+    // 40 V, 2 A is below the demo's boundary (about 3.3 A at 40 V).
+    let below = plot::cycle(&d, 40.0, 2.0).unwrap();
+    assert!(below.contains("no ZVS: valley turn-on"), "title");
+    let above = plot::cycle(&d, 48.0, 6.0).unwrap();
+    assert!(above.contains("ZVS turn-on after"), "title");
+    // The gate lane: its own axis, labelled off/on, under the waveforms.
+    for svg in [&below, &above] {
+        assert!(
+            svg.contains(">\ngate\n<") && svg.contains(">\non\n<") && svg.contains(">\noff\n<")
+        );
+    }
+}

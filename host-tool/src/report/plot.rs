@@ -154,13 +154,6 @@ fn map(
         .y_label_area_size(60)
         .build_cartesian_2d(grid.vin.0..grid.vin.1, grid.io.0..grid.io.1)
         .map_err(draw)?;
-    chart
-        .configure_mesh()
-        .disable_mesh()
-        .x_desc("input voltage Vin (V)")
-        .y_desc("output current Io (A)")
-        .draw()
-        .map_err(draw)?;
     let mut cells = Vec::with_capacity(NX * NY);
     for iy in 0..NY {
         for ix in 0..NX {
@@ -173,6 +166,16 @@ fn map(
         }
     }
     chart.draw_series(cells).map_err(draw)?;
+    // A light grid over the map, the major lines only.
+    chart
+        .configure_mesh()
+        .bold_line_style(WHITE.mix(0.35))
+        .light_line_style(TRANSPARENT)
+        .x_desc("input voltage Vin (V)")
+        .y_desc("output current Io (A)")
+        .label_style(("sans-serif", 14))
+        .draw()
+        .map_err(draw)?;
     chart
         .draw_series(LineSeries::new(boundary(design)?, BLACK.stroke_width(2)))
         .map_err(draw)?
@@ -190,14 +193,15 @@ fn map(
         .margin_top(45)
         .margin_bottom(57)
         .margin_right(10)
-        .y_label_area_size(60)
-        .caption(unit, ("sans-serif", 14))
+        .y_label_area_size(70)
+        .caption(unit, ("sans-serif", 16))
         .build_cartesian_2d(0.0..1.0, lo..hi)
         .map_err(draw)?;
     bar_chart
         .configure_mesh()
         .disable_mesh()
         .disable_x_axis()
+        .y_label_style(("sans-serif", 15))
         .draw()
         .map_err(draw)?;
     let n = 100;
@@ -432,20 +436,29 @@ pub fn cycle(design: &Design, vin_v: f64, io_a: f64) -> Result<String, PlotError
     let v_peak = t.peak_switch_voltage_v;
     let v_top = 1.3 * v_peak;
     let i_max = cell.i_amp() * 1.3;
+    let turn_on = if t.turn_on.window().is_some() {
+        format!("ZVS turn-on after {} ticks", ticks.get())
+    } else {
+        format!("no ZVS: valley turn-on after {} ticks", ticks.get())
+    };
     svg(|root| {
         root.fill(&WHITE).map_err(draw)?;
-        let mut chart = ChartBuilder::on(root)
-            .caption(
-                format!(
-                    "{}: one transition at Vin = {vin_v:.1} V, Io = {io_a:.2} A (J = {:.3}), turn-on after {} ticks",
+        let root = root
+            .titled(
+                &format!(
+                    "{}: one transition at Vin = {vin_v:.1} V, Io = {io_a:.2} A (J = {:.3}), {turn_on}",
                     design.name,
                     design.tank.normalized_load(&cell),
-                    ticks.get()
                 ),
                 ("sans-serif", 18),
             )
+            .map_err(draw)?;
+        // The waveforms above, the gate command in its own lane below.
+        let (_, height) = root.dim_in_pixel();
+        let (upper, lane) = root.split_vertically(height * 4 / 5);
+        let mut chart = ChartBuilder::on(&upper)
             .margin(12)
-            .x_label_area_size(45)
+            .x_label_area_size(20)
             .y_label_area_size(60)
             .right_y_label_area_size(60)
             .build_cartesian_2d(ns(t0)..ns(t1), -0.05 * v_top..v_top)
@@ -453,7 +466,6 @@ pub fn cycle(design: &Design, vin_v: f64, io_a: f64) -> Result<String, PlotError
             .set_secondary_coord(ns(t0)..ns(t1), -i_max..i_max);
         chart
             .configure_mesh()
-            .x_desc("time from gate turn-off (ns)")
             .y_desc("switch voltage (V)")
             .light_line_style(RGBColor(235, 235, 235))
             .draw()
@@ -485,21 +497,6 @@ pub fn cycle(design: &Design, vin_v: f64, io_a: f64) -> Result<String, PlotError
             .legend(|(x, y)| {
                 PathElement::new(vec![(x, y), (x + 20, y)], VOLTAGE_COLOUR.stroke_width(2))
             });
-        // Gate command as a band at the top of the voltage axis.
-        let (g_lo, g_hi) = (1.12 * v_peak, 1.24 * v_peak);
-        chart
-            .draw_series(LineSeries::new(
-                times
-                    .iter()
-                    .zip(&samples)
-                    .map(|(&s, w)| (ns(s), if w.gate_on { g_hi } else { g_lo })),
-                GATE_COLOUR.stroke_width(2),
-            ))
-            .map_err(draw)?
-            .label("gate command (high = on)")
-            .legend(|(x, y)| {
-                PathElement::new(vec![(x, y), (x + 20, y)], GATE_COLOUR.stroke_width(2))
-            });
         chart
             .draw_secondary_series(LineSeries::new(
                 points(|w| w.inductor_current_a),
@@ -517,6 +514,33 @@ pub fn cycle(design: &Design, vin_v: f64, io_a: f64) -> Result<String, PlotError
             .border_style(BLACK)
             .draw()
             .map_err(draw)?;
+        // The gate command: off (0) or on (1), on the same time axis.
+        let mut gate = ChartBuilder::on(&lane)
+            .margin(12)
+            .margin_top(0)
+            .x_label_area_size(45)
+            .y_label_area_size(60)
+            .right_y_label_area_size(60)
+            .build_cartesian_2d(ns(t0)..ns(t1), -0.2..1.2)
+            .map_err(draw)?;
+        gate.configure_mesh()
+            .x_desc("time from gate turn-off (ns)")
+            .y_desc("gate")
+            .y_labels(2)
+            .y_label_formatter(&|v| if *v > 0.5 { "on".into() } else { "off".into() })
+            .label_style(("sans-serif", 13))
+            .axis_desc_style(("sans-serif", 15))
+            .light_line_style(RGBColor(235, 235, 235))
+            .draw()
+            .map_err(draw)?;
+        gate.draw_series(LineSeries::new(
+            times
+                .iter()
+                .zip(&samples)
+                .map(|(&s, w)| (ns(s), if w.gate_on { 1.0 } else { 0.0 })),
+            GATE_COLOUR.stroke_width(2),
+        ))
+        .map_err(draw)?;
         Ok(())
     })
 }
