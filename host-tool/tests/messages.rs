@@ -48,6 +48,14 @@ fn scratch() -> PathBuf {
             .replace("vin_volts_per_code = 0.0161", "vin_volts_per_code = 0.001")
             .replace("io_amps_per_code = 0.00488", "io_amps_per_code = 0.0003"),
     );
+    // A budget no table can meet: half a tick is rounding alone.
+    write(
+        "tiny_budget.toml",
+        "name = \"tb\"\nlr = \"1u\"\ncr = \"6.8n\"\nvin = [12, 60]\nio = [0.3, 7]\nvout = 5\n\
+         [adc]\nbits = 10\nvin_volts_per_code = 0.0644\nio_amps_per_code = 0.0195\n\
+         [timer]\nclock_hz = \"170M\"\ndriver_delay = \"25n\"\n\
+         [table]\nlayout = \"log-ratio\"\nmax_error_ticks = 0.5\n",
+    );
     write("rising.csv", "0,1n\n20,2n\n10,3n\n");
     write("empty.csv", "# nothing here\n");
     write("one.csv", "10,1n\n");
@@ -197,6 +205,19 @@ const CASES: &[Case] = &[
         code: 0,
         says: &[],
         out: &["wrote pics/error_map.svg"],
+    },
+    // No table meets the budget: the figure says where it was found, and
+    // the advice names what helps.
+    Case {
+        args: "table tiny_budget.toml --out tb",
+        code: 2,
+        says: &[
+            "max_error_ticks = 0.5",
+            "the best (log-ratio) reached",
+            "on a sample of the code pairs, so at least that",
+            "widen max_error_ticks, narrow the design range, or allow another layout",
+        ],
+        out: &[],
     },
 ];
 

@@ -36,15 +36,18 @@ pub enum GenerateError {
         message: String,
     },
     /// No candidate layout meets the error budget.
-    #[error("no table layout of up to 16 KiB meets max_error_ticks = {budget}: the best ({layout}) reached {best:.3} ticks with {misses} code pairs outside their window; widen max_error_ticks, narrow the design range, or allow another layout")]
+    #[error("no table layout of up to 16 KiB meets max_error_ticks = {budget}: the best ({layout}) reached {best:.3} ticks on {on}, with {misses} code pairs outside their window; widen max_error_ticks, narrow the design range, or allow another layout")]
     NoLayout {
         /// Budget.
         budget: f64,
-        /// Best error found, ticks, checked at every code pair.
+        /// Best error found, ticks.
         best: f64,
         /// Code pairs of that candidate commanded outside their interval.
         misses: usize,
         /// Its layout.
         layout: &'static str,
+        /// Where the figure was found: every code pair, or a sample (then
+        /// a lower bound).
+        on: &'static str,
     },
 }
