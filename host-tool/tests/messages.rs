@@ -219,6 +219,20 @@ const CASES: &[Case] = &[
         ],
         out: &[],
     },
+    // Advice in plain words, not a JSON key.
+    Case {
+        args: "point --lr 1u --cr 6.8n --vin 48 --io 6 --clock-hz 170M --lr-tol 10% --cr-tol 10% --position 0.02",
+        code: 0,
+        says: &[],
+        out: &["WARNING: the nominal delay lies outside the robust window: command the robust delay, 70 ticks, instead"],
+    },
+    // table's help names every file it writes.
+    Case {
+        args: "table --help",
+        code: 0,
+        says: &[],
+        out: &["<name>.h", "<name>.bin", "<name>_closed_form.rs", "CAUTION"],
+    },
 ];
 
 #[test]

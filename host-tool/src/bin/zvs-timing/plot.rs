@@ -45,16 +45,21 @@ pub(crate) fn run_plot(args: &PlotArgs) -> anyhow::Result<()> {
         Some(path) => {
             crate::verify::read_table(&design, Some(path), crate::verify::MethodArg::Table)?
         }
-        None => None,
+        None => {
+            crate::args::check_cost(
+                "generating the table for the error map",
+                host_tool::check::cost::table_s(&design),
+                args.allow_long,
+                "give the table written by `zvs-timing table` as --table",
+            )?;
+            let mut bar = crate::args::Progress::new(false);
+            let out = host_tool::generate::generate_with_progress(&design, &mut |stage, f| {
+                bar.set(stage, f);
+            });
+            bar.finish();
+            Some(out?.table)
+        }
     };
-    if table.is_none() {
-        crate::args::check_cost(
-            "generating the table for the error map",
-            host_tool::check::cost::table_s(&design),
-            args.allow_long,
-            "give the table written by `zvs-timing table` as --table",
-        )?;
-    }
     for f in host_tool::report::plot::write_all_with(&design, &args.out, point, table.as_ref())? {
         outln!("wrote {}", f.display());
     }
