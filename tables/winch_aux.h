@@ -2,7 +2,7 @@
 // regenerate with `zvs-timing table <design>.toml --out <dir>`.
 // Layout: log-volt, 144 bytes. Verified against the exact model at all 2749050 code pairs of the design
 // range: max error 0.999 ticks, RMS 0.331 ticks; 1055 of 1835198 ZVS turn-ons outside the window.
-// Model: Lr 1.000 µH, Coss curve winch_aux_coss.csv (13 points) in parallel with 5.600 nF, loop resistance 80.00 mohm (numerical ring).
+// Model: Lr 1.000 µH, Coss curve winch_aux_coss.csv (13 points) in parallel with 5.600 nF, loop resistance 80.00 mΩ (numerical ring).
 // Timer 170000000 Hz; codes outside vin 2237..=3726 / io 205..=2049 clamp to the range edge.
 // CAUTION: verify every delay at reduced voltage with a scope before full-voltage operation.
 #ifndef WINCH_AUX_DELAY_TABLE_H

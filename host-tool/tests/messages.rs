@@ -233,6 +233,13 @@ const CASES: &[Case] = &[
         says: &[],
         out: &["<name>.h", "<name>.bin", "<name>_closed_form.rs", "CAUTION"],
     },
+    // Monte Carlo says which gain and offset is whose.
+    Case {
+        args: "montecarlo demo.toml --table {root}/tables/winch_aux.bin --boards 3 --cycles 20",
+        code: 0,
+        says: &[],
+        out: &["gain Vin ±1.0 % and Io ±2.0 %", "offset Vin ±3 and Io ±5 codes"],
+    },
 ];
 
 #[test]
