@@ -77,7 +77,7 @@ pub struct Capture {
 
 /// Why a capture cannot be used.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
-#[error("{path}{}: {reason}", line_part(*.line))]
+#[error("{path}{}: {reason}", crate::input::coss_csv::line_part(*.line))]
 pub struct CaptureError {
     /// The file.
     pub path: String,
@@ -85,14 +85,6 @@ pub struct CaptureError {
     pub line: usize,
     /// What is wrong, and what would make it usable.
     pub reason: String,
-}
-
-fn line_part(line: usize) -> String {
-    if line == 0 {
-        String::new()
-    } else {
-        format!(":{line}")
-    }
 }
 
 /// Fewest samples a ring can be fitted on.

@@ -20,8 +20,9 @@ pub struct CossCsvError {
     pub message: String,
 }
 
-/// `:line` for an error at a line, nothing for the file as a whole.
-fn line_part(line: usize) -> String {
+/// `:line` for an error at a line, nothing for the file as a whole (also
+/// the captures' errors, [`crate::input::capture`]).
+pub(crate) fn line_part(line: usize) -> String {
     if line == 0 {
         String::new()
     } else {

@@ -43,16 +43,8 @@ pub(crate) fn run_montecarlo(args: &MonteCarloArgs) -> anyhow::Result<()> {
         args.allow_long,
         "draw fewer boards or cycles",
     )?;
-    let bar = indicatif::ProgressBar::new(u64::from(args.boards));
-    bar.set_style(
-        indicatif::ProgressStyle::with_template("boards {bar:40} {pos}/{len} ({eta} left)")
-            .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
-    );
-    if args.json {
-        bar.set_draw_target(indicatif::ProgressDrawTarget::hidden());
-    }
-    let boards = u64::from(args.boards);
-    let mut tick = |f: f64| bar.set_position((f * boards as f64).round() as u64);
+    let mut bar = crate::args::Progress::new(args.json);
+    let mut tick = |f: f64| bar.set("boards", f);
     let r = host_tool::check::montecarlo::run(
         &design,
         method.as_ref(),
@@ -60,8 +52,9 @@ pub(crate) fn run_montecarlo(args: &MonteCarloArgs) -> anyhow::Result<()> {
         args.cycles,
         args.seed,
         Some(&mut tick),
-    )?;
-    bar.finish_and_clear();
+    );
+    bar.finish();
+    let r = r?;
     if args.json {
         let mut v = serde_json::to_value(&r)?;
         if let Some(o) = v.as_object_mut() {

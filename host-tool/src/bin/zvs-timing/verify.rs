@@ -124,25 +124,11 @@ pub(crate) fn run_verify(args: &VerifyArgs) -> anyhow::Result<ExitCode> {
         args.allow_long,
         "narrow the design range",
     )?;
-    let total = u64::from(design.vin_codes.len());
-    let bar = indicatif::ProgressBar::new(total);
-    bar.set_style(
-        indicatif::ProgressStyle::with_template("verifying {bar:40} {percent}% ({eta} left)")
-            .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
-    );
-    // Shown only when the run takes longer than a second.
-    bar.set_draw_target(indicatif::ProgressDrawTarget::hidden());
     let start = std::time::Instant::now();
-    let mut shown = false;
-    let mut tick = |f: f64| {
-        if !shown && start.elapsed().as_secs_f64() > 1.0 && !args.json {
-            bar.set_draw_target(indicatif::ProgressDrawTarget::stderr());
-            shown = true;
-        }
-        bar.set_position((f * total as f64) as u64);
-    };
+    let mut bar = crate::args::Progress::new(args.json);
+    let mut tick = |f: f64| bar.set("verifying", f);
     let v = host_tool::check::verify::verify(&design, method.as_ref(), Some(&mut tick));
-    bar.finish_and_clear();
+    bar.finish();
     let ok = v.max_error_ticks <= design.max_error_ticks
         && v.model_errors == 0
         && v.points_checked == v.pairs_in_range;
