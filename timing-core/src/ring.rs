@@ -630,6 +630,69 @@ impl<'a, F: Real> RingCell<'a, F> {
         Ok(rt)
     }
 
+    /// The ring left to itself after the transition's event, the gate kept
+    /// off (a single-pulse test): from switch voltage `v0` (volt) and Lr
+    /// current `i0` (ampere) at `t0_s` (second from gate turn-off), the
+    /// same equations as the ring, C(vC)*vC' = i, Lr*i' = V - vC - R*i,
+    /// integrated with the same steps, calling `visit(t, vC, i)` after
+    /// each step until `t_end_s`. After the window closes the ring starts
+    /// from (0 V, 0 A); after the valley from (valley voltage, 0 A).
+    ///
+    /// Returns the time it stopped: `t_end_s`, or earlier where the ring
+    /// leaves the circuit state these equations hold for (the voltage
+    /// below zero: the body diode would clamp; the current above the cell
+    /// current: the freewheel diode would turn off). Accuracy: as the ring
+    /// of [`RingCell::transition`] (steps of [`STEP_ANGLE`], ending on the
+    /// curve's points to first order).
+    ///
+    /// # Errors
+    /// [`Error::Overflow`] naming [`Quantity::Interval`] when more than
+    /// [`MAX_STEPS`] steps would be needed.
+    pub fn free_ring(
+        &self,
+        cell: &CellPoint<F>,
+        (t0_s, v0, i0): (F, F, F),
+        t_end_s: F,
+        visit: &mut dyn FnMut(F, F, F),
+    ) -> Result<F, Error> {
+        let (vc, ic) = (cell.v_volt(), cell.i_amp());
+        let theta = F::from_f64(STEP_ANGLE);
+        let r_limit = if self.r > F::ZERO {
+            theta * self.lr / self.r
+        } else {
+            F::from_f64(f64::INFINITY)
+        };
+        let mut t = t0_s;
+        let mut y = State { v: v0, i: i0 };
+        visit(t, y.v, y.i);
+        let mut steps = 0u32;
+        while t < t_end_s {
+            if steps >= MAX_STEPS {
+                return Err(Error::Overflow {
+                    quantity: Quantity::Interval,
+                });
+            }
+            steps += 1;
+            // Rising on the current's sign; at zero current, on where the
+            // voltage heads (below the centre it rises).
+            let rising = y.i > F::ZERO || (y.i == F::ZERO && y.v < vc);
+            let piece = self.cap.piece(y.v, rising);
+            let k = self.slope(vc, &piece, y);
+            let local = theta * (self.lr * piece.at(y.v)).sqrt();
+            let full = if local < r_limit { local } else { r_limit };
+            let (h, _) = self.step_to_breakpoint(y, k, full);
+            let h = if h > F::ZERO { h } else { full };
+            let next = self.rk4(vc, &piece, y, k, h);
+            t = t + h;
+            y = next;
+            if !(y.v >= F::ZERO && y.i <= ic && t.is_finite()) {
+                return Ok(t - h);
+            }
+            visit(t, y.v, y.i);
+        }
+        Ok(t)
+    }
+
     /// Smallest cell current with ZVS at cell voltage `v` (volt), ampere.
     /// Lossless: the energy balance 1/2*Lr*I^2 = V*Q(V) - E(V), exact. With
     /// R > 0: bisection on [`RingCell::transition`] to 1e-6 relative (each

@@ -422,3 +422,58 @@ fn the_waveform_follows_the_closed_form_one_for_a_constant_capacitance() {
         }
     }
 }
+
+/// The textbook underdamped series RLC (as [`rlc`]) from any start:
+/// x = vC - V from x(0) = `x0`, x'(0) = `dx0`; returns vC.
+fn rlc_from(lr: f64, cr: f64, r: f64, v: f64, (x0, dx0): (f64, f64), t: f64) -> f64 {
+    let a = r / (2.0 * lr);
+    let wd = (1.0 / (lr * cr) - a * a).sqrt();
+    let b = (dx0 + a * x0) / wd;
+    v + (-a * t).exp() * (x0 * (wd * t).cos() + b * (wd * t).sin())
+}
+
+#[test]
+fn the_free_ring_follows_the_damped_rlc_solution_and_keeps_the_energy() {
+    // Constant capacitance with loss, from (0 V, 0 A) as after the window
+    // closes: the series RLC's step response over five periods.
+    let (lr, cr, r, v): (f64, f64, f64, f64) = (1.0e-6, 6.8e-9, 0.1, 48.0);
+    let cell = RingCell::new(lr, SwitchCapacitance::new(cr, &[]).unwrap(), r).unwrap();
+    let at = CellPoint::new(v, 6.0).unwrap();
+    let t0 = 1.0e-6;
+    let period = std::f64::consts::TAU * (lr * cr).sqrt();
+    let mut worst = 0.0f64;
+    let mut steps = 0;
+    let end = cell
+        .free_ring(&at, (t0, 0.0, 0.0), t0 + 5.0 * period, &mut |t, vc, _| {
+            let want = rlc_from(lr, cr, r, v, (-v, 0.0), t - t0);
+            worst = worst.max((vc - want).abs() / v);
+            steps += 1;
+        })
+        .unwrap();
+    println!("free ring against the damped RLC: within {worst:.2e} of V over {steps} steps");
+    // RK4's phase error grows with the periods: 1.4e-6 after five.
+    assert!(worst < 3e-6, "{worst}");
+    assert!(end >= t0 + 5.0 * period);
+    // A start the equations do not hold from (the current pulling the
+    // voltage below zero, where the body diode clamps) stops at once.
+    let stop = cell
+        .free_ring(&at, (t0, 0.0, -1.0), t0 + period, &mut |_, _, _| {})
+        .unwrap();
+    assert_eq!(stop, t0);
+    // A non-linear curve without loss, from a valley: 1/2*Lr*i^2 + E(vC)
+    // - V*Q(vC) is constant (d/dt of the first is i*(V - vC), of the rest
+    // (vC - V)*C*vC' = (vC - V)*i).
+    let c = SwitchCapacitance::new(1.5e-9, &CURVE).unwrap();
+    let ring = RingCell::new(lr, c, 0.0).unwrap();
+    let at = CellPoint::new(v, 3.0).unwrap();
+    let energy = |vc: f64, i: f64| 0.5 * lr * i * i + c.energy(vc) - v * c.charge(vc);
+    let e0 = energy(20.0, 0.0);
+    let scale = v * c.charge(v);
+    let mut drift = 0.0f64;
+    ring.free_ring(&at, (0.0, 20.0, 0.0), 5.0 * period, &mut |_, vc, i| {
+        drift = drift.max((energy(vc, i) - e0).abs() / scale);
+    })
+    .unwrap();
+    println!("free ring on the curve: energy within {drift:.2e} of V*Q(V)");
+    assert!(drift < 1e-5, "{drift}");
+}

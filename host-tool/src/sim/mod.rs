@@ -6,3 +6,4 @@
 
 pub mod netlist;
 pub mod spice;
+pub mod trace;

@@ -1,6 +1,5 @@
-//! Bring-up: the switch-node trace a tank predicts, to compare with a scope
-//! capture ([`crate::input::capture`]) and, in a later step, to fit the
-//! tank to captures by least squares.
+//! The switch-node trace a tank predicts, to compare with a scope capture
+//! ([`crate::input::capture`]).
 //!
 //! The capture's time zero is the turn-off command; the switch turns off
 //! `delay_off_s` later (the gate driver's turn-off delay), and in a
@@ -9,11 +8,14 @@
 //! valley), where the prediction is NaN and the sample does not count.
 
 use timing_core::coss::CossPoint;
+use timing_core::ring::RingCell;
+use timing_core::waveform::WaveSample;
 use timing_core::CellPoint;
+use timing_core::TurnOn;
 
 use crate::input::capture::Capture;
 use crate::input::design::DesignSpec;
-use crate::tank::real_tank::{CellSolver, RealTank};
+use crate::tank::real_tank::RealTank;
 
 /// The tank as a fit sees it: what bring-up captures pin down.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -67,9 +69,15 @@ impl TankGuess {
 }
 
 /// The switch voltage (volt) `guess` predicts at `times` (second from the
-/// turn-off command) at the converter point `vin_v` (volt), `io_a`
-/// (ampere) of `design`'s topology, the gate left off: NaN where the model
-/// does not follow the circuit.
+/// turn-off command, rising) at the converter point `vin_v` (volt), `io_a`
+/// (ampere) of `design`'s topology, the gate left off: the linear charge,
+/// the ring, the body-diode clamp to the window's close (or the valley),
+/// then the ring left to itself
+/// ([`timing_core::ring::RingCell::free_ring`]). NaN where the model does
+/// not follow the circuit (past a state the ring's equations do not hold
+/// in). The numerical ring serves every tank, a constant capacitance
+/// without loss too, so that the trace is one smooth function of the
+/// tank's values.
 ///
 /// # Errors
 /// timing-core's error for values no tank or operating point can have.
@@ -82,27 +90,46 @@ pub fn model_trace(
 ) -> Result<Vec<f64>, timing_core::Error> {
     let cell: CellPoint<f64> = design.cell(vin_v, io_a)?;
     let tank = guess.tank(design);
+    let ring = RingCell::new(tank.lr_h, tank.capacitance()?, tank.r_tank_ohm)?;
     let shifted: Vec<f64> = times.iter().map(|t| t - guess.delay_off_s).collect();
     // The gate stays off: a turn-on far past any capture.
     let never = 1.0;
-    match tank.solver()? {
-        CellSolver::Ideal(t) => {
-            let w = timing_core::waveform::Waveform::new(&t, &cell, never)?;
-            Ok(shifted.iter().map(|&s| w.at(s).switch_voltage_v).collect())
-        }
-        CellSolver::Ring(ring) => {
-            let mut out = vec![
-                timing_core::waveform::WaveSample {
-                    switch_voltage_v: f64::NAN,
-                    inductor_current_a: f64::NAN,
-                    gate_on: false,
-                };
-                shifted.len()
-            ];
-            ring.waveform(&cell, never, &shifted, &mut out)?;
-            Ok(out.iter().map(|w| w.switch_voltage_v).collect())
-        }
+    let mut out = vec![
+        WaveSample {
+            switch_voltage_v: f64::NAN,
+            inductor_current_a: f64::NAN,
+            gate_on: false,
+        };
+        shifted.len()
+    ];
+    let rt = ring.waveform(&cell, never, &shifted, &mut out)?;
+    let mut v: Vec<f64> = out.iter().map(|w| w.switch_voltage_v).collect();
+    // After the window's close (from 0 V, 0 A) or the valley (from its
+    // voltage, 0 A) the ring goes on by itself.
+    let from = match rt.turn_on {
+        TurnOn::Zvs(w) => (w.close_s, 0.0, 0.0),
+        TurnOn::Valley(vl) => (vl.valley_s, vl.valley_voltage_v, 0.0),
+    };
+    let last = shifted.last().copied().unwrap_or(f64::NEG_INFINITY);
+    if last > from.0 {
+        let first = shifted.partition_point(|&t| t <= from.0);
+        let mut k = first;
+        let mut prev: Option<(f64, f64)> = None;
+        ring.free_ring(&cell, from, last, &mut |t, vc, _| {
+            if let Some((t0, v0)) = prev {
+                while let Some(&tq) = shifted.get(k) {
+                    if tq > t {
+                        break;
+                    }
+                    let f = if t > t0 { (tq - t0) / (t - t0) } else { 1.0 };
+                    v[k] = v0 + (vc - v0) * f;
+                    k += 1;
+                }
+            }
+            prev = Some((t, vc));
+        })?;
     }
+    Ok(v)
 }
 
 /// RMS of the capture less the prediction (volt) over the samples where
