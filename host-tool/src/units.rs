@@ -173,6 +173,47 @@ pub fn parse_fraction(text: &str) -> Option<f64> {
         .map(|v| v * scale)
 }
 
+/// `value` as the design file writes numbers: `digits` significant
+/// digits and an ASCII engineering prefix, no unit (`1.1201e-6, 5` gives
+/// `"1.1201u"`), which [`parse_quantity`] reads back.
+///
+/// ```
+/// use host_tool::units::{design_number, parse_quantity};
+/// assert_eq!(design_number(1.12013e-6, 5), "1.1201u");
+/// assert_eq!(design_number(0.1684, 4), "168.4m");
+/// assert_eq!(design_number(42.1e-9, 3), "42.1n");
+/// assert!((parse_quantity("5.092n", "F").unwrap() - 5.092e-9).abs() < 1e-21);
+/// ```
+#[must_use]
+pub fn design_number(value: f64, digits: usize) -> String {
+    if value == 0.0 || !value.is_finite() {
+        return format!("{value}");
+    }
+    let exp3 = (value.abs().log10() / 3.0).floor().clamp(-5.0, 3.0);
+    let prefix = match exp3 as i32 {
+        -5 => "f",
+        -4 => "p",
+        -3 => "n",
+        -2 => "u",
+        -1 => "m",
+        1 => "k",
+        2 => "M",
+        3 => "G",
+        _ => "",
+    };
+    let scaled = value / 10f64.powf(exp3 * 3.0);
+    let whole = (scaled.abs().log10().floor() as i64 + 1).max(1) as usize;
+    let decimals = digits.saturating_sub(whole);
+    let text = format!("{scaled:.decimals$}");
+    // No trailing zeros after the point.
+    let text = if text.contains('.') {
+        text.trim_end_matches('0').trim_end_matches('.').to_owned()
+    } else {
+        text
+    };
+    format!("{text}{prefix}")
+}
+
 /// Format `value` with an engineering prefix and `unit`, 4 significant
 /// digits: `3.729e-7, "s"` gives `"372.9 ns"`.
 #[must_use]

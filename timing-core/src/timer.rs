@@ -227,6 +227,19 @@ impl<F: Real> Timer<F> {
         Ticks(self.max_ticks)
     }
 
+    /// Gate driver's turn-on propagation delay, second.
+    #[must_use]
+    pub fn turn_on_delay_s(&self) -> F {
+        self.turn_on_delay_s
+    }
+
+    /// Gate driver's turn-off propagation delay, second: from the timer's
+    /// turn-off edge to the switch turning off.
+    #[must_use]
+    pub fn turn_off_delay_s(&self) -> F {
+        self.turn_off_delay_s
+    }
+
     /// Net lead of the gate driver, second: turn-on delay minus turn-off
     /// delay. The command is issued this much before the desired turn-on
     /// (measured from gate turn-off).

@@ -11,7 +11,10 @@
 //! - `methods [--check]`: measure every runtime method on both cores (QEMU
 //!   instruction counts, proof-build flash bytes, host proofs of the worst
 //!   error) and rewrite the table of them in `docs/methods.md`, or check it.
+//! - `demo-captures`: simulate the demo's bring-up captures in
+//!   `tables/bringup/` (needs ngspice).
 
+mod captures;
 mod methods;
 
 use std::path::Path;
@@ -108,8 +111,11 @@ fn main() -> ExitCode {
             let root = Path::new(env!("CARGO_MANIFEST_DIR")).join("..");
             methods::methods(&root, check)
         }
+        "demo-captures" => {
+            captures::demo_captures(&Path::new(env!("CARGO_MANIFEST_DIR")).join(".."))
+        }
         _ => Err(format!(
-            "unknown chore `{chore}`; chores: thumb, methods [--check]"
+            "unknown chore `{chore}`; chores: thumb, methods [--check], demo-captures"
         )),
     };
     match result {

@@ -7,4 +7,5 @@
 pub mod c_header;
 pub mod closed_form_source;
 pub mod export;
+pub mod fitted_design;
 mod summary;

@@ -354,13 +354,27 @@ impl DesignFile {
         if !name_ok {
             return Err(Invalid::Name(self.name.clone()));
         }
-        let (coss, coss_text) = match &self.coss {
+        let (mut coss, coss_text) = match &self.coss {
             Some(f) => {
                 let (points, text) = crate::input::coss_csv::load(&base.join(f))?;
                 (points, Some(text))
             }
             None => (Vec::new(), None),
         };
+        if let Some(k) = self.coss_scale {
+            if !(k.is_finite() && k > 0.0) {
+                return Err(Invalid::CossScale(k, "must be a positive number"));
+            }
+            if coss.is_empty() {
+                return Err(Invalid::CossScale(
+                    k,
+                    "scales the Coss curve, and the design has none (coss = \"FILE.csv\")",
+                ));
+            }
+            for p in &mut coss {
+                p.farads *= k;
+            }
+        }
         let cr_fixed = match (self.cr, coss.is_empty()) {
             (Some(c), _) => c.0,
             (None, false) => 0.0,

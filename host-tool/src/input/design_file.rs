@@ -243,6 +243,10 @@ pub struct DesignFile {
     /// design file.
     #[serde(default)]
     pub coss: Option<String>,
+    /// Scale on the Coss curve's capacitances (1: as in the file): what a
+    /// bring-up fit (`zvs-timing fit`) finds the board's MOSFET to have.
+    #[serde(default)]
+    pub coss_scale: Option<f64>,
     /// Series resistance of the resonant loop (inductor, capacitor ESR,
     /// switch and traces), ohm.
     #[serde(default)]

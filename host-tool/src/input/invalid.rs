@@ -13,6 +13,9 @@ pub enum Invalid {
     /// The Coss curve file could not be used.
     #[error("coss: {0}")]
     Coss(#[from] crate::input::coss_csv::CossCsvError),
+    /// `coss_scale` that is not a positive number, or without a curve.
+    #[error("coss_scale = {0}: {1}")]
+    CossScale(f64, &'static str),
     /// Neither `cr` nor a Coss curve.
     #[error("cr is missing: give the resonant capacitance, or a Coss curve (coss = \"FILE.csv\") with cr as the external part")]
     MissingCr,

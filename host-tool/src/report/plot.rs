@@ -59,7 +59,7 @@ pub enum PlotError {
     },
 }
 
-fn draw<E: std::fmt::Debug>(e: E) -> PlotError {
+pub(crate) fn draw<E: std::fmt::Debug>(e: E) -> PlotError {
     PlotError::Draw(format!("{e:?}"))
 }
 
@@ -237,7 +237,7 @@ fn grid_of(
     Ok(g)
 }
 
-fn svg(
+pub(crate) fn svg(
     draw_fn: impl FnOnce(&DrawingArea<SVGBackend<'_>, Shift>) -> Result<(), PlotError>,
 ) -> Result<String, PlotError> {
     let mut s = String::new();

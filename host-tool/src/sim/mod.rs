@@ -5,5 +5,6 @@
 //! Imports: every earlier stage.
 
 pub mod netlist;
+pub mod scope;
 pub mod spice;
 pub mod trace;

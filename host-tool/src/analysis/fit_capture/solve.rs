@@ -95,10 +95,12 @@ impl Param {
     }
 
     /// The lowest value the circuit allows (the inductance has its own,
-    /// positive, floor).
+    /// positive, floor; the curve's scale stays positive, as a curve of
+    /// zero capacitance is none).
     const fn floor(self) -> Option<f64> {
         match self {
-            Self::Cr | Self::CossScale | Self::RTank => Some(0.0),
+            Self::Cr | Self::RTank => Some(0.0),
+            Self::CossScale => Some(1e-3),
             Self::Lr | Self::DelayOff => None,
         }
     }
@@ -164,6 +166,8 @@ struct Problem<'a> {
     x: DVector<f64>,
     /// The inductance's floor: a thousandth of the design's.
     lr_floor: f64,
+    /// Why the model last failed, for the message.
+    failure: std::cell::RefCell<Option<timing_core::Error>>,
 }
 
 impl Problem<'_> {
@@ -189,7 +193,13 @@ impl Problem<'_> {
         let mut r = DVector::zeros(m);
         let mut at = 0;
         for s in self.shots {
-            let p = model_trace(self.design, g, s.vin_v, s.io_a, s.times).ok()?;
+            let p = match model_trace(self.design, g, s.vin_v, s.io_a, s.times) {
+                Ok(p) => p,
+                Err(e) => {
+                    *self.failure.borrow_mut() = Some(e);
+                    return None;
+                }
+            };
             for (k, (y, q)) in s.samples.iter().zip(&p).enumerate() {
                 if q.is_finite() {
                     r[at + k] = (y - q) * s.weight;
@@ -352,6 +362,7 @@ impl<'a> Fitting<'a> {
                 scale: self.scale,
                 x: x0,
                 lr_floor: self.lr_floor,
+                failure: std::cell::RefCell::new(None),
             };
             let (solved, report) = LevenbergMarquardt::new()
                 .with_patience(400)
@@ -363,7 +374,19 @@ impl<'a> Fitting<'a> {
                     levenberg_marquardt::TerminationReason::NoImprovementPossible(_)
                 )
             {
-                return Err(FitError::NotConverged(format!("{:?}", report.termination)));
+                let why = match (&report.termination, solved.failure.borrow().as_ref()) {
+                    (levenberg_marquardt::TerminationReason::User(_), Some(e)) => {
+                        let g = solved.guess(&solved.x);
+                        format!(
+                            "the model failed on the way, at Lr {}, C {}, R {}: {e}",
+                            crate::units::format_si(g.lr_h, "H"),
+                            crate::units::format_si(g.cr_f, "F"),
+                            crate::units::format_si(g.r_tank_ohm, "ohm")
+                        )
+                    }
+                    (t, _) => format!("{t:?}"),
+                };
+                return Err(FitError::NotConverged(why));
             }
             let scale = self.scale;
             let past: Vec<Param> = self
@@ -383,8 +406,14 @@ impl<'a> Fitting<'a> {
             for p in past {
                 p.set(&mut base, p.floor().unwrap_or(0.0));
                 self.free.retain(|&q| q != p);
-                self.held
-                    .push((p, "the fit drove it below zero: held at zero"));
+                self.held.push((
+                    p,
+                    if p == Param::CossScale {
+                        "the fit drove it to zero: held at 0.001"
+                    } else {
+                        "the fit drove it below zero: held at zero"
+                    },
+                ));
             }
         }
     }

@@ -67,11 +67,20 @@ pub(crate) fn opt_num(
 /// Make sure `dir` is a folder the results can be written to, before any
 /// work: created when missing; an error naming the path otherwise.
 pub(crate) fn writable_dir(dir: &std::path::Path) -> anyhow::Result<()> {
-    std::fs::create_dir_all(dir)
-        .map_err(|e| anyhow::anyhow!("--out {}: cannot create the folder: {e}", dir.display()))?;
+    writable_dir_for("--out", dir)
+}
+
+/// [`writable_dir`] for the folder given with `option`.
+pub(crate) fn writable_dir_for(option: &str, dir: &std::path::Path) -> anyhow::Result<()> {
+    std::fs::create_dir_all(dir).map_err(|e| {
+        anyhow::anyhow!("{option} {}: cannot create the folder: {e}", dir.display())
+    })?;
     let probe = dir.join(format!(".zvs-timing-probe-{}", std::process::id()));
     std::fs::write(&probe, b"").map_err(|e| {
-        anyhow::anyhow!("--out {}: cannot write into the folder: {e}", dir.display())
+        anyhow::anyhow!(
+            "{option} {}: cannot write into the folder: {e}",
+            dir.display()
+        )
     })?;
     let _ = std::fs::remove_file(&probe);
     Ok(())

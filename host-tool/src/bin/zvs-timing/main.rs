@@ -29,6 +29,7 @@ macro_rules! out {
 }
 
 mod args;
+mod fit;
 mod montecarlo;
 mod netlist;
 mod plot;
@@ -69,6 +70,9 @@ enum Cmd {
     Netlist(netlist::NetlistArgs),
     /// SVG pictures: delay, window and table-error maps, and one switching transition.
     Plot(plot::PlotArgs),
+    /// Bring-up: fit the tank (Lr, C, Coss scale, loop resistance, turn-off delay) to scope
+    /// captures of the switch node, and write the fitted design file.
+    Fit(fit::FitArgs),
     /// Monte Carlo over boards and cycles with the design's [tolerance]: how often the turn-on
     /// lands in the true window.
     Montecarlo(montecarlo::MonteCarloArgs),
@@ -95,6 +99,7 @@ fn main() -> ExitCode {
         Cmd::Netlist(args) => netlist::run_netlist(args),
         Cmd::Montecarlo(args) => montecarlo::run_montecarlo(args),
         Cmd::Plot(args) => plot::run_plot(args),
+        Cmd::Fit(args) => fit::run_fit(args),
         Cmd::Verify(args) => match verify::run_verify(args) {
             Ok(code) => return code,
             Err(e) => Err(e),
