@@ -75,6 +75,36 @@ struct Case {
 
 const CASES: &[Case] = &[
     Case {
+        args: "fit demo.toml --capture {root}/tables/bringup/board_24V_5A.csv --capture {root}/tables/bringup/board_30V_7A.csv --vin 24 --vin 30 --vin 36 --io 5",
+        code: 2,
+        says: &["--vin is given 3 times for 2 captures", "same order"],
+        out: &[],
+    },
+    Case {
+        args: "fit demo.toml --capture {root}/tables/bringup/board_24V_5A.csv --vin 24 --io 5 --columns TIME",
+        code: 2,
+        says: &["--columns `TIME`", "time and switch voltage"],
+        out: &[],
+    },
+    Case {
+        args: "fit demo.toml --capture {root}/tables/bringup/board_24V_5A.csv --vin 24 --io 5 --columns TIME,CH3",
+        code: 2,
+        says: &["board_24V_5A.csv", "no column named `CH3`", "time, ch1"],
+        out: &[],
+    },
+    Case {
+        args: "fit demo.toml --capture nowhere.csv --vin 24 --io 5",
+        code: 2,
+        says: &["nowhere.csv", "cannot read"],
+        out: &[],
+    },
+    Case {
+        args: "fit demo.toml --capture {root}/tables/bringup/board_24V_5A.csv --vin 24 --io -5",
+        code: 2,
+        says: &["board_24V_5A.csv", "--io -5 A"],
+        out: &[],
+    },
+    Case {
         args: "point --lr 1u --cr 6.8n --vin 48 --io 6 --lr-tol 200%",
         code: 2,
         says: &["--lr-tol", "200 %", "50 %"],
