@@ -155,6 +155,6 @@ mod tests {
         assert_eq!(t.inductor_a[0], 6.000119);
         let r = t.resampled(2.5e-10);
         assert_eq!(r.time_s.len(), 5);
-        assert!((r.switch_v[3] - (0.0049 + 0.5 * (50.0 - 0.0049))).abs() < 1e-9);
+        assert!((r.switch_v[3] - (0.004900049 + 0.5 * (50.0 - 0.004900049))).abs() < 1e-9);
     }
 }

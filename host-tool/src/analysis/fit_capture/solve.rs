@@ -147,6 +147,7 @@ impl TankFit {
 
 /// A capture ready for the residuals.
 struct Prepared<'a> {
+    path: &'a str,
     cell_v: f64,
     vin_v: f64,
     io_a: f64,
@@ -287,6 +288,7 @@ pub fn fit(design: &DesignSpec, shots: &[Shot<'_>]) -> Result<TankFit, FitError>
         let weight = 1.0 / s.capture.noise_v.max(1e-4 * sp.peak_v);
         for (out, end) in [(&mut swing, sp.end), (&mut ring, sp.ring_end)] {
             out.push(Prepared {
+                path: &s.capture.path,
                 cell_v: cell.v_volt(),
                 vin_v: s.vin_v,
                 io_a: s.io_a,
@@ -520,7 +522,34 @@ fn finish(
             .fold((0.0, 0usize), |(a, n), (y, q)| {
                 (a + (y - q) * (y - q), n + 1)
             });
-        residuals.push(((sum / n.max(1) as f64).sqrt(), n, 1.0 / s.weight));
+        let noise = 1.0 / s.weight;
+        residuals.push(((sum / n.max(1) as f64).sqrt(), n, noise));
+        // Clipping the parser could not see (a short run at the top of the
+        // vertical range): the samples at the capture's highest value sit
+        // below the fitted ring, where unclipped they would be the noise's
+        // highest excursions above it.
+        let top = s.samples.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+        let under: Vec<f64> = s
+            .samples
+            .iter()
+            .zip(&p)
+            .filter(|&(&y, &q)| q.is_finite() && y >= top)
+            .map(|(&y, &q)| q - y)
+            .collect();
+        let cut = under.len();
+        if cut >= 3 && under.iter().sum::<f64>() / cut as f64 > noise {
+            let peak = p
+                .iter()
+                .copied()
+                .filter(|q| q.is_finite())
+                .fold(f64::NEG_INFINITY, f64::max);
+            return Err(FitError::Capture {
+                path: s.path.to_owned(),
+                reason: format!(
+                    "the trace tops out at {top:.3} V where the fitted ring peaks at {peak:.3} V ({cut} samples): the scope's vertical range clipped the ring; widen the range and capture again"
+                ),
+            });
+        }
     }
     Ok(TankFit {
         tank,
