@@ -5,7 +5,10 @@
 //! short of zero: the swing, which a fit from the design's values can
 //! match without mistaking one ring period for another. Then on to the
 //! capture's end or the gate's turn-on, where captured: the ring left to
-//! itself, whose decay pins the loop resistance.
+//! itself, whose decay pins the loop resistance. A capture whose switch
+//! voltage goes to zero after the swing and stays there to its end shows
+//! a turn-on (normal switching rather than a single pulse): there only
+//! the swing is fitted.
 //!
 //! A capture that holds no usable ring for the cell voltage is refused
 //! with the reason: it starts after the edge, its swing never reaches the
@@ -157,7 +160,25 @@ pub fn span(capture: &Capture, cell_v: f64) -> Result<Span, String> {
         }
         None => None,
     };
-    let ring_end = gate_on.unwrap_or(n);
+    // Without a gate column, a turn-on shows as the switch voltage going
+    // to zero after the swing and staying there to the capture's end (a
+    // capture of normal switching, or of a deck that turns the gate on):
+    // the ring does not go on by itself, so only the swing is fitted.
+    // (Held there for at least as long as the swing took: the free ring
+    // passes near zero at the end of each period, but only briefly.)
+    let swing_s = match swing_end {
+        SwingEnd::Zero { at_s } | SwingEnd::Valley { at_s, .. } => at_s - edge_s,
+    };
+    let settled = v[..n]
+        .iter()
+        .rposition(|&x| x > 0.1 * cell_v)
+        .map(|k| k + 1)
+        .filter(|&k| k > peak && k < n && t[n - 1] - t[k] >= swing_s);
+    let ring_end = match (gate_on, settled) {
+        (Some(k), _) => k,
+        (None, Some(_)) => 0,
+        (None, None) => n,
+    };
     let until = gate_on.map_or(until, |k| until.min(t[k]));
     let first = t.partition_point(|&x| x < from);
     let end = t.partition_point(|&x| x <= until).min(n);
@@ -170,6 +191,7 @@ pub fn span(capture: &Capture, cell_v: f64) -> Result<Span, String> {
     Ok(Span {
         first,
         end,
+        // (0: the swing only.)
         ring_end: ring_end.max(end),
         edge_s,
         peak_s,

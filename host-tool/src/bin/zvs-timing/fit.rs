@@ -240,6 +240,7 @@ fn json(
                         SwingEnd::Zero { .. } => "reaches zero (ZVS)",
                         SwingEnd::Valley { .. } => "stops at a valley (no ZVS)",
                     },
+                    "free_ring_fitted": sp.ring_end > sp.end,
                 })
             })
             .collect(),
@@ -356,9 +357,12 @@ fn print_text(
         outln!("  {} held: {why}", p.key());
     }
     outln!();
-    for ((path, vin, io), (rms, n, noise)) in captures.iter().zip(&f.residuals) {
+    for (((path, vin, io), (rms, n, noise)), sp) in captures.iter().zip(&f.residuals).zip(&f.spans)
+    {
         let flag = if *rms > 2.0 * noise {
             "  WARNING: well above the noise: the model misses part of this capture (look at its picture)"
+        } else if sp.ring_end <= sp.end {
+            "  (the swing only: the switch turns on after it; single-pulse captures pin the loss down far better)"
         } else {
             ""
         };
