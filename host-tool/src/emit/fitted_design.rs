@@ -193,6 +193,12 @@ pub fn fitted_design(
     }
     let _ = writeln!(
         head,
+        "# The converter diode's forward drop seen by the ring came out {} (fitted so that it\n\
+         # does not bend the rest; the tables' model has ideal diodes).",
+        format_si(fit.value(Param::DiodeDrop), "V")
+    );
+    let _ = writeln!(
+        head,
         "# Fitted: lr, cr, coss_scale, r_tank and [timer] driver_delay_off; total switch\n\
          # capacitance {} ± {:.2} % at {} (charge-equivalent).\n\
          # The [tolerance] lr and cr below are the fit's {TOLERANCE_SIGMAS} sigma only: the fit sees one\n\

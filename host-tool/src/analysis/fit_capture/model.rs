@@ -32,6 +32,11 @@ pub struct TankGuess {
     /// Gate driver's turn-off delay, second: from the turn-off command
     /// (the capture's time zero) to the switch turning off.
     pub delay_off_s: f64,
+    /// Forward drop of the converter's diode while it carries the ring,
+    /// volt: the ring then centres on the cell voltage plus this (the
+    /// linear charge ends that much higher). The design's model has ideal
+    /// diodes; a fit estimates it so that it does not bend the others.
+    pub diode_drop_v: f64,
 }
 
 impl TankGuess {
@@ -45,6 +50,7 @@ impl TankGuess {
             coss_scale: 1.0,
             r_tank_ohm: design.real.r_tank_ohm,
             delay_off_s: 0.0,
+            diode_drop_v: 0.0,
         }
     }
 
@@ -89,6 +95,7 @@ pub fn model_trace(
     times: &[f64],
 ) -> Result<Vec<f64>, timing_core::Error> {
     let cell: CellPoint<f64> = design.cell(vin_v, io_a)?;
+    let cell = CellPoint::new(cell.v_volt() + guess.diode_drop_v, cell.i_amp())?;
     let tank = guess.tank(design);
     let ring = RingCell::new(tank.lr_h, tank.capacitance()?, tank.r_tank_ohm)?;
     let shifted: Vec<f64> = times.iter().map(|t| t - guess.delay_off_s).collect();

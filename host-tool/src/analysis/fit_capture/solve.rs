@@ -50,16 +50,19 @@ pub enum Param {
     RTank,
     /// Turn-off driver delay.
     DelayOff,
+    /// The converter diode's forward drop seen by the ring.
+    DiodeDrop,
 }
 
 impl Param {
     /// All of them, in order.
-    pub const ALL: [Self; 5] = [
+    pub const ALL: [Self; 6] = [
         Self::Lr,
         Self::Cr,
         Self::CossScale,
         Self::RTank,
         Self::DelayOff,
+        Self::DiodeDrop,
     ];
 
     /// The JSON key of the value (with `_sigma` its uncertainty).
@@ -71,6 +74,7 @@ impl Param {
             Self::CossScale => "coss_scale",
             Self::RTank => "r_tank_ohm",
             Self::DelayOff => "driver_delay_off_s",
+            Self::DiodeDrop => "diode_drop_v",
         }
     }
 
@@ -81,6 +85,7 @@ impl Param {
             Self::CossScale => g.coss_scale,
             Self::RTank => g.r_tank_ohm,
             Self::DelayOff => g.delay_off_s,
+            Self::DiodeDrop => g.diode_drop_v,
         }
     }
 
@@ -91,6 +96,7 @@ impl Param {
             Self::CossScale => g.coss_scale = x,
             Self::RTank => g.r_tank_ohm = x,
             Self::DelayOff => g.delay_off_s = x,
+            Self::DiodeDrop => g.diode_drop_v = x,
         }
     }
 
@@ -99,7 +105,7 @@ impl Param {
     /// zero capacitance is none).
     const fn floor(self) -> Option<f64> {
         match self {
-            Self::Cr | Self::RTank => Some(0.0),
+            Self::Cr | Self::RTank | Self::DiodeDrop => Some(0.0),
             Self::CossScale => Some(1e-3),
             Self::Lr | Self::DelayOff => None,
         }
@@ -113,7 +119,7 @@ pub struct TankFit {
     pub tank: TankGuess,
     /// One standard deviation of each quantity, in its unit (0 for one
     /// held fixed), in [`Param::ALL`]'s order.
-    pub sigma: [f64; 5],
+    pub sigma: [f64; 6],
     /// Which quantities were held, and why.
     pub held: Vec<(Param, &'static str)>,
     /// The switch capacitance's charge-equivalent value Q(V)/V at the
@@ -163,7 +169,7 @@ struct Problem<'a> {
     shots: &'a [Prepared<'a>],
     base: TankGuess,
     free: Vec<Param>,
-    scale: [f64; 5],
+    scale: [f64; 6],
     x: DVector<f64>,
     /// The inductance's floor: a thousandth of the design's.
     lr_floor: f64,
@@ -306,7 +312,7 @@ pub fn fit(design: &DesignSpec, shots: &[Shot<'_>]) -> Result<TankFit, FitError>
     let c_ref = charge_equivalent(design, &start, swing[0].cell_v).map_err(FitError::Model)?;
     let z0 = (start.lr_h / c_ref).sqrt();
     let t0 = (start.lr_h * c_ref).sqrt();
-    let scale = [start.lr_h, c_ref, 1.0, z0, t0];
+    let scale = [start.lr_h, c_ref, 1.0, z0, t0, 1.0];
     let mut fitting = Fitting {
         design,
         scale,
@@ -334,7 +340,7 @@ pub fn fit(design: &DesignSpec, shots: &[Shot<'_>]) -> Result<TankFit, FitError>
 /// The fit's running state: what is free, what is held and why.
 struct Fitting<'a> {
     design: &'a DesignSpec,
-    scale: [f64; 5],
+    scale: [f64; 6],
     lr_floor: f64,
     free: Vec<Param>,
     held: Vec<(Param, &'static str)>,
@@ -455,8 +461,8 @@ fn charge_equivalent(
 fn sigmas(
     p: &Problem<'_>,
     free: &[Param],
-    scale: &[f64; 5],
-) -> Result<([f64; 5], DMatrix<f64>), FitError> {
+    scale: &[f64; 6],
+) -> Result<([f64; 6], DMatrix<f64>), FitError> {
     let no = || FitError::NotConverged("the model failed at the fitted values".into());
     let r = p.residuals().ok_or_else(no)?;
     let j = p.jacobian().ok_or_else(no)?;
@@ -471,7 +477,7 @@ fn sigmas(
             FitError::NotConverged("the captures cannot tell the quantities apart".into())
         })?;
     let cov = inv * s2;
-    let mut sigma = [0.0; 5];
+    let mut sigma = [0.0; 6];
     for (k, &q) in free.iter().enumerate() {
         sigma[q as usize] = cov[(k, k)].max(0.0).sqrt() * scale[q as usize];
     }
@@ -482,7 +488,7 @@ fn finish(
     fitting: Fitting<'_>,
     shots: &[Prepared<'_>],
     tank: TankGuess,
-    (sigma, cov): ([f64; 5], DMatrix<f64>),
+    (sigma, cov): ([f64; 6], DMatrix<f64>),
     spans: Vec<Span>,
 ) -> Result<TankFit, FitError> {
     let Fitting {

@@ -339,6 +339,14 @@ fn print_text(
             f.sigma_of(Param::DelayOff),
             design.timer.turn_off_delay_s(),
         ),
+        (
+            "diode drop (ring centre)",
+            Param::DiodeDrop,
+            "V",
+            f.value(Param::DiodeDrop),
+            f.sigma_of(Param::DiodeDrop),
+            0.0,
+        ),
     ] {
         row(name, Some(p), unit, v, s, dv);
     }
