@@ -19,26 +19,36 @@ pub(crate) struct FitArgs {
     /// A scope capture (CSV: time from the turn-off command, switch-node
     /// voltage; the gate left off after it). Repeat for several; each
     /// takes the --vin and --io given in the same place (or the only ones).
-    #[arg(long = "capture", required = true)]
+    #[arg(long = "capture", required = true, value_name = "FILE")]
     captures: Vec<PathBuf>,
     /// Input voltage of each capture, volt.
-    #[arg(long = "vin", required = true, allow_hyphen_values = true)]
+    #[arg(
+        long = "vin",
+        required = true,
+        allow_hyphen_values = true,
+        value_name = "V"
+    )]
     vins: Vec<String>,
     /// Output current of each capture, ampere.
-    #[arg(long = "io", required = true, allow_hyphen_values = true)]
+    #[arg(
+        long = "io",
+        required = true,
+        allow_hyphen_values = true,
+        value_name = "A"
+    )]
     ios: Vec<String>,
     /// The captures' columns by header name or 0-based index: time,
     /// switch voltage, and optionally inductor current and gate command
     /// (`-` for none), e.g. `Time,CH1` or `0,1,-,3`.
-    #[arg(long, default_value = "0,1")]
+    #[arg(long, default_value = "0,1", value_name = "LIST")]
     columns: String,
     /// Write the fitted design file here (and, unless --plots says
     /// otherwise, a picture per capture beside it).
-    #[arg(long)]
+    #[arg(long, value_name = "FITTED.toml")]
     out: Option<PathBuf>,
     /// Folder for the pictures: capture and fitted model overlaid, the
     /// residual below (SVG, one per capture).
-    #[arg(long)]
+    #[arg(long, value_name = "DIR")]
     plots: Option<PathBuf>,
     /// Print the fit as JSON.
     #[arg(long)]
