@@ -173,6 +173,24 @@ pub fn parse_fraction(text: &str) -> Option<f64> {
         .map(|v| v * scale)
 }
 
+/// `value` (finite, not zero) as a mantissa and its engineering prefix
+/// (femto to giga; `micro` spelled as given).
+fn engineering(value: f64, micro: &'static str) -> (f64, &'static str) {
+    let exp3 = (value.abs().log10() / 3.0).floor().clamp(-5.0, 3.0);
+    let prefix = match exp3 as i32 {
+        -5 => "f",
+        -4 => "p",
+        -3 => "n",
+        -2 => micro,
+        -1 => "m",
+        1 => "k",
+        2 => "M",
+        3 => "G",
+        _ => "",
+    };
+    (value / 10f64.powf(exp3 * 3.0), prefix)
+}
+
 /// `value` as the design file writes numbers: `digits` significant
 /// digits and an ASCII engineering prefix, no unit (`1.1201e-6, 5` gives
 /// `"1.1201u"`), which [`parse_quantity`] reads back.
@@ -189,19 +207,7 @@ pub fn design_number(value: f64, digits: usize) -> String {
     if value == 0.0 || !value.is_finite() {
         return format!("{value}");
     }
-    let exp3 = (value.abs().log10() / 3.0).floor().clamp(-5.0, 3.0);
-    let prefix = match exp3 as i32 {
-        -5 => "f",
-        -4 => "p",
-        -3 => "n",
-        -2 => "u",
-        -1 => "m",
-        1 => "k",
-        2 => "M",
-        3 => "G",
-        _ => "",
-    };
-    let scaled = value / 10f64.powf(exp3 * 3.0);
+    let (scaled, prefix) = engineering(value, "u");
     let whole = (scaled.abs().log10().floor() as i64 + 1).max(1) as usize;
     let decimals = digits.saturating_sub(whole);
     let text = format!("{scaled:.decimals$}");
@@ -226,19 +232,7 @@ pub fn format_si(value: f64, unit: &str) -> String {
     if value == 0.0 {
         return format!("0 {unit}");
     }
-    let exp3 = (value.abs().log10() / 3.0).floor().clamp(-5.0, 3.0);
-    let prefix = match exp3 as i32 {
-        -5 => "f",
-        -4 => "p",
-        -3 => "n",
-        -2 => "µ",
-        -1 => "m",
-        1 => "k",
-        2 => "M",
-        3 => "G",
-        _ => "",
-    };
-    let scaled = value / 10f64.powf(exp3 * 3.0);
+    let (scaled, prefix) = engineering(value, "µ");
     let decimals = if scaled.abs() >= 100.0 {
         1
     } else if scaled.abs() >= 10.0 {

@@ -82,16 +82,14 @@ fn the_fit_finds_the_board_and_its_file_makes_a_table() {
     // voltage, charge-equivalent.
     let design =
         host_tool::model::design::Design::load(&root().join("tables/winch_aux.toml")).unwrap();
-    let curve: Vec<_> = design
-        .real
-        .coss
-        .iter()
-        .map(|p| timing_core::coss::CossPoint {
-            volts: p.volts,
-            farads: p.farads * BOARD_COSS,
-        })
-        .collect();
-    let c_board = timing_core::coss::SwitchCapacitance::new(BOARD_CR_F, &curve)
+    let board = design.real.board(
+        BOARD_LR_H / design.real.lr_h,
+        BOARD_CR_F / design.real.cr_fixed_f,
+        BOARD_COSS,
+        BOARD_R_OHM,
+    );
+    let c_board = board
+        .capacitance()
         .unwrap()
         .charge_equivalent(j["c_total_at_v"].as_f64().unwrap());
     assert!(rel("c_total_f", c_board).abs() < 0.01, "{j}");

@@ -22,7 +22,7 @@ use host_tool::model::design::Design;
 use host_tool::sim::scope::Scope;
 use host_tool::sim::spice::{ngspice_available, ngspice_stdout, CellDeck, NGSPICE_TIME_LIMIT};
 use host_tool::sim::trace::parse_print;
-use timing_core::coss::CossPoint;
+use host_tool::tank::real_tank::RealTank;
 
 /// How a built board differs from its design.
 #[derive(Debug, Clone, Copy)]
@@ -43,57 +43,35 @@ struct Board {
 /// The board's deck at (vin, io), the gate left off, or with `switching`
 /// turned on again a third of the way into the board's ZVS window (a
 /// capture of normal switching, no gate column).
-fn deck(design: &Design, b: &Board, vin: f64, io: f64) -> CellDeck {
-    deck_with(design, b, vin, io, false)
-}
-
 fn deck_with(design: &Design, b: &Board, vin: f64, io: f64, switching: bool) -> CellDeck {
     let cell = design.cell(vin, io).unwrap();
-    let lr = design.real.lr_h * b.lr;
-    let c = design.real.cr_fixed_f * b.cr + 2e-9 * b.coss;
-    let w0 = 1.0 / (lr * c).sqrt();
-    CellDeck {
-        topology: design.topology,
-        lr_h: lr,
-        cr_f: design.real.cr_fixed_f * b.cr,
-        coss: design
-            .real
-            .coss
-            .iter()
-            .map(|p| CossPoint {
-                volts: p.volts,
-                farads: p.farads * b.coss,
-            })
-            .collect(),
-        r_tank_ohm: design.real.r_tank_ohm * b.r + b.r_ohm,
-        vin_v: vin,
-        vout_v: design.vout_v.unwrap_or(0.0),
-        inductor_current_a: cell.i_amp(),
-        t_off_s: 100e-9,
-        turn_on_s: switching.then(|| {
-            let g = host_tool::analysis::fit_capture::TankGuess {
-                lr_h: lr,
-                cr_f: design.real.cr_fixed_f * b.cr,
-                coss_scale: b.coss,
-                r_tank_ohm: design.real.r_tank_ohm * b.r + b.r_ohm,
-                delay_off_s: 0.0,
-                diode_drop_v: 0.0,
-            };
-            let tank = g.tank(design);
-            let ring = timing_core::ring::RingCell::new(
-                tank.lr_h,
-                tank.capacitance().unwrap(),
-                tank.r_tank_ohm,
-            )
-            .unwrap();
-            let w = ring.transition(&cell).unwrap().turn_on.window().unwrap();
-            w.open_s + (w.close_s - w.open_s) / 3.0
-        }),
+    let tank = board_tank(design, b);
+    let mut deck = CellDeck::single_pulse(
+        design.topology,
+        &tank,
+        (vin, design.vout_v.unwrap_or(0.0), cell.i_amp()),
+        100e-9,
         // Past the capture's end (1.1 us after the turn-off command).
-        duration_s: 1.3e-6,
-        max_step_s: 1.0 / w0 / 2000.0,
-        average_over_s: None,
-    }
+        1.3e-6,
+    );
+    deck.turn_on_s = switching.then(|| {
+        let ring = timing_core::ring::RingCell::new(
+            tank.lr_h,
+            tank.capacitance().unwrap(),
+            tank.r_tank_ohm,
+        )
+        .unwrap();
+        let w = ring.transition(&cell).unwrap().turn_on.window().unwrap();
+        w.open_s + (w.close_s - w.open_s) / 3.0
+    });
+    deck
+}
+
+/// The board's tank.
+fn board_tank(design: &Design, b: &Board) -> RealTank {
+    design
+        .real
+        .board(b.lr, b.cr, b.coss, design.real.r_tank_ohm * b.r + b.r_ohm)
 }
 
 /// The capture CSV of the board at (vin, io) as an 8-bit scope records
@@ -120,19 +98,7 @@ fn scope_capture(deck: &CellDeck, b: &Board, rate: f64, seed: u64) -> String {
     } else {
         deck.trace(50e-12).unwrap()
     };
-    let top = trace.switch_v.iter().copied().fold(0.0, f64::max);
-    let range_v = Scope::range_for(top);
-    Scope {
-        rate_hz: rate,
-        samples: (1.2e-6 * rate) as usize,
-        pre_trigger_s: 100e-9,
-        bits: 8,
-        range_v,
-        noise_v: 0.005 * (range_v.1 - range_v.0),
-        jitter_s: 10e-12,
-        seed,
-    }
-    .record(&trace, b.delay_off_s)
+    Scope::eight_bit(&trace, (rate, 1.2e-6, 100e-9), 0.005, seed).record(&trace, b.delay_off_s)
 }
 
 fn demo() -> Design {
@@ -141,9 +107,10 @@ fn demo() -> Design {
 
 /// The board's total switch capacitance, charge-equivalent at `v`.
 fn board_c_total(design: &Design, b: &Board, v: f64) -> f64 {
-    let d = deck(design, b, design.vin_v.1, design.io_a.1);
-    let sc = timing_core::coss::SwitchCapacitance::new(d.cr_f, &d.coss).unwrap();
-    sc.charge_equivalent(v)
+    board_tank(design, b)
+        .capacitance()
+        .unwrap()
+        .charge_equivalent(v)
 }
 
 fn check(design: &Design, b: &Board, fit: &TankFit) {

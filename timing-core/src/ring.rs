@@ -257,6 +257,21 @@ impl<'a, F: Real> RingCell<'a, F> {
         }
     }
 
+    /// The integration step at switch voltage `v` on `piece`: [`STEP_ANGLE`]
+    /// of the local resonance, `sqrt(Lr*C(v))`, and at most that angle of
+    /// the loop's time constant `Lr/R`, second.
+    fn full_step(&self, piece: &Piece<F>, v: F) -> F {
+        let theta = F::from_f64(STEP_ANGLE);
+        let local = theta * (self.lr * piece.at(v)).sqrt();
+        if self.r > F::ZERO {
+            let r_limit = theta * self.lr / self.r;
+            if r_limit < local {
+                return r_limit;
+            }
+        }
+        local
+    }
+
     /// The step `h`, shortened so that it ends (to first order) on the next
     /// point of the Coss curve the voltage is heading for: the curve's slope
     /// jumps there, and a step across it would lose the method's order.
@@ -340,12 +355,6 @@ impl<'a, F: Real> RingCell<'a, F> {
         }
         let charge_end_s = derived(Quantity::Interval, self.cap.charge(v1) / ic)?;
         let ramp = self.clamp_time(vc, F::ZERO, ic);
-        let theta = F::from_f64(STEP_ANGLE);
-        let r_limit = if self.r > F::ZERO {
-            theta * self.lr / self.r
-        } else {
-            F::from_f64(f64::INFINITY)
-        };
         let mut t = charge_end_s;
         let mut y = State { v: v1, i: ic };
         // The piece of C(v) the step runs on (the voltage rises while the
@@ -365,8 +374,7 @@ impl<'a, F: Real> RingCell<'a, F> {
                 piece = c;
                 k = self.slope(vc, &piece, y);
             }
-            let local = theta * (self.lr * piece.at(y.v)).sqrt();
-            let full = if local < r_limit { local } else { r_limit };
+            let full = self.full_step(&piece, y.v);
             let (mut h, target) = self.step_to_breakpoint(y, k, full);
             let mut next = self.rk4(vc, &piece, y, k, h);
             if let Some(p) = target {
@@ -656,12 +664,6 @@ impl<'a, F: Real> RingCell<'a, F> {
         visit: &mut dyn FnMut(F, F, F),
     ) -> Result<F, Error> {
         let (vc, ic) = (cell.v_volt(), cell.i_amp());
-        let theta = F::from_f64(STEP_ANGLE);
-        let r_limit = if self.r > F::ZERO {
-            theta * self.lr / self.r
-        } else {
-            F::from_f64(f64::INFINITY)
-        };
         let mut t = t0_s;
         let mut y = State { v: v0, i: i0 };
         visit(t, y.v, y.i);
@@ -678,8 +680,7 @@ impl<'a, F: Real> RingCell<'a, F> {
             let rising = y.i > F::ZERO || (y.i == F::ZERO && y.v < vc);
             let piece = self.cap.piece(y.v, rising);
             let k = self.slope(vc, &piece, y);
-            let local = theta * (self.lr * piece.at(y.v)).sqrt();
-            let full = if local < r_limit { local } else { r_limit };
+            let full = self.full_step(&piece, y.v);
             let (h, _) = self.step_to_breakpoint(y, k, full);
             let h = if h > F::ZERO { h } else { full };
             let next = self.rk4(vc, &piece, y, k, h);

@@ -10,7 +10,6 @@ use std::path::Path;
 use host_tool::model::design::Design;
 use host_tool::sim::scope::Scope;
 use host_tool::sim::spice::CellDeck;
-use timing_core::coss::CossPoint;
 
 /// The invented board: Lr, fixed C, Coss and loop-resistance factors,
 /// and the drivers' turn-off delay (second).
@@ -26,43 +25,17 @@ pub fn demo_captures(root: &Path) -> Result<(), String> {
     let (lr, cr, coss, r, delay) = BOARD;
     for (k, &(vin, io, rate)) in POINTS.iter().enumerate() {
         let cell = design.cell(vin, io).map_err(|e| e.to_string())?;
-        let deck = CellDeck {
-            topology: design.topology,
-            lr_h: design.real.lr_h * lr,
-            cr_f: design.real.cr_fixed_f * cr,
-            coss: design
-                .real
-                .coss
-                .iter()
-                .map(|p| CossPoint {
-                    volts: p.volts,
-                    farads: p.farads * coss,
-                })
-                .collect(),
-            r_tank_ohm: design.real.r_tank_ohm * r,
-            vin_v: vin,
-            vout_v: design.vout_v.unwrap_or(0.0),
-            inductor_current_a: cell.i_amp(),
-            t_off_s: 100e-9,
-            turn_on_s: None,
-            duration_s: 1.3e-6,
-            max_step_s: (design.real.lr_h * design.real.cr_fixed_f).sqrt() / 2000.0,
-            average_over_s: None,
-        };
+        let board = design.real.board(lr, cr, coss, design.real.r_tank_ohm * r);
+        let deck = CellDeck::single_pulse(
+            design.topology,
+            &board,
+            (vin, design.vout_v.unwrap_or(0.0), cell.i_amp()),
+            100e-9,
+            1.3e-6,
+        );
         let trace = deck.trace(50e-12).map_err(|e| e.to_string())?;
-        let top = trace.switch_v.iter().copied().fold(0.0, f64::max);
-        let range_v = Scope::range_for(top);
-        let csv = Scope {
-            rate_hz: rate,
-            samples: (1.2e-6 * rate) as usize,
-            pre_trigger_s: 100e-9,
-            bits: 8,
-            range_v,
-            noise_v: 0.004 * (range_v.1 - range_v.0),
-            jitter_s: 10e-12,
-            seed: 100 + k as u64,
-        }
-        .record(&trace, delay);
+        let csv = Scope::eight_bit(&trace, (rate, 1.2e-6, 100e-9), 0.004, 100 + k as u64)
+            .record(&trace, delay);
         let path = dir.join(format!("board_{vin}V_{io}A.csv"));
         std::fs::write(&path, csv).map_err(|e| format!("{}: {e}", path.display()))?;
         eprintln!("xtask: wrote {}", path.display());

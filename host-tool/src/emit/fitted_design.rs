@@ -179,7 +179,9 @@ pub fn fitted_design(
         head,
         "# Fitted by `zvs-timing fit` from {} ({}) to {} scope capture{}:",
         src.design_path.display(),
-        doc_name(src.design_text),
+        doc.get("name")
+            .and_then(Item::as_str)
+            .map_or_else(|| "the design".to_owned(), |n| format!("design `{n}`")),
         src.captures.len(),
         if src.captures.len() == 1 { "" } else { "s" }
     );
@@ -212,17 +214,6 @@ pub fn fitted_design(
         format_si(fit.c_total_at_v, "V"),
     );
     Ok(format!("{head}{doc}"))
-}
-
-fn doc_name(text: &str) -> String {
-    text.parse::<DocumentMut>()
-        .ok()
-        .and_then(|d| {
-            d.get("name")
-                .and_then(Item::as_str)
-                .map(|n| format!("design `{n}`"))
-        })
-        .unwrap_or_else(|| "the design".to_owned())
 }
 
 /// `x` rounded up to two significant digits.

@@ -269,19 +269,16 @@ fn check_ring(v: &[f64]) -> Result<f64, String> {
     // ring peaks (a smooth peak stays within one step of an 8-bit scope
     // for a few per cent of a capture; the bottom is the switch at zero
     // before the turn-off and after the window opens, flat by nature).
-    for (edge, name) in [(hi, "top")] {
-        let at = |x: f64| (x - edge).abs() <= 1e-12 * swing.max(1e-300);
-        let mut run = 0usize;
-        let mut longest = 0usize;
-        for &x in v {
-            run = if at(x) { run + 1 } else { 0 };
-            longest = longest.max(run);
-        }
-        if longest * 10 > v.len() {
-            return Err(format!(
-                "the trace sits at its {name} value {edge} V for {longest} samples in a row: the scope's vertical range clipped the ring; widen the range and capture again"
-            ));
-        }
+    let at_top = |x: f64| (x - hi).abs() <= 1e-12 * swing.max(1e-300);
+    let (mut run, mut longest) = (0usize, 0usize);
+    for &x in v {
+        run = if at_top(x) { run + 1 } else { 0 };
+        longest = longest.max(run);
+    }
+    if longest * 10 > v.len() {
+        return Err(format!(
+            "the trace sits at its top value {hi} V for {longest} samples in a row: the scope's vertical range clipped the ring; widen the range and capture again"
+        ));
     }
     // The ring's own swing: the range between the 1st and 99th
     // percentiles, less what the noise alone spreads (about 4 RMS).

@@ -85,6 +85,9 @@ pub struct DesignSpec {
     pub real: RealTank,
     /// The Coss file as named in the design file.
     pub coss_file: Option<String>,
+    /// The design file's `coss_scale` (1 without it); `real.coss` holds
+    /// the curve already scaled by it.
+    pub coss_scale: f64,
     /// Characteristic impedance whose boundary line I*Z0 = V lies on or
     /// above the exact model's ZVS boundary over the whole voltage range
     /// (the tables' ZVS test with a fixed fallback), ohm; `tank`'s Z0 for
@@ -371,9 +374,7 @@ impl DesignFile {
                     "scales the Coss curve, and the design has none (coss = \"FILE.csv\")",
                 ));
             }
-            for p in &mut coss {
-                p.farads *= k;
-            }
+            coss = crate::tank::real_tank::scaled_curve(&coss, k);
         }
         let cr_fixed = match (self.cr, coss.is_empty()) {
             (Some(c), _) => c.0,
@@ -626,6 +627,7 @@ impl DesignFile {
             tank,
             real,
             coss_file: self.coss.clone(),
+            coss_scale: self.coss_scale.unwrap_or(1.0),
             zvs_z0_ohm,
             vin_v: (vlo, vhi),
             io_a: (ilo, ihi),

@@ -5,7 +5,7 @@
 
 use plotters::prelude::*;
 
-use super::plot::{draw, svg, PlotError, VOLTAGE_COLOUR};
+use super::plot::{draw, legend, svg, PlotError, VOLTAGE_COLOUR};
 use crate::analysis::fit_capture::span::Span;
 use crate::input::capture::Capture;
 
@@ -117,13 +117,7 @@ pub fn overlay(
                 first = false;
             }
         }
-        chart
-            .configure_series_labels()
-            .position(SeriesLabelPosition::UpperRight)
-            .background_style(WHITE.mix(0.85))
-            .border_style(BLACK)
-            .draw()
-            .map_err(draw)?;
+        legend(&mut chart, SeriesLabelPosition::UpperRight)?;
         let mut res = ChartBuilder::on(&lower)
             .margin(12)
             .margin_top(0)

@@ -63,6 +63,20 @@ pub(crate) fn draw<E: std::fmt::Debug>(e: E) -> PlotError {
     PlotError::Draw(format!("{e:?}"))
 }
 
+/// The legend of `chart`'s labelled series at `at`, on a light box.
+pub(crate) fn legend<'a, DB: DrawingBackend + 'a, CT: CoordTranslate>(
+    chart: &mut ChartContext<'a, DB, CT>,
+    at: SeriesLabelPosition,
+) -> Result<(), PlotError> {
+    chart
+        .configure_series_labels()
+        .position(at)
+        .background_style(WHITE.mix(0.85))
+        .border_style(BLACK)
+        .draw()
+        .map_err(draw)
+}
+
 /// A perceptually ordered colour scale (dark blue, teal, green, yellow) at
 /// `f` in 0..=1.
 #[must_use]
@@ -181,13 +195,7 @@ fn map(
         .map_err(draw)?
         .label("ZVS boundary (J = 1); grey below: valley fallback")
         .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], BLACK.stroke_width(2)));
-    chart
-        .configure_series_labels()
-        .position(SeriesLabelPosition::UpperLeft)
-        .background_style(WHITE.mix(0.85))
-        .border_style(BLACK)
-        .draw()
-        .map_err(draw)?;
+    legend(&mut chart, SeriesLabelPosition::UpperLeft)?;
     // Colour bar.
     let mut bar_chart = ChartBuilder::on(&bar)
         .margin_top(45)
@@ -507,13 +515,7 @@ pub fn cycle(design: &Design, vin_v: f64, io_a: f64) -> Result<String, PlotError
             .legend(|(x, y)| {
                 PathElement::new(vec![(x, y), (x + 20, y)], CURRENT_COLOUR.stroke_width(2))
             });
-        chart
-            .configure_series_labels()
-            .position(SeriesLabelPosition::UpperRight)
-            .background_style(WHITE.mix(0.85))
-            .border_style(BLACK)
-            .draw()
-            .map_err(draw)?;
+        legend(&mut chart, SeriesLabelPosition::UpperRight)?;
         // The gate command: off (0) or on (1), on the same time axis.
         let mut gate = ChartBuilder::on(&lane)
             .margin(12)

@@ -43,11 +43,30 @@ fn normal(rng: &mut StdRng) -> f64 {
 }
 
 impl Scope {
-    /// The vertical range a scope user sets for a ring peaking at `peak_v`:
-    /// a tenth below zero to a fifth above the peak.
+    /// A bench scope set up for `trace`: 8 bits over the range a user
+    /// sets for its ring (a tenth of its peak below zero to a fifth above
+    /// the peak), `rate_hz` samples per second for `length_s` second from
+    /// `pre_trigger_s` before the trigger, white noise of `noise_fraction`
+    /// of the range (RMS) and 10 ps RMS of sample-clock jitter.
     #[must_use]
-    pub fn range_for(peak_v: f64) -> (f64, f64) {
-        (-0.1 * peak_v, 1.2 * peak_v)
+    pub fn eight_bit(
+        trace: &Trace,
+        (rate_hz, length_s, pre_trigger_s): (f64, f64, f64),
+        noise_fraction: f64,
+        seed: u64,
+    ) -> Self {
+        let peak = trace.switch_v.iter().copied().fold(0.0, f64::max);
+        let range_v = (-0.1 * peak, 1.2 * peak);
+        Self {
+            rate_hz,
+            samples: (length_s * rate_hz) as usize,
+            pre_trigger_s,
+            bits: 8,
+            range_v,
+            noise_v: noise_fraction * (range_v.1 - range_v.0),
+            jitter_s: 10e-12,
+            seed,
+        }
     }
 
     /// The capture CSV of `trace` (time from the switch's turn-off) with

@@ -80,6 +80,39 @@ pub mod meas {
 }
 
 impl CellDeck {
+    /// A single-pulse test of `tank` in a `topology` converter at input
+    /// voltage `vin_v`, output `vout_v` (volt) and big-inductor current
+    /// `current_a` (ampere): the gate turns off at `t_off_s` and stays off
+    /// for `duration_s` (second); the largest step is 1/2000 of 1/w0 at the
+    /// tank's smallest capacitance (its fastest ring). Set
+    /// [`CellDeck::turn_on_s`] for a turn-on.
+    #[must_use]
+    pub fn single_pulse(
+        topology: Topology,
+        tank: &crate::tank::real_tank::RealTank,
+        (vin_v, vout_v, current_a): (f64, f64, f64),
+        t_off_s: f64,
+        duration_s: f64,
+    ) -> Self {
+        let curve_min = tank.coss.iter().map(|p| p.farads).reduce(f64::min);
+        let c_min = tank.cr_fixed_f + curve_min.unwrap_or(0.0);
+        Self {
+            topology,
+            lr_h: tank.lr_h,
+            cr_f: tank.cr_fixed_f,
+            coss: tank.coss.clone(),
+            r_tank_ohm: tank.r_tank_ohm,
+            vin_v,
+            vout_v,
+            inductor_current_a: current_a,
+            t_off_s,
+            turn_on_s: None,
+            duration_s,
+            max_step_s: (tank.lr_h * c_min).sqrt() / 2000.0,
+            average_over_s: None,
+        }
+    }
+
     /// The largest capacitance across the switch (fixed part plus the
     /// curve's largest value), farad: the scale for numerical settings.
     #[must_use]
@@ -153,23 +186,7 @@ impl CellDeck {
     /// # Errors
     /// The last rung's [`SpiceError`] when every rung fails.
     pub fn simulate(&self) -> Result<(BTreeMap<String, f64>, usize), SpiceError> {
-        let mut last = None;
-        for (k, rung) in SOLVER_LADDER.iter().enumerate() {
-            match run_ngspice(&self.netlist_with(rung)) {
-                Ok(m) => return Ok((m, k)),
-                Err(SpiceError::Failed { status, stderr })
-                    if stderr.contains("Timestep too small") =>
-                {
-                    last = Some(SpiceError::Failed { status, stderr });
-                }
-                Err(e @ SpiceError::TimedOut(_)) => last = Some(e),
-                Err(e) => return Err(e),
-            }
-        }
-        Err(last.unwrap_or(SpiceError::Failed {
-            status: "none".into(),
-            stderr: "no solver settings".into(),
-        }))
+        down_the_ladder(|rung| run_ngspice(&self.netlist_with(&SOLVER_LADDER[rung])))
     }
 
     /// The netlist with the given solver settings.
@@ -370,6 +387,34 @@ impl CellDeck {
         let _ = writeln!(d, ".end");
         d
     }
+}
+
+/// `run` with each rung of [`SOLVER_LADDER`] in turn (its index given)
+/// until one does not stall ngspice's time step ("timestep too small", or
+/// a run past [`NGSPICE_TIME_LIMIT`]): its result and the rung. Any other
+/// error ends the climb.
+///
+/// # Errors
+/// The last rung's [`SpiceError`] when every rung stalls, or the first
+/// other error.
+pub fn down_the_ladder<T>(
+    run: impl Fn(usize) -> Result<T, SpiceError>,
+) -> Result<(T, usize), SpiceError> {
+    let mut last = None;
+    for k in 0..SOLVER_LADDER.len() {
+        match run(k) {
+            Ok(m) => return Ok((m, k)),
+            Err(SpiceError::Failed { status, stderr }) if stderr.contains("Timestep too small") => {
+                last = Some(SpiceError::Failed { status, stderr });
+            }
+            Err(e @ SpiceError::TimedOut(_)) => last = Some(e),
+            Err(e) => return Err(e),
+        }
+    }
+    Err(last.unwrap_or(SpiceError::Failed {
+        status: "none".into(),
+        stderr: "no solver settings".into(),
+    }))
 }
 
 /// Numerical settings of a deck: how ideal its diodes are and how tight

@@ -6,7 +6,9 @@
 //! For bring-up dry runs of `fit` and for checking the fit against a
 //! circuit simulator.
 
-use super::spice::{ngspice_stdout, CellDeck, SpiceError, NGSPICE_TIME_LIMIT, SOLVER_LADDER};
+use super::spice::{
+    down_the_ladder, ngspice_stdout, CellDeck, SpiceError, NGSPICE_TIME_LIMIT, SOLVER_LADDER,
+};
 
 /// A simulated waveform on a uniform grid.
 #[derive(Debug, Clone, PartialEq, Default)]
@@ -48,32 +50,16 @@ impl CellDeck {
     /// # Errors
     /// [`SpiceError`] when every rung fails, or ngspice prints no rows.
     pub fn trace(&self, step_s: f64) -> Result<Trace, SpiceError> {
-        let mut last = None;
-        for rung in 0..SOLVER_LADDER.len() {
-            match ngspice_stdout(&self.trace_netlist(rung), NGSPICE_TIME_LIMIT) {
-                Ok(text) => {
-                    let t = parse_print(&text, self.t_off_s).resampled(step_s);
-                    if t.time_s.len() < 2 {
-                        return Err(SpiceError::Failed {
-                            status: "0".into(),
-                            stderr: "no rows of `.print` output".into(),
-                        });
-                    }
-                    return Ok(t);
-                }
-                Err(SpiceError::Failed { status, stderr })
-                    if stderr.contains("Timestep too small") =>
-                {
-                    last = Some(SpiceError::Failed { status, stderr });
-                }
-                Err(e @ SpiceError::TimedOut(_)) => last = Some(e),
-                Err(e) => return Err(e),
-            }
+        let (text, _) =
+            down_the_ladder(|rung| ngspice_stdout(&self.trace_netlist(rung), NGSPICE_TIME_LIMIT))?;
+        let t = parse_print(&text, self.t_off_s).resampled(step_s);
+        if t.time_s.len() < 2 {
+            return Err(SpiceError::Failed {
+                status: "0".into(),
+                stderr: "no rows of `.print` output".into(),
+            });
         }
-        Err(last.unwrap_or(SpiceError::Failed {
-            status: "none".into(),
-            stderr: "no solver settings".into(),
-        }))
+        Ok(t)
     }
 }
 

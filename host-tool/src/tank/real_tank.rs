@@ -104,24 +104,37 @@ pub fn check_cell_ranges(v: (f64, f64), i: (f64, f64)) -> Result<(), Error> {
     Ok(())
 }
 
+/// The Coss curve `curve` with every capacitance times `k`.
+#[must_use]
+pub fn scaled_curve(curve: &[CossPoint<f64>], k: f64) -> Vec<CossPoint<f64>> {
+    curve
+        .iter()
+        .map(|p| CossPoint {
+            volts: p.volts,
+            farads: p.farads * k,
+        })
+        .collect()
+}
+
 impl RealTank {
     /// This tank on another board: Lr times `l`, the whole switch
     /// capacitance (the fixed capacitor and the Coss curve together) times
     /// `k`, the loop resistance unchanged.
     #[must_use]
     pub fn scaled(&self, l: f64, k: f64) -> Self {
+        self.board(l, k, k, self.r_tank_ohm)
+    }
+
+    /// This tank as built on a board whose parts differ: Lr times `l`, the
+    /// fixed capacitor times `k_fixed`, the Coss curve times `k_curve`,
+    /// and a loop resistance of `r_tank_ohm`.
+    #[must_use]
+    pub fn board(&self, l: f64, k_fixed: f64, k_curve: f64, r_tank_ohm: f64) -> Self {
         Self {
             lr_h: self.lr_h * l,
-            cr_fixed_f: self.cr_fixed_f * k,
-            coss: self
-                .coss
-                .iter()
-                .map(|p| CossPoint {
-                    volts: p.volts,
-                    farads: p.farads * k,
-                })
-                .collect(),
-            r_tank_ohm: self.r_tank_ohm,
+            cr_fixed_f: self.cr_fixed_f * k_fixed,
+            coss: scaled_curve(&self.coss, k_curve),
+            r_tank_ohm,
         }
     }
 

@@ -7,7 +7,6 @@
 //! no longer follows the circuit (after the window closes, or past the
 //! valley), where the prediction is NaN and the sample does not count.
 
-use timing_core::coss::CossPoint;
 use timing_core::ring::RingCell;
 use timing_core::waveform::WaveSample;
 use timing_core::CellPoint;
@@ -15,7 +14,7 @@ use timing_core::TurnOn;
 
 use crate::input::capture::Capture;
 use crate::input::design::DesignSpec;
-use crate::tank::real_tank::RealTank;
+use crate::tank::real_tank::{scaled_curve, RealTank};
 
 /// The tank as a fit sees it: what bring-up captures pin down.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -60,15 +59,7 @@ impl TankGuess {
         RealTank {
             lr_h: self.lr_h,
             cr_fixed_f: self.cr_f,
-            coss: design
-                .real
-                .coss
-                .iter()
-                .map(|p| CossPoint {
-                    volts: p.volts,
-                    farads: p.farads * self.coss_scale,
-                })
-                .collect(),
+            coss: scaled_curve(&design.real.coss, self.coss_scale),
             r_tank_ohm: self.r_tank_ohm,
         }
     }

@@ -8,6 +8,7 @@ use host_tool::analysis::fit_capture::span::SwingEnd;
 use host_tool::analysis::fit_capture::{fit, model_trace, Param, Shot, TankFit};
 use host_tool::emit::fitted_design::{fitted_design, FitSource, TOLERANCE_SIGMAS};
 use host_tool::input::capture::{self, Column, Columns};
+use host_tool::model::design::Design;
 use host_tool::units::format_si;
 
 use crate::args::num;
@@ -89,7 +90,7 @@ fn nth<'a>(option: &str, values: &'a [String], k: usize, n: usize) -> anyhow::Re
 }
 
 pub(crate) fn run_fit(args: &FitArgs) -> anyhow::Result<()> {
-    let design = host_tool::model::design::Design::load(&args.design)?;
+    let design = Design::load(&args.design)?;
     let cols = columns(&args.columns)?;
     let n = args.captures.len();
     let mut points = Vec::with_capacity(n);
@@ -125,12 +126,6 @@ pub(crate) fn run_fit(args: &FitArgs) -> anyhow::Result<()> {
         })
         .collect();
     let f = fit(&design, &shots)?;
-    // The scale as the design file writes it: on the curve in its CSV.
-    let file_scale = design_file_coss_scale(&args.design);
-    let coss_scale = (
-        file_scale * f.value(Param::CossScale),
-        file_scale * f.sigma_of(Param::CossScale),
-    );
     let listed: Vec<(String, f64, f64)> = caps
         .iter()
         .zip(&points)
@@ -148,22 +143,23 @@ pub(crate) fn run_fit(args: &FitArgs) -> anyhow::Result<()> {
         std::fs::write(path, fitted)
             .map_err(|e| anyhow::anyhow!("cannot write {}: {e}", path.display()))?;
         // What was written must be a design `table` takes.
-        host_tool::model::design::Design::load(path).map_err(|e| {
+        Design::load(path).map_err(|e| {
             anyhow::anyhow!("the fitted design {} does not load: {e}", path.display())
         })?;
     }
     let mut pictures = Vec::new();
     if let Some(dir) = &plots {
-        for ((c, &(vin, io)), sp) in caps.iter().zip(&points).zip(&f.spans) {
+        for (((c, &(vin, io)), sp), (rms, _, _)) in
+            caps.iter().zip(&points).zip(&f.spans).zip(&f.residuals)
+        {
             let model = model_trace(&design, &f.tank, vin, io, &c.time_s)?;
             let stem = Path::new(&c.path)
                 .file_stem()
                 .map_or_else(|| "capture".into(), |s| s.to_string_lossy().into_owned());
-            let rms = f.residuals.get(pictures.len()).map_or(f64::NAN, |r| r.0);
             let title = format!(
                 "{}: {stem} at Vin = {vin} V, Io = {io} A; fitted model, residual {} RMS",
                 design.name,
-                format_si(rms, "V")
+                format_si(*rms, "V")
             );
             let svg = host_tool::report::overlay::overlay(c, &model, sp, &title)?;
             let path = dir.join(format!("{stem}_fit.svg"));
@@ -176,49 +172,41 @@ pub(crate) fn run_fit(args: &FitArgs) -> anyhow::Result<()> {
         outln!(
             "{}",
             serde_json::to_string_pretty(&json(
+                &design,
                 &f,
-                coss_scale,
                 &listed,
                 args.out.as_deref(),
                 &pictures
             ))?
         );
     } else {
-        print_text(
-            &design,
-            &f,
-            coss_scale,
-            &listed,
-            args.out.as_deref(),
-            &pictures,
-        );
+        print_text(&design, &f, &listed, args.out.as_deref(), &pictures);
     }
     Ok(())
 }
 
-/// The `coss_scale` the design file already has (1 without).
-fn design_file_coss_scale(path: &Path) -> f64 {
-    std::fs::read_to_string(path)
-        .ok()
-        .and_then(|t| t.parse::<toml::Table>().ok())
-        .and_then(|t| t.get("coss_scale").and_then(toml::Value::as_float))
-        .unwrap_or(1.0)
+/// The fitted value of `p` and its standard deviation as the design file
+/// writes them: the Coss scale on the curve in its CSV (times the design's
+/// own `coss_scale`).
+fn reported(design: &Design, f: &TankFit, p: Param) -> (f64, f64) {
+    let k = if p == Param::CossScale {
+        design.coss_scale
+    } else {
+        1.0
+    };
+    (k * f.value(p), k * f.sigma_of(p))
 }
 
 fn json(
+    design: &Design,
     f: &TankFit,
-    coss_scale: (f64, f64),
     captures: &[(String, f64, f64)],
     out: Option<&Path>,
     pictures: &[PathBuf],
 ) -> serde_json::Value {
     let mut o = serde_json::Map::new();
     for p in Param::ALL {
-        let (v, s) = if p == Param::CossScale {
-            coss_scale
-        } else {
-            (f.value(p), f.sigma_of(p))
-        };
+        let (v, s) = reported(design, f, p);
         o.insert(p.key().to_owned(), v.into());
         o.insert(format!("{}_sigma", p.key()), s.into());
     }
@@ -272,9 +260,8 @@ fn json(
 }
 
 fn print_text(
-    design: &host_tool::model::design::Design,
+    design: &Design,
     f: &TankFit,
-    coss_scale: (f64, f64),
     captures: &[(String, f64, f64)],
     out: Option<&Path>,
     pictures: &[PathBuf],
@@ -307,58 +294,21 @@ fn print_text(
         outln!("  {name:<24} {fv:<13} {fs:<14} {fd}{mark}");
     };
     let d = &design.real;
-    let design_scale = coss_scale.0 / f.value(Param::CossScale).max(1e-300);
-    for (name, p, unit, v, s, dv) in [
-        (
-            "Lr",
-            Param::Lr,
-            "H",
-            f.value(Param::Lr),
-            f.sigma_of(Param::Lr),
-            d.lr_h,
-        ),
-        (
-            "Cr (fixed part)",
-            Param::Cr,
-            "F",
-            f.value(Param::Cr),
-            f.sigma_of(Param::Cr),
-            d.cr_fixed_f,
-        ),
-        (
-            "Coss scale",
-            Param::CossScale,
-            "",
-            coss_scale.0,
-            coss_scale.1,
-            design_scale,
-        ),
-        (
-            "loop resistance",
-            Param::RTank,
-            "ohm",
-            f.value(Param::RTank),
-            f.sigma_of(Param::RTank),
-            d.r_tank_ohm,
-        ),
+    for (name, p, unit, was) in [
+        ("Lr", Param::Lr, "H", d.lr_h),
+        ("Cr (fixed part)", Param::Cr, "F", d.cr_fixed_f),
+        ("Coss scale", Param::CossScale, "", design.coss_scale),
+        ("loop resistance", Param::RTank, "ohm", d.r_tank_ohm),
         (
             "turn-off driver delay",
             Param::DelayOff,
             "s",
-            f.value(Param::DelayOff),
-            f.sigma_of(Param::DelayOff),
             design.timer.turn_off_delay_s(),
         ),
-        (
-            "diode drop (ring centre)",
-            Param::DiodeDrop,
-            "V",
-            f.value(Param::DiodeDrop),
-            f.sigma_of(Param::DiodeDrop),
-            0.0,
-        ),
+        ("diode drop (ring centre)", Param::DiodeDrop, "V", 0.0),
     ] {
-        row(name, Some(p), unit, v, s, dv);
+        let (v, s) = reported(design, f, p);
+        row(name, Some(p), unit, v, s, was);
     }
     let c_design = d
         .capacitance()
