@@ -34,10 +34,12 @@
 pub mod fast_f32;
 pub mod fixed_point;
 pub mod libm_f32;
+pub mod pieces;
 
 pub use fast_f32::FastF32;
 pub use fixed_point::{FixedPoint, FixedPointParts};
 pub use libm_f32::LibmF32;
+pub use pieces::{Band, Piece, PiecewiseParts};
 
 use crate::error::{positive, Error, Quantity};
 use crate::table::{Fallback, Lookup};
@@ -98,7 +100,14 @@ pub struct ClosedForm {
     position: f64,
     max_ticks: u32,
     fallback: Fallback,
+    /// The ideal cell as one piece (twice: one a band, as a range of more
+    /// than 2^15 voltage codes needs two bands of the widest shift).
+    ideal_pieces: [Piece; 2],
+    ideal_bands: [Band; 2],
 }
+
+/// Bands of 2^15 codes: the whole range in one or two.
+const IDEAL_SHIFT: u8 = 15;
 
 impl ClosedForm {
     /// Validate the code scaling against the tank, timer and aim point.
@@ -160,14 +169,29 @@ impl ClosedForm {
         let clock = timer.clock_hz();
         let ticks_per_rad =
             crate::error::derived(Quantity::MethodCoefficient, clock / tank.w0_rad_s())?;
+        let lead_ticks = timer.lead_s() * clock;
+        let piece = Piece {
+            y_end: f32::INFINITY,
+            kx: kx as f32,
+            ticks_per_rad: ticks_per_rad as f32,
+            offset_ticks: (ticks_per_rad * (1.5 * core::f64::consts::PI) - lead_ticks) as f32,
+            ticks_per_vin_code: 0.0,
+        };
+        let band = |first| Band {
+            first,
+            zvs_y: (1.0 / kx) as f32,
+            zvs_y_per_code: 0.0,
+        };
         Ok(Self {
             scaling,
             kx,
             ticks_per_rad,
-            lead_ticks: timer.lead_s() * clock,
+            lead_ticks,
             position: position.get(),
             max_ticks: timer.max_ticks().get(),
             fallback,
+            ideal_pieces: [piece; 2],
+            ideal_bands: [band(0), band(1)],
         })
     }
 
@@ -216,12 +240,32 @@ impl ClosedForm {
         }
     }
 
-    /// The f32 method with fast approximations.
+    /// The ideal cell as the pieces of [`FastF32`]: one piece a band.
+    #[must_use]
+    pub fn ideal_parts(&self) -> PiecewiseParts<'_> {
+        let s = &self.scaling;
+        let n = usize::from((s.vin.hi.saturating_sub(s.vin.lo)) >> IDEAL_SHIFT) + 1;
+        let n = n.min(self.ideal_bands.len());
+        PiecewiseParts {
+            vin: s.vin,
+            io: s.io,
+            io_zero: s.io_zero,
+            band_shift: IDEAL_SHIFT,
+            bands: self.ideal_bands.get(..n).unwrap_or(&[]),
+            pieces: self.ideal_pieces.get(..n).unwrap_or(&[]),
+            position: self.position as f32,
+            max_ticks: self.max_ticks,
+            fallback: self.fallback,
+        }
+    }
+
+    /// The f32 method with fast approximations, on the ideal cell (one
+    /// piece; the host tool fits the pieces that follow a real tank).
     ///
     /// # Errors
     /// As [`FastF32::from_parts`].
-    pub fn fast_f32(&self) -> Result<FastF32, Error> {
-        FastF32::from_parts(self.f32_parts())
+    pub fn fast_f32(&self) -> Result<FastF32<'_>, Error> {
+        FastF32::from_parts(self.ideal_parts())
     }
 
     /// The libm f32 baseline.

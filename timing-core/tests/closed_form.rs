@@ -4,7 +4,9 @@
 //! cross-checks crate (tests/closed_form.rs).
 
 use proptest::prelude::*;
-use timing_core::closed_form::{ClosedForm, CodeScaling, F32Parts, FastF32, FixedPoint};
+use timing_core::closed_form::{
+    Band, ClosedForm, CodeScaling, FastF32, FixedPoint, Piece, PiecewiseParts,
+};
 use timing_core::table::Fallback;
 use timing_core::{
     AdcCode, CellPoint, CodeRange, Error, Quantity, Tank, Timer, Topology, Transition,
@@ -171,9 +173,15 @@ fn the_fixed_point_method_names_the_load_it_cannot_reach() {
 
 #[test]
 fn bad_coefficients_are_refused_in_const_construction() {
-    let good = demo(demo_scaling()).unwrap().f32_parts();
-    let bad = F32Parts {
+    let cf = demo(demo_scaling()).unwrap();
+    let good = cf.ideal_parts();
+    let piece = good.pieces[0];
+    let bad_piece = [Piece {
         kx: f32::NAN,
+        ..piece
+    }];
+    let bad = PiecewiseParts {
+        pieces: &bad_piece,
         ..good
     };
     assert!(matches!(
@@ -183,7 +191,7 @@ fn bad_coefficients_are_refused_in_const_construction() {
             ..
         })
     ));
-    let bad = F32Parts {
+    let bad = PiecewiseParts {
         position: 1.5,
         ..good
     };
@@ -194,28 +202,116 @@ fn bad_coefficients_are_refused_in_const_construction() {
             ..
         })
     ));
-    let fx = demo(demo_scaling()).unwrap().fixed_point().unwrap();
+    // Bands that do not match the range and shift, pieces out of order,
+    // a band without pieces.
+    let bands = [good.bands[0]; 2];
+    for bad in [
+        PiecewiseParts {
+            band_shift: 8,
+            ..good
+        },
+        PiecewiseParts {
+            bands: &bands,
+            ..good
+        },
+        PiecewiseParts {
+            pieces: &[],
+            ..good
+        },
+    ] {
+        assert!(
+            matches!(
+                FastF32::from_parts(bad),
+                Err(Error::OutOfRange {
+                    quantity: Quantity::MethodCoefficient,
+                    ..
+                })
+            ),
+            "{bad:?}"
+        );
+    }
+    let unordered = [
+        Piece {
+            y_end: 3.0,
+            ..piece
+        },
+        Piece {
+            y_end: 2.0,
+            ..piece
+        },
+    ];
+    assert!(FastF32::from_parts(PiecewiseParts {
+        pieces: &unordered,
+        ..good
+    })
+    .is_err());
+    let fx = cf.fixed_point().unwrap();
     let mut parts = *fx.parts();
     parts.k_mant = 3;
     assert!(FixedPoint::from_parts(parts).is_err());
-    // A const item validates at compile time.
-    const PARTS: F32Parts = F32Parts {
+    // A const item validates at compile time: two bands of 1024 codes, the
+    // second with two pieces.
+    const fn stand_in(y_end: f32, offset_ticks: f32) -> Piece {
+        Piece {
+            y_end,
+            kx: 0.272,
+            ticks_per_rad: 14.0,
+            offset_ticks,
+            ticks_per_vin_code: 0.0,
+        }
+    }
+    const PIECES: [Piece; 3] = [
+        stand_in(f32::INFINITY, 61.7),
+        stand_in(2.5, 61.7),
+        stand_in(f32::INFINITY, 62.7),
+    ];
+    const BANDS: [Band; 2] = [
+        Band {
+            first: 0,
+            zvs_y: 3.67,
+            zvs_y_per_code: 0.0,
+        },
+        Band {
+            first: 1,
+            zvs_y: 3.67,
+            zvs_y_per_code: 0.0,
+        },
+    ];
+    const PARTS: PiecewiseParts<'static> = PiecewiseParts {
         vin: CodeRange { lo: 2237, hi: 3726 },
         io: CodeRange { lo: 205, hi: 2049 },
         io_zero: 0,
-        kx: 0.272,
-        ticks_per_rad: 14.0,
-        lead_ticks: 4.25,
+        band_shift: 10,
+        bands: &BANDS,
+        pieces: &PIECES,
         position: 0.25,
         max_ticks: 65535,
         fallback: Fallback::Valley,
     };
-    const FAST: FastF32 = match FastF32::from_parts(PARTS) {
+    const FAST: FastF32<'static> = match FastF32::from_parts(PARTS) {
         Ok(m) => m,
         Err(_) => panic!("valid parts"),
     };
-    let d = FAST.delay(AdcCode::new(2981), AdcCode::new(1229));
-    assert!(d.zvs);
+    // 48 V, 6 A: the second band (codes from 3261), ratio 2.43 < 2.5: its
+    // first piece, the same as the first band's stand-in; ratio 2.6: the
+    // next piece, one tick later.
+    let (a, zvs_a) = FAST.raw_ticks(AdcCode::new(2981), AdcCode::new(1229));
+    let (b, _) = FAST.raw_ticks(AdcCode::new(3300), AdcCode::new(1358));
+    let (c, zvs_c) = FAST.raw_ticks(AdcCode::new(3300), AdcCode::new(1269));
+    let one = PiecewiseParts {
+        band_shift: 15,
+        bands: &BANDS[..1],
+        pieces: &PIECES[..1],
+        ..PARTS
+    };
+    let one = FastF32::from_parts(one).unwrap();
+    assert!(zvs_a && zvs_c);
+    assert_eq!(a, one.raw_ticks(AdcCode::new(2981), AdcCode::new(1229)).0);
+    assert_eq!(b, one.raw_ticks(AdcCode::new(3300), AdcCode::new(1358)).0);
+    let (c1, _) = one.raw_ticks(AdcCode::new(3300), AdcCode::new(1269));
+    assert!((c - c1 - 1.0).abs() < 1e-4, "{c} vs {c1}");
+    // The ZVS test is the band's line, not the stand-in's own boundary.
+    assert!(!FAST.delay(AdcCode::new(3726), AdcCode::new(1000)).zvs);
 }
 
 #[test]

@@ -86,7 +86,13 @@ fn proofs(design_path: &Path) -> Result<BTreeMap<(String, String), VerifyReport>
         let g = host_tool::generate::generate(&d).map_err(|e| e.to_string())?;
         out.insert((core.to_owned(), "table".to_owned()), g.verification);
     }
-    let fast = verify(&design, &cf.fast_f32().map_err(|e| e.to_string())?, None);
+    let pieces =
+        host_tool::generate::pieces::fit_design_pieces(&design).map_err(|e| e.to_string())?;
+    let fast = verify(
+        &design,
+        &pieces.fast_f32().map_err(|e| e.to_string())?,
+        None,
+    );
     let fixed = verify(&design, &cf.fixed_point().map_err(|e| e.to_string())?, None);
     let libm = verify(&design, &cf.libm_f32().map_err(|e| e.to_string())?, None);
     for (core, _) in CORES {

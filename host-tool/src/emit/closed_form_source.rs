@@ -5,11 +5,12 @@
 
 use std::fmt::Write as _;
 
-use timing_core::closed_form::{F32Parts, FixedPointParts};
+use timing_core::closed_form::{Band, F32Parts, FixedPointParts, Piece, PiecewiseParts};
 use timing_core::table::Fallback;
 use timing_core::CodeRange;
 
 use crate::check::verify::{verify_all, DelayMethod, VerifyReport};
+use crate::generate::pieces::{fit_design_pieces, PieceSet};
 use crate::model::design::Design;
 
 fn range(r: CodeRange) -> String {
@@ -42,6 +43,60 @@ fn f32_parts(p: &F32Parts) -> String {
     )
 }
 
+fn piece(p: &Piece) -> String {
+    format!(
+        "    Piece {{\n        y_end: {},\n        kx: {},\n        ticks_per_rad: {},\n        offset_ticks: {},\n        ticks_per_vin_code: {},\n    }},",
+        f32_lit(p.y_end),
+        f32_lit(p.kx),
+        f32_lit(p.ticks_per_rad),
+        f32_lit(p.offset_ticks),
+        f32_lit(p.ticks_per_vin_code),
+    )
+}
+
+fn band(b: &Band) -> String {
+    format!(
+        "    Band {{\n        first: {},\n        zvs_y: {},\n        zvs_y_per_code: {},\n    }},",
+        b.first,
+        f32_lit(b.zvs_y),
+        f32_lit(b.zvs_y_per_code),
+    )
+}
+
+/// The pieces, the bands and the parts that borrow them, as `const` items.
+fn piecewise_items(p: &PiecewiseParts<'_>) -> String {
+    let mut s = String::new();
+    let _ = writeln!(
+        s,
+        "/// The f32 method's pieces: ideal-cell stand-ins fitted to the exact model, band after band.\npub const PIECES: [Piece; {}] = [",
+        p.pieces.len()
+    );
+    for q in p.pieces {
+        let _ = writeln!(s, "{}", piece(q));
+    }
+    let _ = writeln!(
+        s,
+        "];\n\n/// The f32 method's voltage bands ({} codes each) and their ZVS tests.\npub const BANDS: [Band; {}] = [",
+        1u32 << p.band_shift,
+        p.bands.len()
+    );
+    for b in p.bands {
+        let _ = writeln!(s, "{}", band(b));
+    }
+    let _ = writeln!(
+        s,
+        "];\n\n/// Coefficients of the fast f32 method.\npub const PIECEWISE_PARTS: PiecewiseParts<'static> = PiecewiseParts {{\n    vin: {},\n    io: {},\n    io_zero: {},\n    band_shift: {},\n    bands: &BANDS,\n    pieces: &PIECES,\n    position: {},\n    max_ticks: {},\n    fallback: {},\n}};\n",
+        range(p.vin),
+        range(p.io),
+        p.io_zero,
+        p.band_shift,
+        f32_lit(p.position),
+        p.max_ticks,
+        fallback(p.fallback)
+    );
+    s
+}
+
 fn fixed_parts(p: &FixedPointParts) -> String {
     format!(
         "FixedPointParts {{\n    vin: {},\n    io: {},\n    io_zero: {},\n    k_mant: {},\n    k_shift: {},\n    t_mant: {},\n    t_shift: {},\n    position_q15: {},\n    lead_q8: {},\n    max_ticks: {},\n    fallback: {},\n}}",
@@ -70,8 +125,8 @@ fn proof_line(s: &mut String, v: &VerifyReport) {
     );
     let _ = writeln!(
         s,
-        "//   {} of {} ZVS turn-ons outside the window.",
-        v.outside_window, v.zvs_points
+        "//   {} of {} ZVS turn-ons outside the window ({} where it is a tick wide or more); {} of {} outside the robust window.",
+        v.outside_window, v.zvs_points, v.outside_window_wide, v.outside_robust_window, v.robust_points
     );
 }
 
@@ -83,21 +138,24 @@ fn proof_line(s: &mut String, v: &VerifyReport) {
 /// # Errors
 /// timing-core's refusal of the design's code scaling.
 pub fn closed_form_source(design: &Design) -> Result<String, timing_core::Error> {
-    closed_form_source_with(design, None)
+    let pieces = fit_design_pieces(design)?;
+    closed_form_source_with(design, &pieces, None)
 }
 
-/// [`closed_form_source`] with the methods' verification reports already
-/// made (by the pass that verified the table, [`crate::generate::Outcome`]);
-/// a method whose report is missing is verified here.
+/// [`closed_form_source`] with the fast method's fitted pieces and the
+/// methods' verification reports already made (by the pass that verified
+/// the table, [`crate::generate::Outcome`]); a method whose report is
+/// missing is verified here.
 ///
 /// # Errors
 /// As [`closed_form_source`].
 pub fn closed_form_source_with(
     design: &Design,
+    pieces: &PieceSet,
     done: Option<&[VerifyReport]>,
 ) -> Result<String, timing_core::Error> {
     let cf = design.closed_form()?;
-    let fast = cf.fast_f32();
+    let fast = pieces.fast_f32();
     let fixed = cf.fixed_point();
     let libm = cf.libm_f32();
     let mut s = String::new();
@@ -156,17 +214,16 @@ pub fn closed_form_source_with(
     );
     let _ = writeln!(
         s,
-        "#[allow(unused_imports)]\nuse timing_core::closed_form::{{F32Parts, FastF32, FixedPoint, FixedPointParts, LibmF32}};\n#[allow(unused_imports)]\nuse timing_core::table::Fallback;\n#[allow(unused_imports)]\nuse timing_core::{{CodeRange, Ticks}};\n"
+        "#[allow(unused_imports)]\nuse timing_core::closed_form::{{Band, F32Parts, FastF32, FixedPoint, FixedPointParts, LibmF32, Piece, PiecewiseParts}};\n#[allow(unused_imports)]\nuse timing_core::table::Fallback;\n#[allow(unused_imports)]\nuse timing_core::{{CodeRange, Ticks}};\n"
     );
-    let f32_parts_text = fast
-        .as_ref()
-        .map(|m| f32_parts(m.parts()))
-        .or_else(|_| libm.as_ref().map(|m| f32_parts(m.parts())));
-    if let Ok(text) = &f32_parts_text {
+    if let Ok(m) = &fast {
+        s.push_str(&piecewise_items(m.parts()));
+    }
+    if let Ok(m) = &libm {
         let _ = writeln!(
             s,
-            "/// Coefficients of the f32 methods.\npub const F32_PARTS: {};\n",
-            text.replacen("F32Parts {", "F32Parts = F32Parts {", 1)
+            "/// Coefficients of the libm f32 baseline (the ideal cell's stand-in).\npub const F32_PARTS: {};\n",
+            f32_parts(m.parts()).replacen("F32Parts {", "F32Parts = F32Parts {", 1)
         );
     }
     if let Ok(m) = &fixed {
@@ -181,7 +238,12 @@ pub fn closed_form_source_with(
         );
     }
     for (ok, name, ty, parts) in [
-        (fast.is_ok(), "FAST_F32", "FastF32", "F32_PARTS"),
+        (
+            fast.is_ok(),
+            "FAST_F32",
+            "FastF32<'static>",
+            "PIECEWISE_PARTS",
+        ),
         (
             fixed.is_ok(),
             "FIXED_POINT",

@@ -286,7 +286,7 @@ pub fn write_all(
     g: &Generated,
     v: &VerifyReport,
 ) -> std::io::Result<Written> {
-    write_with(dir, design, g, v, None)
+    write_with(dir, design, g, v, None, None)
 }
 
 /// [`write_all`] for a generation's outcome: its closed-form reports,
@@ -305,6 +305,7 @@ pub fn write_outcome(
         &out.table,
         &out.verification,
         Some(&out.closed_forms),
+        out.pieces.as_ref(),
     )
 }
 
@@ -314,6 +315,7 @@ fn write_with(
     g: &Generated,
     v: &VerifyReport,
     closed_forms: Option<&[VerifyReport]>,
+    pieces: Option<&crate::generate::pieces::PieceSet>,
 ) -> std::io::Result<Written> {
     std::fs::create_dir_all(dir)?;
     let base = dir.join(&design.name);
@@ -328,11 +330,13 @@ fn write_with(
     std::fs::write(&w.h, c_header(design, g, v))?;
     std::fs::write(&w.bin, blob(design, g).map_err(std::io::Error::other)?)?;
     std::fs::write(&w.csv, csv(design, g))?;
-    std::fs::write(
-        &w.closed_form_rs,
-        crate::emit::closed_form_source::closed_form_source_with(design, closed_forms)
-            .map_err(std::io::Error::other)?,
-    )?;
+    let closed = match pieces {
+        Some(p) => {
+            crate::emit::closed_form_source::closed_form_source_with(design, p, closed_forms)
+        }
+        None => crate::emit::closed_form_source::closed_form_source(design),
+    };
+    std::fs::write(&w.closed_form_rs, closed.map_err(std::io::Error::other)?)?;
     Ok(w)
 }
 

@@ -8,6 +8,7 @@ pub mod generated;
 mod layouts_1d;
 mod layouts_2d;
 mod nodes;
+pub mod pieces;
 
 pub use error::GenerateError;
 pub use generated::Generated;
@@ -61,6 +62,9 @@ pub struct Outcome {
     /// code pairs as the table's (the methods timing-core offers for the
     /// design, in the order `closed-form-f32`, `fixed-point`, `libm-f32`).
     pub closed_forms: Vec<VerifyReport>,
+    /// The fast closed form's pieces, fitted to the exact model (`None`
+    /// when timing-core refuses the design's closed form).
+    pub pieces: Option<pieces::PieceSet>,
 }
 
 /// Largest exact delay over the design range and a check that all fit the
@@ -196,6 +200,9 @@ pub fn generate_with_progress(
         None => model,
     };
     let max_ticks = delay_bounds(design, &model)?;
+    progress("fitting the closed form's pieces", 0.0);
+    let pieces = pieces::fit_pieces(design, &model).ok();
+    progress("fitting the closed form's pieces", 1.0);
     // Candidates are sized on a dry model first; entries are computed only
     // for those screened, smallest first.
     let dry = model.dry();
@@ -390,7 +397,14 @@ pub fn generate_with_progress(
             best = Some((err, miss, g.layout_name(), all));
         }
         if meets {
-            if let Some(c) = accept(design, &model, g, &mut candidates, progress)? {
+            if let Some(c) = accept(
+                design,
+                &model,
+                pieces.as_ref(),
+                g,
+                &mut candidates,
+                progress,
+            )? {
                 chosen = Some(c);
             }
         } else if fallback.is_none() && all && err <= design.max_error_ticks {
@@ -403,7 +417,14 @@ pub fn generate_with_progress(
     // and reported.
     if chosen.is_none() {
         if let Some(g) = fallback {
-            chosen = accept(design, &model, g, &mut candidates, progress)?;
+            chosen = accept(
+                design,
+                &model,
+                pieces.as_ref(),
+                g,
+                &mut candidates,
+                progress,
+            )?;
         }
     }
     match chosen {
@@ -412,6 +433,7 @@ pub fn generate_with_progress(
             verification,
             candidates,
             closed_forms,
+            pieces,
         }),
         None => {
             let (best, misses, layout, every_pair) =
@@ -438,6 +460,7 @@ pub fn generate_with_progress(
 fn accept(
     design: &Design,
     model: &ExactModel<'_>,
+    pieces: Option<&pieces::PieceSet>,
     g: Generated,
     candidates: &mut [Candidate],
     progress: &mut dyn FnMut(&str, f64),
@@ -450,7 +473,7 @@ fn accept(
     // The closed forms the design allows join the table's pass over the
     // code pairs (the exact model runs once per pair for all of them).
     let cf = design.closed_form().ok();
-    let fast = cf.as_ref().and_then(|c| c.fast_f32().ok());
+    let fast = pieces.and_then(|p| p.fast_f32().ok());
     let fixed = cf.as_ref().and_then(|c| c.fixed_point().ok());
     let libm = cf.as_ref().and_then(|c| c.libm_f32().ok());
     let mut methods: Vec<&dyn crate::check::verify::DelayMethod> = vec![&table];

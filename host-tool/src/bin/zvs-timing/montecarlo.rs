@@ -3,7 +3,7 @@
 
 use clap::Args;
 
-use crate::verify::{open_method, read_table, MethodArg};
+use crate::verify::{method_pieces, open_method, read_table, MethodArg};
 
 #[derive(Args)]
 pub(crate) struct MonteCarloArgs {
@@ -36,7 +36,8 @@ pub(crate) fn run_montecarlo(args: &MonteCarloArgs) -> anyhow::Result<()> {
     let design = host_tool::model::design::Design::load(&args.design)?;
     let cf = design.closed_form()?;
     let file = read_table(&design, args.table.as_deref(), args.method)?;
-    let method = open_method(&cf, file.as_ref(), args.method)?;
+    let pieces = method_pieces(&design, args.method)?;
+    let method = open_method(&cf, file.as_ref(), pieces.as_ref(), args.method)?;
     crate::args::check_cost(
         &format!("{} boards x {} cycles", args.boards, args.cycles),
         host_tool::check::cost::montecarlo_s(u64::from(args.boards), u64::from(args.cycles)),

@@ -97,14 +97,30 @@ pub(crate) fn read_table(
 pub(crate) fn open_method<'a>(
     cf: &timing_core::closed_form::ClosedForm,
     file: Option<&'a TableFile>,
+    pieces: Option<&'a host_tool::generate::pieces::PieceSet>,
     which: MethodArg,
 ) -> anyhow::Result<Box<dyn host_tool::check::verify::DelayMethod + 'a>> {
     Ok(match (which, file) {
         (MethodArg::Table, Some(f)) => Box::new(f.table()?),
         (MethodArg::Table, None) => anyhow::bail!("--method table needs --table <name>.bin"),
-        (MethodArg::ClosedFormF32, _) => Box::new(cf.fast_f32()?),
+        (MethodArg::ClosedFormF32, _) => match pieces {
+            Some(p) => Box::new(p.fast_f32()?),
+            None => anyhow::bail!("--method closed-form-f32 needs the design's fitted pieces"),
+        },
         (MethodArg::FixedPoint, _) => Box::new(cf.fixed_point()?),
         (MethodArg::LibmF32, _) => Box::new(cf.libm_f32()?),
+    })
+}
+
+/// The fast closed form's pieces, fitted to the design's exact model, when
+/// `which` is that method.
+pub(crate) fn method_pieces(
+    design: &host_tool::model::design::Design,
+    which: MethodArg,
+) -> anyhow::Result<Option<host_tool::generate::pieces::PieceSet>> {
+    Ok(match which {
+        MethodArg::ClosedFormF32 => Some(host_tool::generate::pieces::fit_design_pieces(design)?),
+        _ => None,
     })
 }
 
@@ -113,7 +129,8 @@ pub(crate) fn run_verify(args: &VerifyArgs) -> anyhow::Result<ExitCode> {
     let design = Design::load(&args.design)?;
     let cf = design.closed_form()?;
     let file = read_table(&design, args.table.as_deref(), args.method)?;
-    let method = open_method(&cf, file.as_ref(), args.method)?;
+    let pieces = method_pieces(&design, args.method)?;
+    let method = open_method(&cf, file.as_ref(), pieces.as_ref(), args.method)?;
     crate::args::check_cost(
         &format!(
             "verifying {} at {} code pairs",

@@ -75,7 +75,7 @@ impl<E: Entries + Sync> DelayMethod for DelayTable<E> {
     }
 }
 
-impl DelayMethod for FastF32 {
+impl DelayMethod for FastF32<'_> {
     fn name(&self) -> &'static str {
         "closed-form-f32"
     }

@@ -315,7 +315,7 @@ fn check_chunk(
         let mut worst = r.approx;
         for k in 0..n {
             if ok[k] && (!fixed || ch.zvs[k]) {
-                let e = (cmd.raw[k] - ch.nominal[k]).abs() + ch.eps[k];
+                let e = (cmd.raw[k] - ch.ticks[k]).abs() + ch.eps[k];
                 if worst.is_none_or(|(w, _)| e > w) {
                     worst = Some((e, ci(k)));
                 }

@@ -41,7 +41,8 @@ driver_delay = "25n"
 #[test]
 fn every_pair_of_the_range_is_checked() {
     let d = small();
-    let cf = d.closed_form().unwrap().fast_f32().unwrap();
+    let cf = d.closed_form().unwrap();
+    let cf = cf.fast_f32().unwrap();
     let r = verify(&d, &cf, None);
     assert_eq!(
         r.points_checked,
@@ -223,7 +224,8 @@ fn nothing_is_doubled_unless_every_method_doubles() {
     let gen = crate::generate::generate(&d).unwrap().table;
     let grid = gen.table().unwrap();
     assert!(!DelayMethod::same_at_doubled_codes(&grid));
-    let cf = d.closed_form().unwrap().fast_f32().unwrap();
+    let cf = d.closed_form().unwrap();
+    let cf = cf.fast_f32().unwrap();
     for m in [&grid as &dyn DelayMethod, &cf] {
         let r = verify(&d, m, None);
         assert_eq!(r.pairs_evaluated, r.pairs_in_range, "{}", m.name());
@@ -280,7 +282,8 @@ fn the_ratio_layouts_command_the_same_at_doubled_codes() {
 #[test]
 fn a_panicking_worker_fails_the_verification() {
     let d = small();
-    let cf = d.closed_form().unwrap().fast_f32().unwrap();
+    let cf = d.closed_form().unwrap();
+    let cf = cf.fast_f32().unwrap();
     let bad = d.vin_codes.lo + 7;
     let r = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
         verify_rows(
