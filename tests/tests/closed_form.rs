@@ -11,7 +11,7 @@
 
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)]
 
-use host_tool::check::verify::verify;
+use host_tool::check::verify::{verify, DelayMethod};
 use host_tool::generate::pieces::fit_design_pieces;
 use host_tool::model::design::Design;
 
@@ -198,22 +198,32 @@ fn fitted_pieces_keep_inside_every_window_a_tick_wide() {
     ];
     for d in &designs {
         let pieces = fit_design_pieces(d).unwrap();
-        let r = verify(d, &pieces.fast_f32().unwrap(), None);
-        let approx = r.max_approximation_error_ticks.unwrap();
-        println!(
-            "{}: {} pieces in {} bands: approximation {approx:.4} ticks, commanded {:.3} ticks, {} of {} ZVS pairs outside the window ({} a tick wide), {} of {} outside the robust window",
-            d.name, pieces.len(), pieces.bands(), r.max_error_ticks, r.outside_window, r.zvs_points,
-            r.outside_window_wide, r.outside_robust_window, r.robust_points
-        );
-        assert_eq!(r.points_checked, r.pairs_in_range, "{}", d.name);
-        assert!(approx <= 0.5, "{}: {approx}", d.name);
-        assert_eq!(r.outside_window_wide, 0, "{}", d.name);
-        assert_eq!(r.outside_robust_window, 0, "{}", d.name);
-        // With a fixed fallback the aim jumps at the ZVS boundary, where
-        // the windows are narrower than a tick: a reading the band's ZVS
-        // test puts on the other side of it gets the other side's delay.
-        if d.fallback == timing_core::table::Fallback::Valley {
-            assert!(r.max_error_ticks <= d.max_error_ticks, "{}", d.name);
+        let fast = pieces.fast_f32().unwrap();
+        let fixed = pieces.fixed_point().unwrap();
+        for m in [&fast as &dyn DelayMethod, &fixed] {
+            let r = verify(d, m, None);
+            let approx = r.max_approximation_error_ticks.unwrap();
+            println!(
+                "{}: {}: {} pieces in {} bands: approximation {approx:.4} ticks, commanded {:.3} ticks, {} of {} ZVS pairs outside the window ({} a tick wide), {} of {} outside the robust window",
+                d.name, r.method, pieces.len(), pieces.bands(), r.max_error_ticks, r.outside_window, r.zvs_points,
+                r.outside_window_wide, r.outside_robust_window, r.robust_points
+            );
+            assert_eq!(r.points_checked, r.pairs_in_range, "{}", d.name);
+            assert!(approx <= 0.5, "{}: {}: {approx}", d.name, r.method);
+            assert_eq!(r.outside_window_wide, 0, "{}: {}", d.name, r.method);
+            assert_eq!(r.outside_robust_window, 0, "{}: {}", d.name, r.method);
+            // With a fixed fallback the aim jumps at the ZVS boundary, where
+            // the windows are narrower than a tick: a reading the band's
+            // ZVS test puts on the other side of it gets the other side's
+            // delay.
+            if d.fallback == timing_core::table::Fallback::Valley {
+                assert!(
+                    r.max_error_ticks <= d.max_error_ticks,
+                    "{}: {}",
+                    d.name,
+                    r.method
+                );
+            }
         }
     }
     let _ = std::fs::remove_dir_all(dir);

@@ -36,10 +36,10 @@ pub mod fixed_point;
 pub mod libm_f32;
 pub mod pieces;
 
-pub use fast_f32::FastF32;
-pub use fixed_point::{FixedPoint, FixedPointParts};
+pub use fast_f32::{F32Piece, FastF32, FastF32Parts};
+pub use fixed_point::{FixedPiece, FixedPoint, FixedPointParts};
 pub use libm_f32::LibmF32;
-pub use pieces::{Band, Piece, PiecewiseParts};
+pub use pieces::{Band, PieceLayout};
 
 use crate::error::{positive, Error, Quantity};
 use crate::table::{Fallback, Lookup};
@@ -100,14 +100,16 @@ pub struct ClosedForm {
     position: f64,
     max_ticks: u32,
     fallback: Fallback,
-    /// The ideal cell as one piece (twice: one a band, as a range of more
-    /// than 2^15 voltage codes needs two bands of the widest shift).
-    ideal_pieces: [Piece; 2],
-    ideal_bands: [Band; 2],
+    /// The ideal cell as one piece a band (two bands for a range of more
+    /// than 2^15 voltage codes).
+    ideal_shift: u8,
+    ideal_bands: Result<[Band; 2], Error>,
+    ideal_f32: [F32Piece; 2],
+    ideal_fixed: Result<[FixedPiece; 2], Error>,
 }
 
-/// Bands of 2^15 codes: the whole range in one or two.
-const IDEAL_SHIFT: u8 = 15;
+/// Threshold list of one piece a band (not read).
+const IDEAL_ENDS: [u32; 2] = [u32::MAX; 2];
 
 impl ClosedForm {
     /// Validate the code scaling against the tank, timer and aim point.
@@ -170,17 +172,37 @@ impl ClosedForm {
         let ticks_per_rad =
             crate::error::derived(Quantity::MethodCoefficient, clock / tank.w0_rad_s())?;
         let lead_ticks = timer.lead_s() * clock;
-        let piece = Piece {
-            y_end: f32::INFINITY,
+        let piece = F32Piece {
             kx: kx as f32,
             ticks_per_rad: ticks_per_rad as f32,
             offset_ticks: (ticks_per_rad * (1.5 * core::f64::consts::PI) - lead_ticks) as f32,
             ticks_per_vin_code: 0.0,
         };
-        let band = |first| Band {
-            first,
-            zvs_y: (1.0 / kx) as f32,
-            zvs_y_per_code: 0.0,
+        let fixed = FixedPiece::new(kx, ticks_per_rad, -lead_ticks, 0.0).map(|p| [p; 2]);
+        // One band over the range (two past 2^15 codes); ZVS where J >= 1,
+        // i.e. at currents above kx * vin_code (in codes above the zero).
+        let span = s.vin.hi - s.vin.lo;
+        let ideal_shift = (16 - span.leading_zeros()).min(15) as u8;
+        let half = f64::from((1u32 << ideal_shift) >> 1);
+        let line = move |b: u16| -> Result<Band, Error> {
+            let centre = f64::from(s.vin.lo) + f64::from(b) * f64::from(1u32 << ideal_shift) + half;
+            let q8 = libm::round(kx * centre * 256.0);
+            let per_code = libm::round(kx * 65536.0);
+            if q8 > f64::from(1u32 << 30)
+                || per_code * f64::from(1u32 << ideal_shift) > f64::from(1u32 << 30)
+            {
+                return Err(Error::OutOfRange {
+                    quantity: Quantity::MethodCoefficient,
+                    value: kx,
+                    min: 0.0,
+                    max: f64::from(1u32 << 14) / f64::from(1u32 << ideal_shift),
+                });
+            }
+            Ok(Band {
+                first: b,
+                zvs_io_q8: q8 as i32,
+                zvs_io_q16_per_code: per_code as i32,
+            })
         };
         Ok(Self {
             scaling,
@@ -190,8 +212,23 @@ impl ClosedForm {
             position: position.get(),
             max_ticks: timer.max_ticks().get(),
             fallback,
-            ideal_pieces: [piece; 2],
-            ideal_bands: [band(0), band(1)],
+            ideal_shift,
+            ideal_bands: line(0).and_then(|b0| {
+                Ok([
+                    b0,
+                    if span >> ideal_shift > 0 {
+                        line(1)?
+                    } else {
+                        Band {
+                            first: 1,
+                            zvs_io_q8: 0,
+                            zvs_io_q16_per_code: 0,
+                        }
+                    },
+                ])
+            }),
+            ideal_f32: [piece; 2],
+            ideal_fixed: fixed,
         })
     }
 
@@ -240,32 +277,51 @@ impl ClosedForm {
         }
     }
 
-    /// The ideal cell as the pieces of [`FastF32`]: one piece a band.
+    /// The ideal cell's piece layout: one piece a band.
     #[must_use]
-    pub fn ideal_parts(&self) -> PiecewiseParts<'_> {
+    pub fn ideal_layout(&self) -> PieceLayout<'static> {
         let s = &self.scaling;
-        let n = usize::from((s.vin.hi.saturating_sub(s.vin.lo)) >> IDEAL_SHIFT) + 1;
-        let n = n.min(self.ideal_bands.len());
-        PiecewiseParts {
+        let n = usize::from((s.vin.hi.saturating_sub(s.vin.lo)) >> self.ideal_shift) + 1;
+        PieceLayout {
             vin: s.vin,
             io: s.io,
             io_zero: s.io_zero,
-            band_shift: IDEAL_SHIFT,
-            bands: self.ideal_bands.get(..n).unwrap_or(&[]),
-            pieces: self.ideal_pieces.get(..n).unwrap_or(&[]),
+            band_shift: self.ideal_shift,
+            ratio_bits: 0,
+            bands: &[],
+            ends: IDEAL_ENDS.get(..n).unwrap_or(&[]),
+        }
+    }
+
+    /// The ideal cell as the coefficients of [`FastF32`]: one piece a band.
+    ///
+    /// # Errors
+    /// [`Error::OutOfRange`] naming [`Quantity::MethodCoefficient`] when
+    /// the ZVS line `J = 1` does not fit its fixed-point format (`kx`
+    /// beyond `2^14` over the band's width in codes).
+    pub fn ideal_parts(&self) -> Result<FastF32Parts<'_>, Error> {
+        let bands = self.ideal_bands.as_ref().map_err(|e| *e)?;
+        let layout = self.ideal_layout();
+        let n = layout.ends.len();
+        Ok(FastF32Parts {
+            layout: PieceLayout {
+                bands: bands.get(..n).unwrap_or(&[]),
+                ..layout
+            },
+            pieces: self.ideal_f32.get(..n).unwrap_or(&[]),
             position: self.position as f32,
             max_ticks: self.max_ticks,
             fallback: self.fallback,
-        }
+        })
     }
 
     /// The f32 method with fast approximations, on the ideal cell (one
     /// piece; the host tool fits the pieces that follow a real tank).
     ///
     /// # Errors
-    /// As [`FastF32::from_parts`].
+    /// As [`ClosedForm::ideal_parts`] and [`FastF32::from_parts`].
     pub fn fast_f32(&self) -> Result<FastF32<'_>, Error> {
-        FastF32::from_parts(self.ideal_parts())
+        FastF32::from_parts(self.ideal_parts()?)
     }
 
     /// The libm f32 baseline.
@@ -276,30 +332,27 @@ impl ClosedForm {
         LibmF32::from_parts(self.f32_parts())
     }
 
-    /// The integer method.
+    /// The integer method on the ideal cell (one piece a band).
     ///
     /// # Errors
     /// As [`FixedPoint::from_parts`], and [`Error::OutOfRange`] naming
     /// [`Quantity::MethodCoefficient`] when a coefficient does not fit its
     /// fixed-point format.
-    pub fn fixed_point(&self) -> Result<FixedPoint, Error> {
-        FixedPoint::from_parts(fixed_point::parts(self)?)
-    }
-
-    pub(crate) fn lead_ticks(&self) -> f64 {
-        self.lead_ticks
-    }
-
-    pub(crate) fn position(&self) -> f64 {
-        self.position
-    }
-
-    pub(crate) fn max_ticks(&self) -> u32 {
-        self.max_ticks
-    }
-
-    pub(crate) fn fallback(&self) -> Fallback {
-        self.fallback
+    pub fn fixed_point(&self) -> Result<FixedPoint<'_>, Error> {
+        let pieces = self.ideal_fixed.as_ref().map_err(|e| *e)?;
+        let bands = self.ideal_bands.as_ref().map_err(|e| *e)?;
+        let layout = self.ideal_layout();
+        let n = layout.ends.len();
+        FixedPoint::from_parts(FixedPointParts {
+            layout: PieceLayout {
+                bands: bands.get(..n).unwrap_or(&[]),
+                ..layout
+            },
+            pieces: pieces.get(..n).unwrap_or(&[]),
+            position_q15: libm::round(self.position * 32768.0) as u16,
+            max_ticks: self.max_ticks,
+            fallback: self.fallback,
+        })
     }
 }
 

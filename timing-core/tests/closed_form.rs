@@ -5,7 +5,8 @@
 
 use proptest::prelude::*;
 use timing_core::closed_form::{
-    Band, ClosedForm, CodeScaling, FastF32, FixedPoint, Piece, PiecewiseParts,
+    Band, ClosedForm, CodeScaling, F32Piece, FastF32, FastF32Parts, FixedPoint, FixedPointParts,
+    PieceLayout,
 };
 use timing_core::table::Fallback;
 use timing_core::{
@@ -174,24 +175,27 @@ fn the_fixed_point_method_names_the_load_it_cannot_reach() {
 #[test]
 fn bad_coefficients_are_refused_in_const_construction() {
     let cf = demo(demo_scaling()).unwrap();
-    let good = cf.ideal_parts();
+    let good = cf.ideal_parts().unwrap();
     let piece = good.pieces[0];
-    let bad_piece = [Piece {
+    let bad_piece = [F32Piece {
         kx: f32::NAN,
         ..piece
     }];
-    let bad = PiecewiseParts {
+    let bad = FastF32Parts {
         pieces: &bad_piece,
         ..good
     };
-    assert!(matches!(
-        FastF32::from_parts(bad),
-        Err(Error::OutOfRange {
-            quantity: Quantity::MethodCoefficient,
-            ..
-        })
-    ));
-    let bad = PiecewiseParts {
+    let coefficient = |r: Result<FastF32<'_>, Error>| {
+        matches!(
+            r,
+            Err(Error::OutOfRange {
+                quantity: Quantity::MethodCoefficient,
+                ..
+            })
+        )
+    };
+    assert!(coefficient(FastF32::from_parts(bad)));
+    let bad = FastF32Parts {
         position: 1.5,
         ..good
     };
@@ -202,87 +206,76 @@ fn bad_coefficients_are_refused_in_const_construction() {
             ..
         })
     ));
-    // Bands that do not match the range and shift, pieces out of order,
-    // a band without pieces.
-    let bands = [good.bands[0]; 2];
+    // Bands that do not match the range and shift, a list of thresholds
+    // of another length than the pieces', thresholds out of order.
+    let l = good.layout;
+    let bands = [l.bands[0]; 2];
+    let unordered = [300_000u32, 200_000, u32::MAX];
+    let three = [piece; 3];
     for bad in [
-        PiecewiseParts {
-            band_shift: 8,
+        FastF32Parts {
+            layout: PieceLayout { band_shift: 8, ..l },
             ..good
         },
-        PiecewiseParts {
-            bands: &bands,
+        FastF32Parts {
+            layout: PieceLayout { bands: &bands, ..l },
             ..good
         },
-        PiecewiseParts {
+        FastF32Parts {
             pieces: &[],
             ..good
         },
+        FastF32Parts {
+            layout: PieceLayout {
+                ends: &unordered,
+                ratio_bits: 16,
+                ..l
+            },
+            pieces: &three,
+            ..good
+        },
     ] {
-        assert!(
-            matches!(
-                FastF32::from_parts(bad),
-                Err(Error::OutOfRange {
-                    quantity: Quantity::MethodCoefficient,
-                    ..
-                })
-            ),
-            "{bad:?}"
-        );
+        assert!(coefficient(FastF32::from_parts(bad)), "{bad:?}");
     }
-    let unordered = [
-        Piece {
-            y_end: 3.0,
-            ..piece
-        },
-        Piece {
-            y_end: 2.0,
-            ..piece
-        },
-    ];
-    assert!(FastF32::from_parts(PiecewiseParts {
-        pieces: &unordered,
-        ..good
-    })
-    .is_err());
     let fx = cf.fixed_point().unwrap();
-    let mut parts = *fx.parts();
-    parts.k_mant = 3;
+    let mut bad_fixed = [fx.parts().pieces[0]];
+    bad_fixed[0].k_mant = 3;
+    let parts = FixedPointParts {
+        pieces: &bad_fixed,
+        ..*fx.parts()
+    };
     assert!(FixedPoint::from_parts(parts).is_err());
     // A const item validates at compile time: two bands of 1024 codes, the
-    // second with two pieces.
-    const fn stand_in(y_end: f32, offset_ticks: f32) -> Piece {
-        Piece {
-            y_end,
+    // second with two pieces split at the code ratio 2.5.
+    const fn stand_in(offset_ticks: f32) -> F32Piece {
+        F32Piece {
             kx: 0.272,
             ticks_per_rad: 14.0,
             offset_ticks,
             ticks_per_vin_code: 0.0,
         }
     }
-    const PIECES: [Piece; 3] = [
-        stand_in(f32::INFINITY, 61.7),
-        stand_in(2.5, 61.7),
-        stand_in(f32::INFINITY, 62.7),
-    ];
-    const BANDS: [Band; 2] = [
+    const PIECES: [F32Piece; 3] = [stand_in(61.7), stand_in(61.7), stand_in(62.7)];
+    const ENDS: [u32; 3] = [u32::MAX, 5 << 15, u32::MAX];
+    // J = 1 at io = 0.272 * vin (codes): Q8 at the band's centre, Q16 slope.
+    const fn line(first: u16, centre: i32) -> Band {
         Band {
-            first: 0,
-            zvs_y: 3.67,
-            zvs_y_per_code: 0.0,
+            first,
+            zvs_io_q8: 272 * centre * 256 / 1000,
+            zvs_io_q16_per_code: 272 * 65536 / 1000,
+        }
+    }
+    const BANDS: [Band; 2] = [line(0, 2237 + 512), line(1, 2237 + 1536)];
+    const PARTS: FastF32Parts<'static> = FastF32Parts {
+        layout: PieceLayout {
+            vin: CodeRange { lo: 2237, hi: 3726 },
+            io: CodeRange { lo: 205, hi: 2049 },
+            io_zero: 0,
+            band_shift: 10,
+            ratio_bits: 16,
+            bands: &BANDS,
+            ends: &ENDS,
         },
-        Band {
-            first: 1,
-            zvs_y: 3.67,
-            zvs_y_per_code: 0.0,
-        },
-    ];
-    const PARTS: PiecewiseParts<'static> = PiecewiseParts {
-        vin: CodeRange { lo: 2237, hi: 3726 },
-        io: CodeRange { lo: 205, hi: 2049 },
-        io_zero: 0,
-        band_shift: 10,
-        bands: &BANDS,
         pieces: &PIECES,
         position: 0.25,
         max_ticks: 65535,
@@ -292,26 +285,37 @@ fn bad_coefficients_are_refused_in_const_construction() {
         Ok(m) => m,
         Err(_) => panic!("valid parts"),
     };
-    // 48 V, 6 A: the second band (codes from 3261), ratio 2.43 < 2.5: its
-    // first piece, the same as the first band's stand-in; ratio 2.6: the
-    // next piece, one tick later.
-    let (a, zvs_a) = FAST.raw_ticks(AdcCode::new(2981), AdcCode::new(1229));
-    let (b, _) = FAST.raw_ticks(AdcCode::new(3300), AdcCode::new(1358));
-    let (c, zvs_c) = FAST.raw_ticks(AdcCode::new(3300), AdcCode::new(1269));
-    let one = PiecewiseParts {
-        band_shift: 15,
-        bands: &BANDS[..1],
+    // 48 V, 6 A: the first band; the second band (codes from 3261) at
+    // ratio 2.43 < 2.5: its first piece, the same stand-in; at ratio 2.6:
+    // the next piece, one tick later.
+    let one = FastF32Parts {
+        layout: PieceLayout {
+            band_shift: 11,
+            bands: &BANDS[..1],
+            ends: &ENDS[..1],
+            ..PARTS.layout
+        },
         pieces: &PIECES[..1],
         ..PARTS
     };
     let one = FastF32::from_parts(one).unwrap();
+    let at = |m: &FastF32<'_>, v: u16, i: u16| m.raw_ticks(AdcCode::new(v), AdcCode::new(i));
+    let (a, zvs_a) = at(&FAST, 2981, 1229);
+    let (c, zvs_c) = at(&FAST, 3300, 1269);
     assert!(zvs_a && zvs_c);
-    assert_eq!(a, one.raw_ticks(AdcCode::new(2981), AdcCode::new(1229)).0);
-    assert_eq!(b, one.raw_ticks(AdcCode::new(3300), AdcCode::new(1358)).0);
-    let (c1, _) = one.raw_ticks(AdcCode::new(3300), AdcCode::new(1269));
+    assert_eq!(a, at(&one, 2981, 1229).0);
+    assert_eq!(at(&FAST, 3300, 1358).0, at(&one, 3300, 1358).0);
+    let c1 = at(&one, 3300, 1269).0;
     assert!((c - c1 - 1.0).abs() < 1e-4, "{c} vs {c1}");
-    // The ZVS test is the band's line, not the stand-in's own boundary.
+    assert_eq!(
+        FAST.parts()
+            .layout
+            .piece_at(AdcCode::new(3300), AdcCode::new(1269)),
+        2
+    );
+    // The ZVS test is the band's line: 60 V at 4.9 A is below J = 1.
     assert!(!FAST.delay(AdcCode::new(3726), AdcCode::new(1000)).zvs);
+    assert!(FAST.delay(AdcCode::new(3726), AdcCode::new(1020)).zvs);
 }
 
 #[test]

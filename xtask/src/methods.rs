@@ -93,7 +93,11 @@ fn proofs(design_path: &Path) -> Result<BTreeMap<(String, String), VerifyReport>
         &pieces.fast_f32().map_err(|e| e.to_string())?,
         None,
     );
-    let fixed = verify(&design, &cf.fixed_point().map_err(|e| e.to_string())?, None);
+    let fixed = verify(
+        &design,
+        &pieces.fixed_point().map_err(|e| e.to_string())?,
+        None,
+    );
     let libm = verify(&design, &cf.libm_f32().map_err(|e| e.to_string())?, None);
     for (core, _) in CORES {
         for r in [&fast, &fixed, &libm] {

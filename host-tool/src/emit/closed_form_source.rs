@@ -5,9 +5,11 @@
 
 use std::fmt::Write as _;
 
-use timing_core::closed_form::{Band, F32Parts, FixedPointParts, Piece, PiecewiseParts};
+use timing_core::closed_form::{F32Parts, FastF32Parts, FixedPointParts, PieceLayout};
 use timing_core::table::Fallback;
 use timing_core::CodeRange;
+
+use timing_core::closed_form::{FastF32, FixedPoint};
 
 use crate::check::verify::{verify_all, DelayMethod, VerifyReport};
 use crate::generate::pieces::{fit_design_pieces, PieceSet};
@@ -43,75 +45,85 @@ fn f32_parts(p: &F32Parts) -> String {
     )
 }
 
-fn piece(p: &Piece) -> String {
-    format!(
-        "    Piece {{\n        y_end: {},\n        kx: {},\n        ticks_per_rad: {},\n        offset_ticks: {},\n        ticks_per_vin_code: {},\n    }},",
-        f32_lit(p.y_end),
-        f32_lit(p.kx),
-        f32_lit(p.ticks_per_rad),
-        f32_lit(p.offset_ticks),
-        f32_lit(p.ticks_per_vin_code),
-    )
+fn list<T>(items: &[T], one: impl Fn(&T) -> String) -> String {
+    items.iter().map(|x| format!("    {},\n", one(x))).collect()
 }
 
-fn band(b: &Band) -> String {
-    format!(
-        "    Band {{\n        first: {},\n        zvs_y: {},\n        zvs_y_per_code: {},\n    }},",
-        b.first,
-        f32_lit(b.zvs_y),
-        f32_lit(b.zvs_y_per_code),
-    )
-}
-
-/// The pieces, the bands and the parts that borrow them, as `const` items.
-fn piecewise_items(p: &PiecewiseParts<'_>) -> String {
+/// The layout's bands and thresholds and the two methods' pieces and
+/// parts, as `const` items.
+fn piece_items(
+    layout: &PieceLayout<'_>,
+    fast: Option<&FastF32Parts<'_>>,
+    fixed: Option<&FixedPointParts<'_>>,
+) -> String {
     let mut s = String::new();
     let _ = writeln!(
         s,
-        "/// The f32 method's pieces: ideal-cell stand-ins fitted to the exact model, band after band.\npub const PIECES: [Piece; {}] = [",
-        p.pieces.len()
+        "/// Voltage bands of {} codes from code {}: where each band's pieces start, and its ZVS line.\npub const BANDS: [Band; {}] = [\n{}];\n",
+        1u32 << layout.band_shift,
+        layout.vin.lo,
+        layout.bands.len(),
+        list(layout.bands, |b| format!(
+            "Band {{ first: {}, zvs_io_q8: {}, zvs_io_q16_per_code: {} }}",
+            b.first, b.zvs_io_q8, b.zvs_io_q16_per_code
+        ))
     );
-    for q in p.pieces {
-        let _ = writeln!(s, "{}", piece(q));
-    }
     let _ = writeln!(
         s,
-        "];\n\n/// The f32 method's voltage bands ({} codes each) and their ZVS tests.\npub const BANDS: [Band; {}] = [",
-        1u32 << p.band_shift,
-        p.bands.len()
+        "/// Each piece serves code ratios vin/(io - zero) below its entry / 2^{} (a band's last: every ratio).\npub const ENDS: [u32; {}] = [\n{}];\n",
+        layout.ratio_bits,
+        layout.ends.len(),
+        list(layout.ends, |e| format!("{e:#010x}"))
     );
-    for b in p.bands {
-        let _ = writeln!(s, "{}", band(b));
-    }
     let _ = writeln!(
         s,
-        "];\n\n/// Coefficients of the fast f32 method.\npub const PIECEWISE_PARTS: PiecewiseParts<'static> = PiecewiseParts {{\n    vin: {},\n    io: {},\n    io_zero: {},\n    band_shift: {},\n    bands: &BANDS,\n    pieces: &PIECES,\n    position: {},\n    max_ticks: {},\n    fallback: {},\n}};\n",
-        range(p.vin),
-        range(p.io),
-        p.io_zero,
-        p.band_shift,
-        f32_lit(p.position),
-        p.max_ticks,
-        fallback(p.fallback)
+        "/// Which piece serves each code pair.\npub const LAYOUT: PieceLayout<'static> = PieceLayout {{\n    vin: {},\n    io: {},\n    io_zero: {},\n    band_shift: {},\n    ratio_bits: {},\n    bands: &BANDS,\n    ends: &ENDS,\n}};\n",
+        range(layout.vin),
+        range(layout.io),
+        layout.io_zero,
+        layout.band_shift,
+        layout.ratio_bits
     );
+    if let Some(p) = fast {
+        let _ = writeln!(
+            s,
+            "/// The f32 method's stand-ins, fitted to the exact model.\npub const F32_PIECES: [F32Piece; {}] = [\n{}];\n",
+            p.pieces.len(),
+            list(p.pieces, |q| format!(
+                "F32Piece {{ kx: {}, ticks_per_rad: {}, offset_ticks: {}, ticks_per_vin_code: {} }}",
+                f32_lit(q.kx),
+                f32_lit(q.ticks_per_rad),
+                f32_lit(q.offset_ticks),
+                f32_lit(q.ticks_per_vin_code)
+            ))
+        );
+        let _ = writeln!(
+            s,
+            "/// Coefficients of the fast f32 method.\npub const FAST_F32_PARTS: FastF32Parts<'static> = FastF32Parts {{\n    layout: LAYOUT,\n    pieces: &F32_PIECES,\n    position: {},\n    max_ticks: {},\n    fallback: {},\n}};\n",
+            f32_lit(p.position),
+            p.max_ticks,
+            fallback(p.fallback)
+        );
+    }
+    if let Some(p) = fixed {
+        let _ = writeln!(
+            s,
+            "/// The integer method's stand-ins: the same, in integers.\npub const FIXED_PIECES: [FixedPiece; {}] = [\n{}];\n",
+            p.pieces.len(),
+            list(p.pieces, |q| format!(
+                "FixedPiece {{ k_mant: {}, k_shift: {}, t_mant: {}, t_shift: {}, offset_q8: {}, q16_per_vin_code: {} }}",
+                q.k_mant, q.k_shift, q.t_mant, q.t_shift, q.offset_q8, q.q16_per_vin_code
+            ))
+        );
+        let _ = writeln!(
+            s,
+            "/// Coefficients of the integer method.\npub const FIXED_POINT_PARTS: FixedPointParts<'static> = FixedPointParts {{\n    layout: LAYOUT,\n    pieces: &FIXED_PIECES,\n    position_q15: {},\n    max_ticks: {},\n    fallback: {},\n}};\n",
+            p.position_q15,
+            p.max_ticks,
+            fallback(p.fallback)
+        );
+    }
     s
-}
-
-fn fixed_parts(p: &FixedPointParts) -> String {
-    format!(
-        "FixedPointParts {{\n    vin: {},\n    io: {},\n    io_zero: {},\n    k_mant: {},\n    k_shift: {},\n    t_mant: {},\n    t_shift: {},\n    position_q15: {},\n    lead_q8: {},\n    max_ticks: {},\n    fallback: {},\n}}",
-        range(p.vin),
-        range(p.io),
-        p.io_zero,
-        p.k_mant,
-        p.k_shift,
-        p.t_mant,
-        p.t_shift,
-        p.position_q15,
-        p.lead_q8,
-        p.max_ticks,
-        fallback(p.fallback)
-    )
 }
 
 fn proof_line(s: &mut String, v: &VerifyReport) {
@@ -156,7 +168,7 @@ pub fn closed_form_source_with(
 ) -> Result<String, timing_core::Error> {
     let cf = design.closed_form()?;
     let fast = pieces.fast_f32();
-    let fixed = cf.fixed_point();
+    let fixed = pieces.fixed_point();
     let libm = cf.libm_f32();
     let mut s = String::new();
     let _ = writeln!(
@@ -214,10 +226,14 @@ pub fn closed_form_source_with(
     );
     let _ = writeln!(
         s,
-        "#[allow(unused_imports)]\nuse timing_core::closed_form::{{Band, F32Parts, FastF32, FixedPoint, FixedPointParts, LibmF32, Piece, PiecewiseParts}};\n#[allow(unused_imports)]\nuse timing_core::table::Fallback;\n#[allow(unused_imports)]\nuse timing_core::{{CodeRange, Ticks}};\n"
+        "#[allow(unused_imports)]\nuse timing_core::closed_form::{{Band, F32Parts, F32Piece, FastF32, FastF32Parts, FixedPiece, FixedPoint, FixedPointParts, LibmF32, PieceLayout}};\n#[allow(unused_imports)]\nuse timing_core::table::Fallback;\n#[allow(unused_imports)]\nuse timing_core::{{CodeRange, Ticks}};\n"
     );
-    if let Ok(m) = &fast {
-        s.push_str(&piecewise_items(m.parts()));
+    if fast.is_ok() || fixed.is_ok() {
+        s.push_str(&piece_items(
+            &pieces.layout(),
+            fast.as_ref().ok().map(FastF32::parts),
+            fixed.as_ref().ok().map(FixedPoint::parts),
+        ));
     }
     if let Ok(m) = &libm {
         let _ = writeln!(
@@ -226,28 +242,17 @@ pub fn closed_form_source_with(
             f32_parts(m.parts()).replacen("F32Parts {", "F32Parts = F32Parts {", 1)
         );
     }
-    if let Ok(m) = &fixed {
-        let _ = writeln!(
-            s,
-            "/// Coefficients of the integer method.\npub const FIXED_POINT_PARTS: {};\n",
-            fixed_parts(m.parts()).replacen(
-                "FixedPointParts {",
-                "FixedPointParts = FixedPointParts {",
-                1
-            )
-        );
-    }
     for (ok, name, ty, parts) in [
         (
             fast.is_ok(),
             "FAST_F32",
             "FastF32<'static>",
-            "PIECEWISE_PARTS",
+            "FAST_F32_PARTS",
         ),
         (
             fixed.is_ok(),
             "FIXED_POINT",
-            "FixedPoint",
+            "FixedPoint<'static>",
             "FIXED_POINT_PARTS",
         ),
         (libm.is_ok(), "LIBM_F32", "LibmF32", "F32_PARTS"),
@@ -255,9 +260,10 @@ pub fn closed_form_source_with(
         if !ok {
             continue;
         }
+        let path = ty.split('<').next().unwrap_or(ty);
         let _ = writeln!(
             s,
-            "/// The validated method (validated at compile time).\npub const {name}: {ty} = match {ty}::from_parts({parts}) {{\n    Ok(m) => m,\n    Err(_) => panic!(\"generated coefficients of `{}` fail timing-core's validation\"),\n}};\n",
+            "/// The validated method (validated at compile time).\npub const {name}: {ty} = match {path}::from_parts({parts}) {{\n    Ok(m) => m,\n    Err(_) => panic!(\"generated coefficients of `{}` fail timing-core's validation\"),\n}};\n",
             design.name
         );
     }

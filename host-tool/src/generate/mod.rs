@@ -474,7 +474,7 @@ fn accept(
     // code pairs (the exact model runs once per pair for all of them).
     let cf = design.closed_form().ok();
     let fast = pieces.and_then(|p| p.fast_f32().ok());
-    let fixed = cf.as_ref().and_then(|c| c.fixed_point().ok());
+    let fixed = pieces.and_then(|p| p.fixed_point().ok());
     let libm = cf.as_ref().and_then(|c| c.libm_f32().ok());
     let mut methods: Vec<&dyn crate::check::verify::DelayMethod> = vec![&table];
     if let Some(m) = &fast {

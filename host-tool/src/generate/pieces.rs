@@ -29,14 +29,22 @@
 //! [`MIN_BAND_SHIFT`]); the last attempt is kept and `zvs-timing verify`
 //! reports what it misses.
 //!
-//! The ZVS test of each band is the line through the model's boundary at
-//! the band's first and last voltage codes (found by bisection on the
-//! current), in the ratio `y`.
+//! Cuts fall on the thresholds timing-core tests in integers (the code
+//! ratio in `ratio_bits` fractional bits), and the pairs are assigned by
+//! that same test, so the runtime picks the piece each pair was fitted in.
+//! The fixed-point pieces are the same stand-ins rounded to their integer
+//! formats, each offset centred again for the rounded constants.
+//!
+//! The ZVS test of each band is the line through the model's boundary
+//! current at the band's first and last voltage codes (found by
+//! bisection).
 
-use timing_core::closed_form::{Band, FastF32, Piece, PiecewiseParts};
+use timing_core::closed_form::{
+    Band, F32Piece, FastF32, FastF32Parts, FixedPiece, FixedPoint, FixedPointParts, PieceLayout,
+};
 use timing_core::normalized::turn_on_angle;
 use timing_core::table::Fallback;
-use timing_core::CodeRange;
+use timing_core::{AdcCode, CodeRange};
 
 use crate::generate::fit::Requirements;
 use crate::model::design::Design;
@@ -63,17 +71,20 @@ pub const MIN_BAND_SHIFT: u8 = 4;
 /// Every `SAMPLE`th pair of a run starts the cutting-plane search.
 const SAMPLE: usize = 32;
 
-/// The fitted pieces of a design, owned; [`PieceSet::fast_f32`] borrows
-/// them as timing-core's method.
+/// The fitted pieces of a design, owned; [`PieceSet::fast_f32`] and
+/// [`PieceSet::fixed_point`] borrow them as timing-core's methods.
 #[derive(Debug, Clone, PartialEq)]
 pub struct PieceSet {
     vin: CodeRange,
     io: CodeRange,
     io_zero: u16,
     band_shift: u8,
+    ratio_bits: u8,
     bands: Vec<Band>,
-    pieces: Vec<Piece>,
-    position: f32,
+    ends: Vec<u32>,
+    f32_pieces: Vec<F32Piece>,
+    fixed_pieces: Result<Vec<FixedPiece>, timing_core::Error>,
+    position: f64,
     max_ticks: u32,
     fallback: Fallback,
     /// Least room left inside a piece's intervals, ticks (negative: some
@@ -82,20 +93,45 @@ pub struct PieceSet {
 }
 
 impl PieceSet {
-    /// The coefficients as timing-core takes them.
+    /// Which piece serves each code pair.
     #[must_use]
-    pub fn parts(&self) -> PiecewiseParts<'_> {
-        PiecewiseParts {
+    pub fn layout(&self) -> PieceLayout<'_> {
+        PieceLayout {
             vin: self.vin,
             io: self.io,
             io_zero: self.io_zero,
             band_shift: self.band_shift,
+            ratio_bits: self.ratio_bits,
             bands: &self.bands,
-            pieces: &self.pieces,
-            position: self.position,
+            ends: &self.ends,
+        }
+    }
+
+    /// The f32 method's coefficients.
+    #[must_use]
+    pub fn f32_parts(&self) -> FastF32Parts<'_> {
+        FastF32Parts {
+            layout: self.layout(),
+            pieces: &self.f32_pieces,
+            position: self.position as f32,
             max_ticks: self.max_ticks,
             fallback: self.fallback,
         }
+    }
+
+    /// The integer method's coefficients.
+    ///
+    /// # Errors
+    /// A stand-in its integer formats cannot hold.
+    pub fn fixed_parts(&self) -> Result<FixedPointParts<'_>, timing_core::Error> {
+        let pieces = self.fixed_pieces.as_ref().map_err(|e| *e)?;
+        Ok(FixedPointParts {
+            layout: self.layout(),
+            pieces,
+            position_q15: (self.position * 32768.0).round() as u16,
+            max_ticks: self.max_ticks,
+            fallback: self.fallback,
+        })
     }
 
     /// timing-core's fast f32 method on these pieces.
@@ -104,19 +140,29 @@ impl PieceSet {
     /// timing-core's refusal of the coefficients (not expected: they are
     /// built finite and in order).
     pub fn fast_f32(&self) -> Result<FastF32<'_>, timing_core::Error> {
-        FastF32::from_parts(self.parts())
+        FastF32::from_parts(self.f32_parts())
+    }
+
+    /// timing-core's integer method on these pieces.
+    ///
+    /// # Errors
+    /// A stand-in its integer formats cannot hold, or an intermediate that
+    /// would leave 32 bits somewhere in the design range (timing-core's
+    /// refusal names it).
+    pub fn fixed_point(&self) -> Result<FixedPoint<'_>, timing_core::Error> {
+        FixedPoint::from_parts(self.fixed_parts()?)
     }
 
     /// Number of pieces over all bands.
     #[must_use]
     pub fn len(&self) -> usize {
-        self.pieces.len()
+        self.f32_pieces.len()
     }
 
     /// Whether there are no pieces (never, for a fitted set).
     #[must_use]
     pub fn is_empty(&self) -> bool {
-        self.pieces.is_empty()
+        self.f32_pieces.is_empty()
     }
 
     /// Number of voltage bands.
@@ -129,7 +175,10 @@ impl PieceSet {
 /// One pair as the fit sees it.
 #[derive(Debug, Clone, Copy)]
 struct Pair {
-    /// Code ratio, as the firmware computes it in f32.
+    /// Voltage code and current code less the zero.
+    v: u16,
+    i: u16,
+    /// Code ratio, as the f32 firmware computes it.
     y: f64,
     /// Voltage codes from the band's centre.
     dv: f64,
@@ -164,6 +213,21 @@ impl StandIn {
                 (r - p.lo).min(p.hi - r)
             })
             .fold(f64::INFINITY, f64::min)
+    }
+
+    /// The offset centred in the room the pairs leave the other
+    /// constants.
+    fn centred(self, pairs: &[Pair], position: f64) -> Self {
+        let (mut f, mut g) = (f64::NEG_INFINITY, f64::INFINITY);
+        for p in pairs {
+            let e = self.raw(p, position) - self.off;
+            f = f.max(p.lo - e);
+            g = g.min(p.hi - e);
+        }
+        Self {
+            off: if f <= g { 0.5 * (f + g) } else { self.off },
+            ..self
+        }
     }
 
     fn rounded(self) -> Self {
@@ -281,37 +345,57 @@ fn fit_run(pairs: &[Pair], s: Start) -> (StandIn, f64) {
 struct Run {
     start: usize,
     end: usize,
+    /// The ratio threshold at its end, `ratio_bits` fractional bits
+    /// (`u32::MAX` for the band's last run).
+    end_q: u32,
     fit: StandIn,
     slack: f64,
 }
 
+/// Whether pair `p`'s ratio is at or above the threshold `t`, as
+/// timing-core tests it.
+fn at_or_above(p: &Pair, t: u32, bits: u8) -> bool {
+    (u32::from(p.v) << bits) >= t.wrapping_mul(u32::from(p.i))
+}
+
+/// Where to cut `pairs` (sorted by ratio) near their middle: the threshold
+/// and the first pair at or above it, `None` when all share one quantum.
+fn cut(pairs: &[Pair], bits: u8) -> Option<(u32, usize)> {
+    let mid = pairs.get(pairs.len() / 2)?;
+    let y = f64::from(mid.v) / f64::from(mid.i);
+    let t = (y * f64::from(1u32 << bits)).ceil() as u32;
+    for t in [t, t + 1] {
+        let k = pairs.partition_point(|p| !at_or_above(p, t, bits));
+        if k > 0 && k < pairs.len() {
+            return Some((t, k));
+        }
+    }
+    None
+}
+
 /// The pieces of one band's sorted pairs.
-fn fit_band(pairs: &[Pair], s: Start) -> Vec<Run> {
-    let mut todo = vec![(0, pairs.len())];
+fn fit_band(pairs: &[Pair], s: Start, bits: u8) -> Vec<Run> {
+    let mut todo = vec![(0, pairs.len(), u32::MAX)];
     let mut done: Vec<Run> = Vec::new();
-    while let Some((start, end)) = todo.pop() {
+    while let Some((start, end, end_q)) = todo.pop() {
         let (fit, slack) = fit_run(&pairs[start..end], s);
         let run = Run {
             start,
             end,
+            end_q,
             fit,
             slack,
         };
-        if slack >= TARGET_SLACK_TICKS || end - start <= MIN_RUN {
-            done.push(run);
-            continue;
+        let at = (slack < TARGET_SLACK_TICKS && end - start > MIN_RUN)
+            .then(|| cut(&pairs[start..end], bits))
+            .flatten();
+        match at {
+            Some((t, k)) => {
+                todo.push((start + k, end, end_q));
+                todo.push((start, start + k, t));
+            }
+            None => done.push(run),
         }
-        // Cut in the middle, never between pairs of the same ratio.
-        let mut mid = (start + end) / 2;
-        while mid < end && pairs[mid].y == pairs[mid - 1].y {
-            mid += 1;
-        }
-        if mid == end {
-            done.push(run);
-            continue;
-        }
-        todo.push((mid, end));
-        todo.push((start, mid));
     }
     done.sort_by_key(|r| r.start);
     // Merge neighbours while the merged piece keeps the room.
@@ -323,6 +407,7 @@ fn fit_band(pairs: &[Pair], s: Start) -> Vec<Run> {
             done[k] = Run {
                 start: a.start,
                 end: b.end,
+                end_q: b.end_q,
                 fit,
                 slack,
             };
@@ -349,6 +434,20 @@ pub fn fit_design_pieces(design: &Design) -> Result<PieceSet, timing_core::Error
     fit_pieces(design, &model)
 }
 
+/// Fractional bits of the ratio thresholds: as many as keep
+/// `vin_code << bits` and every threshold times a current code inside 32
+/// bits (at most 16).
+fn ratio_bits(design: &Design) -> u8 {
+    let (vv, iv) = (design.vin_codes, design.io_codes);
+    let i_max = f64::from(iv.hi - design.io_zero_code);
+    let y_max = f64::from(vv.hi) / f64::from(iv.lo - design.io_zero_code);
+    let mut bits = 16u8.min(u32::from(vv.hi).leading_zeros() as u8);
+    while bits > 0 && (y_max + 1.0) * f64::from(1u32 << bits) * i_max >= 4_294_967_295.0 {
+        bits -= 1;
+    }
+    bits
+}
+
 /// The fitted pieces of `design` from `model`. Runs on all cores.
 ///
 /// # Errors
@@ -356,26 +455,34 @@ pub fn fit_design_pieces(design: &Design) -> Result<PieceSet, timing_core::Error
 /// expected for a validated design).
 pub fn fit_pieces(design: &Design, model: &ExactModel<'_>) -> Result<PieceSet, timing_core::Error> {
     let cf = design.closed_form()?;
-    let ideal = cf.ideal_parts();
     let (vv, iv) = (design.vin_codes, design.io_codes);
     let span = vv.hi - vv.lo;
     let widest = (16 - span.leading_zeros()).min(15) as u8;
+    let bits = ratio_bits(design);
+    let position = design.position.get();
     let start = Start {
         kx: cf.kx(),
         tpr: cf.ticks_per_rad(),
-        position: design.position.get(),
+        position,
     };
+    let zero = design.io_zero_code;
     let attempt = |shift: u8| -> PieceSet {
         let bands = boundary_bands(design, model, shift);
         let fixed = matches!(design.fallback, Fallback::Fixed(_));
-        let zvs = |cv: u16, ci: u16| {
-            let (b, dv) = band_of(vv, shift, cv);
-            let y = f64::from(f32::from(cv) / f32::from(ci - design.io_zero_code));
-            bands
-                .get(b)
-                .is_some_and(|band| (y as f32) < band.zvs_y + band.zvs_y_per_code * dv as f32)
+        // The ZVS test as timing-core runs it (the thresholds do not
+        // matter for it).
+        let probe = PieceLayout {
+            vin: vv,
+            io: iv,
+            io_zero: zero,
+            band_shift: shift,
+            ratio_bits: bits,
+            bands: &bands,
+            ends: &[],
         };
-        let req = Requirements::new(design, model, &|cv, ci| !fixed || zvs(cv, ci));
+        let req = Requirements::new(design, model, &|cv, ci| {
+            !fixed || probe.expects_zvs(AdcCode::new(cv), AdcCode::new(ci))
+        });
         let per_band = crate::par::map_rows(bands.len(), |b| {
             let first = vv.lo + ((b as u16) << shift);
             let last = first.saturating_add((1u16 << shift) - 1).min(vv.hi);
@@ -389,8 +496,11 @@ pub fn fit_pieces(design: &Design, model: &ExactModel<'_>) -> Result<PieceSet, t
                         q.hi.min(q.aim + AIM_BAND_TICKS),
                     );
                     let (lo, hi) = if lo < hi { (lo, hi) } else { (q.lo, q.hi) };
+                    let i = q.io - zero;
                     Pair {
-                        y: f64::from(f32::from(q.vin) / f32::from(q.io - design.io_zero_code)),
+                        v: q.vin,
+                        i,
+                        y: f64::from(f32::from(q.vin) / f32::from(i)),
                         dv: band_of(vv, shift, q.vin).1,
                         lo,
                         hi,
@@ -398,50 +508,73 @@ pub fn fit_pieces(design: &Design, model: &ExactModel<'_>) -> Result<PieceSet, t
                     }
                 })
                 .collect();
-            pairs.sort_by(|a, b| a.y.total_cmp(&b.y));
+            pairs.sort_by(|a, b| {
+                (u64::from(a.v) * u64::from(b.i)).cmp(&(u64::from(b.v) * u64::from(a.i)))
+            });
             if pairs.is_empty() {
                 return Vec::new();
             }
-            let runs = fit_band(&pairs, start);
-            let n = runs.len();
-            runs.iter()
-                .enumerate()
-                .map(|(k, r)| {
-                    let y_end = if k + 1 < n {
-                        pairs[r.end].y as f32
-                    } else {
-                        f32::INFINITY
-                    };
-                    (piece(r.fit, y_end), r.slack)
+            fit_band(&pairs, start, bits)
+                .into_iter()
+                .map(|r| {
+                    let run = &pairs[r.start..r.end];
+                    let fixed =
+                        FixedPiece::new(r.fit.kx, r.fit.tpr, r.fit.off, r.fit.c).and_then(|p| {
+                            let q = StandIn {
+                                kx: p.kx(),
+                                tpr: p.ticks_per_rad(),
+                                off: r.fit.off,
+                                c: p.ticks_per_vin_code(),
+                            }
+                            .centred(run, position);
+                            FixedPiece::new(q.kx, q.tpr, q.off, q.c)
+                        });
+                    (r, f32_piece(r.fit), fixed)
                 })
                 .collect::<Vec<_>>()
         });
         let mut set_bands = Vec::with_capacity(bands.len());
-        let mut pieces = Vec::new();
+        let (mut ends, mut f32_pieces, mut fixed_pieces) = (Vec::new(), Vec::new(), Ok(Vec::new()));
         let mut least = f64::INFINITY;
         for (band, runs) in bands.iter().zip(per_band) {
             set_bands.push(Band {
-                first: pieces.len() as u16,
+                first: ends.len() as u16,
                 ..*band
             });
             if runs.is_empty() {
                 // No pair to serve (all sent to a fixed fallback): the
                 // ideal stand-in.
-                pieces.extend(ideal.pieces.first().copied());
+                let ideal = StandIn {
+                    kx: start.kx,
+                    tpr: start.tpr,
+                    off: -design.timer.lead_s() * design.timer.clock_hz(),
+                    c: 0.0,
+                };
+                ends.push(u32::MAX);
+                f32_pieces.push(f32_piece(ideal));
+                push_fixed(
+                    &mut fixed_pieces,
+                    FixedPiece::new(ideal.kx, ideal.tpr, ideal.off, 0.0),
+                );
             }
-            for (p, slack) in runs {
-                least = least.min(slack);
-                pieces.push(p);
+            for (run, f, x) in runs {
+                least = least.min(run.slack);
+                ends.push(run.end_q);
+                f32_pieces.push(f);
+                push_fixed(&mut fixed_pieces, x);
             }
         }
         PieceSet {
             vin: vv,
             io: iv,
-            io_zero: design.io_zero_code,
+            io_zero: zero,
             band_shift: shift,
+            ratio_bits: bits,
             bands: set_bands,
-            pieces,
-            position: design.position.get() as f32,
+            ends,
+            f32_pieces,
+            fixed_pieces,
+            position,
             max_ticks: design.timer.max_ticks().get(),
             fallback: design.fallback,
             least_slack_ticks: least,
@@ -459,15 +592,26 @@ pub fn fit_pieces(design: &Design, model: &ExactModel<'_>) -> Result<PieceSet, t
     Ok(best)
 }
 
+fn push_fixed(
+    list: &mut Result<Vec<FixedPiece>, timing_core::Error>,
+    p: Result<FixedPiece, timing_core::Error>,
+) {
+    if let Ok(l) = list {
+        match p {
+            Ok(p) => l.push(p),
+            Err(e) => *list = Err(e),
+        }
+    }
+}
+
 /// Stop halving the bands once the pieces outgrow what timing-core can
 /// index.
 fn too_big(set: &PieceSet) -> bool {
-    set.pieces.len() > usize::from(u16::MAX) / 2
+    set.f32_pieces.len() > usize::from(u16::MAX) / 2
 }
 
-fn piece(s: StandIn, y_end: f32) -> Piece {
-    Piece {
-        y_end,
+fn f32_piece(s: StandIn) -> F32Piece {
+    F32Piece {
         kx: s.kx as f32,
         ticks_per_rad: s.tpr as f32,
         offset_ticks: (s.off + s.tpr * 1.5 * std::f64::consts::PI) as f32,
@@ -486,14 +630,16 @@ fn band_of(vv: CodeRange, shift: u8, cv: u16) -> (usize, f64) {
 }
 
 /// The bands of `shift` with their ZVS tests (`first` left 0): the line
-/// through the model's boundary at each band's first and last code.
+/// through the model's boundary current at each band's first and last
+/// code.
 fn boundary_bands(design: &Design, model: &ExactModel<'_>, shift: u8) -> Vec<Band> {
     let vv = design.vin_codes;
     let n = usize::from((vv.hi - vv.lo) >> shift) + 1;
     let top = 4.0 * f64::from(design.io_codes.hi - design.io_zero_code);
-    // The boundary's ratio at voltage code `cv`: never-ZVS as 0, always
-    // as a ratio above every reading's.
-    let ratio = |cv: u16| -> f64 {
+    const FAR: f64 = (1u32 << 29) as f64;
+    // The boundary's current (codes above the zero) at voltage code `cv`:
+    // never-ZVS far above every reading, always-ZVS far below.
+    let boundary = |cv: u16| -> f64 {
         let vin = design.vin_of(cv);
         let zvs = |ci: f64| {
             model
@@ -502,10 +648,10 @@ fn boundary_bands(design: &Design, model: &ExactModel<'_>, shift: u8) -> Vec<Ban
         };
         let (mut lo, mut hi) = (0.5, top);
         if zvs(lo) {
-            return f64::from(f32::MAX) / 4.0;
+            return -FAR / 256.0;
         }
         if !zvs(hi) {
-            return 0.0;
+            return FAR / 256.0;
         }
         while hi - lo > 0.01 {
             let mid = 0.5 * (lo + hi);
@@ -515,22 +661,31 @@ fn boundary_bands(design: &Design, model: &ExactModel<'_>, shift: u8) -> Vec<Ban
                 lo = mid;
             }
         }
-        f64::from(cv) / hi
+        hi
     };
     crate::par::map_rows(n, |b| {
         let first = vv.lo + ((b as u16) << shift);
         let last = first.saturating_add((1u16 << shift) - 1).min(vv.hi);
-        let (y0, y1) = (ratio(first), ratio(last));
+        let (i0, i1) = (boundary(first), boundary(last));
         let (d0, d1) = (band_of(vv, shift, first).1, band_of(vv, shift, last).1);
-        let slope = if last > first && y0 > 0.0 && y1 > 0.0 {
-            (y1 - y0) / (d1 - d0)
+        let inside = |i: f64| i.abs() < FAR / 512.0;
+        let slope = if last > first && inside(i0) && inside(i1) {
+            (i1 - i0) / (d1 - d0)
         } else {
             0.0
         };
+        // At most 2^30 over the band's reach (timing-core's bound).
+        let reach = f64::from(1u32 << shift);
+        let slope_q16 = (slope * 65536.0)
+            .round()
+            .clamp(-FAR * 2.0 / reach, FAR * 2.0 / reach);
+        let centre_q8 = ((i0 - slope * d0) * 256.0)
+            .round()
+            .clamp(-FAR * 2.0, FAR * 2.0);
         Band {
             first: 0,
-            zvs_y: (y0 - slope * d0) as f32,
-            zvs_y_per_code: slope as f32,
+            zvs_io_q8: centre_q8 as i32,
+            zvs_io_q16_per_code: slope_q16 as i32,
         }
     })
 }

@@ -1,75 +1,123 @@
 //! The closed form in f32 with fast approximations, piece by piece
-//! ([`PiecewiseParts`]): the root by [`rsqrt_f32`], the arcsine by the
-//! [`asin_factor_f32`] polynomial, no library call. Every operation is an
-//! IEEE single-precision add, multiply or divide (two divides), so the
-//! host's exhaustive proof of its error holds on the target bit for bit;
-//! the firmware example's ISR-COST lines give its cost.
+//! ([`PieceLayout`]): the root by [`rsqrt_f32`], the arcsine by the
+//! [`asin_factor_f32`] polynomial, no library call. Every float operation
+//! is an IEEE single-precision add, multiply or divide (two divides), and
+//! the piece is picked in integers, so the host's exhaustive proof of its
+//! error holds on the target bit for bit; the firmware example's ISR-COST
+//! lines give its cost.
 
-use super::pieces::{Piece, PiecewiseParts};
+use super::pieces::PieceLayout;
 use super::round_ticks;
 use crate::approx::asin_f32::asin_factor_f32;
 use crate::approx::rsqrt_f32::rsqrt_f32;
+use crate::error::{Error, Quantity};
 use crate::table::{Fallback, Lookup};
-use crate::{AdcCode, Error, Ticks};
+use crate::{AdcCode, Ticks};
+
+/// One stand-in of [`FastF32`]: the ideal closed form with its own
+/// constants.
+#[derive(Debug, Clone, Copy, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[cfg_attr(feature = "serde", derive(serde::Serialize))]
+pub struct F32Piece {
+    /// `x = 1/J = kx * y` (`y` the code ratio), dimensionless.
+    pub kx: f32,
+    /// Timer ticks per radian of the stand-in's resonance.
+    pub ticks_per_rad: f32,
+    /// Ticks at `x = 0` at the band's centre voltage code: the stand-in's
+    /// `3*pi/2` angle times `ticks_per_rad`, less the driver's lead, plus
+    /// the fitted shift.
+    pub offset_ticks: f32,
+    /// Ticks per voltage code away from the band's centre.
+    pub ticks_per_vin_code: f32,
+}
+
+/// The coefficients of [`FastF32`].
+#[derive(Debug, Clone, Copy, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[cfg_attr(feature = "serde", derive(serde::Serialize))]
+pub struct FastF32Parts<'a> {
+    /// Which piece serves each code pair.
+    pub layout: PieceLayout<'a>,
+    /// The pieces, one per entry of `layout.ends`.
+    pub pieces: &'a [F32Piece],
+    /// Aim point in each stand-in's ZVS window, 0..=1.
+    pub position: f32,
+    /// Largest count the timer holds.
+    pub max_ticks: u32,
+    /// What to command where ZVS is not expected.
+    pub fallback: Fallback,
+}
+
+const fn coefficient(value: f32) -> Error {
+    Error::OutOfRange {
+        quantity: Quantity::MethodCoefficient,
+        value: value as f64,
+        min: -(f32::MAX as f64),
+        max: f32::MAX as f64,
+    }
+}
+
+impl FastF32Parts<'_> {
+    /// Check the coefficients (usable in `const` items).
+    ///
+    /// # Errors
+    /// As [`PieceLayout::check`]; [`Error::OutOfRange`] naming
+    /// [`Quantity::WindowPosition`] for a position outside 0..=1 and
+    /// [`Quantity::MethodCoefficient`] for a coefficient that is not finite
+    /// (`kx` and `ticks_per_rad` must also be positive).
+    pub const fn check(&self) -> Result<(), Error> {
+        if let Err(e) = self.layout.check(self.pieces.len()) {
+            return Err(e);
+        }
+        if !(self.position >= 0.0 && self.position <= 1.0) {
+            return Err(Error::OutOfRange {
+                quantity: Quantity::WindowPosition,
+                value: self.position as f64,
+                min: 0.0,
+                max: 1.0,
+            });
+        }
+        let mut rest = self.pieces;
+        while let [p, more @ ..] = rest {
+            if !(p.kx.is_finite() && p.kx > 0.0) {
+                return Err(coefficient(p.kx));
+            }
+            if !(p.ticks_per_rad.is_finite() && p.ticks_per_rad > 0.0) {
+                return Err(coefficient(p.ticks_per_rad));
+            }
+            if !(p.offset_ticks.is_finite() && p.ticks_per_vin_code.is_finite()) {
+                return Err(coefficient(p.offset_ticks));
+            }
+            rest = more;
+        }
+        Ok(())
+    }
+}
 
 /// The f32 closed form with fast approximations (validated coefficients).
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct FastF32<'a> {
-    parts: PiecewiseParts<'a>,
-    /// Half a band, codes: the band's centre from its first code.
-    half_band: i32,
+    parts: FastF32Parts<'a>,
 }
 
 impl<'a> FastF32<'a> {
     /// Validate the coefficients (usable in `const` items).
     ///
     /// # Errors
-    /// As [`PiecewiseParts::check`].
-    pub const fn from_parts(parts: PiecewiseParts<'a>) -> Result<Self, Error> {
+    /// As [`FastF32Parts::check`].
+    pub const fn from_parts(parts: FastF32Parts<'a>) -> Result<Self, Error> {
         match parts.check() {
-            Ok(()) => Ok(Self {
-                parts,
-                half_band: (1i32 << parts.band_shift) >> 1,
-            }),
+            Ok(()) => Ok(Self { parts }),
             Err(e) => Err(e),
         }
     }
 
     /// The coefficients.
     #[must_use]
-    pub const fn parts(&self) -> &PiecewiseParts<'a> {
+    pub const fn parts(&self) -> &FastF32Parts<'a> {
         &self.parts
-    }
-
-    /// The delay before rounding, ticks, and whether ZVS is expected.
-    #[inline]
-    fn eval(&self, vin: AdcCode, io: AdcCode) -> (f32, bool) {
-        let p = &self.parts;
-        let v = p.vin.clamp(vin);
-        let i = p.io.clamp(io).wrapping_sub(p.io_zero);
-        let from_lo = v.wrapping_sub(p.vin.lo);
-        let b = usize::from(from_lo >> p.band_shift);
-        let dv = (i32::from(from_lo) - ((b as i32) << p.band_shift) - self.half_band) as f32;
-        let y = f32::from(v) / f32::from(i);
-        // Validation makes every band and its pieces exist; the fallbacks
-        // below keep the interrupt path free of panics all the same.
-        let Some(band) = p.bands.get(b) else {
-            return (0.0, false);
-        };
-        let end = p
-            .bands
-            .get(b + 1)
-            .map_or(p.pieces.len(), |n| usize::from(n.first));
-        let Some(run) = p.pieces.get(usize::from(band.first)..end) else {
-            return (0.0, false);
-        };
-        let k = run.partition_point(|q| y >= q.y_end);
-        let Some(piece) = run.get(k).or(run.last()) else {
-            return (0.0, false);
-        };
-        let zvs = y < band.zvs_y + band.zvs_y_per_code * dv;
-        (ticks(piece, y, dv, p.position), zvs)
     }
 
     /// The delay before rounding, ticks, and whether ZVS is expected at
@@ -78,14 +126,22 @@ impl<'a> FastF32<'a> {
     #[inline]
     #[must_use]
     pub fn raw_ticks(&self, vin: AdcCode, io: AdcCode) -> (f32, bool) {
-        self.eval(vin, io)
+        let p = &self.parts;
+        let s = p.layout.select(vin, io);
+        // Validation gives every index a piece; the fallback keeps the
+        // interrupt path free of panics all the same.
+        let Some(piece) = p.pieces.get(s.index) else {
+            return (0.0, false);
+        };
+        let y = f32::from(s.v) / f32::from(s.i);
+        (ticks(piece, y, s.dv as f32, p.position), s.zvs)
     }
 
     /// The delay to command: the nearest tick, clamped to the counter;
     /// where ZVS is not expected, the fixed fallback if the design has one.
     #[inline]
     pub fn delay(&self, vin: AdcCode, io: AdcCode) -> Lookup {
-        let (raw, zvs) = self.eval(vin, io);
+        let (raw, zvs) = self.raw_ticks(vin, io);
         let ticks = match self.parts.fallback {
             Fallback::Fixed(t) if !zvs => t,
             _ => Ticks::new(round_ticks(raw, self.parts.max_ticks)),
@@ -99,7 +155,7 @@ impl<'a> FastF32<'a> {
 /// `x + 3pi/2 + sqrt(1 - x) * (p*J*sqrt(1 + x) - P(x))`, else the valley's
 /// `x + 3pi/2`.
 #[inline]
-fn ticks(piece: &Piece, y: f32, dv: f32, position: f32) -> f32 {
+fn ticks(piece: &F32Piece, y: f32, dv: f32, position: f32) -> f32 {
     let x = piece.kx * y;
     let base = x * piece.ticks_per_rad + piece.offset_ticks + piece.ticks_per_vin_code * dv;
     if x <= 1.0 {

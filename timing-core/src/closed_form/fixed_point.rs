@@ -13,11 +13,12 @@
 //! every intermediate within 32 bits are checked once by
 //! [`FixedPoint::from_parts`], at the corners of the design range.
 //!
-//! Unlike the f32 methods, the result is rounded to the nearest tick
-//! without moving it into the window (as the tables do): where the window
-//! is under two ticks wide, the nearest tick can fall outside it.
+//! Piece by piece ([`PieceLayout`]), picked by the same integer test as
+//! the f32 method's. The result is rounded to the nearest tick (as the
+//! tables do); the host tool fits the pieces so that the rounded tick
+//! lands inside every window a tick wide.
 
-use super::ClosedForm;
+use super::pieces::PieceLayout;
 use crate::approx::asin_q::ASIN_FACTOR_Q17;
 use crate::approx::mul_shr::mul_shr;
 use crate::approx::recip_q::{recip_q15_normalised, recip_q23};
@@ -26,25 +27,19 @@ use crate::approx::sqrt_q::sqrt_q24;
 use crate::error::{Error, Quantity};
 use crate::table::log2::{floor_log2, floor_log2_byte};
 use crate::table::{Fallback, Lookup};
-use crate::{AdcCode, CodeRange, Ticks};
+use crate::{AdcCode, Ticks};
 
 /// 3*pi/2 in Q16.
 const THREE_HALF_PI_Q16: u32 = 308_831;
 /// 1.0 in Q24.
 const ONE_Q24: u32 = 1 << 24;
 
-/// The integer coefficients. Built by [`ClosedForm::fixed_point`];
-/// generated firmware sources write them out for `const` construction.
+/// One stand-in of [`FixedPoint`] in integers: the ideal closed form with
+/// its own constants.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 #[cfg_attr(feature = "serde", derive(serde::Serialize))]
-pub struct FixedPointParts {
-    /// Input-voltage code range.
-    pub vin: CodeRange,
-    /// Output-current code range.
-    pub io: CodeRange,
-    /// Current code that reads 0 A.
-    pub io_zero: u16,
+pub struct FixedPiece {
     /// `kx = k_mant * 2^-k_shift` (`k_mant` in [2^31, 2^32): 32 bits, as a
     /// relative error of 2^-16 in x would cost a few thousandths of a
     /// radian near the ZVS boundary).
@@ -55,25 +50,90 @@ pub struct FixedPointParts {
     pub t_mant: u16,
     /// See `t_mant`.
     pub t_shift: u8,
-    /// Aim point in the ZVS window, Q15 (0..=32768).
+    /// Ticks added to the angle's, Q8, at the band's centre voltage code
+    /// (the driver's lead taken off and the fitted shift).
+    pub offset_q8: i32,
+    /// Ticks per voltage code away from the band's centre, Q16.
+    pub q16_per_vin_code: i32,
+}
+
+impl FixedPiece {
+    /// The piece of a stand-in: `x = kx * y`, `ticks_per_rad`, the offset
+    /// (ticks, without the `3*pi/2` angle) and the voltage slope (ticks per
+    /// code), rounded to their formats.
+    ///
+    /// # Errors
+    /// [`Error::OutOfRange`] naming [`Quantity::MethodCoefficient`] for a
+    /// coefficient its format cannot hold.
+    pub fn new(
+        kx: f64,
+        ticks_per_rad: f64,
+        offset_ticks: f64,
+        ticks_per_vin_code: f64,
+    ) -> Result<Self, Error> {
+        let (k_mant, k_shift) = normalise(kx, 32)?;
+        let (t_mant, t_shift) = normalise(ticks_per_rad, 16)?;
+        let q8 = libm::round(offset_ticks * 256.0);
+        if q8.is_nan() || q8.abs() >= f64::from(1u32 << 30) {
+            return Err(range_error(offset_ticks, f64::from(1u32 << 22)));
+        }
+        let q16 = libm::round(ticks_per_vin_code * 65536.0);
+        if q16.is_nan() || q16.abs() >= f64::from(1u32 << 30) {
+            return Err(range_error(ticks_per_vin_code, f64::from(1u32 << 14)));
+        }
+        Ok(Self {
+            k_mant,
+            k_shift,
+            t_mant: t_mant as u16,
+            t_shift,
+            offset_q8: q8 as i32,
+            q16_per_vin_code: q16 as i32,
+        })
+    }
+
+    /// `kx`, as the integers hold it.
+    #[must_use]
+    pub fn kx(&self) -> f64 {
+        f64::from(self.k_mant) * libm::exp2(-f64::from(self.k_shift))
+    }
+
+    /// Ticks per radian, as the integers hold it.
+    #[must_use]
+    pub fn ticks_per_rad(&self) -> f64 {
+        f64::from(self.t_mant) * libm::exp2(-f64::from(self.t_shift))
+    }
+
+    /// Ticks per voltage code, as the integers hold it.
+    #[must_use]
+    pub fn ticks_per_vin_code(&self) -> f64 {
+        f64::from(self.q16_per_vin_code) / 65536.0
+    }
+}
+
+/// The coefficients of [`FixedPoint`].
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[cfg_attr(feature = "serde", derive(serde::Serialize))]
+pub struct FixedPointParts<'a> {
+    /// Which piece serves each code pair.
+    pub layout: PieceLayout<'a>,
+    /// The pieces, one per entry of `layout.ends`.
+    pub pieces: &'a [FixedPiece],
+    /// Aim point in each stand-in's ZVS window, Q15 (0..=32768).
     pub position_q15: u16,
-    /// The driver's net turn-on lead, ticks in Q8.
-    pub lead_q8: i32,
     /// Largest count the timer holds.
     pub max_ticks: u32,
-    /// What to command where ZVS is impossible.
+    /// What to command where ZVS is not expected.
     pub fallback: Fallback,
 }
 
 /// The integer closed form (validated coefficients).
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub struct FixedPoint {
-    parts: FixedPointParts,
+pub struct FixedPoint<'a> {
+    parts: FixedPointParts<'a>,
     /// `G(x)` in Q15, lowest order first (degree 5).
     g: [i32; 6],
-    out_right: u32,
-    out_left: u32,
 }
 
 /// Mantissa in [2^(bits-1), 2^bits) and shift of a positive value:
@@ -99,36 +159,6 @@ fn normalise(v: f64, bits: i32) -> Result<(u32, u8), Error> {
         return Err(bad);
     }
     Ok((m as u32, s as u8))
-}
-
-/// The integer coefficients of a validated design.
-pub(crate) fn parts(cf: &ClosedForm) -> Result<FixedPointParts, Error> {
-    let s = cf.scaling();
-    let (k_mant, k_shift) = normalise(cf.kx(), 32)?;
-    let (t_mant, t_shift) = normalise(cf.ticks_per_rad(), 16)?;
-    let t_mant = t_mant as u16;
-    let lead_q8 = libm::round(cf.lead_ticks() * 256.0);
-    if lead_q8.abs() >= f64::from(1u32 << 30) {
-        return Err(Error::OutOfRange {
-            quantity: Quantity::DelayTicks,
-            value: cf.lead_ticks(),
-            min: -f64::from(1u32 << 22),
-            max: f64::from(1u32 << 22),
-        });
-    }
-    Ok(FixedPointParts {
-        vin: s.vin,
-        io: s.io,
-        io_zero: s.io_zero,
-        k_mant,
-        k_shift,
-        t_mant,
-        t_shift,
-        position_q15: libm::round(cf.position() * 32768.0) as u16,
-        lead_q8: lead_q8 as i32,
-        max_ticks: cf.max_ticks(),
-        fallback: cf.fallback(),
-    })
 }
 
 const fn range_error(value: f64, max: f64) -> Error {
@@ -164,124 +194,99 @@ const fn g_coefficients(p15: u16) -> [i32; 6] {
     ]
 }
 
-impl FixedPoint {
-    /// Validate the coefficients (usable in `const` items): code ranges,
-    /// normalised mantissas, and the 32-bit bounds of every intermediate at
-    /// the corners of the design range (`x` in Q24 below 2^30, J below 63
-    /// wherever ZVS is possible, the Q8 result below 2^30).
+impl<'a> FixedPoint<'a> {
+    /// Validate the coefficients (usable in `const` items): the layout,
+    /// normalised mantissas, and the 32-bit bounds of every intermediate
+    /// of every piece at the corners of the design range (`x` in Q24 below
+    /// 2^30, J below 63 wherever ZVS is possible, the Q8 result below
+    /// 2^30).
     ///
     /// # Errors
-    /// [`Error::OutOfRange`] naming [`Quantity::AdcCode`],
+    /// As [`PieceLayout::check`]; [`Error::OutOfRange`] naming
     /// [`Quantity::NormalizedLoad`], [`Quantity::MethodCoefficient`] (the
     /// value is the offending bound) or [`Quantity::WindowPosition`].
-    pub const fn from_parts(parts: FixedPointParts) -> Result<Self, Error> {
-        let p = &parts;
-        if let Err(e) = super::check_codes(&p.vin, &p.io, p.io_zero) {
+    pub const fn from_parts(parts: FixedPointParts<'a>) -> Result<Self, Error> {
+        let l = &parts.layout;
+        if let Err(e) = l.check(parts.pieces.len()) {
             return Err(e);
         }
-        if p.k_mant < 1 << 31 || p.t_mant < 1 << 15 || p.t_shift > 31 {
-            return Err(range_error(p.k_mant as f64, u32::MAX as f64));
-        }
-        if p.position_q15 > 1 << 15 {
+        if parts.position_q15 > 1 << 15 {
             return Err(Error::OutOfRange {
                 quantity: Quantity::WindowPosition,
-                value: p.position_q15 as f64 / 32768.0,
+                value: parts.position_q15 as f64 / 32768.0,
                 min: 0.0,
                 max: 1.0,
             });
         }
-        // The shift of x after the k product, k_shift + e - 40, within 31
-        // either way over the current range.
-        let e_min = floor_log2((p.io.lo - p.io_zero) as u32) as i32;
-        let e_max = floor_log2((p.io.hi - p.io_zero) as u32) as i32;
-        let k = p.k_shift as i32;
-        if k + e_max - 40 > 31 || 40 - k - e_min > 31 {
-            return Err(range_error(p.k_shift as f64, 63.0));
+        let e_min = floor_log2((l.io.lo - l.io_zero) as u32) as i32;
+        let e_max = floor_log2((l.io.hi - l.io_zero) as u32) as i32;
+        let reach = 1i64 << l.band_shift;
+        let mut rest = parts.pieces;
+        while let [p, more @ ..] = rest {
+            if p.k_mant < 1 << 31 || p.t_mant < 1 << 15 || p.t_shift > 31 {
+                return Err(range_error(p.k_mant as f64, u32::MAX as f64));
+            }
+            // The shift of x after the k product, k_shift + e - 40, within
+            // 31 either way over the current range.
+            let k = p.k_shift as i32;
+            if k + e_max - 40 > 31 || 40 - k - e_min > 31 {
+                return Err(range_error(p.k_shift as f64, 63.0));
+            }
+            let x_max = x_q24(p, l.vin.hi as u32, (l.io.lo - l.io_zero) as u32);
+            let x_min = x_q24(p, l.vin.lo as u32, (l.io.hi - l.io_zero) as u32);
+            if x_max >= 1 << 30 {
+                return Err(range_error(x_max as f64 / 16_777_216.0, 64.0));
+            }
+            // J = 1/x in Q10 must fit 16 bits wherever ZVS is possible: J
+            // below 63 (x in Q24 at least 266,306, above 2^18).
+            if x_min < 266_306 {
+                return Err(Error::OutOfRange {
+                    quantity: Quantity::NormalizedLoad,
+                    value: 16_777_216.0 / x_min as f64,
+                    min: 0.0,
+                    max: 63.0,
+                });
+            }
+            // The largest angle: the larger of the valley at x_max and the
+            // ZVS branch bound (|sqrt(1-x) G(x) / x| < 1.6 * 63 rad).
+            let big = if x_max > ONE_Q24 { x_max >> 8 } else { 1 << 16 };
+            let theta_max = big + THREE_HALF_PI_Q16 + (101 << 16);
+            let r8 = scale_q8(p, theta_max) as i64;
+            let slope = ((p.q16_per_vin_code as i64).abs() * reach) >> 8;
+            if r8 + slope + (p.offset_q8 as i64).abs() >= 1 << 30
+                || (p.q16_per_vin_code as i64).abs() >= 1 << 30
+            {
+                return Err(range_error(r8 as f64 / 256.0, (1u32 << 22) as f64));
+            }
+            rest = more;
         }
-        let (out_right, out_left) = if p.t_shift >= 8 {
-            (p.t_shift as u32 - 8, 0)
-        } else {
-            (0, 8 - p.t_shift as u32)
-        };
-        let me = Self {
+        Ok(Self {
             parts,
-            g: g_coefficients(p.position_q15),
-            out_right,
-            out_left,
-        };
-        let x_max = me.x_q24(p.vin.hi as u32, (p.io.lo - p.io_zero) as u32);
-        let x_min = me.x_q24(p.vin.lo as u32, (p.io.hi - p.io_zero) as u32);
-        if x_max >= 1 << 30 {
-            return Err(range_error(x_max as f64 / 16_777_216.0, 64.0));
-        }
-        // J = 1/x in Q10 must fit 16 bits wherever ZVS is possible: J below
-        // 63 (x in Q24 at least 266,306, above 2^18; larger x_min leave the
-        // whole range to the valley or to J below 63).
-        if x_min < 266_306 {
-            return Err(Error::OutOfRange {
-                quantity: Quantity::NormalizedLoad,
-                value: 16_777_216.0 / x_min as f64,
-                min: 0.0,
-                max: 63.0,
-            });
-        }
-        // The largest angle: the larger of the valley at x_max and the ZVS
-        // branch bound (|sqrt(1-x) G(x) / x| < 1.6 * 63 rad).
-        let big = if x_max > ONE_Q24 { x_max >> 8 } else { 1 << 16 };
-        let theta_max = big + THREE_HALF_PI_Q16 + (101 << 16);
-        let r8 = (mul_shr(theta_max, p.t_mant, 16) >> out_right) as u64;
-        if r8 << out_left >= 1 << 30 {
-            return Err(range_error(
-                (r8 << out_left) as f64 / 256.0,
-                (1u32 << 22) as f64,
-            ));
-        }
-        if p.lead_q8 >= 1 << 30 || p.lead_q8 <= -(1 << 30) {
-            return Err(range_error(p.lead_q8 as f64 / 256.0, (1u32 << 22) as f64));
-        }
-        Ok(me)
+            g: g_coefficients(parts.position_q15),
+        })
     }
 
     /// The coefficients.
     #[must_use]
-    pub const fn parts(&self) -> &FixedPointParts {
+    pub const fn parts(&self) -> &FixedPointParts<'a> {
         &self.parts
     }
 
-    /// `x = 1/J` in Q24 at clamped codes (`i` already less the zero).
-    #[inline]
-    const fn x_q24(&self, v: u32, i: u32) -> u32 {
-        let p = &self.parts;
-        // 1/i = y / 2^s; a = v*y / 2^8 (below 2^32 for 16-bit codes).
-        let (y, s) = recip_q23(i);
-        let a = mul_shr(y, v as u16, 8);
-        // m = k_mant * a / 2^32 (within 2 units) by the two 16-bit halves of
-        // k_mant: the low half's share is below 2^16, so 16 bits of `a`
-        // suffice for it.
-        let m = mul_shr(a, (p.k_mant >> 16) as u16, 16)
-            .wrapping_add(((a >> 16).wrapping_mul(p.k_mant & 0xffff)) >> 16);
-        // x * 2^24 = m * 2^(64 - k_shift - s).
-        let sh = (p.k_shift as i32).wrapping_add(s as i32).wrapping_sub(64);
-        if sh >= 0 {
-            m.wrapping_shr(sh as u32)
-        } else {
-            m.wrapping_shl(sh.wrapping_neg() as u32)
-        }
-    }
-
     /// The delay before rounding, ticks in Q8 (`ticks * 256`), and whether
-    /// the point is ZVS-capable (x <= 1). Integer-only; never panics.
+    /// ZVS is expected. Integer-only; never panics.
     #[inline]
     #[must_use]
     pub fn raw_ticks_q8(&self, vin: AdcCode, io: AdcCode) -> (i32, bool) {
-        let p = &self.parts;
-        let v = u32::from(p.vin.clamp(vin));
-        let i = u32::from(p.io.clamp(io).wrapping_sub(p.io_zero));
-        let x24 = self.x_q24(v, i);
+        let s = self.parts.layout.select(vin, io);
+        // Validation gives every index a piece; the fallback keeps the
+        // interrupt path free of panics all the same.
+        let Some(p) = self.parts.pieces.get(s.index) else {
+            return (0, false);
+        };
+        let x24 = x_q24(p, u32::from(s.v), u32::from(s.i));
         let x = x24 >> 8;
         let mut theta = x.wrapping_add(THREE_HALF_PI_Q16);
-        let zvs = x24 <= ONE_Q24;
-        if zvs {
+        if x24 <= ONE_Q24 {
             // sqrt(1 - x) in Q15.
             let r = sqrt_q24(ONE_Q24.wrapping_sub(x24)) as i32;
             // J = 2^24 / x24 in Q10 (2^18 <= x24 <= 2^24 here: J < 63,
@@ -310,12 +315,16 @@ impl FixedPoint {
                 theta.wrapping_add(m)
             };
         }
-        let r8 = (mul_shr(theta, p.t_mant, 16) >> self.out_right) << self.out_left;
-        ((r8 as i32).wrapping_sub(p.lead_q8), zvs)
+        let slope = p.q16_per_vin_code.wrapping_mul(s.dv) >> 8;
+        let r8 = (scale_q8(p, theta) as i32)
+            .wrapping_add(p.offset_q8)
+            .wrapping_add(slope);
+        (r8, s.zvs)
     }
 
     /// The delay to command, rounded to the nearest tick and clamped to the
-    /// counter, with the fallback below the ZVS boundary.
+    /// counter; where ZVS is not expected, the fixed fallback if the design
+    /// has one.
     #[inline]
     pub fn delay(&self, vin: AdcCode, io: AdcCode) -> Lookup {
         let (raw, zvs) = self.raw_ticks_q8(vin, io);
@@ -335,5 +344,36 @@ impl FixedPoint {
             }),
             zvs,
         }
+    }
+}
+
+/// `x = 1/J` in Q24 at clamped codes (`i` already less the zero).
+#[inline]
+const fn x_q24(p: &FixedPiece, v: u32, i: u32) -> u32 {
+    // 1/i = y / 2^s; a = v*y / 2^8 (below 2^32 for 16-bit codes).
+    let (y, s) = recip_q23(i);
+    let a = mul_shr(y, v as u16, 8);
+    // m = k_mant * a / 2^32 (within 2 units) by the two 16-bit halves of
+    // k_mant: the low half's share is below 2^16, so 16 bits of `a`
+    // suffice for it.
+    let m = mul_shr(a, (p.k_mant >> 16) as u16, 16)
+        .wrapping_add(((a >> 16).wrapping_mul(p.k_mant & 0xffff)) >> 16);
+    // x * 2^24 = m * 2^(64 - k_shift - s).
+    let sh = (p.k_shift as i32).wrapping_add(s as i32).wrapping_sub(64);
+    if sh >= 0 {
+        m.wrapping_shr(sh as u32)
+    } else {
+        m.wrapping_shl(sh.wrapping_neg() as u32)
+    }
+}
+
+/// The angle `theta` (Q16 radians) in ticks, Q8.
+#[inline]
+const fn scale_q8(p: &FixedPiece, theta: u32) -> u32 {
+    let r = mul_shr(theta, p.t_mant, 16);
+    if p.t_shift >= 8 {
+        r.wrapping_shr(p.t_shift as u32 - 8)
+    } else {
+        r.wrapping_shl(8 - p.t_shift as u32)
     }
 }

@@ -1,71 +1,57 @@
-//! The coefficients of the fast closed forms: ideal-cell stand-ins, each
-//! serving one piece of the design range, so that the closed form follows
-//! a tank the ideal cell does not describe (a Coss curve, a lossy loop, a
-//! tolerance box).
+//! Where the closed forms' pieces apply: ideal-cell stand-ins, each serving
+//! one piece of the design range, so that the closed form follows a tank
+//! the ideal cell does not describe (a Coss curve, a lossy loop, a
+//! tolerance box). Shared by [`FastF32`](super::FastF32) and
+//! [`FixedPoint`](super::FixedPoint), which pick the same piece at every
+//! code pair by the same integer arithmetic.
 //!
 //! The voltage codes are cut into bands of `2^band_shift` codes from the
 //! range's low end. Within a band, the pieces follow one another along the
 //! code ratio `y = vin_code / (io_code - io_zero)` (which is `kx/J`: light
-//! load at large y). Each piece is the ideal closed form
-//! ([`normalized::turn_on_angle`](crate::normalized::turn_on_angle)) with
-//! `x = 1/J = kx * y`, its own ticks per radian, and an offset that moves
-//! linearly with the voltage code away from the band's centre:
+//! load at large y): piece `k` serves `y < ends[k] / 2^ratio_bits`, tested
+//! as `vin_code << ratio_bits < ends[k] * (io_code - io_zero)` in 32-bit
+//! integers (no rounding, no division). Each piece is the ideal closed
+//! form ([`normalized::turn_on_angle`](crate::normalized::turn_on_angle))
+//! with `x = 1/J = kx * y`, its own ticks per radian, and an offset that
+//! moves linearly with the voltage code away from the band's centre:
 //!
-//! `ticks = angle(kx * y) * ticks_per_rad + offset_ticks + ticks_per_vin_code * dv`
+//! `ticks = angle(kx * y) * ticks_per_rad + offset + ticks_per_vin_code * dv`
 //!
 //! where `dv = (vin_code - vin.lo) - (band << band_shift) - 2^band_shift / 2`.
-//! With one band of one piece (`kx` and `ticks_per_rad` of the ideal
-//! tank, the offset the driver's lead) this is the ideal cell's closed form
+//! ZVS is expected above a line in the current code per band.
+//!
+//! With one band of one piece (`kx` and `ticks_per_rad` of the ideal tank,
+//! the offset the driver's lead) this is the ideal cell's closed form
 //! ([`ClosedForm`](super::ClosedForm)); the host tool fits the pieces of a
-//! design to its exact model (`zvs-timing table`, which writes them into
-//! the `_closed_form.rs` output) and proves the result at every code pair.
+//! design to its exact model (`zvs-timing table` writes them into the
+//! `_closed_form.rs` output) and proves the result at every code pair.
 
 use crate::error::{Error, Quantity};
-use crate::table::Fallback;
-use crate::CodeRange;
-
-/// One stand-in: the ideal closed form over a run of code ratios of a band.
-#[derive(Debug, Clone, Copy, PartialEq)]
-#[cfg_attr(feature = "defmt", derive(defmt::Format))]
-#[cfg_attr(feature = "serde", derive(serde::Serialize))]
-pub struct Piece {
-    /// The piece serves code ratios `y` below this one (dimensionless, code
-    /// per code); the band's pieces are in ascending order, and the band's
-    /// last piece also serves every larger ratio.
-    pub y_end: f32,
-    /// `x = 1/J = kx * y`, dimensionless.
-    pub kx: f32,
-    /// Timer ticks per radian of the stand-in's resonance.
-    pub ticks_per_rad: f32,
-    /// Ticks at `x = 0` at the band's centre voltage code: the stand-in's
-    /// `3*pi/2` angle times `ticks_per_rad`, less the driver's lead, plus
-    /// the fitted shift.
-    pub offset_ticks: f32,
-    /// Ticks per voltage code away from the band's centre.
-    pub ticks_per_vin_code: f32,
-}
+use crate::{AdcCode, CodeRange};
 
 /// One band of voltage codes: where its pieces start, and where ZVS is
 /// expected.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 #[cfg_attr(feature = "serde", derive(serde::Serialize))]
 pub struct Band {
     /// Index of the band's first piece; its pieces run to the next band's
     /// first (the last band's to the end of the list).
     pub first: u16,
-    /// ZVS is expected where `y < zvs_y + zvs_y_per_code * dv` (code ratio).
-    pub zvs_y: f32,
-    /// See `zvs_y`: change of the boundary's ratio per voltage code.
-    pub zvs_y_per_code: f32,
+    /// ZVS is expected where `(io_code - io_zero) * 256 > zvs_io_q8 +
+    /// (zvs_io_q16_per_code * dv) / 256` (the division an arithmetic
+    /// shift): the boundary's current code (Q8) at the band's centre.
+    pub zvs_io_q8: i32,
+    /// See `zvs_io_q8`: the boundary's change per voltage code (Q16).
+    pub zvs_io_q16_per_code: i32,
 }
 
-/// The coefficients of [`FastF32`](super::FastF32): the design's code
-/// ranges, its bands and pieces, and how the delay is commanded.
-#[derive(Debug, Clone, Copy, PartialEq)]
+/// Which piece serves each code pair: the code ranges, the bands and the
+/// ratio thresholds.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 #[cfg_attr(feature = "serde", derive(serde::Serialize))]
-pub struct PiecewiseParts<'a> {
+pub struct PieceLayout<'a> {
     /// Input-voltage code range (others clamp to its edge).
     pub vin: CodeRange,
     /// Output-current code range (others clamp to its edge).
@@ -74,28 +60,32 @@ pub struct PiecewiseParts<'a> {
     pub io_zero: u16,
     /// Bands of `2^band_shift` voltage codes (0..=15).
     pub band_shift: u8,
+    /// Fractional bits of the ratio thresholds in `ends`.
+    pub ratio_bits: u8,
     /// One per band, `((vin.hi - vin.lo) >> band_shift) + 1` of them.
     pub bands: &'a [Band],
-    /// Every band's pieces, band after band.
-    pub pieces: &'a [Piece],
-    /// Aim point in each stand-in's ZVS window, 0..=1.
-    pub position: f32,
-    /// Largest count the timer holds.
-    pub max_ticks: u32,
-    /// What to command where ZVS is not expected.
-    pub fallback: Fallback,
+    /// One per piece, band after band: piece `k` serves code ratios below
+    /// `ends[k] / 2^ratio_bits`, ascending within a band; a band's last
+    /// piece also serves every larger ratio (its entry is not read).
+    pub ends: &'a [u32],
 }
 
-const fn coefficient(value: f32) -> Error {
-    Error::OutOfRange {
-        quantity: Quantity::MethodCoefficient,
-        value: value as f64,
-        min: -(f32::MAX as f64),
-        max: f32::MAX as f64,
-    }
+/// The piece a code pair falls on, with the clamped codes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) struct Selected {
+    /// Index into the pieces.
+    pub index: usize,
+    /// Voltage code, clamped to the range.
+    pub v: u16,
+    /// Current code less the sensor zero, clamped to the range (at least 1).
+    pub i: u16,
+    /// Voltage codes from the band's centre.
+    pub dv: i32,
+    /// ZVS is expected (above the band's line).
+    pub zvs: bool,
 }
 
-const fn index(value: usize, max: usize) -> Error {
+const fn index_error(value: usize, max: usize) -> Error {
     Error::OutOfRange {
         quantity: Quantity::MethodCoefficient,
         value: value as f64,
@@ -104,75 +94,135 @@ const fn index(value: usize, max: usize) -> Error {
     }
 }
 
-impl PiecewiseParts<'_> {
-    /// Check the coefficients (usable in `const` items).
+/// Largest magnitude of a band's line terms (so that the line's value
+/// stays inside 32 bits anywhere in the band).
+const LINE_MAX: i64 = 1 << 30;
+
+impl PieceLayout<'_> {
+    /// Check the layout for `n_pieces` pieces (usable in `const` items).
     ///
     /// # Errors
     /// [`Error::OutOfRange`] naming [`Quantity::AdcCode`] for inconsistent
-    /// code ranges, [`Quantity::WindowPosition`] for a position outside
-    /// 0..=1, and [`Quantity::MethodCoefficient`] for a band count that
-    /// does not match the range and shift, a band without pieces or with
-    /// pieces out of order, or a coefficient that is not finite (`kx` and
-    /// `ticks_per_rad` must also be positive).
-    pub const fn check(&self) -> Result<(), Error> {
+    /// code ranges, and [`Quantity::MethodCoefficient`] for a band count
+    /// that does not match the range and shift, a band without pieces, an
+    /// `ends` list of another length than the pieces', thresholds out of
+    /// order or whose products overflow 32 bits, or a ZVS line beyond
+    /// 2^30.
+    pub const fn check(&self, n_pieces: usize) -> Result<(), Error> {
         if let Err(e) = super::check_codes(&self.vin, &self.io, self.io_zero) {
             return Err(e);
         }
-        if !(self.position >= 0.0 && self.position <= 1.0) {
-            return Err(Error::OutOfRange {
-                quantity: Quantity::WindowPosition,
-                value: self.position as f64,
-                min: 0.0,
-                max: 1.0,
-            });
-        }
         if self.band_shift > 15 {
-            return Err(index(self.band_shift as usize, 15));
+            return Err(index_error(self.band_shift as usize, 15));
+        }
+        // vin << ratio_bits within 32 bits.
+        if self.ratio_bits as u32 > (self.vin.hi as u32).leading_zeros() {
+            return Err(index_error(self.ratio_bits as usize, 16));
         }
         let n_bands = ((self.vin.hi - self.vin.lo) >> self.band_shift) as usize + 1;
         if self.bands.len() != n_bands {
-            return Err(index(self.bands.len(), n_bands));
+            return Err(index_error(self.bands.len(), n_bands));
         }
-        let n = self.pieces.len();
-        if n > u16::MAX as usize {
-            return Err(index(n, u16::MAX as usize));
+        let n = self.ends.len();
+        if n != n_pieces || n > u16::MAX as usize {
+            return Err(index_error(n, n_pieces));
         }
+        let i_max = (self.io.hi - self.io_zero) as u32;
+        let end_max = u32::MAX / i_max;
+        let reach = 1i64 << self.band_shift;
         // Band after band, each band's pieces after the previous band's.
-        let (mut bands, mut pieces, mut k) = (self.bands, self.pieces, 0usize);
+        let (mut bands, mut ends, mut k) = (self.bands, self.ends, 0usize);
         while let [band, rest @ ..] = bands {
             let end = match rest {
                 [next, ..] => next.first as usize,
                 [] => n,
             };
             if band.first as usize != k || end <= k || end > n {
-                return Err(index(band.first as usize, n));
+                return Err(index_error(band.first as usize, n));
             }
-            if !(band.zvs_y.is_finite() && band.zvs_y_per_code.is_finite()) {
-                return Err(coefficient(band.zvs_y));
+            let (c, s) = (band.zvs_io_q8 as i64, band.zvs_io_q16_per_code as i64);
+            if c.abs() > LINE_MAX || s.abs() * reach > LINE_MAX {
+                return Err(index_error(c.unsigned_abs() as usize, LINE_MAX as usize));
             }
-            let mut prev = f32::NEG_INFINITY;
+            let mut prev = 0u32;
             while k < end {
-                let [p, more @ ..] = pieces else {
-                    return Err(index(k, n));
+                let [e, more @ ..] = ends else {
+                    return Err(index_error(k, n));
                 };
-                if !(p.kx.is_finite() && p.kx > 0.0) {
-                    return Err(coefficient(p.kx));
+                // Every threshold but the band's last is read.
+                if k + 1 < end && (*e <= prev || *e > end_max) {
+                    return Err(index_error(*e as usize, end_max as usize));
                 }
-                if !(p.ticks_per_rad.is_finite() && p.ticks_per_rad > 0.0) {
-                    return Err(coefficient(p.ticks_per_rad));
-                }
-                if !(p.offset_ticks.is_finite() && p.ticks_per_vin_code.is_finite()) {
-                    return Err(coefficient(p.offset_ticks));
-                }
-                if !(p.y_end > prev) {
-                    return Err(coefficient(p.y_end));
-                }
-                prev = p.y_end;
-                pieces = more;
+                prev = *e;
+                ends = more;
                 k += 1;
             }
             bands = rest;
         }
         Ok(())
+    }
+
+    /// Whether ZVS is expected at the codes (clamped to the range): above
+    /// the band's line. What both methods report, and where a fixed
+    /// fallback applies.
+    #[inline]
+    #[must_use]
+    pub fn expects_zvs(&self, vin: AdcCode, io: AdcCode) -> bool {
+        self.select(vin, io).zvs
+    }
+
+    /// The index of the piece serving the codes (clamped to the range).
+    #[inline]
+    #[must_use]
+    pub fn piece_at(&self, vin: AdcCode, io: AdcCode) -> usize {
+        self.select(vin, io).index
+    }
+
+    /// The piece serving the codes (clamped to the range). Integer-only;
+    /// never panics (an index past the pieces, impossible for a validated
+    /// layout, is left to the caller's `get`).
+    #[inline]
+    pub(crate) fn select(&self, vin: AdcCode, io: AdcCode) -> Selected {
+        let v = self.vin.clamp(vin);
+        let i = self.io.clamp(io).wrapping_sub(self.io_zero);
+        let from_lo = v.wrapping_sub(self.vin.lo);
+        let b = usize::from(from_lo >> self.band_shift);
+        let half = (1i32 << self.band_shift) >> 1;
+        let dv = i32::from(from_lo) - ((b as i32) << self.band_shift) - half;
+        let (first, end, zvs) = match self.bands.get(b) {
+            Some(band) => {
+                let end = self
+                    .bands
+                    .get(b + 1)
+                    .map_or(self.ends.len(), |n| usize::from(n.first));
+                let line = band
+                    .zvs_io_q8
+                    .wrapping_add(band.zvs_io_q16_per_code.wrapping_mul(dv) >> 8);
+                (usize::from(band.first), end, (i32::from(i) << 8) > line)
+            }
+            None => (0, 1, false),
+        };
+        // Lower bound: the first threshold the ratio is below, among the
+        // band's thresholds but its last piece's.
+        let vq = u32::from(v) << self.ratio_bits;
+        let iq = u32::from(i);
+        let above = |k: usize| self.ends.get(k).is_some_and(|&e| vq >= e.wrapping_mul(iq));
+        let (mut lo, mut n) = (first, end.saturating_sub(first + 1));
+        while n > 0 {
+            let half = n / 2;
+            if above(lo + half) {
+                lo += half + 1;
+                n -= half + 1;
+            } else {
+                n = half;
+            }
+        }
+        Selected {
+            index: lo,
+            v,
+            i,
+            dv,
+            zvs,
+        }
     }
 }

@@ -107,7 +107,10 @@ pub(crate) fn open_method<'a>(
             Some(p) => Box::new(p.fast_f32()?),
             None => anyhow::bail!("--method closed-form-f32 needs the design's fitted pieces"),
         },
-        (MethodArg::FixedPoint, _) => Box::new(cf.fixed_point()?),
+        (MethodArg::FixedPoint, _) => match pieces {
+            Some(p) => Box::new(p.fixed_point()?),
+            None => anyhow::bail!("--method fixed-point needs the design's fitted pieces"),
+        },
         (MethodArg::LibmF32, _) => Box::new(cf.libm_f32()?),
     })
 }
@@ -119,7 +122,9 @@ pub(crate) fn method_pieces(
     which: MethodArg,
 ) -> anyhow::Result<Option<host_tool::generate::pieces::PieceSet>> {
     Ok(match which {
-        MethodArg::ClosedFormF32 => Some(host_tool::generate::pieces::fit_design_pieces(design)?),
+        MethodArg::ClosedFormF32 | MethodArg::FixedPoint => {
+            Some(host_tool::generate::pieces::fit_design_pieces(design)?)
+        }
         _ => None,
     })
 }

@@ -86,7 +86,7 @@ impl DelayMethod for FastF32<'_> {
     }
 }
 
-impl DelayMethod for FixedPoint {
+impl DelayMethod for FixedPoint<'_> {
     fn name(&self) -> &'static str {
         "fixed-point"
     }
