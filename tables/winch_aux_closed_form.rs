@@ -2,21 +2,91 @@
 // regenerate with `zvs-timing table <design>.toml --out <dir>`.
 // timing-core's closed-form methods for this design, verified against the exact model at all
 // 2749050 code pairs (codes outside vin 2237..=3726 / io 205..=2049 clamp to the range edge):
-// closed-form-f32: approximation error at most 2.4275 ticks before rounding; commanded error at most 4.417 ticks (RMS 1.556);
-//   14666 of 1835198 ZVS turn-ons outside the window.
-// fixed-point: approximation error at most 2.4277 ticks before rounding; commanded error at most 4.417 ticks (RMS 1.554);
-//   14770 of 1835198 ZVS turn-ons outside the window.
-// libm-f32: approximation error at most 2.4275 ticks before rounding; commanded error at most 4.417 ticks (RMS 1.556);
-//   14666 of 1835198 ZVS turn-ons outside the window.
+// closed-form-f32: approximation error at most 0.4437 ticks before rounding; commanded error at most 0.931 ticks (RMS 0.358);
+//   1109 of 1835198 ZVS turn-ons outside the window (0 where it is a tick wide or more); 0 of 1570220 outside the robust window.
+// fixed-point: approximation error at most 0.4509 ticks before rounding; commanded error at most 0.940 ticks (RMS 0.359);
+//   1129 of 1835198 ZVS turn-ons outside the window (0 where it is a tick wide or more); 0 of 1570220 outside the robust window.
+// libm-f32: approximation error at most 3.9745 ticks before rounding; commanded error at most 4.417 ticks (RMS 1.556);
+//   14666 of 1835198 ZVS turn-ons outside the window (12414 where it is a tick wide or more); 368045 of 1570220 outside the robust window.
 // CAUTION: verify every delay at reduced voltage with a scope before full-voltage operation.
 #[allow(unused_imports)]
-use timing_core::closed_form::{F32Parts, FastF32, FixedPoint, FixedPointParts, LibmF32};
+use timing_core::closed_form::{Band, F32Parts, F32Piece, FastF32, FastF32Parts, FixedPiece, FixedPoint, FixedPointParts, LibmF32, PieceLayout};
 #[allow(unused_imports)]
 use timing_core::table::Fallback;
 #[allow(unused_imports)]
 use timing_core::{CodeRange, Ticks};
 
-/// Coefficients of the f32 methods.
+/// Voltage bands of 2048 codes from code 2237: where each band's pieces start, and its ZVS line.
+pub const BANDS: [Band; 1] = [
+    Band { first: 0, zvs_io_q8: 228086, zvs_io_q16_per_code: 17273 },
+];
+
+/// Each piece serves code ratios vin/(io - zero) below its entry / 2^16 (a band's last: every ratio).
+pub const ENDS: [u32; 8] = [
+    0x0002a541,
+    0x00030457,
+    0x00030484,
+    0x00035381,
+    0x00038e0b,
+    0x0003a832,
+    0x0003ae70,
+    0xffffffff,
+];
+
+/// Which piece serves each code pair.
+pub const LAYOUT: PieceLayout<'static> = PieceLayout {
+    vin: CodeRange { lo: 2237, hi: 3726 },
+    io: CodeRange { lo: 205, hi: 2049 },
+    io_zero: 0,
+    band_shift: 11,
+    ratio_bits: 16,
+    bands: &BANDS,
+    ends: &ENDS,
+};
+
+/// The f32 method's stand-ins, fitted to the exact model.
+pub const F32_PIECES: [F32Piece; 8] = [
+    F32Piece { kx: f32::from_bits(0x3ea16f96) /* 3.1530446e-1 */, ticks_per_rad: f32::from_bits(0x4131bc6d) /* 1.1108502e1 */, offset_ticks: f32::from_bits(0x42680e8a) /* 5.80142e1 */, ticks_per_vin_code: f32::from_bits(0xba21868e) /* -6.161713e-4 */ },
+    F32Piece { kx: f32::from_bits(0x3e73e606) /* 2.3818216e-1 */, ticks_per_rad: f32::from_bits(0x41a38695) /* 2.0440714e1 */, offset_ticks: f32::from_bits(0x4277804e) /* 6.1875298e1 */, ticks_per_vin_code: f32::from_bits(0xba5f1521) /* -8.5099234e-4 */ },
+    F32Piece { kx: f32::from_bits(0x3ea9ac04) /* 3.313905e-1 */, ticks_per_rad: f32::from_bits(0x41a89ea1) /* 2.1077456e1 */, offset_ticks: f32::from_bits(0x42332224) /* 4.478334e1 */, ticks_per_vin_code: f32::from_bits(0xba779893) /* -9.4450376e-4 */ },
+    F32Piece { kx: f32::from_bits(0x3e63cc70) /* 2.2245955e-1 */, ticks_per_rad: f32::from_bits(0x41a89ea1) /* 2.1077456e1 */, offset_ticks: f32::from_bits(0x427dd0b2) /* 6.3453804e1 */, ticks_per_vin_code: f32::from_bits(0xba812e11) /* -9.855648e-4 */ },
+    F32Piece { kx: f32::from_bits(0x3e5c4864) /* 2.151199e-1 */, ticks_per_rad: f32::from_bits(0x41a89ea1) /* 2.1077456e1 */, offset_ticks: f32::from_bits(0x4280b282) /* 6.434865e1 */, ticks_per_vin_code: f32::from_bits(0xba7c76e5) /* -9.630754e-4 */ },
+    F32Piece { kx: f32::from_bits(0x3ea37328) /* 3.1923795e-1 */, ticks_per_rad: f32::from_bits(0x418e274b) /* 1.7769186e1 */, offset_ticks: f32::from_bits(0x4247854d) /* 4.9880177e1 */, ticks_per_vin_code: f32::from_bits(0xba8b6cd3) /* -1.063729e-3 */ },
+    F32Piece { kx: f32::from_bits(0x3e87c52c) /* 2.6517618e-1 */, ticks_per_rad: f32::from_bits(0x41a89ea1) /* 2.1077456e1 */, offset_ticks: f32::from_bits(0x42585631) /* 5.408417e1 */, ticks_per_vin_code: f32::from_bits(0xba5cf8ec) /* -8.429426e-4 */ },
+    F32Piece { kx: f32::from_bits(0x3eaba7b9) /* 3.35264e-1 */, ticks_per_rad: f32::from_bits(0x412a94dd) /* 1.0661344e1 */, offset_ticks: f32::from_bits(0x42684a1a) /* 5.8072365e1 */, ticks_per_vin_code: f32::from_bits(0xba7ca1a4) /* -9.6371234e-4 */ },
+];
+
+/// Coefficients of the fast f32 method.
+pub const FAST_F32_PARTS: FastF32Parts<'static> = FastF32Parts {
+    layout: LAYOUT,
+    pieces: &F32_PIECES,
+    position: f32::from_bits(0x3e800000) /* 2.5e-1 */,
+    max_ticks: 65535,
+    fallback: Fallback::Valley,
+};
+
+/// The integer method's stand-ins: the same, in integers.
+pub const FIXED_PIECES: [FixedPiece; 8] = [
+    FixedPiece { k_mant: 2708444672, k_shift: 33, t_mant: 45500, t_shift: 12, offset_q8: 1452, q16_per_vin_code: -40 },
+    FixedPiece { k_mant: 4091938304, k_shift: 34, t_mant: 41863, t_shift: 11, offset_q8: -8819, q16_per_vin_code: -56 },
+    FixedPiece { k_mant: 2846622720, k_shift: 33, t_mant: 43167, t_shift: 11, offset_q8: -13962, q16_per_vin_code: -62 },
+    FixedPiece { k_mant: 3821826048, k_shift: 34, t_mant: 43167, t_shift: 11, offset_q8: -9183, q16_per_vin_code: -65 },
+    FixedPiece { k_mant: 3695731712, k_shift: 34, t_mant: 43167, t_shift: 11, offset_q8: -8956, q16_per_vin_code: -63 },
+    FixedPiece { k_mant: 2742233088, k_shift: 33, t_mant: 36391, t_shift: 11, offset_q8: -8667, q16_per_vin_code: -70 },
+    FixedPiece { k_mant: 2277846016, k_shift: 33, t_mant: 43167, t_shift: 11, offset_q8: -11581, q16_per_vin_code: -55 },
+    FixedPiece { k_mant: 2879895808, k_shift: 33, t_mant: 43669, t_shift: 12, offset_q8: 2005, q16_per_vin_code: -63 },
+];
+
+/// Coefficients of the integer method.
+pub const FIXED_POINT_PARTS: FixedPointParts<'static> = FixedPointParts {
+    layout: LAYOUT,
+    pieces: &FIXED_PIECES,
+    position_q15: 8192,
+    max_ticks: 65535,
+    fallback: Fallback::Valley,
+};
+
+/// Coefficients of the libm f32 baseline (the ideal cell's stand-in).
 pub const F32_PARTS: F32Parts = F32Parts {
     vin: CodeRange { lo: 2237, hi: 3726 },
     io: CodeRange { lo: 205, hi: 2049 },
@@ -29,29 +99,14 @@ pub const F32_PARTS: F32Parts = F32Parts {
     fallback: Fallback::Valley,
 };
 
-/// Coefficients of the integer method.
-pub const FIXED_POINT_PARTS: FixedPointParts = FixedPointParts {
-    vin: CodeRange { lo: 2237, hi: 3726 },
-    io: CodeRange { lo: 205, hi: 2049 },
-    io_zero: 0,
-    k_mant: 2356982516,
-    k_shift: 33,
-    t_mant: 53958,
-    t_shift: 12,
-    position_q15: 8192,
-    lead_q8: 1088,
-    max_ticks: 65535,
-    fallback: Fallback::Valley,
-};
-
 /// The validated method (validated at compile time).
-pub const FAST_F32: FastF32 = match FastF32::from_parts(F32_PARTS) {
+pub const FAST_F32: FastF32<'static> = match FastF32::from_parts(FAST_F32_PARTS) {
     Ok(m) => m,
     Err(_) => panic!("generated coefficients of `winch_aux` fail timing-core's validation"),
 };
 
 /// The validated method (validated at compile time).
-pub const FIXED_POINT: FixedPoint = match FixedPoint::from_parts(FIXED_POINT_PARTS) {
+pub const FIXED_POINT: FixedPoint<'static> = match FixedPoint::from_parts(FIXED_POINT_PARTS) {
     Ok(m) => m,
     Err(_) => panic!("generated coefficients of `winch_aux` fail timing-core's validation"),
 };

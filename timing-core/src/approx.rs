@@ -13,5 +13,6 @@ pub mod asin_q;
 pub mod mul_shr;
 pub mod recip_q;
 pub mod rsqrt_f32;
+pub mod sqrt1p_f32;
 pub mod sqrt1p_q;
 pub mod sqrt_q;

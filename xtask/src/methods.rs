@@ -130,8 +130,8 @@ fn table_text(root: &Path) -> Result<String, String> {
             .ok_or_else(|| format!("no {k} for {me} on {core} in the firmware output"))
     };
     let mut s = String::new();
-    s.push_str("| method | core | instructions per interrupt (min-max) | flash bytes | worst error, ticks | approximation error before rounding, ticks | ZVS pairs outside the window (of them, a tick wide or more) | widest window missed, ticks |\n");
-    s.push_str("|---|---|---|---|---|---|---|---|\n");
+    s.push_str("| method | core | instructions per interrupt (min-max) | flash bytes | worst error, ticks | approximation error before rounding, ticks | ZVS pairs outside the window (of them, a tick wide or more) | widest window missed, ticks | outside the robust window |\n");
+    s.push_str("|---|---|---|---|---|---|---|---|---|\n");
     for me in METHODS {
         for (core, _) in CORES {
             let p = proven
@@ -148,7 +148,7 @@ fn table_text(root: &Path) -> Result<String, String> {
                 .outside_window_max_width_ticks
                 .map_or_else(|| "-".to_owned(), |w| format!("{w:.2}"));
             s.push_str(&format!(
-                "| `{me}` | {core} | {}-{} | {} | {:.3} | {} | {} of {} ({}) | {widest} |\n",
+                "| `{me}` | {core} | {}-{} | {} | {:.3} | {} | {} of {} ({}) | {widest} | {} of {} |\n",
                 get(&cost, core, me, "instructions_min")?,
                 get(&cost, core, me, "instructions_max")?,
                 get(&flash, core, me, "bytes")?,
@@ -158,6 +158,8 @@ fn table_text(root: &Path) -> Result<String, String> {
                 p.outside_window,
                 p.zvs_points,
                 p.outside_window_wide,
+                p.outside_robust_window,
+                p.robust_points,
             ));
         }
     }
@@ -168,21 +170,18 @@ fn table_text(root: &Path) -> Result<String, String> {
          resistance), for the code each core runs (the table in the layout its \
          build asks for: `ratio-volt` on the Cortex-M4F, whose division is one instruction, \
          and `margin` on the Cortex-M0, which has none and trades flash for instructions), \
-         and against the design's aim (inside the \
-         robust window of its `[tolerance]` table where one a tick wide exists, and the \
-         continuous minimax aim elsewhere), which the table follows; the closed forms aim at \
-         the nominal window. The table is fitted to each code pair's interval: every command \
+         and against the design's aim: inside the robust window of its `[tolerance]` table \
+         where one a tick wide exists, and the continuous minimax aim elsewhere. The table and \
+         the two fast closed forms are fitted to each code pair's interval (every command \
          inside the robust window where one a tick wide exists and inside the nominal window \
-         where that is a tick wide, so its pairs outside the window all have windows narrower \
-         than a tick. The closed forms compute the ideal cell with a fitted \
-         constant-capacitance stand-in, so their error before rounding is mostly the \
-         difference between the two models (against the ideal cell alone they are within \
-         0.0002 and 0.0064 tick: `cargo test -p cross-checks --test closed_form`); they do not \
-         follow the curve's voltage dependence, which costs about 2 ticks near the boundary. \
-         The f32 methods move a rounded tick into the window when the next tick is inside, \
-         the table and the fixed-point method round to the nearest. Instructions are counted \
-         by QEMU over the scenario's 2400 interrupts (`-icount`), flash is text and read-only \
-         data added by the method (its own proof build less an empty one). Regenerate with \
+         where that is a tick wide), so their pairs outside the window all have windows \
+         narrower than a tick. The closed forms do it with pieces: ideal-cell stand-ins, each \
+         with its own `kx`, ticks per radian, offset and voltage slope, over runs of the code \
+         ratio (the same pieces in f32 and in integers); `libm-f32` is the ideal cell with \
+         one constant-capacitance stand-in, the baseline, which does not follow the curve \
+         (about 4 ticks near the boundary). Instructions are counted by QEMU over the \
+         scenario's 2400 interrupts (`-icount`), flash is text and read-only data added by \
+         the method (its own proof build less an empty one). Regenerate with \
          `cargo xtask methods`.\n"
     ));
     Ok(s)

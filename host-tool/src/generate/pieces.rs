@@ -56,7 +56,7 @@ pub const AIM_BAND_TICKS: f64 = 0.45;
 
 /// A piece is cut when the room left inside its pairs' intervals (the
 /// width of the offsets that would serve them all) is below this, ticks.
-pub const TARGET_SLACK_TICKS: f64 = 0.04;
+pub const TARGET_SLACK_TICKS: f64 = 0.015;
 
 /// Room a piece needs at least, ticks: more than the f32 arithmetic and
 /// the approximations move the delay (a few ten-thousandths of a tick).

@@ -1,6 +1,7 @@
 //! The closed form in f32 with fast approximations, piece by piece
-//! ([`PieceLayout`]): the root by [`rsqrt_f32`], the arcsine by the
-//! [`asin_factor_f32`] polynomial, no library call. Every float operation
+//! ([`PieceLayout`]): one root by [`rsqrt_f32`], the arcsine and
+//! `sqrt(1 + x)` by the [`asin_factor_f32`] and [`sqrt1p_f32`]
+//! polynomials, no library call. Every float operation
 //! is an IEEE single-precision add, multiply or divide (two divides), and
 //! the piece is picked in integers, so the host's exhaustive proof of its
 //! error holds on the target bit for bit; the firmware example's ISR-COST
@@ -10,6 +11,7 @@ use super::pieces::PieceLayout;
 use super::round_ticks;
 use crate::approx::asin_f32::asin_factor_f32;
 use crate::approx::rsqrt_f32::rsqrt_f32;
+use crate::approx::sqrt1p_f32::sqrt1p_f32;
 use crate::error::{Error, Quantity};
 use crate::table::{Fallback, Lookup};
 use crate::{AdcCode, Ticks};
@@ -152,21 +154,17 @@ impl<'a> FastF32<'a> {
 
 /// One piece's delay at code ratio `y` and `dv` codes from its band's
 /// centre, ticks: `x = kx * y`; for `x <= 1` the ZVS angle
-/// `x + 3pi/2 + sqrt(1 - x) * (p*J*sqrt(1 + x) - P(x))`, else the valley's
-/// `x + 3pi/2`.
+/// `x + 3pi/2 + sqrt(1 - x) * G(x) / x` with
+/// `G(x) = p*sqrt(1 + x) - x*P(x)` and `P(x) = (pi/2 - asin x)/sqrt(1 - x)`
+/// (one root), else the valley's `x + 3pi/2`.
 #[inline]
 fn ticks(piece: &F32Piece, y: f32, dv: f32, position: f32) -> f32 {
     let x = piece.kx * y;
     let base = x * piece.ticks_per_rad + piece.offset_ticks + piece.ticks_per_vin_code * dv;
     if x <= 1.0 {
         let t = 1.0 - x;
-        let u = 1.0 + x;
-        // sqrt(1 - x) and sqrt(1 + x), in ticks per radian for the root.
-        let a = piece.ticks_per_rad * (t * rsqrt_f32(t));
-        let q = u * rsqrt_f32(u);
-        let j = 1.0 / x;
-        let open = base - a * asin_factor_f32(x);
-        open + position * (a * q * j)
+        let g = position * sqrt1p_f32(x) - x * asin_factor_f32(x);
+        base + piece.ticks_per_rad * (t * rsqrt_f32(t)) * g / x
     } else {
         base
     }

@@ -180,8 +180,9 @@ impl PieceLayout<'_> {
 
     /// The piece serving the codes (clamped to the range). Integer-only;
     /// never panics (an index past the pieces, impossible for a validated
-    /// layout, is left to the caller's `get`).
-    #[inline]
+    /// layout, is left to the caller's `get`). Always inlined: with a
+    /// `const` layout the band arithmetic folds away.
+    #[inline(always)]
     pub(crate) fn select(&self, vin: AdcCode, io: AdcCode) -> Selected {
         let v = self.vin.clamp(vin);
         let i = self.io.clamp(io).wrapping_sub(self.io_zero);
@@ -202,21 +203,20 @@ impl PieceLayout<'_> {
             }
             None => (0, 1, false),
         };
-        // Lower bound: the first threshold the ratio is below, among the
-        // band's thresholds but its last piece's.
+        // The band's thresholds (all its pieces' but the last's); the piece
+        // is the count of those the ratio is at or above. The first and the
+        // last piece, where most readings fall, are found with one test
+        // each.
         let vq = u32::from(v) << self.ratio_bits;
         let iq = u32::from(i);
-        let above = |k: usize| self.ends.get(k).is_some_and(|&e| vq >= e.wrapping_mul(iq));
-        let (mut lo, mut n) = (first, end.saturating_sub(first + 1));
-        while n > 0 {
-            let half = n / 2;
-            if above(lo + half) {
-                lo += half + 1;
-                n -= half + 1;
-            } else {
-                n = half;
-            }
-        }
+        let above = |e: &u32| vq >= e.wrapping_mul(iq);
+        let ends = self.ends.get(first..end.saturating_sub(1)).unwrap_or(&[]);
+        let k = match ends {
+            [head, ..] if !above(head) => 0,
+            [.., tail] if above(tail) => ends.len(),
+            _ => ends.partition_point(above),
+        };
+        let lo = first + k;
         Selected {
             index: lo,
             v,
