@@ -2,10 +2,10 @@
 // regenerate with `zvs-timing table <design>.toml --out <dir>`.
 // timing-core's closed-form methods for this design, verified against the exact model at all
 // 2749050 code pairs (codes outside vin 2237..=3726 / io 205..=2049 clamp to the range edge):
-// closed-form-f32: approximation error at most 0.4437 ticks before rounding; commanded error at most 0.931 ticks (RMS 0.358);
-//   1109 of 1835198 ZVS turn-ons outside the window (0 where it is a tick wide or more); 0 of 1570220 outside the robust window.
-// fixed-point: approximation error at most 0.4509 ticks before rounding; commanded error at most 0.940 ticks (RMS 0.359);
-//   1129 of 1835198 ZVS turn-ons outside the window (0 where it is a tick wide or more); 0 of 1570220 outside the robust window.
+// closed-form-f32: approximation error at most 0.4488 ticks before rounding; commanded error at most 0.927 ticks (RMS 0.329);
+//   1061 of 1835198 ZVS turn-ons outside the window (0 where it is a tick wide or more); 0 of 1570220 outside the robust window.
+// fixed-point: approximation error at most 0.4552 ticks before rounding; commanded error at most 0.934 ticks (RMS 0.329);
+//   1061 of 1835198 ZVS turn-ons outside the window (0 where it is a tick wide or more); 0 of 1570220 outside the robust window.
 // libm-f32: approximation error at most 3.9745 ticks before rounding; commanded error at most 4.417 ticks (RMS 1.556);
 //   14666 of 1835198 ZVS turn-ons outside the window (12414 where it is a tick wide or more); 368045 of 1570220 outside the robust window.
 // CAUTION: verify every delay at reduced voltage with a scope before full-voltage operation.
@@ -22,14 +22,11 @@ pub const BANDS: [Band; 1] = [
 ];
 
 /// Each piece serves code ratios vin/(io - zero) below its entry / 2^16 (a band's last: every ratio).
-pub const ENDS: [u32; 8] = [
+pub const ENDS: [u32; 5] = [
     0x0002a541,
-    0x00030457,
-    0x00030484,
-    0x00035381,
-    0x00038e0b,
-    0x0003a832,
-    0x0003ae70,
+    0x0003200b,
+    0x00039df6,
+    0x0003aa45,
     0xffffffff,
 ];
 
@@ -45,15 +42,12 @@ pub const LAYOUT: PieceLayout<'static> = PieceLayout {
 };
 
 /// The f32 method's stand-ins, fitted to the exact model.
-pub const F32_PIECES: [F32Piece; 8] = [
+pub const F32_PIECES: [F32Piece; 5] = [
     F32Piece { kx: f32::from_bits(0x3ea16f96) /* 3.1530446e-1 */, ticks_per_rad: f32::from_bits(0x4131bc6d) /* 1.1108502e1 */, offset_ticks: f32::from_bits(0x42680e8a) /* 5.80142e1 */, ticks_per_vin_code: f32::from_bits(0xba21868e) /* -6.161713e-4 */ },
-    F32Piece { kx: f32::from_bits(0x3e73e606) /* 2.3818216e-1 */, ticks_per_rad: f32::from_bits(0x41a38695) /* 2.0440714e1 */, offset_ticks: f32::from_bits(0x4277804e) /* 6.1875298e1 */, ticks_per_vin_code: f32::from_bits(0xba5f1521) /* -8.5099234e-4 */ },
-    F32Piece { kx: f32::from_bits(0x3ea9ac04) /* 3.313905e-1 */, ticks_per_rad: f32::from_bits(0x41a89ea1) /* 2.1077456e1 */, offset_ticks: f32::from_bits(0x42332224) /* 4.478334e1 */, ticks_per_vin_code: f32::from_bits(0xba779893) /* -9.4450376e-4 */ },
-    F32Piece { kx: f32::from_bits(0x3e63cc70) /* 2.2245955e-1 */, ticks_per_rad: f32::from_bits(0x41a89ea1) /* 2.1077456e1 */, offset_ticks: f32::from_bits(0x427dd0b2) /* 6.3453804e1 */, ticks_per_vin_code: f32::from_bits(0xba812e11) /* -9.855648e-4 */ },
-    F32Piece { kx: f32::from_bits(0x3e5c4864) /* 2.151199e-1 */, ticks_per_rad: f32::from_bits(0x41a89ea1) /* 2.1077456e1 */, offset_ticks: f32::from_bits(0x4280b282) /* 6.434865e1 */, ticks_per_vin_code: f32::from_bits(0xba7c76e5) /* -9.630754e-4 */ },
-    F32Piece { kx: f32::from_bits(0x3ea37328) /* 3.1923795e-1 */, ticks_per_rad: f32::from_bits(0x418e274b) /* 1.7769186e1 */, offset_ticks: f32::from_bits(0x4247854d) /* 4.9880177e1 */, ticks_per_vin_code: f32::from_bits(0xba8b6cd3) /* -1.063729e-3 */ },
-    F32Piece { kx: f32::from_bits(0x3e87c52c) /* 2.6517618e-1 */, ticks_per_rad: f32::from_bits(0x41a89ea1) /* 2.1077456e1 */, offset_ticks: f32::from_bits(0x42585631) /* 5.408417e1 */, ticks_per_vin_code: f32::from_bits(0xba5cf8ec) /* -8.429426e-4 */ },
-    F32Piece { kx: f32::from_bits(0x3eaba7b9) /* 3.35264e-1 */, ticks_per_rad: f32::from_bits(0x412a94dd) /* 1.0661344e1 */, offset_ticks: f32::from_bits(0x42684a1a) /* 5.8072365e1 */, ticks_per_vin_code: f32::from_bits(0xba7ca1a4) /* -9.6371234e-4 */ },
+    F32Piece { kx: f32::from_bits(0x3e7a16c9) /* 2.4422754e-1 */, ticks_per_rad: f32::from_bits(0x41a89e89) /* 2.107741e1 */, offset_ticks: f32::from_bits(0x42744db6) /* 6.107589e1 */, ticks_per_vin_code: f32::from_bits(0xba62a665) /* -8.6460105e-4 */ },
+    F32Piece { kx: f32::from_bits(0x3ed8f346) /* 4.2373103e-1 */, ticks_per_rad: f32::from_bits(0x418deb3d) /* 1.7739862e1 */, offset_ticks: f32::from_bits(0x422cf05c) /* 4.3234726e1 */, ticks_per_vin_code: f32::from_bits(0xba81d1ae) /* -9.904408e-4 */ },
+    F32Piece { kx: f32::from_bits(0x3e899505) /* 2.6871505e-1 */, ticks_per_rad: f32::from_bits(0x40fcedf3) /* 7.9040465e0 */, offset_ticks: f32::from_bits(0x427ff22c) /* 6.3986496e1 */, ticks_per_vin_code: f32::from_bits(0xba90bc6d) /* -1.1042483e-3 */ },
+    F32Piece { kx: f32::from_bits(0x3e9e05fa) /* 3.0863935e-1 */, ticks_per_rad: f32::from_bits(0x413a93a6) /* 1.1661047e1 */, offset_ticks: f32::from_bits(0x4266d898) /* 5.7711517e1 */, ticks_per_vin_code: f32::from_bits(0xba7d9386) /* -9.673167e-4 */ },
 ];
 
 /// Coefficients of the fast f32 method.
@@ -66,15 +60,12 @@ pub const FAST_F32_PARTS: FastF32Parts<'static> = FastF32Parts {
 };
 
 /// The integer method's stand-ins: the same, in integers.
-pub const FIXED_PIECES: [FixedPiece; 8] = [
+pub const FIXED_PIECES: [FixedPiece; 5] = [
     FixedPiece { k_mant: 2708444672, k_shift: 33, t_mant: 45500, t_shift: 12, offset_q8: 1452, q16_per_vin_code: -40 },
-    FixedPiece { k_mant: 4091938304, k_shift: 34, t_mant: 41863, t_shift: 11, offset_q8: -8819, q16_per_vin_code: -56 },
-    FixedPiece { k_mant: 2846622720, k_shift: 33, t_mant: 43167, t_shift: 11, offset_q8: -13962, q16_per_vin_code: -62 },
-    FixedPiece { k_mant: 3821826048, k_shift: 34, t_mant: 43167, t_shift: 11, offset_q8: -9183, q16_per_vin_code: -65 },
-    FixedPiece { k_mant: 3695731712, k_shift: 34, t_mant: 43167, t_shift: 11, offset_q8: -8956, q16_per_vin_code: -63 },
-    FixedPiece { k_mant: 2742233088, k_shift: 33, t_mant: 36391, t_shift: 11, offset_q8: -8667, q16_per_vin_code: -70 },
-    FixedPiece { k_mant: 2277846016, k_shift: 33, t_mant: 43167, t_shift: 11, offset_q8: -11581, q16_per_vin_code: -55 },
-    FixedPiece { k_mant: 2879895808, k_shift: 33, t_mant: 43669, t_shift: 12, offset_q8: 2005, q16_per_vin_code: -63 },
+    FixedPiece { k_mant: 4195797248, k_shift: 34, t_mant: 43167, t_shift: 11, offset_q8: -9792, q16_per_vin_code: -57 },
+    FixedPiece { k_mant: 3639821824, k_shift: 33, t_mant: 36331, t_shift: 11, offset_q8: -10331, q16_per_vin_code: -65 },
+    FixedPiece { k_mant: 2308244736, k_shift: 33, t_mant: 64750, t_shift: 13, offset_q8: 6846, q16_per_vin_code: -72 },
+    FixedPiece { k_mant: 2651191808, k_shift: 33, t_mant: 47764, t_shift: 12, offset_q8: 707, q16_per_vin_code: -63 },
 ];
 
 /// Coefficients of the integer method.

@@ -22,11 +22,15 @@
 //! - cutting planes: the search runs on a sample of the run, and the pairs
 //!   the result misses join it until none does.
 //!
-//! A run whose margin falls short of [`TARGET_SLACK_TICKS`] is cut in two
-//! at its middle ratio; then neighbours are merged while the merged piece
-//! keeps the margin. When a run of the smallest size still has no margin,
-//! the bands are halved and the fit starts again (down to bands of
-//! [`MIN_BAND_SHIFT`]); the last attempt is kept and `zvs-timing verify`
+//! A run whose margin falls short of the target (at first
+//! [`TARGET_SLACK_TICKS`]) is cut in two at its middle ratio; then
+//! neighbours are merged while the merged piece keeps the margin. The
+//! pieces are then checked at every pair with the firmware's own
+//! arithmetic (timing-core's f32 and integer methods); a band where either
+//! puts a pair outside its interval, or half a tick from its aim, is
+//! fitted again with twice the target. When that does not settle, the
+//! bands are halved and the fit starts again (down to bands of
+//! [`MIN_BAND_SHIFT`]); the best attempt is kept and `zvs-timing verify`
 //! reports what it misses.
 //!
 //! Cuts fall on the thresholds timing-core tests in integers (the code
@@ -55,12 +59,15 @@ use crate::model::exact::ExactModel;
 pub const AIM_BAND_TICKS: f64 = 0.45;
 
 /// A piece is cut when the room left inside its pairs' intervals (the
-/// width of the offsets that would serve them all) is below this, ticks.
-pub const TARGET_SLACK_TICKS: f64 = 0.015;
+/// width of the offsets that would serve them all) is below this, ticks,
+/// at first: small, for few pieces, as the check with the firmware's
+/// arithmetic asks for more room only where it is needed.
+pub const TARGET_SLACK_TICKS: f64 = 0.004;
 
-/// Room a piece needs at least, ticks: more than the f32 arithmetic and
-/// the approximations move the delay (a few ten-thousandths of a tick).
-pub const MIN_SLACK_TICKS: f64 = 0.005;
+/// The approximation error the check allows, ticks (the model's own
+/// bound, thousandths of a tick where the event grid answers, comes on
+/// top of it in `verify`).
+const APPROX_LIMIT_TICKS: f64 = 0.49;
 
 /// Runs of fewer pairs are not cut further.
 const MIN_RUN: usize = 64;
@@ -182,9 +189,13 @@ struct Pair {
     y: f64,
     /// Voltage codes from the band's centre.
     dv: f64,
-    /// The interval of the delay before rounding, ticks.
+    /// The interval of the delay before rounding the fit aims inside,
+    /// ticks: the pair's own, also held within [`AIM_BAND_TICKS`] of the
+    /// aim.
     lo: f64,
     hi: f64,
+    /// The pair's own interval (windows and error budget), ticks.
+    own: (f64, f64),
     /// The design's aim, ticks.
     aim: f64,
 }
@@ -310,7 +321,7 @@ fn voltage_slope(pairs: &[Pair], a: &[f64]) -> f64 {
 
 /// [`fit_sample`] by cutting planes over all of `pairs`; the stand-in with
 /// its coefficients rounded to f32 and its slack over every pair.
-fn fit_run(pairs: &[Pair], s: Start) -> (StandIn, f64) {
+fn fit_run(pairs: &[Pair], s: Start, target: f64) -> (StandIn, f64) {
     let mut sel: Vec<Pair> = pairs.iter().step_by(SAMPLE).copied().collect();
     if let Some(last) = pairs.last() {
         sel.push(*last);
@@ -320,7 +331,7 @@ fn fit_run(pairs: &[Pair], s: Start) -> (StandIn, f64) {
         let fit = fit.rounded();
         let all = fit.slack(pairs, s.position);
         // Done when the sample has no room to give or every pair has it.
-        if slack < TARGET_SLACK_TICKS || all >= TARGET_SLACK_TICKS {
+        if slack < target || all >= target {
             return (fit, all);
         }
         let before = sel.len();
@@ -329,7 +340,7 @@ fn fit_run(pairs: &[Pair], s: Start) -> (StandIn, f64) {
                 .iter()
                 .filter(|p| {
                     let r = fit.raw(p, s.position);
-                    (r - p.lo).min(p.hi - r) < 0.5 * TARGET_SLACK_TICKS
+                    (r - p.lo).min(p.hi - r) < 0.5 * target
                 })
                 .step_by(4)
                 .take(1000),
@@ -374,11 +385,11 @@ fn cut(pairs: &[Pair], bits: u8) -> Option<(u32, usize)> {
 }
 
 /// The pieces of one band's sorted pairs.
-fn fit_band(pairs: &[Pair], s: Start, bits: u8) -> Vec<Run> {
+fn fit_band(pairs: &[Pair], s: Start, bits: u8, target: f64) -> Vec<Run> {
     let mut todo = vec![(0, pairs.len(), u32::MAX)];
     let mut done: Vec<Run> = Vec::new();
     while let Some((start, end, end_q)) = todo.pop() {
-        let (fit, slack) = fit_run(&pairs[start..end], s);
+        let (fit, slack) = fit_run(&pairs[start..end], s, target);
         let run = Run {
             start,
             end,
@@ -386,7 +397,7 @@ fn fit_band(pairs: &[Pair], s: Start, bits: u8) -> Vec<Run> {
             fit,
             slack,
         };
-        let at = (slack < TARGET_SLACK_TICKS && end - start > MIN_RUN)
+        let at = (slack < target && end - start > MIN_RUN)
             .then(|| cut(&pairs[start..end], bits))
             .flatten();
         match at {
@@ -402,8 +413,8 @@ fn fit_band(pairs: &[Pair], s: Start, bits: u8) -> Vec<Run> {
     let mut k = 0;
     while k + 1 < done.len() {
         let (a, b) = (done[k], done[k + 1]);
-        let (fit, slack) = fit_run(&pairs[a.start..b.end], s);
-        if slack >= TARGET_SLACK_TICKS.min(a.slack).min(b.slack) {
+        let (fit, slack) = fit_run(&pairs[a.start..b.end], s, target);
+        if slack >= target.min(a.slack).min(b.slack) {
             done[k] = Run {
                 start: a.start,
                 end: b.end,
@@ -483,7 +494,7 @@ pub fn fit_pieces(design: &Design, model: &ExactModel<'_>) -> Result<PieceSet, t
         let req = Requirements::new(design, model, &|cv, ci| {
             !fixed || probe.expects_zvs(AdcCode::new(cv), AdcCode::new(ci))
         });
-        let per_band = crate::par::map_rows(bands.len(), |b| {
+        let band_pairs = crate::par::map_rows(bands.len(), |b| {
             let first = vv.lo + ((b as u16) << shift);
             let last = first.saturating_add((1u16 << shift) - 1).min(vv.hi);
             let mut pairs: Vec<Pair> = req
@@ -504,6 +515,7 @@ pub fn fit_pieces(design: &Design, model: &ExactModel<'_>) -> Result<PieceSet, t
                         dv: band_of(vv, shift, q.vin).1,
                         lo,
                         hi,
+                        own: (q.lo, q.hi),
                         aim: q.aim,
                     }
                 })
@@ -511,78 +523,48 @@ pub fn fit_pieces(design: &Design, model: &ExactModel<'_>) -> Result<PieceSet, t
             pairs.sort_by(|a, b| {
                 (u64::from(a.v) * u64::from(b.i)).cmp(&(u64::from(b.v) * u64::from(a.i)))
             });
-            if pairs.is_empty() {
-                return Vec::new();
-            }
-            fit_band(&pairs, start, bits)
-                .into_iter()
-                .map(|r| {
-                    let run = &pairs[r.start..r.end];
-                    let fixed =
-                        FixedPiece::new(r.fit.kx, r.fit.tpr, r.fit.off, r.fit.c).and_then(|p| {
-                            let q = StandIn {
-                                kx: p.kx(),
-                                tpr: p.ticks_per_rad(),
-                                off: r.fit.off,
-                                c: p.ticks_per_vin_code(),
-                            }
-                            .centred(run, position);
-                            FixedPiece::new(q.kx, q.tpr, q.off, q.c)
-                        });
-                    (r, f32_piece(r.fit), fixed)
-                })
-                .collect::<Vec<_>>()
+            pairs
         });
-        let mut set_bands = Vec::with_capacity(bands.len());
-        let (mut ends, mut f32_pieces, mut fixed_pieces) = (Vec::new(), Vec::new(), Ok(Vec::new()));
-        let mut least = f64::INFINITY;
-        for (band, runs) in bands.iter().zip(per_band) {
-            set_bands.push(Band {
-                first: ends.len() as u16,
-                ..*band
+        // Fit every band, check the pieces with the firmware's own
+        // arithmetic (f32 and integers), and fit a band again with twice
+        // the room wherever a pair falls outside its interval.
+        let mut targets = vec![TARGET_SLACK_TICKS; bands.len()];
+        let mut fitted: Vec<Option<Vec<Fitted>>> = vec![None; bands.len()];
+        let mut set = None;
+        for _ in 0..CHECK_ROUNDS {
+            let todo: Vec<usize> = (0..bands.len()).filter(|&b| fitted[b].is_none()).collect();
+            let done = crate::par::map_rows(todo.len(), |k| {
+                let b = todo[k];
+                fit_pieces_of_band(&band_pairs[b], start, bits, targets[b])
             });
-            if runs.is_empty() {
-                // No pair to serve (all sent to a fixed fallback): the
-                // ideal stand-in.
-                let ideal = StandIn {
-                    kx: start.kx,
-                    tpr: start.tpr,
-                    off: -design.timer.lead_s() * design.timer.clock_hz(),
-                    c: 0.0,
-                };
-                ends.push(u32::MAX);
-                f32_pieces.push(f32_piece(ideal));
-                push_fixed(
-                    &mut fixed_pieces,
-                    FixedPiece::new(ideal.kx, ideal.tpr, ideal.off, 0.0),
-                );
+            for (b, f) in todo.into_iter().zip(done) {
+                fitted[b] = Some(f);
             }
-            for (run, f, x) in runs {
-                least = least.min(run.slack);
-                ends.push(run.end_q);
-                f32_pieces.push(f);
-                push_fixed(&mut fixed_pieces, x);
+            let assembled = assemble(design, &bands, &fitted, shift, bits, start);
+            let missed = missed_bands(&assembled, &band_pairs);
+            let clean = missed.is_empty();
+            for b in missed {
+                targets[b] *= 2.0;
+                fitted[b] = None;
+            }
+            set = Some((assembled, clean));
+            if clean {
+                break;
             }
         }
-        PieceSet {
-            vin: vv,
-            io: iv,
-            io_zero: zero,
-            band_shift: shift,
-            ratio_bits: bits,
-            bands: set_bands,
-            ends,
-            f32_pieces,
-            fixed_pieces,
-            position,
-            max_ticks: design.timer.max_ticks().get(),
-            fallback: design.fallback,
-            least_slack_ticks: least,
+        // `CHECK_ROUNDS` is at least one.
+        match set {
+            Some((s, true)) => s,
+            Some((s, false)) => PieceSet {
+                least_slack_ticks: s.least_slack_ticks.min(-f64::MIN_POSITIVE),
+                ..s
+            },
+            None => assemble(design, &bands, &fitted, shift, bits, start),
         }
     };
     let mut shift = widest;
     let mut best = attempt(shift);
-    while best.least_slack_ticks < MIN_SLACK_TICKS && shift > MIN_BAND_SHIFT && !too_big(&best) {
+    while best.least_slack_ticks < 0.0 && shift > MIN_BAND_SHIFT && !too_big(&best) {
         shift -= 1;
         let next = attempt(shift);
         if next.least_slack_ticks > best.least_slack_ticks {
@@ -590,6 +572,116 @@ pub fn fit_pieces(design: &Design, model: &ExactModel<'_>) -> Result<PieceSet, t
         }
     }
     Ok(best)
+}
+
+/// Rounds of fitting and checking with the firmware's arithmetic.
+const CHECK_ROUNDS: usize = 6;
+
+/// A fitted run with both methods' pieces.
+type Fitted = (Run, F32Piece, Result<FixedPiece, timing_core::Error>);
+
+/// The runs of one band's sorted pairs and their pieces.
+fn fit_pieces_of_band(pairs: &[Pair], start: Start, bits: u8, target: f64) -> Vec<Fitted> {
+    if pairs.is_empty() {
+        return Vec::new();
+    }
+    fit_band(pairs, start, bits, target)
+        .into_iter()
+        .map(|r| {
+            let run = &pairs[r.start..r.end];
+            let fixed = FixedPiece::new(r.fit.kx, r.fit.tpr, r.fit.off, r.fit.c).and_then(|p| {
+                let q = StandIn {
+                    kx: p.kx(),
+                    tpr: p.ticks_per_rad(),
+                    off: r.fit.off,
+                    c: p.ticks_per_vin_code(),
+                }
+                .centred(run, start.position);
+                FixedPiece::new(q.kx, q.tpr, q.off, q.c)
+            });
+            (r, f32_piece(r.fit), fixed)
+        })
+        .collect()
+}
+
+/// The piece set of the bands' fitted runs (a band without runs gets the
+/// ideal stand-in).
+fn assemble(
+    design: &Design,
+    bands: &[Band],
+    fitted: &[Option<Vec<Fitted>>],
+    shift: u8,
+    bits: u8,
+    start: Start,
+) -> PieceSet {
+    let mut set_bands = Vec::with_capacity(bands.len());
+    let (mut ends, mut f32_pieces, mut fixed_pieces) = (Vec::new(), Vec::new(), Ok(Vec::new()));
+    let mut least = f64::INFINITY;
+    for (band, runs) in bands.iter().zip(fitted) {
+        set_bands.push(Band {
+            first: ends.len() as u16,
+            ..*band
+        });
+        let runs = runs.as_deref().unwrap_or(&[]);
+        if runs.is_empty() {
+            // No pair to serve (all sent to a fixed fallback): the ideal
+            // stand-in.
+            let ideal = StandIn {
+                kx: start.kx,
+                tpr: start.tpr,
+                off: -design.timer.lead_s() * design.timer.clock_hz(),
+                c: 0.0,
+            };
+            ends.push(u32::MAX);
+            f32_pieces.push(f32_piece(ideal));
+            push_fixed(
+                &mut fixed_pieces,
+                FixedPiece::new(ideal.kx, ideal.tpr, ideal.off, 0.0),
+            );
+        }
+        for (run, f, x) in runs {
+            least = least.min(run.slack);
+            ends.push(run.end_q);
+            f32_pieces.push(*f);
+            push_fixed(&mut fixed_pieces, *x);
+        }
+    }
+    PieceSet {
+        vin: design.vin_codes,
+        io: design.io_codes,
+        io_zero: design.io_zero_code,
+        band_shift: shift,
+        ratio_bits: bits,
+        bands: set_bands,
+        ends,
+        f32_pieces,
+        fixed_pieces,
+        position: start.position,
+        max_ticks: design.timer.max_ticks().get(),
+        fallback: design.fallback,
+        least_slack_ticks: least,
+    }
+}
+
+/// The bands where the firmware's arithmetic (either method) puts a pair
+/// outside its own interval or half a tick or more from its aim.
+fn missed_bands(set: &PieceSet, band_pairs: &[Vec<Pair>]) -> Vec<usize> {
+    let (Ok(fast), fixed) = (set.fast_f32(), set.fixed_point()) else {
+        return Vec::new();
+    };
+    let missed = crate::par::map_rows(band_pairs.len(), |b| {
+        band_pairs[b].iter().any(|p| {
+            let (v, i) = (AdcCode::new(p.v), AdcCode::new(p.i + set.io_zero));
+            let outside = |r: f64| {
+                !(p.own.0..p.own.1).contains(&r) || (r - p.aim).abs() >= APPROX_LIMIT_TICKS
+            };
+            outside(f64::from(fast.raw_ticks(v, i).0))
+                || fixed
+                    .as_ref()
+                    .is_ok_and(|m| outside(f64::from(m.raw_ticks_q8(v, i).0) / 256.0))
+        })
+    });
+    (0..band_pairs.len()).filter(|&b| missed[b]).collect()
 }
 
 fn push_fixed(

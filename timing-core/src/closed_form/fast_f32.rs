@@ -1,7 +1,7 @@
 //! The closed form in f32 with fast approximations, piece by piece
-//! ([`PieceLayout`]): one root by [`rsqrt_f32`], the arcsine and
-//! `sqrt(1 + x)` by the [`asin_factor_f32`] and [`sqrt1p_f32`]
-//! polynomials, no library call. Every float operation
+//! ([`PieceLayout`]): one root by [`rsqrt_f32`], the arcsine factor and
+//! `sqrt(1 + x)` by their fits ([`ASIN_FACTOR`], [`SQRT1P_F32`]) merged
+//! into one polynomial for the design's aim position, no library call. Every float operation
 //! is an IEEE single-precision add, multiply or divide (two divides), and
 //! the piece is picked in integers, so the host's exhaustive proof of its
 //! error holds on the target bit for bit; the firmware example's ISR-COST
@@ -9,9 +9,9 @@
 
 use super::pieces::PieceLayout;
 use super::round_ticks;
-use crate::approx::asin_f32::asin_factor_f32;
+use crate::approx::asin_f32::ASIN_FACTOR;
 use crate::approx::rsqrt_f32::rsqrt_f32;
-use crate::approx::sqrt1p_f32::sqrt1p_f32;
+use crate::approx::sqrt1p_f32::SQRT1P_F32;
 use crate::error::{Error, Quantity};
 use crate::table::{Fallback, Lookup};
 use crate::{AdcCode, Ticks};
@@ -102,6 +102,26 @@ impl FastF32Parts<'_> {
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct FastF32<'a> {
     parts: FastF32Parts<'a>,
+    /// `G(x) = p*sqrt(1 + x) - x*P(x)`, lowest order first (degree 6):
+    /// the [`SQRT1P_F32`] and [`ASIN_FACTOR`] fits merged for the
+    /// position `p`.
+    g: [f32; 7],
+}
+
+/// [`FastF32`]'s `G` coefficients for position `p` (f32 arithmetic, the
+/// same in `const` evaluation as at run time).
+const fn g_coefficients(p: f32) -> [f32; 7] {
+    let [s0, s1, s2, s3, s4, s5] = SQRT1P_F32;
+    let [a0, a1, a2, a3, a4, a5] = ASIN_FACTOR;
+    [
+        p * s0,
+        p * s1 - a0,
+        p * s2 - a1,
+        p * s3 - a2,
+        p * s4 - a3,
+        p * s5 - a4,
+        -a5,
+    ]
 }
 
 impl<'a> FastF32<'a> {
@@ -111,7 +131,10 @@ impl<'a> FastF32<'a> {
     /// As [`FastF32Parts::check`].
     pub const fn from_parts(parts: FastF32Parts<'a>) -> Result<Self, Error> {
         match parts.check() {
-            Ok(()) => Ok(Self { parts }),
+            Ok(()) => Ok(Self {
+                parts,
+                g: g_coefficients(parts.position),
+            }),
             Err(e) => Err(e),
         }
     }
@@ -136,7 +159,7 @@ impl<'a> FastF32<'a> {
             return (0.0, false);
         };
         let y = f32::from(s.v) / f32::from(s.i);
-        (ticks(piece, y, s.dv as f32, p.position), s.zvs)
+        (ticks(piece, y, s.dv as f32, &self.g), s.zvs)
     }
 
     /// The delay to command: the nearest tick, clamped to the counter;
@@ -156,15 +179,16 @@ impl<'a> FastF32<'a> {
 /// centre, ticks: `x = kx * y`; for `x <= 1` the ZVS angle
 /// `x + 3pi/2 + sqrt(1 - x) * G(x) / x` with
 /// `G(x) = p*sqrt(1 + x) - x*P(x)` and `P(x) = (pi/2 - asin x)/sqrt(1 - x)`
-/// (one root), else the valley's `x + 3pi/2`.
+/// (one root, one polynomial), else the valley's `x + 3pi/2`.
 #[inline]
-fn ticks(piece: &F32Piece, y: f32, dv: f32, position: f32) -> f32 {
+fn ticks(piece: &F32Piece, y: f32, dv: f32, g: &[f32; 7]) -> f32 {
     let x = piece.kx * y;
     let base = x * piece.ticks_per_rad + piece.offset_ticks + piece.ticks_per_vin_code * dv;
     if x <= 1.0 {
         let t = 1.0 - x;
-        let g = position * sqrt1p_f32(x) - x * asin_factor_f32(x);
-        base + piece.ticks_per_rad * (t * rsqrt_f32(t)) * g / x
+        let [g0, g1, g2, g3, g4, g5, g6] = *g;
+        let gx = (((((g6 * x + g5) * x + g4) * x + g3) * x + g2) * x + g1) * x + g0;
+        base + piece.ticks_per_rad * (t * rsqrt_f32(t)) * gx / x
     } else {
         base
     }

@@ -214,7 +214,9 @@ impl PieceLayout<'_> {
         let k = match ends {
             [head, ..] if !above(head) => 0,
             [.., tail] if above(tail) => ends.len(),
-            _ => ends.partition_point(above),
+            // Above the first, below the last: between them.
+            [_, inner @ .., _] => 1 + inner.partition_point(above),
+            _ => 0,
         };
         let lo = first + k;
         Selected {
