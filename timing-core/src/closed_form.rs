@@ -1,6 +1,5 @@
 //! The closed-form turn-on delay evaluated from the ADC codes on the
-//! interrupt path, without a table, three ways from one validated
-//! [`ClosedForm`]:
+//! interrupt path, without a table, three ways:
 //!
 //! - [`FastF32`]: f32 with this crate's own approximations
 //!   ([`approx`](crate::approx)): adds, multiplies and two divides, for cores
@@ -8,23 +7,29 @@
 //! - [`FixedPoint`]: 32-bit integer arithmetic only, no division and no
 //!   leading-zero count, for cores without an FPU or a divider (ARMv6-M);
 //! - [`LibmF32`]: the straightforward f32 formula with `libm`'s `asinf` and
-//!   `sqrtf`, the baseline the other two are measured against.
+//!   `sqrtf` on one stand-in, the baseline the other two are measured
+//!   against.
 //!
 //! With `x = 1/J = kx * vin_code / (io_code - io_zero)`, where
 //! `kx = (V per code) / ((A per code) * Z0)` (J = Io*Z0/Vin for every cell),
-//! the turn-on angle `w0 * t` from gate turn-off (DESIGN.md section 2,
+//! the ideal turn-on angle `w0 * t` from gate turn-off (DESIGN.md section 2,
 //! [`normalized::turn_on_angle`](crate::normalized::turn_on_angle)) is
 //!
 //! - ZVS (`x <= 1`): `x + pi + asin(x) + p*sqrt(1 - x^2)/x`, written as
-//!   `x + 3pi/2 + sqrt(1 - x) * (p*J*sqrt(1 + x) - P(x))` with
-//!   `P(x) = (pi/2 - asin x) / sqrt(1 - x)`;
+//!   `x + 3pi/2 + sqrt(1 - x) * G(x) / x` with
+//!   `G(x) = p*sqrt(1 + x) - x*P(x)` and `P(x) = (pi/2 - asin x) / sqrt(1 - x)`;
 //! - valley (`x > 1`): `x + 3pi/2`;
 //!
 //! the two branches meet at `x = 1`. The delay in ticks is the angle times
-//! `f_clk / w0`, less the driver's net lead, rounded to the nearest tick
-//! (moved by one tick into the window when rounding left it outside and
-//! the next tick is inside) and clamped to the counter. Codes outside the design range clamp to its
-//! edge, as in the tables.
+//! `f_clk / w0`, less the driver's net lead. [`FastF32`] and [`FixedPoint`]
+//! evaluate it in pieces ([`pieces`]): each run of code ratios in a band of
+//! voltage codes has its own `kx`, ticks per radian, offset and voltage
+//! slope, which the host tool fits to a real tank (Coss curve, losses,
+//! tolerance box); [`ClosedForm`] gives the ideal cell as one piece. They
+//! round to the nearest tick and clamp to the counter ([`LibmF32`] also
+//! moves a rounded tick by one into its window when rounding left it
+//! outside and the next tick is inside). Codes outside the design range
+//! clamp to its edge, as in the tables.
 //!
 //! Accuracy: each method's worst error against the f64 model is proven on
 //! the host by evaluating the method (bit-identical IEEE f32 or integer
