@@ -200,9 +200,9 @@ pub fn generate_with_progress(
         None => model,
     };
     let max_ticks = delay_bounds(design, &model)?;
-    progress("fitting the closed form's pieces", 0.0);
-    let pieces = pieces::fit_pieces(design, &model).ok();
-    progress("fitting the closed form's pieces", 1.0);
+    // The closed forms' pieces, fitted when a table first reaches its
+    // proof (they join that pass over the code pairs).
+    let mut pieces: Option<Option<pieces::PieceSet>> = None;
     // Candidates are sized on a dry model first; entries are computed only
     // for those screened, smallest first.
     let dry = model.dry();
@@ -397,14 +397,7 @@ pub fn generate_with_progress(
             best = Some((err, miss, g.layout_name(), all));
         }
         if meets {
-            if let Some(c) = accept(
-                design,
-                &model,
-                pieces.as_ref(),
-                g,
-                &mut candidates,
-                progress,
-            )? {
+            if let Some(c) = accept(design, &model, &mut pieces, g, &mut candidates, progress)? {
                 chosen = Some(c);
             }
         } else if fallback.is_none() && all && err <= design.max_error_ticks {
@@ -417,14 +410,7 @@ pub fn generate_with_progress(
     // and reported.
     if chosen.is_none() {
         if let Some(g) = fallback {
-            chosen = accept(
-                design,
-                &model,
-                pieces.as_ref(),
-                g,
-                &mut candidates,
-                progress,
-            )?;
+            chosen = accept(design, &model, &mut pieces, g, &mut candidates, progress)?;
         }
     }
     match chosen {
@@ -433,7 +419,7 @@ pub fn generate_with_progress(
             verification,
             candidates,
             closed_forms,
-            pieces,
+            pieces: pieces.flatten(),
         }),
         None => {
             let (best, misses, layout, every_pair) =
@@ -460,7 +446,7 @@ pub fn generate_with_progress(
 fn accept(
     design: &Design,
     model: &ExactModel<'_>,
-    pieces: Option<&pieces::PieceSet>,
+    pieces: &mut Option<Option<pieces::PieceSet>>,
     g: Generated,
     candidates: &mut [Candidate],
     progress: &mut dyn FnMut(&str, f64),
@@ -473,6 +459,12 @@ fn accept(
     // The closed forms the design allows join the table's pass over the
     // code pairs (the exact model runs once per pair for all of them).
     let cf = design.closed_form().ok();
+    if pieces.is_none() {
+        progress("fitting the closed forms' pieces", 0.0);
+        *pieces = Some(self::pieces::fit_pieces(design, model).ok());
+        progress("fitting the closed forms' pieces", 1.0);
+    }
+    let pieces = pieces.as_ref().and_then(Option::as_ref);
     let fast = pieces.and_then(|p| p.fast_f32().ok());
     let fixed = pieces.and_then(|p| p.fixed_point().ok());
     let libm = cf.as_ref().and_then(|c| c.libm_f32().ok());

@@ -562,17 +562,32 @@ pub fn fit_pieces(design: &Design, model: &ExactModel<'_>) -> Result<PieceSet, t
             None => assemble(design, &bands, &fitted, shift, bits, start),
         }
     };
+    // Narrower bands while pieces still miss, up to MAX_ATTEMPTS, and not
+    // after two attempts that gained nothing.
     let mut shift = widest;
     let mut best = attempt(shift);
-    while best.least_slack_ticks < 0.0 && shift > MIN_BAND_SHIFT && !too_big(&best) {
+    let (mut tries, mut stale) = (1, 0);
+    while best.least_slack_ticks < 0.0
+        && shift > MIN_BAND_SHIFT
+        && tries < MAX_ATTEMPTS
+        && stale < 2
+        && !too_big(&best)
+    {
         shift -= 1;
+        tries += 1;
         let next = attempt(shift);
         if next.least_slack_ticks > best.least_slack_ticks {
             best = next;
+            stale = 0;
+        } else {
+            stale += 1;
         }
     }
     Ok(best)
 }
+
+/// Band widths tried at most (each half the last).
+const MAX_ATTEMPTS: usize = 5;
 
 /// Rounds of fitting and checking with the firmware's arithmetic.
 const CHECK_ROUNDS: usize = 6;

@@ -36,14 +36,14 @@ pub(crate) fn run_montecarlo(args: &MonteCarloArgs) -> anyhow::Result<()> {
     let design = host_tool::model::design::Design::load(&args.design)?;
     let cf = design.closed_form()?;
     let file = read_table(&design, args.table.as_deref(), args.method)?;
-    let pieces = method_pieces(&design, args.method)?;
-    let method = open_method(&cf, file.as_ref(), pieces.as_ref(), args.method)?;
     crate::args::check_cost(
         &format!("{} boards x {} cycles", args.boards, args.cycles),
         host_tool::check::cost::montecarlo_s(u64::from(args.boards), u64::from(args.cycles)),
         args.allow_long,
         "draw fewer boards or cycles",
     )?;
+    let pieces = method_pieces(&design, args.method)?;
+    let method = open_method(&cf, file.as_ref(), pieces.as_ref(), args.method)?;
     let mut bar = crate::args::Progress::new(args.json);
     let mut tick = |f: f64| bar.set("boards", f);
     let r = host_tool::check::montecarlo::run(

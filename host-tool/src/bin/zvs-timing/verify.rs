@@ -134,8 +134,6 @@ pub(crate) fn run_verify(args: &VerifyArgs) -> anyhow::Result<ExitCode> {
     let design = Design::load(&args.design)?;
     let cf = design.closed_form()?;
     let file = read_table(&design, args.table.as_deref(), args.method)?;
-    let pieces = method_pieces(&design, args.method)?;
-    let method = open_method(&cf, file.as_ref(), pieces.as_ref(), args.method)?;
     crate::args::check_cost(
         &format!(
             "verifying {} at {} code pairs",
@@ -146,6 +144,8 @@ pub(crate) fn run_verify(args: &VerifyArgs) -> anyhow::Result<ExitCode> {
         args.allow_long,
         "narrow the design range",
     )?;
+    let pieces = method_pieces(&design, args.method)?;
+    let method = open_method(&cf, file.as_ref(), pieces.as_ref(), args.method)?;
     let start = std::time::Instant::now();
     let mut bar = crate::args::Progress::new(args.json);
     let mut tick = |f: f64| bar.set("verifying", f);
