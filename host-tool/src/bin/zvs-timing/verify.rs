@@ -144,7 +144,9 @@ pub(crate) fn run_verify(args: &VerifyArgs) -> anyhow::Result<ExitCode> {
         args.allow_long,
         "narrow the design range",
     )?;
+    let fit_start = std::time::Instant::now();
     let pieces = method_pieces(&design, args.method)?;
+    let fit_s = fit_start.elapsed().as_secs_f64();
     let method = open_method(&cf, file.as_ref(), pieces.as_ref(), args.method)?;
     let start = std::time::Instant::now();
     let mut bar = crate::args::Progress::new(args.json);
@@ -162,9 +164,23 @@ pub(crate) fn run_verify(args: &VerifyArgs) -> anyhow::Result<ExitCode> {
             "points_checked": v.points_checked,
             "report": v,
             "seconds": start.elapsed().as_secs_f64(),
+            "pieces": pieces.as_ref().map(|p| serde_json::json!({
+                "pieces": p.len(),
+                "bands": p.bands(),
+                "fit_seconds": fit_s,
+            })),
         });
         outln!("{}", serde_json::to_string_pretty(&j)?);
     } else {
+        if let Some(p) = &pieces {
+            outln!(
+                "{}: {} pieces in {} voltage band{}, fitted to the exact model in {fit_s:.1} s",
+                args.method.name(),
+                p.len(),
+                p.bands(),
+                if p.bands() == 1 { "" } else { "s" }
+            );
+        }
         out!(
             "{}",
             host_tool::report::render::verification_text(&v, design.timer.clock_hz())
