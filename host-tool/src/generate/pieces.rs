@@ -229,14 +229,9 @@ impl StandIn {
     /// The offset centred in the room the pairs leave the other
     /// constants.
     fn centred(self, pairs: &[Pair], position: f64) -> Self {
-        let (mut f, mut g) = (f64::NEG_INFINITY, f64::INFINITY);
-        for p in pairs {
-            let e = self.raw(p, position) - self.off;
-            f = f.max(p.lo - e);
-            g = g.min(p.hi - e);
-        }
+        let (width, centre) = room(pairs.iter().map(|p| (p, self.raw(p, position) - self.off)));
         Self {
-            off: if f <= g { 0.5 * (f + g) } else { self.off },
+            off: if width >= 0.0 { centre } else { self.off },
             ..self
         }
     }
@@ -250,6 +245,18 @@ impl StandIn {
             c: r(self.c),
         }
     }
+}
+
+/// The offsets that put every pair's delay (its part `e` without the
+/// offset) inside its interval: their width (negative when none does)
+/// and their centre, ticks.
+fn room<'p>(parts: impl Iterator<Item = (&'p Pair, f64)>) -> (f64, f64) {
+    let (mut f, mut g) = (f64::NEG_INFINITY, f64::INFINITY);
+    for (p, e) in parts {
+        f = f.max(p.lo - e);
+        g = g.min(p.hi - e);
+    }
+    (g - f, 0.5 * (f + g))
 }
 
 fn golden(mut lo: f64, mut hi: f64, steps: usize, f: impl Fn(f64) -> f64) -> f64 {
@@ -289,17 +296,9 @@ fn fit_sample(pairs: &[Pair], s: Start) -> (StandIn, f64) {
             .map(|p| turn_on_angle(1.0 / (kx * p.y), s.position))
             .collect();
         let c = voltage_slope(pairs, &a);
-        let room = |t: f64| -> (f64, f64) {
-            let (mut f, mut g) = (f64::NEG_INFINITY, f64::INFINITY);
-            for (p, a) in pairs.iter().zip(&a) {
-                let e = a * t + c * p.dv;
-                f = f.max(p.lo - e);
-                g = g.min(p.hi - e);
-            }
-            (g - f, 0.5 * (f + g))
-        };
-        let t = golden(0.6 * s.tpr, 1.6 * s.tpr, 40, |t| room(t).0);
-        let (slack, off) = room(t);
+        let room_at = |t: f64| room(pairs.iter().zip(&a).map(|(p, a)| (p, a * t + c * p.dv)));
+        let t = golden(0.6 * s.tpr, 1.6 * s.tpr, 40, |t| room_at(t).0);
+        let (slack, off) = room_at(t);
         (StandIn { kx, tpr: t, off, c }, slack)
     };
     let kx = golden(0.6 * s.kx, 1.6 * s.kx, 36, |k| at_kx(k).1);
