@@ -4,7 +4,7 @@
 // 2749050 code pairs (codes outside vin 2237..=3726 / io 205..=2049 clamp to the range edge):
 // closed-form-f32: approximation error at most 0.4488 ticks before rounding; commanded error at most 0.927 ticks (RMS 0.329);
 //   1061 of 1835198 ZVS turn-ons outside the window (0 where it is a tick wide or more); 0 of 1570220 outside the robust window.
-// fixed-point: approximation error at most 0.4552 ticks before rounding; commanded error at most 0.934 ticks (RMS 0.329);
+// fixed-point: approximation error at most 0.4552 ticks before rounding; commanded error at most 0.932 ticks (RMS 0.329);
 //   1061 of 1835198 ZVS turn-ons outside the window (0 where it is a tick wide or more); 0 of 1570220 outside the robust window.
 // libm-f32: approximation error at most 3.9745 ticks before rounding; commanded error at most 4.417 ticks (RMS 1.556);
 //   14666 of 1835198 ZVS turn-ons outside the window (12414 where it is a tick wide or more); 368045 of 1570220 outside the robust window.
@@ -61,11 +61,11 @@ pub const FAST_F32_PARTS: FastF32Parts<'static> = FastF32Parts {
 
 /// The integer method's stand-ins: the same, in integers.
 pub const FIXED_PIECES: [FixedPiece; 5] = [
-    FixedPiece { k_mant: 2708444672, k_shift: 33, t_mant: 45500, t_shift: 12, offset_q8: 1452, q16_per_vin_code: -40 },
-    FixedPiece { k_mant: 4195797248, k_shift: 34, t_mant: 43167, t_shift: 11, offset_q8: -9792, q16_per_vin_code: -57 },
-    FixedPiece { k_mant: 3639821824, k_shift: 33, t_mant: 36331, t_shift: 11, offset_q8: -10331, q16_per_vin_code: -65 },
-    FixedPiece { k_mant: 2308244736, k_shift: 33, t_mant: 64750, t_shift: 13, offset_q8: 6846, q16_per_vin_code: -72 },
-    FixedPiece { k_mant: 2651191808, k_shift: 33, t_mant: 47764, t_shift: 12, offset_q8: 707, q16_per_vin_code: -63 },
+    FixedPiece { k_mant: 41328, k_shift: 17, t_mant: 45500, t_shift: 12, offset_q8: 1452, q16_per_vin_code: -40 },
+    FixedPiece { k_mant: 64023, k_shift: 18, t_mant: 43167, t_shift: 11, offset_q8: -9792, q16_per_vin_code: -57 },
+    FixedPiece { k_mant: 55539, k_shift: 17, t_mant: 36331, t_shift: 11, offset_q8: -10331, q16_per_vin_code: -65 },
+    FixedPiece { k_mant: 35221, k_shift: 17, t_mant: 64750, t_shift: 13, offset_q8: 6846, q16_per_vin_code: -72 },
+    FixedPiece { k_mant: 40454, k_shift: 17, t_mant: 47764, t_shift: 12, offset_q8: 707, q16_per_vin_code: -63 },
 ];
 
 /// Coefficients of the integer method.

@@ -183,7 +183,8 @@ impl ClosedForm {
             offset_ticks: (ticks_per_rad * (1.5 * core::f64::consts::PI) - lead_ticks) as f32,
             ticks_per_vin_code: 0.0,
         };
-        let fixed = FixedPiece::new(kx, ticks_per_rad, -lead_ticks, 0.0).map(|p| [p; 2]);
+        let fixed = FixedPiece::new(kx, ticks_per_rad, -lead_ticks, 0.0, s.io.hi - s.io_zero)
+            .map(|p| [p; 2]);
         // One band over the range (two past 2^15 codes); ZVS where J >= 1,
         // i.e. at currents above kx * vin_code (in codes above the zero).
         let span = s.vin.hi - s.vin.lo;

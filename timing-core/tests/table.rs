@@ -246,6 +246,12 @@ fn log2_q15_against_libm() {
         );
     }
     assert_eq!(timing_core::table::log2::floor_log2(u32::MAX), 31);
+    for t in 1u32..1 << 16 {
+        assert_eq!(
+            timing_core::table::log2::floor_log2_16(t),
+            31 - t.leading_zeros()
+        );
+    }
 }
 
 #[test]

@@ -286,6 +286,9 @@ struct Start {
     kx: f64,
     tpr: f64,
     position: f64,
+    /// The largest current code less the zero (bounds the integer
+    /// method's `k_shift`).
+    io_span: u16,
 }
 
 /// The largest-slack stand-in for `pairs` (all of them in the fit).
@@ -470,12 +473,13 @@ pub fn fit_pieces(design: &Design, model: &ExactModel<'_>) -> Result<PieceSet, t
     let widest = (16 - span.leading_zeros()).min(15) as u8;
     let bits = ratio_bits(design);
     let position = design.position.get();
+    let zero = design.io_zero_code;
     let start = Start {
         kx: cf.kx(),
         tpr: cf.ticks_per_rad(),
         position,
+        io_span: iv.hi - zero,
     };
-    let zero = design.io_zero_code;
     let attempt = |shift: u8| -> PieceSet {
         let bands = boundary_bands(design, model, shift);
         let fixed = matches!(design.fallback, Fallback::Fixed(_));
@@ -603,16 +607,17 @@ fn fit_pieces_of_band(pairs: &[Pair], start: Start, bits: u8, target: f64) -> Ve
         .into_iter()
         .map(|r| {
             let run = &pairs[r.start..r.end];
-            let fixed = FixedPiece::new(r.fit.kx, r.fit.tpr, r.fit.off, r.fit.c).and_then(|p| {
-                let q = StandIn {
-                    kx: p.kx(),
-                    tpr: p.ticks_per_rad(),
-                    off: r.fit.off,
-                    c: p.ticks_per_vin_code(),
-                }
-                .centred(run, start.position);
-                FixedPiece::new(q.kx, q.tpr, q.off, q.c)
-            });
+            let fixed = FixedPiece::new(r.fit.kx, r.fit.tpr, r.fit.off, r.fit.c, start.io_span)
+                .and_then(|p| {
+                    let q = StandIn {
+                        kx: p.kx(),
+                        tpr: p.ticks_per_rad(),
+                        off: r.fit.off,
+                        c: p.ticks_per_vin_code(),
+                    }
+                    .centred(run, start.position);
+                    FixedPiece::new(q.kx, q.tpr, q.off, q.c, start.io_span)
+                });
             (r, f32_piece(r.fit), fixed)
         })
         .collect()
@@ -650,7 +655,7 @@ fn assemble(
             f32_pieces.push(f32_piece(ideal));
             push_fixed(
                 &mut fixed_pieces,
-                FixedPiece::new(ideal.kx, ideal.tpr, ideal.off, 0.0),
+                FixedPiece::new(ideal.kx, ideal.tpr, ideal.off, 0.0, start.io_span),
             );
         }
         for (run, f, x) in runs {

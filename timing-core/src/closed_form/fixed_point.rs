@@ -1,16 +1,25 @@
 //! The closed form in 32-bit integer arithmetic, for cores without an FPU
-//! or a divide instruction: reciprocals by [`recip_q23`] and [`recip_q15_normalised`]
-//! (Newton), the root by [`sqrt_q24`] (Newton), and one polynomial
-//! `G(x) = p*sqrt(1 + x) - x*P(x)` built from the [`sqrt1p_q16`] and
-//! [`asin_factor_q17`] fits, so that the ZVS turn-on angle is
-//! `x + 3pi/2 + sqrt(1 - x) * G(x) / x`. Wide products by [`mul_shr`]. No
-//! division, no leading-zero instruction, no 64-bit multiply.
+//! or a divide instruction: two reciprocals ([`recip_q15_normalised`]: of
+//! the current code, and of `x` for J) and one root ([`sqrt_q24`]), each a
+//! seed read from a small table and one Newton step (relative error about
+//! 1e-4), and one polynomial `G(x) = p*sqrt(1 + x) - x*P(x)` built from the
+//! [`sqrt1p_q16`] and [`asin_factor_q17`] fits, so that the ZVS turn-on
+//! angle is `x + 3pi/2 + sqrt(1 - x) * G(x) / x`. Wide products by
+//! [`mul_shr`]. No division, no leading-zero instruction, no 64-bit
+//! multiply. About 240 instructions at worst on a Cortex-M0 (the methods
+//! table in docs/methods.md has the measured figure).
 //!
-//! Formats: `x = 1/J` in Q24 (fine enough that `sqrt(1 - x)` near the ZVS
-//! boundary, where it is steep, stays within a few thousandths of a tick),
-//! Q16 for the polynomial and for the angle in radians, the root in Q15,
-//! `G` in Q15, `J` in Q10, the result in Q8 ticks. The bounds that keep
-//! every intermediate within 32 bits are checked once by
+//! Formats: `x = 1/J` in Q24 from `kx`'s 16-bit mantissa, the voltage code
+//! and the current code's reciprocal; `1 - x` as the difference of two
+//! quotients through the same reciprocal, so that it keeps its relative
+//! precision next to the ZVS boundary, where its root is steep (the ZVS
+//! test itself is exact, in integers); Q15 for the polynomial, the angle
+//! in Q16 radians, the root in Q15, `G` in Q15, `J` in Q10, the result in
+//! Q8 ticks. Against the ideal cell's formula the arithmetic costs at most
+//! 0.017 tick on the demo's timer and 0.10 tick on a 2 GHz one (the
+//! `closed_form` cross-check); the host tool's fit works with the
+//! arithmetic as it is, so the proof at every code pair includes it. The
+//! bounds that keep every intermediate within 32 bits are checked once by
 //! [`FixedPoint::from_parts`], at the corners of the design range.
 //!
 //! Piece by piece ([`PieceLayout`]), picked by the same integer test as
@@ -21,11 +30,11 @@
 use super::pieces::PieceLayout;
 use crate::approx::asin_q::ASIN_FACTOR_Q17;
 use crate::approx::mul_shr::mul_shr;
-use crate::approx::recip_q::{recip_q15_normalised, recip_q23};
+use crate::approx::recip_q::recip_q15_normalised;
 use crate::approx::sqrt1p_q::SQRT1P_Q16;
 use crate::approx::sqrt_q::sqrt_q24;
 use crate::error::{Error, Quantity};
-use crate::table::log2::{floor_log2, floor_log2_byte};
+use crate::table::log2::{floor_log2_16, floor_log2_byte};
 use crate::table::{Fallback, Lookup};
 use crate::{AdcCode, Ticks};
 
@@ -40,10 +49,10 @@ const ONE_Q24: u32 = 1 << 24;
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 #[cfg_attr(feature = "serde", derive(serde::Serialize))]
 pub struct FixedPiece {
-    /// `kx = k_mant * 2^-k_shift` (`k_mant` in [2^31, 2^32): 32 bits, as a
-    /// relative error of 2^-16 in x would cost a few thousandths of a
-    /// radian near the ZVS boundary).
-    pub k_mant: u32,
+    /// `kx = k_mant * 2^-k_shift` (`k_mant` in [2^15, 2^16) unless
+    /// `k_shift` is capped; the host tool fits the offsets to the rounded
+    /// value).
+    pub k_mant: u16,
     /// See `k_mant`.
     pub k_shift: u8,
     /// Ticks per radian `= t_mant * 2^-t_shift` (`t_mant` in [2^15, 2^16)).
@@ -60,7 +69,10 @@ pub struct FixedPiece {
 impl FixedPiece {
     /// The piece of a stand-in: `x = kx * y`, `ticks_per_rad`, the offset
     /// (ticks, without the `3*pi/2` angle) and the voltage slope (ticks per
-    /// code), rounded to their formats.
+    /// code), rounded to their formats, for current codes up to `io_span`
+    /// above the zero (`(io - zero) << k_shift` must stay below 2^32, which
+    /// caps `k_shift` and leaves `k_mant` fewer bits for large codes and
+    /// small `kx`).
     ///
     /// # Errors
     /// [`Error::OutOfRange`] naming [`Quantity::MethodCoefficient`] for a
@@ -70,9 +82,11 @@ impl FixedPiece {
         ticks_per_rad: f64,
         offset_ticks: f64,
         ticks_per_vin_code: f64,
+        io_span: u16,
     ) -> Result<Self, Error> {
-        let (k_mant, k_shift) = normalise(kx, 32)?;
-        let (t_mant, t_shift) = normalise(ticks_per_rad, 16)?;
+        let cap = 31 - floor_log2_16(u32::from(io_span).max(1)) as i32;
+        let (k_mant, k_shift) = normalise(kx, 16, cap)?;
+        let (t_mant, t_shift) = normalise(ticks_per_rad, 16, 63)?;
         let q8 = libm::round(offset_ticks * 256.0);
         if q8.is_nan() || q8.abs() >= f64::from(1u32 << 30) {
             return Err(range_error(offset_ticks, f64::from(1u32 << 22)));
@@ -82,7 +96,7 @@ impl FixedPiece {
             return Err(range_error(ticks_per_vin_code, f64::from(1u32 << 14)));
         }
         Ok(Self {
-            k_mant,
+            k_mant: k_mant as u16,
             k_shift,
             t_mant: t_mant as u16,
             t_shift,
@@ -136,9 +150,10 @@ pub struct FixedPoint<'a> {
     g: [i32; 6],
 }
 
-/// Mantissa in [2^(bits-1), 2^bits) and shift of a positive value:
-/// `v ~= m * 2^-s`.
-fn normalise(v: f64, bits: i32) -> Result<(u32, u8), Error> {
+/// Mantissa and shift of a positive value, `v ~= m * 2^-s`: `m` in
+/// [2^(bits-1), 2^bits) unless that needs a shift above `max_shift`, then
+/// `s = max_shift` and `m` smaller (at least 1).
+fn normalise(v: f64, bits: i32, max_shift: i32) -> Result<(u32, u8), Error> {
     let bad = Error::OutOfRange {
         quantity: Quantity::MethodCoefficient,
         value: v,
@@ -149,13 +164,13 @@ fn normalise(v: f64, bits: i32) -> Result<(u32, u8), Error> {
         return Err(bad);
     }
     let top = libm::exp2(f64::from(bits));
-    let mut s = bits - 1 - libm::floor(libm::log2(v)) as i32;
+    let mut s = (bits - 1 - libm::floor(libm::log2(v)) as i32).min(max_shift);
     let mut m = libm::round(v * libm::exp2(f64::from(s)));
     if m >= top {
         s -= 1;
         m = libm::round(v * libm::exp2(f64::from(s)));
     }
-    if !(0..=63).contains(&s) {
+    if !(0..=63).contains(&s) || m < 1.0 {
         return Err(bad);
     }
     Ok((m as u32, s as u8))
@@ -198,8 +213,8 @@ impl<'a> FixedPoint<'a> {
     /// Validate the coefficients (usable in `const` items): the layout,
     /// normalised mantissas, and the 32-bit bounds of every intermediate
     /// of every piece at the corners of the design range (`x` in Q24 below
-    /// 2^30, J below 63 wherever ZVS is possible, the Q8 result below
-    /// 2^30).
+    /// 2^30, J below 63 wherever ZVS is possible, the angle below 256 rad,
+    /// the Q8 result below 2^30).
     ///
     /// # Errors
     /// As [`PieceLayout::check`]; [`Error::OutOfRange`] naming
@@ -218,22 +233,18 @@ impl<'a> FixedPoint<'a> {
                 max: 1.0,
             });
         }
-        let e_min = floor_log2((l.io.lo - l.io_zero) as u32) as i32;
-        let e_max = floor_log2((l.io.hi - l.io_zero) as u32) as i32;
         let reach = 1i64 << l.band_shift;
         let mut rest = parts.pieces;
         while let [p, more @ ..] = rest {
-            if p.k_mant < 1 << 31 || p.t_mant < 1 << 15 || p.t_shift > 31 {
-                return Err(range_error(p.k_mant as f64, u32::MAX as f64));
+            if p.k_mant == 0 || p.t_mant < 1 << 15 || p.t_shift > 31 {
+                return Err(range_error(p.k_mant as f64, u16::MAX as f64));
             }
-            // The shift of x after the k product, k_shift + e - 40, within
-            // 31 either way over the current range.
-            let k = p.k_shift as i32;
-            if k + e_max - 40 > 31 || 40 - k - e_min > 31 {
-                return Err(range_error(p.k_shift as f64, 63.0));
+            // (io - zero) << k_shift below 2^32.
+            if p.k_shift as u32 + floor_log2_16((l.io.hi - l.io_zero) as u32) > 31 {
+                return Err(range_error(p.k_shift as f64, 31.0));
             }
-            let x_max = x_q24(p, l.vin.hi as u32, (l.io.lo - l.io_zero) as u32);
-            let x_min = x_q24(p, l.vin.lo as u32, (l.io.hi - l.io_zero) as u32);
+            let x_max = Ratio::at(p, l.vin.hi as u32, (l.io.lo - l.io_zero) as u32).x24;
+            let x_min = Ratio::at(p, l.vin.lo as u32, (l.io.hi - l.io_zero) as u32).x24;
             if x_max >= 1 << 30 {
                 return Err(range_error(x_max as f64 / 16_777_216.0, 64.0));
             }
@@ -250,6 +261,8 @@ impl<'a> FixedPoint<'a> {
             // The largest angle: the larger of the valley at x_max and the
             // ZVS branch bound (|sqrt(1-x) G(x) / x| < 1.6 * 63 rad).
             let big = if x_max > ONE_Q24 { x_max >> 8 } else { 1 << 16 };
+            // Below 170 rad, so the angle's product with t_mant (to 2^8)
+            // stays below 2^32.
             let theta_max = big + THREE_HALF_PI_Q16 + (101 << 16);
             let r8 = scale_q8(p, theta_max) as i64;
             let slope = ((p.q16_per_vin_code as i64).abs() * reach) >> 8;
@@ -283,12 +296,12 @@ impl<'a> FixedPoint<'a> {
         let Some(p) = self.parts.pieces.get(s.index) else {
             return (0, false);
         };
-        let x24 = x_q24(p, u32::from(s.v), u32::from(s.i));
-        let x = x24 >> 8;
-        let mut theta = x.wrapping_add(THREE_HALF_PI_Q16);
-        if x24 <= ONE_Q24 {
+        let q = Ratio::at(p, u32::from(s.v), u32::from(s.i));
+        let x24 = q.x24;
+        let mut theta = (x24 >> 8).wrapping_add(THREE_HALF_PI_Q16);
+        if q.w <= q.i_f {
             // sqrt(1 - x) in Q15.
-            let r = sqrt_q24(ONE_Q24.wrapping_sub(x24)) as i32;
+            let r = sqrt_q24(q.one_less_q24()) as i32;
             // J = 2^24 / x24 in Q10 (2^18 <= x24 <= 2^24 here: J < 63,
             // validated), 1/x24 = y / 2^s; floor(log2 x24) = 18 + one table
             // read, and x24 cut to its top 16 bits.
@@ -305,15 +318,14 @@ impl<'a> FixedPoint<'a> {
             acc = g1.wrapping_add(acc.wrapping_mul(xi) >> 15);
             let g = g0.wrapping_add(acc.wrapping_mul(xi) >> 15);
             // sqrt(1 - x) * G * J in Q16: r*G in Q30 (|r*G| < 1.6), times J
-            // by a full-width product of its magnitude (J amplifies any
-            // truncation of r*G, so none is made before it).
+            // by a full-width signed product (J amplifies any truncation of
+            // r*G, so none is made before it): r*G = hi * 2^16 + lo with hi
+            // signed below 2^15 and lo in [0, 2^16), so both products with
+            // J (below 2^16) fit.
             let rg = r.wrapping_mul(g);
-            let m = mul_shr(rg.unsigned_abs(), j10 as u16, 16) >> 8;
-            theta = if rg < 0 {
-                theta.wrapping_sub(m)
-            } else {
-                theta.wrapping_add(m)
-            };
+            let hi = (rg >> 16).wrapping_mul(j10 as i32);
+            let lo = ((rg as u32 & 0xffff).wrapping_mul(j10) >> 16) as i32;
+            theta = theta.wrapping_add((hi.wrapping_add(lo) >> 8) as u32);
         }
         let slope = p.q16_per_vin_code.wrapping_mul(s.dv) >> 8;
         let r8 = (scale_q8(p, theta) as i32)
@@ -347,33 +359,63 @@ impl<'a> FixedPoint<'a> {
     }
 }
 
-/// `x = 1/J` in Q24 at clamped codes (`i` already less the zero).
-#[inline]
-const fn x_q24(p: &FixedPiece, v: u32, i: u32) -> u32 {
-    // 1/i = y / 2^s; a = v*y / 2^8 (below 2^32 for 16-bit codes).
-    let (y, s) = recip_q23(i);
-    let a = mul_shr(y, v as u16, 8);
-    // m = k_mant * a / 2^32 (within 2 units) by the two 16-bit halves of
-    // k_mant: the low half's share is below 2^16, so 16 bits of `a`
-    // suffice for it.
-    let m = mul_shr(a, (p.k_mant >> 16) as u16, 16)
-        .wrapping_add(((a >> 16).wrapping_mul(p.k_mant & 0xffff)) >> 16);
-    // x * 2^24 = m * 2^(64 - k_shift - s).
-    let sh = (p.k_shift as i32).wrapping_add(s as i32).wrapping_sub(64);
-    if sh >= 0 {
-        m.wrapping_shr(sh as u32)
-    } else {
-        m.wrapping_shl(sh.wrapping_neg() as u32)
+/// The stand-in's ratio `x = 1/J` at clamped codes (`i` already less the
+/// zero, at least 1; both below 2^16 as codes are). With
+/// `w = k_mant * v` and `i_f = i << k_shift` (both exact, below 2^32:
+/// `k_shift` validated against the largest current code), `x = w / i_f`:
+/// the ZVS test `w <= i_f` is exact, and `1 - x` is `i_f / i_f - w / i_f`
+/// with both quotients through the same reciprocal, so its error scales
+/// with it (relative 1e-4, plus the two truncations, 2^-24 each) however
+/// close the pair lies to the ZVS boundary, where its root is steep.
+#[derive(Debug, Clone, Copy)]
+struct Ratio {
+    /// `x` in Q24.
+    x24: u32,
+    /// `i_f / i_f` in Q24 through the reciprocal (2^24 within 1e-4).
+    one24: u32,
+    w: u32,
+    i_f: u32,
+}
+
+impl Ratio {
+    #[inline(always)]
+    const fn at(p: &FixedPiece, v: u32, i: u32) -> Self {
+        // 1/i = y / 2^(16 + e), from i's mantissa m = i * 2^(15 - e).
+        let e = floor_log2_16(i);
+        let m = i.wrapping_shl(15u32.wrapping_sub(e) & 31);
+        let (y, _) = recip_q15_normalised(m, e);
+        let w = (p.k_mant as u32).wrapping_mul(v & 0xffff);
+        // w * y / 2^16 = x * 2^(k_shift + e), below 2^32 as w is.
+        let ke = (p.k_shift as u32).wrapping_add(e);
+        Self {
+            x24: to_q24(mul_shr(w, y, 16), ke),
+            // i_f * y / 2^16 * 2^(24 - ke) = m * y / 2^7 (below 2^31).
+            one24: m.wrapping_mul(y) >> 7,
+            w,
+            i_f: i.wrapping_shl(p.k_shift as u32),
+        }
+    }
+
+    /// `1 - x` in Q24, where `x <= 1`.
+    #[inline(always)]
+    const fn one_less_q24(&self) -> u32 {
+        self.one24.saturating_sub(self.x24)
     }
 }
 
-/// The angle `theta` (Q16 radians) in ticks, Q8.
+/// A ratio times `2^ke` to Q24 (`ke` at most 31).
+#[inline(always)]
+const fn to_q24(r: u32, ke: u32) -> u32 {
+    if ke >= 24 {
+        r.wrapping_shr(ke.wrapping_sub(24))
+    } else {
+        r.wrapping_shl(24u32.wrapping_sub(ke))
+    }
+}
+
+/// The angle `theta` (Q16 radians, below 256 rad) in ticks, Q8:
+/// `theta * t_mant / 2^8` is below 2^32, and the shift is `t_shift`.
 #[inline]
 const fn scale_q8(p: &FixedPiece, theta: u32) -> u32 {
-    let r = mul_shr(theta, p.t_mant, 16);
-    if p.t_shift >= 8 {
-        r.wrapping_shr(p.t_shift as u32 - 8)
-    } else {
-        r.wrapping_shl(8 - p.t_shift as u32)
-    }
+    mul_shr(theta, p.t_mant as u32, 8).wrapping_shr(p.t_shift as u32)
 }

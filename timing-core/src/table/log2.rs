@@ -81,6 +81,19 @@ pub const fn floor_log2(t: u32) -> u32 {
     e + floor_log2_byte(t)
 }
 
+/// [`floor_log2`] of the low 16 bits of `t` (a 16-bit code needs one
+/// halving step fewer).
+#[inline]
+#[must_use]
+pub const fn floor_log2_16(t: u32) -> u32 {
+    let t = t & 0xffff;
+    if t >= 1 << 8 {
+        8 + floor_log2_byte(t >> 8)
+    } else {
+        floor_log2_byte(t)
+    }
+}
+
 #[inline]
 const fn table_at(k: usize) -> u32 {
     match LOG2_Q15.split_at_checked(k) {
