@@ -70,7 +70,7 @@ pub const TARGET_SLACK_TICKS: f64 = 0.004;
 const APPROX_LIMIT_TICKS: f64 = 0.49;
 
 /// Runs of fewer pairs are not cut further.
-const MIN_RUN: usize = 64;
+const MIN_RUN: usize = 16;
 
 /// The narrowest bands tried: `2^MIN_BAND_SHIFT` voltage codes.
 pub const MIN_BAND_SHIFT: u8 = 4;
