@@ -63,6 +63,19 @@ pub enum Quantity {
     CossCapacitance,
     /// Series resistance of the resonant loop, ohm.
     TankResistance,
+    /// Bus voltage across a half-bridge leg, volt.
+    BusVoltage,
+    /// Current out of a leg's switch node into its inductor at the
+    /// switching instant, ampere (signed).
+    NodeCurrent,
+    /// Inductance the leg's node swings against, henry.
+    TransitionInductance,
+    /// Capacitance added at a leg's switch node, farad.
+    NodeCapacitance,
+    /// Voltage at the far end of a leg's inductor, volt.
+    FarEndVoltage,
+    /// Body-diode conduction accepted after a leg's swing, second.
+    DiodeConduction,
 }
 
 impl Quantity {
@@ -96,6 +109,12 @@ impl Quantity {
             Quantity::CossVoltage => "Coss curve voltage (V)",
             Quantity::CossCapacitance => "Coss curve capacitance (F)",
             Quantity::TankResistance => "tank series resistance (ohm)",
+            Quantity::BusVoltage => "bus voltage Vbus (V)",
+            Quantity::NodeCurrent => "switch-node current at the switching instant (A)",
+            Quantity::TransitionInductance => "transition inductance (H)",
+            Quantity::NodeCapacitance => "capacitance added at the switch node (F)",
+            Quantity::FarEndVoltage => "voltage at the inductor's far end (V)",
+            Quantity::DiodeConduction => "accepted body-diode conduction (s)",
         }
     }
 }

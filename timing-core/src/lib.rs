@@ -17,6 +17,10 @@
 //! The model is the ideal, lossless cell with constant capacitance
 //! (DESIGN.md section 2); [`normalized`] holds the same equations as
 //! functions of the normalised load J alone.
+//! [`ring`] solves the real cell numerically (a Coss curve, a lossy
+//! loop), and [`leg`] the two switching edges of a half-bridge leg (both
+//! switches' curves, the transition inductance, the current at the
+//! switching instant), on the same integrator.
 //!
 //! ```
 //! # fn main() -> Result<(), timing_core::Error> {
@@ -68,12 +72,14 @@ pub mod closed_form;
 mod conversion;
 pub mod coss;
 mod error;
+pub mod leg;
 pub mod normalized;
 mod real;
 pub mod ring;
 pub mod robust;
 #[cfg(feature = "serde")]
 mod serde_types;
+mod swing;
 pub mod table;
 mod tank;
 mod timer;

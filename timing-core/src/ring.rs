@@ -17,7 +17,8 @@
 //!   (Lr*|i0|/V for R = 0); after a turn-on, the same equation takes i from
 //!   0 to I: T3b = -(Lr/R)*ln(1 - R*I/V).
 //!
-//! Integration: classical fourth-order Runge-Kutta with a step of
+//! Integration (`swing.rs`, shared with the half-bridge leg):
+//! classical fourth-order Runge-Kutta with a step of
 //! [`STEP_ANGLE`] radian of the local resonance, h = 0.05*sqrt(Lr*C(vC))
 //! (and at most 0.05*Lr/R), about 80 steps per transition; events are
 //! located on the cubic Hermite interpolant of each step, and steps end on
@@ -34,13 +35,13 @@
 //! steps follow the local resonance rather than how fast C changes there.
 //! Against ngspice see the netlist cross-check.
 
-use crate::coss::{Piece, SwitchCapacitance};
+use crate::coss::SwitchCapacitance;
 use crate::error::{derived, non_negative, positive, Error, Quantity};
+use crate::swing::{crossing, hermite, Capacitance, Loop, State};
 use crate::transition::{TurnOn, Valley, ZvsWindow};
 use crate::{CellPoint, Real, Tank};
 
-/// Integration step as an angle of the local resonance, radian.
-pub const STEP_ANGLE: f64 = 0.05;
+pub use crate::swing::STEP_ANGLE;
 
 /// Most integration steps of one transition before it is refused as not
 /// settling (a ring that loses almost nothing per cycle never returns to
@@ -121,71 +122,9 @@ impl<F: Real> RingTransition<F> {
     }
 }
 
-/// State of the ring: switch voltage (V) and Lr current (A).
-#[derive(Clone, Copy)]
-struct State<F> {
-    v: F,
-    i: F,
-}
-
 /// Switch voltage at the end of the linear charge: V - R*I, volt.
 fn v1_of<F: Real>(v: F, r: F, i: F) -> F {
     v - r * i
-}
-
-/// Cubic Hermite interpolation on one step at fraction `s` of it.
-fn hermite<F: Real>(y0: F, y1: F, d0: F, d1: F, h: F, s: F) -> F {
-    let s2 = s * s;
-    let s3 = s2 * s;
-    let two = F::TWO;
-    let three = F::from_u32(3);
-    (two * s3 - three * s2 + F::ONE) * y0
-        + (s3 - two * s2 + s) * h * d0
-        + (three * s2 - two * s3) * y1
-        + (s3 - s2) * h * d1
-}
-
-/// The fraction of the step in `[0, upto]` where the Hermite interpolant
-/// of a component, positive at 0 and not at `upto`, crosses zero
-/// (bisection; the interpolant is continuous, so a crossing exists).
-fn crossing<F: Real>(y0: F, y1: F, d0: F, d1: F, h: F, upto: F) -> F {
-    // Illinois (modified regula falsi): bracketing like bisection,
-    // converging superlinearly; 40 rounds are far more than it needs.
-    let p = |s: F| hermite(y0, y1, d0, d1, h, s);
-    let (mut a, mut b) = (F::ZERO, upto);
-    let (mut fa, mut fb) = (y0, p(upto));
-    let mut side = 0i8;
-    for _ in 0..40 {
-        if fa - fb == F::ZERO {
-            break;
-        }
-        let c = (a * fb - b * fa) / (fb - fa);
-        let c = if c > a && c < b { c } else { (a + b) * F::HALF };
-        let fc = p(c);
-        if fc > F::ZERO {
-            a = c;
-            fa = fc;
-            if side == 1 {
-                fb = fb * F::HALF;
-            }
-            side = 1;
-        } else {
-            b = c;
-            fb = fc;
-            if side == -1 {
-                fa = fa * F::HALF;
-            }
-            side = -1;
-        }
-        if b - a <= F::from_f64(1e-12) * upto || fc == F::ZERO {
-            break;
-        }
-    }
-    if fa.abs() < fb.abs() {
-        a
-    } else {
-        b
-    }
 }
 
 impl<'a, F: Real> RingCell<'a, F> {
@@ -234,69 +173,12 @@ impl<'a, F: Real> RingCell<'a, F> {
         Tank::new(self.lr, self.cap.boundary_equivalent(v))
     }
 
-    fn slope(&self, v_cell: F, c: &Piece<F>, y: State<F>) -> State<F> {
-        State {
-            v: y.i / c.at(y.v),
-            i: (v_cell - y.v - self.r * y.i) * self.inv_lr,
-        }
-    }
-
-    fn rk4(&self, v_cell: F, c: &Piece<F>, y: State<F>, k1: State<F>, h: F) -> State<F> {
-        let at = |k: State<F>, f: F| State {
-            v: y.v + k.v * f,
-            i: y.i + k.i * f,
-        };
-        let half = h * F::HALF;
-        let k2 = self.slope(v_cell, c, at(k1, half));
-        let k3 = self.slope(v_cell, c, at(k2, half));
-        let k4 = self.slope(v_cell, c, at(k3, h));
-        let six = F::from_u32(6);
-        State {
-            v: y.v + h / six * (k1.v + F::TWO * (k2.v + k3.v) + k4.v),
-            i: y.i + h / six * (k1.i + F::TWO * (k2.i + k3.i) + k4.i),
-        }
-    }
-
-    /// The integration step at switch voltage `v` on `piece`: [`STEP_ANGLE`]
-    /// of the local resonance, `sqrt(Lr*C(v))`, and at most that angle of
-    /// the loop's time constant `Lr/R`, second.
-    fn full_step(&self, piece: &Piece<F>, v: F) -> F {
-        let theta = F::from_f64(STEP_ANGLE);
-        let local = theta * (self.lr * piece.at(v)).sqrt();
-        if self.r > F::ZERO {
-            let r_limit = theta * self.lr / self.r;
-            if r_limit < local {
-                return r_limit;
-            }
-        }
-        local
-    }
-
-    /// The step `h`, shortened so that it ends (to first order) on the next
-    /// point of the Coss curve the voltage is heading for: the curve's slope
-    /// jumps there, and a step across it would lose the method's order.
-    fn step_to_breakpoint(&self, y: State<F>, k: State<F>, h: F) -> (F, Option<F>) {
-        let curve = self.cap.curve();
-        let next = if k.v > F::ZERO {
-            curve.get(curve.partition_point(|p| p.volts <= y.v))
-        } else {
-            // Falling: zero is the event itself, not a point to land on.
-            curve
-                .partition_point(|p| p.volts < y.v)
-                .checked_sub(1)
-                .and_then(|j| curve.get(j))
-                .filter(|p| p.volts > F::ZERO)
-        };
-        match next {
-            Some(p) if k.v != F::ZERO => {
-                let to = (p.volts - y.v) / k.v;
-                if to < h && to > F::ZERO {
-                    (to, Some(p.volts))
-                } else {
-                    (h, None)
-                }
-            }
-            _ => (h, None),
+    /// The ring's loop for the shared integrator.
+    fn swing(&self) -> Loop<F> {
+        Loop {
+            l: self.lr,
+            inv_l: self.inv_lr,
+            r: self.r,
         }
     }
 
@@ -360,8 +242,9 @@ impl<'a, F: Real> RingCell<'a, F> {
         // The piece of C(v) the step runs on (the voltage rises while the
         // current is positive); steps end on the curve's points, so a step
         // stays on one piece up to a rounding-size overshoot.
+        let sw = self.swing();
         let mut piece = self.cap.piece(y.v, true);
-        let mut k = self.slope(vc, &piece, y);
+        let mut k = sw.slope(vc, &piece, y);
         let mut peak: Option<(F, F)> = None;
         let mut steps = 0u32;
         if let Some(f) = visit.as_mut() {
@@ -372,41 +255,11 @@ impl<'a, F: Real> RingCell<'a, F> {
             let c = self.cap.piece(y.v, y.i > F::ZERO);
             if c != piece {
                 piece = c;
-                k = self.slope(vc, &piece, y);
+                k = sw.slope(vc, &piece, y);
             }
-            let full = self.full_step(&piece, y.v);
-            let (mut h, target) = self.step_to_breakpoint(y, k, full);
-            let mut next = self.rk4(vc, &piece, y, k, h);
-            if let Some(p) = target {
-                // Newton on the step length: end on the curve's point to
-                // fourth order and better. Near the voltage peak the point
-                // may be out of reach (the current falls to zero first):
-                // then Newton leaves (0, full] and the plain step is taken.
-                let mut landed = true;
-                for _ in 0..2 {
-                    let d = next.i / piece.at(next.v);
-                    let hn = if d == F::ZERO {
-                        full + full
-                    } else {
-                        h + (p - next.v) / d
-                    };
-                    if !(hn > F::ZERO && hn <= full) {
-                        landed = false;
-                        break;
-                    }
-                    h = hn;
-                    next = self.rk4(vc, &piece, y, k, h);
-                }
-                if landed {
-                    // On the point exactly (the residual is at rounding
-                    // level), so the next step takes the next piece.
-                    next.v = p;
-                } else {
-                    h = full;
-                    next = self.rk4(vc, &piece, y, k, h);
-                }
-            }
-            let kn = self.slope(vc, &piece, next);
+            let full = sw.full_step(&piece, y.v);
+            let (h, next) = sw.advance(&self.cap, vc, &piece, y, k, full);
+            let kn = sw.slope(vc, &piece, next);
             match peak {
                 None => {
                     if next.i <= F::ZERO {
@@ -664,6 +517,7 @@ impl<'a, F: Real> RingCell<'a, F> {
         visit: &mut dyn FnMut(F, F, F),
     ) -> Result<F, Error> {
         let (vc, ic) = (cell.v_volt(), cell.i_amp());
+        let sw = self.swing();
         let mut t = t0_s;
         let mut y = State { v: v0, i: i0 };
         visit(t, y.v, y.i);
@@ -678,12 +532,12 @@ impl<'a, F: Real> RingCell<'a, F> {
             // Rising on the current's sign; at zero current, on where the
             // voltage heads (below the centre it rises).
             let rising = y.i > F::ZERO || (y.i == F::ZERO && y.v < vc);
-            let piece = self.cap.piece(y.v, rising);
-            let k = self.slope(vc, &piece, y);
-            let full = self.full_step(&piece, y.v);
-            let (h, _) = self.step_to_breakpoint(y, k, full);
+            let piece = Capacitance::piece(&self.cap, y.v, rising);
+            let k = sw.slope(vc, &piece, y);
+            let full = sw.full_step(&piece, y.v);
+            let (h, _) = sw.step_to_point(&self.cap, y, k, full);
             let h = if h > F::ZERO { h } else { full };
-            let next = self.rk4(vc, &piece, y, k, h);
+            let next = sw.rk4(vc, &piece, y, k, h);
             t = t + h;
             y = next;
             if !(y.v >= F::ZERO && y.i <= ic && t.is_finite()) {

@@ -3,7 +3,8 @@
 //! the current code, and of `x` for J) and one root ([`sqrt_q24`]), each a
 //! seed read from a small table and one Newton step (relative error about
 //! 1e-4), and one polynomial `G(x) = p*sqrt(1 + x) - x*P(x)` built from the
-//! [`sqrt1p_q16`] and [`asin_factor_q17`] fits, so that the ZVS turn-on
+//! [`sqrt1p_q16`](crate::approx::sqrt1p_q::sqrt1p_q16) and
+//! [`asin_factor_q17`](crate::approx::asin_q::asin_factor_q17) fits, so that the ZVS turn-on
 //! angle is `x + 3pi/2 + sqrt(1 - x) * G(x) / x`. Wide products by
 //! [`mul_shr`]. No division, no leading-zero instruction, no 64-bit
 //! multiply. About 240 instructions at worst on a Cortex-M0 (the methods
