@@ -1,9 +1,10 @@
 //! SPICE: decks of the switch cell and a runner for ngspice ([`spice`]),
 //! and a design's deck at one operating point with its commanded turn-on
-//! ([`netlist`]).
+//! ([`netlist`]), and a half-bridge leg's edge ([`leg_deck`]).
 //!
 //! Imports: every earlier stage.
 
+pub mod leg_deck;
 pub mod netlist;
 pub mod scope;
 pub mod spice;

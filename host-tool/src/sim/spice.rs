@@ -121,42 +121,10 @@ impl CellDeck {
     }
 
     /// The charge of the Coss curve as an expression of the switch voltage
-    /// `v` (a SPICE expression such as `V(in,a)`), for a behavioural current
-    /// source `I=ddt(Q)`: Q(v) = c0*v + sum of slope changes/2 * max(0, v -
-    /// vk)^2, whose derivative is the curve (linear between the points, flat
-    /// above the last). Charge-based, so charge is conserved exactly, and
-    /// smooth (C continuous), which ngspice's Newton iteration needs: a
-    /// capacitance expression with kinks made it crawl. A curve starting at
-    /// 0 V continues its first piece below zero (the switch sits a few
-    /// millivolts either side of 0 V when on), as the host's ring
-    /// integrator does inside a step.
+    /// `v` ([`coss_charge_expression`]).
     #[must_use]
     pub fn coss_charge_expression(&self, v: &str) -> Option<String> {
-        let first = self.coss.first()?;
-        let slope_after = |k: usize| match (self.coss.get(k), self.coss.get(k + 1)) {
-            (Some(p), Some(q)) => (q.farads - p.farads) / (q.volts - p.volts),
-            _ => 0.0,
-        };
-        let mut e = format!("({:e})*({v})", first.farads);
-        let mut slope = 0.0;
-        for (k, p) in self.coss.iter().enumerate() {
-            let next = slope_after(k);
-            let change = next - slope;
-            if change != 0.0 {
-                if k == 0 && p.volts <= 0.0 {
-                    let _ = write!(e, " + ({:e})*({v})*({v})", change / 2.0);
-                } else {
-                    let _ = write!(
-                        e,
-                        " + ({:e})*max(0, {v} - ({:e}))**2",
-                        change / 2.0,
-                        p.volts
-                    );
-                }
-            }
-            slope = next;
-        }
-        Some(e)
+        coss_charge_expression(&self.coss, v)
     }
 
     /// The clamp voltage V of the cell from the converter voltages
@@ -387,6 +355,48 @@ impl CellDeck {
         let _ = writeln!(d, ".end");
         d
     }
+}
+
+/// The charge of a Coss curve as an expression of the switch voltage
+/// `v` (a SPICE expression such as `V(in,a)`), for a behavioural current
+/// source `I=ddt(Q)`: Q(v) = c0*v + sum of slope changes/2 * max(0, v -
+/// vk)^2, whose derivative is the curve (linear between the points, flat
+/// above the last). Charge-based, so charge is conserved exactly, and
+/// smooth (C continuous), which ngspice's Newton iteration needs: a
+/// capacitance expression with kinks made it crawl. A curve starting at
+/// 0 V continues its first piece below zero (the switch sits a few
+/// millivolts either side of 0 V when on), as the host's ring integrator
+/// does inside a step. `None` for an empty curve.
+#[must_use]
+pub fn coss_charge_expression(
+    coss: &[timing_core::coss::CossPoint<f64>],
+    v: &str,
+) -> Option<String> {
+    let first = coss.first()?;
+    let slope_after = |k: usize| match (coss.get(k), coss.get(k + 1)) {
+        (Some(p), Some(q)) => (q.farads - p.farads) / (q.volts - p.volts),
+        _ => 0.0,
+    };
+    let mut e = format!("({:e})*({v})", first.farads);
+    let mut slope = 0.0;
+    for (k, p) in coss.iter().enumerate() {
+        let next = slope_after(k);
+        let change = next - slope;
+        if change != 0.0 {
+            if k == 0 && p.volts <= 0.0 {
+                let _ = write!(e, " + ({:e})*({v})*({v})", change / 2.0);
+            } else {
+                let _ = write!(
+                    e,
+                    " + ({:e})*max(0, {v} - ({:e}))**2",
+                    change / 2.0,
+                    p.volts
+                );
+            }
+        }
+        slope = next;
+    }
+    Some(e)
 }
 
 /// `run` with each rung of [`SOLVER_LADDER`] in turn (its index given)
