@@ -3,7 +3,9 @@
 //! swing time, and the charge and energy balances of Coss curves.
 
 use timing_core::coss::CossPoint;
-use timing_core::leg::{Edge, EdgeTurnOn, Leg, LegPoint, NodeCapacitance};
+use timing_core::leg::{
+    switching_points, Edge, EdgeTurnOn, Leg, LegConverter, LegPoint, NodeCapacitance,
+};
 use timing_core::{Error, Quantity};
 
 /// An invented 60 V-class curve for the low side (not a real part).
@@ -313,4 +315,93 @@ fn bad_inputs_name_the_quantity() {
         NodeCapacitance::new(&[], &[], -1e-12).map(|_| ()),
         Quantity::NodeCapacitance,
     );
+}
+
+/// The inductor current over one period of a synchronous converter,
+/// stepped through its two intervals with L*di/dt = the voltage across it
+/// (the volt-second picture, from memory), against the helper's peak and
+/// valley; and the sign convention (current out of the node) on a leg:
+/// in triangular mode both edges swing.
+#[test]
+fn switching_points_follow_the_inductor_current() {
+    let steps = 100_000;
+    for (conv, vin, vout, l, fs, i) in [
+        (LegConverter::SyncBuck, 48.0, 12.0, 4.7e-6, 500e3, 1.0),
+        (LegConverter::SyncBuck, 400.0, 200.0, 60e-6, 200e3, 6.0),
+        (LegConverter::SyncBoost, 12.0, 48.0, 2.2e-6, 400e3, 0.8),
+    ] {
+        let [fall, rise] = switching_points(conv, vin, vout, l, fs, i).unwrap();
+        let (v_on, v_off, d) = match conv {
+            // Buck: Vin - Vout across L while the high side is on.
+            LegConverter::SyncBuck => (vin - vout, -vout, vout / vin),
+            // Boost: Vin across L while the low side is on.
+            LegConverter::SyncBoost => (vin, vin - vout, 1.0 - vin / vout),
+        };
+        // Start at an unknown valley, walk one period, and place it so the
+        // average is i.
+        let t = 1.0 / fs;
+        let h = t / steps as f64;
+        let (mut cur, mut sum, mut peak) = (0.0f64, 0.0f64, f64::MIN);
+        for k in 0..steps {
+            let v = if (k as f64 + 0.5) * h < d * t {
+                v_on
+            } else {
+                v_off
+            };
+            sum += (cur + 0.5 * v / l * h) * h;
+            cur += v / l * h;
+            peak = peak.max(cur);
+        }
+        assert!(cur.abs() < 1e-9 * peak, "the period must close: {cur}");
+        let shift = i - sum / t;
+        let (valley, peak) = (shift, peak + shift);
+        let (out_peak, out_valley) = match conv {
+            LegConverter::SyncBuck => (fall.current_a(), rise.current_a()),
+            LegConverter::SyncBoost => (-rise.current_a(), -fall.current_a()),
+        };
+        assert!(
+            (out_peak - peak).abs() < 1e-6 * peak.abs().max(1.0),
+            "{conv:?}: {out_peak} {peak}"
+        );
+        assert!(
+            (out_valley - valley).abs() < 1e-6 * peak.abs().max(1.0),
+            "{conv:?}: {out_valley} {valley}"
+        );
+    }
+    // 48 V to 12 V in triangular mode: the valley is negative, and a leg
+    // of that inductance swings on both edges.
+    let [fall, rise] =
+        switching_points(LegConverter::SyncBuck, 48.0, 12.0, 4.7e-6, 500e3, 1.0).unwrap();
+    let leg = Leg::new(
+        4.7e-6,
+        NodeCapacitance::new(&LOW, &HIGH, 0.0).unwrap(),
+        0.02,
+        50e-9,
+    )
+    .unwrap();
+    assert!(leg
+        .edge(Edge::Falling, &fall)
+        .unwrap()
+        .turn_on
+        .window()
+        .is_some());
+    assert!(leg
+        .edge(Edge::Rising, &rise)
+        .unwrap()
+        .turn_on
+        .window()
+        .is_some());
+    // A converter the voltages do not suit is refused, naming the output.
+    for (conv, vout) in [
+        (LegConverter::SyncBuck, 60.0),
+        (LegConverter::SyncBoost, 30.0),
+    ] {
+        match switching_points(conv, 48.0, vout, 1e-6, 1e5, 1.0) {
+            Err(Error::OutOfRange {
+                quantity: Quantity::OutputVoltage,
+                ..
+            }) => {}
+            other => panic!("{conv:?}: {other:?}"),
+        }
+    }
 }
