@@ -76,6 +76,8 @@ pub enum Quantity {
     FarEndVoltage,
     /// Body-diode conduction accepted after a leg's swing, second.
     DiodeConduction,
+    /// Least dead time a leg's generator commands, second.
+    MinimumDeadTime,
 }
 
 impl Quantity {
@@ -115,6 +117,7 @@ impl Quantity {
             Quantity::NodeCapacitance => "capacitance added at the switch node (F)",
             Quantity::FarEndVoltage => "voltage at the inductor's far end (V)",
             Quantity::DiodeConduction => "accepted body-diode conduction (s)",
+            Quantity::MinimumDeadTime => "minimum dead time (s)",
         }
     }
 }

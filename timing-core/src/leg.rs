@@ -59,6 +59,8 @@ use crate::coss::{CossPoint, Piece, SwitchCapacitance};
 use crate::error::{derived, non_negative, positive, Error, Quantity};
 use crate::ring::{clamp_time_s, MAX_STEPS};
 use crate::swing::{crossing, hermite, Capacitance, Loop, State};
+use crate::timer::{DelayCommand, Ticks, Timer, WindowPosition};
+use crate::transition::{TurnOn, Valley, ZvsWindow};
 use crate::Real;
 
 /// Which switch turns off.
@@ -640,5 +642,160 @@ impl<'a, F: Real> Leg<'a, F> {
         Err(Error::Overflow {
             quantity: Quantity::Interval,
         })
+    }
+}
+
+/// What to command where an edge's swing stops short of the rail.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[cfg_attr(feature = "serde", derive(serde::Serialize))]
+pub enum ShortSwing {
+    /// The swing's extremum, where the transition inductance rings: the
+    /// least voltage across the incoming switch.
+    Extremum,
+    /// The minimum dead time (where the node barely moves, as with a large
+    /// inductance and too little current, waiting gains nothing).
+    Minimum,
+}
+
+/// A leg's dead-time generator: its step (which may be coarser than the
+/// main timer's tick), its counter width, each switch's gate-driver
+/// delays, and the least dead time it may command.
+#[derive(Debug, Clone, Copy, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct LegTimer<F> {
+    /// The falling edge's timer: the high side turns off, the low side on.
+    falling: Timer<F>,
+    /// The rising edge's: the low side turns off, the high side on.
+    rising: Timer<F>,
+    min_dead_s: F,
+}
+
+/// One switch's gate-driver delays, second.
+#[derive(Debug, Clone, Copy, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[cfg_attr(feature = "serde", derive(serde::Serialize))]
+pub struct DriverDelays<F> {
+    /// From the turn-on command to the switch turning on.
+    pub on_s: F,
+    /// From the turn-off command to the switch turning off.
+    pub off_s: F,
+}
+
+impl<F: Real> LegTimer<F> {
+    /// A generator counting `step_s` second per step in a `counter_bits`
+    /// counter, measured from the outgoing switch's turn-off command to the
+    /// incoming switch's turn-on command, with the `high` and `low` side
+    /// drivers' delays, commanding at least `min_dead_s` (the drivers' skew
+    /// and a margin against shoot-through; the incoming switch also never
+    /// turns on before the outgoing one is off).
+    ///
+    /// ```
+    /// # fn main() -> Result<(), timing_core::Error> {
+    /// use timing_core::coss::CossPoint;
+    /// use timing_core::leg::{DriverDelays, Edge, Leg, LegPoint, LegTimer, NodeCapacitance, ShortSwing};
+    /// use timing_core::WindowPosition;
+    /// let coss = [CossPoint { volts: 0.0_f64, farads: 1.2e-9 }, CossPoint { volts: 40.0, farads: 0.3e-9 }];
+    /// let leg = Leg::new(4.7e-6, NodeCapacitance::new(&coss, &coss, 0.0)?, 0.02, 50e-9)?;
+    /// let drivers = DriverDelays { on_s: 30e-9, off_s: 25e-9 };
+    /// // A dead-time unit of 2 ns steps, 8 bits.
+    /// let timer = LegTimer::new(2e-9, 8, drivers, drivers, 10e-9)?;
+    /// let rise = leg.edge(Edge::Rising, &LegPoint::new(48.0, -3.0, 12.0)?)?;
+    /// let cmd = timer.command(Edge::Rising, &rise, WindowPosition::new(0.3)?, ShortSwing::Minimum)?;
+    /// assert!(cmd.is_in_window());
+    /// # Ok(()) }
+    /// ```
+    ///
+    /// # Errors
+    /// As [`Timer::new`] (the step's reciprocal is the clock);
+    /// [`Error::Negative`] and friends naming [`Quantity::MinimumDeadTime`].
+    pub fn new(
+        step_s: F,
+        counter_bits: u8,
+        high: DriverDelays<F>,
+        low: DriverDelays<F>,
+        min_dead_s: F,
+    ) -> Result<Self, Error> {
+        let step = positive(Quantity::TimerClock, step_s)?;
+        let clock = derived(Quantity::TimerClock, F::ONE / step)?;
+        Ok(Self {
+            falling: Timer::new(clock, counter_bits, low.on_s, high.off_s)?,
+            rising: Timer::new(clock, counter_bits, high.on_s, low.off_s)?,
+            min_dead_s: non_negative(Quantity::MinimumDeadTime, min_dead_s)?,
+        })
+    }
+
+    /// The timer of `edge`: the step's reciprocal as its clock, the
+    /// incoming switch's turn-on delay and the outgoing one's turn-off
+    /// delay.
+    #[must_use]
+    pub fn edge_timer(&self, edge: Edge) -> &Timer<F> {
+        match edge {
+            Edge::Falling => &self.falling,
+            Edge::Rising => &self.rising,
+        }
+    }
+
+    /// The least count: the minimum dead time, and no turn-on of the
+    /// incoming switch before the outgoing one is off, steps (rounded up).
+    fn least(&self, timer: &Timer<F>) -> Ticks {
+        let clock = timer.clock_hz();
+        let by_min = (self.min_dead_s * clock).ceil();
+        let by_skew = (-timer.lead_s() * clock).ceil();
+        let n = if by_min > by_skew { by_min } else { by_skew };
+        Ticks::new(if n > F::ZERO {
+            n.to_u32_saturating()
+        } else {
+            0
+        })
+    }
+
+    /// The dead time to command for `edge` after `transition`, steps:
+    /// `position` in the ZVS window (moved inside it when rounding would
+    /// leave it, as the resonant cell's timer does), or per `short` where
+    /// the swing stops short, and never below the least dead time (a
+    /// window that opens earlier is entered later; where that is past its
+    /// close, [`DelayCommand::is_in_window`] says so).
+    ///
+    /// # Errors
+    /// As [`Timer::command_for`].
+    pub fn command(
+        &self,
+        edge: Edge,
+        transition: &EdgeTransition<F>,
+        position: WindowPosition<F>,
+        short: ShortSwing,
+    ) -> Result<DelayCommand<F>, Error> {
+        let timer = self.edge_timer(edge);
+        let least = self.least(timer);
+        let (turn_on, window) = match transition.turn_on {
+            EdgeTurnOn::Zvs(w) => (
+                TurnOn::Zvs(ZvsWindow {
+                    open_s: w.open_s,
+                    close_s: w.close_s,
+                    ramp_end_s: w.close_s,
+                }),
+                Some((w.open_s, w.close_s)),
+            ),
+            EdgeTurnOn::Short(s) => {
+                // The extremum, or the least dead time, whichever is later
+                // (a node that never left its rail has its extremum at 0).
+                let least_at = timer.turn_on_s(least);
+                let at = match short {
+                    ShortSwing::Extremum if s.extremum_s > least_at => s.extremum_s,
+                    _ => least_at,
+                };
+                (
+                    TurnOn::Valley(Valley {
+                        valley_s: at,
+                        valley_voltage_v: s.remaining_v,
+                        ramp_end_s: at,
+                    }),
+                    None,
+                )
+            }
+        };
+        let placed = timer.command_for(&turn_on, position)?;
+        Ok(timer.raised(placed, least, window))
     }
 }

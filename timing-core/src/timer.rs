@@ -344,4 +344,30 @@ impl<F: Real> Timer<F> {
             in_window,
         })
     }
+
+    /// `command` moved up to at least `least` ticks (a floor such as a
+    /// minimum dead time), where it lands then and whether that is still
+    /// inside `window` (`open_s`, `close_s`, second from gate turn-off).
+    pub(crate) fn raised(
+        &self,
+        command: DelayCommand<F>,
+        least: Ticks,
+        window: Option<(F, F)>,
+    ) -> DelayCommand<F> {
+        if command.ticks >= least {
+            return command;
+        }
+        let ticks = if least.0 > self.max_ticks {
+            Ticks(self.max_ticks)
+        } else {
+            least
+        };
+        let turn_on_s = self.turn_on_s(ticks);
+        DelayCommand {
+            ticks,
+            target_s: command.target_s,
+            turn_on_s,
+            in_window: window.is_some_and(|(o, c)| turn_on_s >= o && turn_on_s <= c),
+        }
+    }
 }

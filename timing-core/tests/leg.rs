@@ -4,8 +4,10 @@
 
 use timing_core::coss::CossPoint;
 use timing_core::leg::{
-    switching_points, Edge, EdgeTurnOn, Leg, LegConverter, LegPoint, NodeCapacitance,
+    switching_points, DriverDelays, Edge, EdgeTurnOn, Leg, LegConverter, LegPoint, LegTimer,
+    NodeCapacitance, ShortSwing,
 };
+use timing_core::WindowPosition;
 use timing_core::{Error, Quantity};
 
 /// An invented 60 V-class curve for the low side (not a real part).
@@ -403,5 +405,103 @@ fn switching_points_follow_the_inductor_current() {
             }) => {}
             other => panic!("{conv:?}: {other:?}"),
         }
+    }
+}
+
+/// The dead-time generator: steps counted from the outgoing switch's
+/// turn-off command, the incoming driver's turn-on delay and the outgoing
+/// one's turn-off delay (common practice, no source), the nearest step to
+/// the aim inside the window, the minimum dead time as a floor, and the
+/// short-swing policies.
+#[test]
+fn dead_time_commands_land_where_the_drivers_put_them() {
+    let node = NodeCapacitance::new(&LOW, &HIGH, 0.0).unwrap();
+    let leg = Leg::new(4.7e-6, node, 0.02, 60e-9).unwrap();
+    let high = DriverDelays {
+        on_s: 40e-9,
+        off_s: 22e-9,
+    };
+    let low = DriverDelays {
+        on_s: 28e-9,
+        off_s: 35e-9,
+    };
+    let step = 2.5e-9;
+    let timer = LegTimer::new(step, 8, high, low, 12e-9).unwrap();
+    let [fall, rise] =
+        switching_points(LegConverter::SyncBuck, 48.0, 12.0, 4.7e-6, 500e3, 1.0).unwrap();
+    for (edge, point, on_in, off_out) in [
+        (Edge::Falling, fall, low.on_s, high.off_s),
+        (Edge::Rising, rise, high.on_s, low.off_s),
+    ] {
+        let t = leg.edge(edge, &point).unwrap();
+        let w = window(&t);
+        let p = 0.4;
+        let cmd = timer
+            .command(
+                edge,
+                &t,
+                WindowPosition::new(p).unwrap(),
+                ShortSwing::Minimum,
+            )
+            .unwrap();
+        // The switch turns on n steps after the command, less the
+        // outgoing driver's turn-off delay, plus the incoming one's turn-on.
+        let n = f64::from(cmd.ticks().get());
+        let on = n * step - off_out + on_in;
+        assert!((cmd.turn_on_s() - on).abs() < 1e-15, "{edge:?}");
+        // The nearest step to the aim, which lies inside this window.
+        let aim = w.open_s + p * (w.close_s - w.open_s);
+        let want = ((aim - on_in + off_out) / step).round();
+        assert_eq!(n, want, "{edge:?}: {w:?}");
+        assert!(cmd.is_in_window());
+    }
+    // A floor above the window: the command is raised and says it missed.
+    let late = LegTimer::new(step, 8, high, low, 200e-9).unwrap();
+    let t = leg.edge(Edge::Rising, &rise).unwrap();
+    let cmd = late
+        .command(
+            Edge::Rising,
+            &t,
+            WindowPosition::new(0.4).unwrap(),
+            ShortSwing::Minimum,
+        )
+        .unwrap();
+    assert_eq!(cmd.ticks().get(), 80);
+    assert!(!cmd.is_in_window());
+    // Too little current: the extremum, or the least dead time.
+    let weak = LegPoint::new(48.0, 0.05, 40.0).unwrap();
+    let small = Leg::new(150e-9, node, 0.02, 60e-9).unwrap();
+    let t = small.edge(Edge::Falling, &weak).unwrap();
+    let EdgeTurnOn::Short(s) = t.turn_on else {
+        panic!("{t:?}")
+    };
+    let at = timer
+        .command(
+            Edge::Falling,
+            &t,
+            WindowPosition::new(0.4).unwrap(),
+            ShortSwing::Extremum,
+        )
+        .unwrap();
+    assert!(
+        (at.turn_on_s() - s.extremum_s).abs() <= 0.5 * step + 1e-15,
+        "{at:?} {s:?}"
+    );
+    let min = timer
+        .command(
+            Edge::Falling,
+            &t,
+            WindowPosition::new(0.4).unwrap(),
+            ShortSwing::Minimum,
+        )
+        .unwrap();
+    // 12 ns of minimum dead time at 2.5 ns a step: 5 steps.
+    assert_eq!(min.ticks().get(), 5);
+    match LegTimer::new(step, 8, high, low, -1e-9) {
+        Err(Error::Negative {
+            quantity: Quantity::MinimumDeadTime,
+            ..
+        }) => {}
+        other => panic!("{other:?}"),
     }
 }
