@@ -186,6 +186,12 @@ impl<'a, F: Real> SwitchCapacitance<'a, F> {
         } else {
             self.curve.partition_point(|p| p.volts < v)
         };
+        self.piece_below(k)
+    }
+
+    /// The piece between the curve's points `k - 1` and `k` (flat beyond
+    /// the ends): for a caller that located the voltage itself.
+    pub(crate) fn piece_below(&self, k: usize) -> Piece<F> {
         match (
             k.checked_sub(1).and_then(|j| self.curve.get(j)),
             self.curve.get(k),

@@ -51,9 +51,12 @@
 //! points. Measured in f64 (`cargo test -p timing-core --test leg --
 //! --nocapture`): the window of a constant capacitance within 6.9e-8
 //! relative of the closed-form LC swing; with a 10 H inductor the swing
-//! time within 7.9e-8 of the charge over the current, on two different
-//! curves; the extremum of a swing that stops short within 2.6e-7 of the
-//! energy balance.
+//! time within 9.1e-8 of the charge over the current, on four curve pairs
+//! (points off round numbers among them); the extremum of a swing that
+//! stops short within 2.6e-7 of the energy balance. A loop damped more
+//! than ten times critically is refused ([`Leg::new`]); below that, a node
+//! that creeps towards `E` without reaching the rail stops short once its
+//! current has decayed to a millionth.
 
 use crate::coss::{CossPoint, Piece, SwitchCapacitance};
 use crate::error::{derived, non_negative, positive, Error, Quantity};
@@ -197,7 +200,20 @@ impl<F: Real> Capacitance<F> for Along<'_, '_, F> {
     fn piece(&self, u: F, rising: bool) -> Piece<F> {
         let (same, other) = self.sides();
         let a = piece_of(same, u, rising);
-        let b = piece_of(other, self.vbus - u, !rising);
+        // The other switch sits at w = Vbus - u. Its points are located in
+        // u, as `Vbus - p` (the same expression `next_point` lands the
+        // steps on), so a step ended on one of them takes the next piece:
+        // mapping u back to w could round to the wrong side of the point.
+        let b = other.map_or(piece_of(None, F::ZERO, rising), |c| {
+            let vbus = self.vbus;
+            let k = if rising {
+                // w falls: the piece below the point u has reached.
+                c.curve().partition_point(|p| vbus - p.volts > u)
+            } else {
+                c.curve().partition_point(|p| vbus - p.volts >= u)
+            };
+            c.piece_below(k)
+        });
         // c(u) = a.at(u) + b.at(Vbus - u) + ext, a line in u: its value at
         // u = 0 and its slope (a fixed origin keeps the piece comparable
         // from step to step).
@@ -487,7 +503,9 @@ impl<'a, F: Real> Leg<'a, F> {
     /// [`Error::NotPositive`] and friends naming
     /// [`Quantity::TransitionInductance`] or [`Quantity::DiodeConduction`];
     /// [`Error::Negative`] or [`Error::NotFinite`] naming
-    /// [`Quantity::TankResistance`].
+    /// [`Quantity::TankResistance`], and [`Error::OutOfRange`] naming it
+    /// above `20*sqrt(L/C_max)` (ten times critical damping at the node's
+    /// largest capacitance).
     pub fn new(
         l_h: F,
         cap: NodeCapacitance<'a, F>,
@@ -495,10 +513,26 @@ impl<'a, F: Real> Leg<'a, F> {
         max_diode_s: F,
     ) -> Result<Self, Error> {
         let l = positive(Quantity::TransitionInductance, l_h)?;
+        let r = non_negative(Quantity::TankResistance, r_ohm)?;
+        // A loop damped more than ten times critically at the node's
+        // largest capacitance: the node creeps like an RC circuit, there is
+        // no swing to time, and the integrator's steps (set by L/R) would
+        // run out long before the creep ends.
+        let top = |c: Option<SwitchCapacitance<'a, F>>| c.map_or(F::ZERO, |c| c.max_f());
+        let c_max = cap.ext + top(cap.low) + top(cap.high);
+        let r_max = F::from_u32(20) * (l / c_max).sqrt();
+        if r > r_max {
+            return Err(Error::OutOfRange {
+                quantity: Quantity::TankResistance,
+                value: r.to_f64(),
+                min: 0.0,
+                max: r_max.to_f64(),
+            });
+        }
         Ok(Self {
             l,
             inv_l: derived(Quantity::TransitionInductance, F::ONE / l)?,
-            r: non_negative(Quantity::TankResistance, r_ohm)?,
+            r,
             cap,
             diode: positive(Quantity::DiodeConduction, max_diode_s)?,
         })
@@ -563,6 +597,13 @@ impl<'a, F: Real> Leg<'a, F> {
             v: F::ZERO,
             i: if j0 > F::ZERO { j0 } else { F::ZERO },
         };
+        // The scale of the current for the overdamped stop: the start, or
+        // (from rest) what E drives through the loop's impedance.
+        let j_start = if y.i > F::ZERO {
+            y.i
+        } else {
+            e * (self.cap.at(F::ZERO, vbus) * self.inv_l).sqrt()
+        };
         // At zero current the node starts from rest: the first step rises.
         let mut piece = cap.piece(y.v, true);
         let mut k = sw.slope(e, &piece, y);
@@ -594,10 +635,16 @@ impl<'a, F: Real> Leg<'a, F> {
             }
             let (h, next) = sw.advance(&cap, e, &piece, y, k, full);
             let kn = sw.slope(e, &piece, next);
-            // The rail reached, or the current through zero: whichever first.
-            let rail = (next.v >= vbus)
-                .then(|| crossing(vbus - y.v, vbus - next.v, -k.v, -kn.v, h, F::ONE));
+            // The rail reached, or the current through zero: whichever
+            // first. The node may pass the rail and come back inside one
+            // step (a swing just reaching it): the interpolant at the
+            // current's zero tells.
             let stop = (next.i <= F::ZERO).then(|| crossing(y.i, next.i, k.i, kn.i, h, F::ONE));
+            let upto = match stop {
+                Some(b) if hermite(y.v, next.v, k.v, kn.v, h, b) >= vbus => Some(b),
+                _ => (next.v >= vbus).then_some(F::ONE),
+            };
+            let rail = upto.map(|up| crossing(vbus - y.v, vbus - next.v, -k.v, -kn.v, h, up));
             let done = match (rail, stop) {
                 (Some(a), Some(b)) if b < a => Some((false, b)),
                 (Some(a), _) => Some((true, a)),
@@ -635,6 +682,15 @@ impl<'a, F: Real> Leg<'a, F> {
             t = t + h;
             y = next;
             k = kn;
+            // An overdamped loop (R above about 2*sqrt(L/C)) settles the
+            // node at E short of the rail without the current ever
+            // reversing: once it has decayed to a millionth of its start,
+            // the node has stopped.
+            if y.v < vbus && y.i < j_start * F::from_f64(1e-6) {
+                let mut out = short(t, y.v);
+                out.steps = steps;
+                return Ok(out);
+            }
             if !t.is_finite() {
                 break;
             }
@@ -708,7 +764,9 @@ impl<F: Real> LegTimer<F> {
     ///
     /// # Errors
     /// As [`Timer::new`] (the step's reciprocal is the clock);
-    /// [`Error::Negative`] and friends naming [`Quantity::MinimumDeadTime`].
+    /// [`Error::Negative`] and friends naming [`Quantity::MinimumDeadTime`];
+    /// [`Error::OutOfRange`] naming it when the floor (with the drivers'
+    /// skew) does not fit the counter.
     pub fn new(
         step_s: F,
         counter_bits: u8,
@@ -718,11 +776,24 @@ impl<F: Real> LegTimer<F> {
     ) -> Result<Self, Error> {
         let step = positive(Quantity::TimerClock, step_s)?;
         let clock = derived(Quantity::TimerClock, F::ONE / step)?;
-        Ok(Self {
+        let out = Self {
             falling: Timer::new(clock, counter_bits, low.on_s, high.off_s)?,
             rising: Timer::new(clock, counter_bits, high.on_s, low.off_s)?,
             min_dead_s: non_negative(Quantity::MinimumDeadTime, min_dead_s)?,
-        })
+        };
+        // The floor must fit the counter (a clamped floor would undercut
+        // the margin against shoot-through).
+        for t in [&out.falling, &out.rising] {
+            if out.least(t) > t.max_ticks() {
+                return Err(Error::OutOfRange {
+                    quantity: Quantity::MinimumDeadTime,
+                    value: min_dead_s.to_f64(),
+                    min: 0.0,
+                    max: (F::from_u32(t.max_ticks().get()) * step).to_f64(),
+                });
+            }
+        }
+        Ok(out)
     }
 
     /// The timer of `edge`: the step's reciprocal as its clock, the
@@ -740,8 +811,11 @@ impl<F: Real> LegTimer<F> {
     /// incoming switch before the outgoing one is off, steps (rounded up).
     fn least(&self, timer: &Timer<F>) -> Ticks {
         let clock = timer.clock_hz();
-        let by_min = (self.min_dead_s * clock).ceil();
-        let by_skew = (-timer.lead_s() * clock).ceil();
+        // Rounded up, less a millionth for the rounding of the product (a
+        // floor that is a whole number of steps stays that number).
+        let up = |x: F| (x - x.abs() * F::from_f64(1e-6)).ceil();
+        let by_min = up(self.min_dead_s * clock);
+        let by_skew = up(-timer.lead_s() * clock);
         let n = if by_min > by_skew { by_min } else { by_skew };
         Ticks::new(if n > F::ZERO {
             n.to_u32_saturating()

@@ -30,6 +30,27 @@ const LOW: [CossPoint<f64>; 4] = [
     },
 ];
 
+/// A curve whose points are not round numbers (their images `Vbus - p`
+/// on the other switch's side do not round-trip exactly).
+const ODD: [CossPoint<f64>; 4] = [
+    CossPoint {
+        volts: 0.1,
+        farads: 2.6e-9,
+    },
+    CossPoint {
+        volts: 0.7,
+        farads: 1.9e-9,
+    },
+    CossPoint {
+        volts: 7.7,
+        farads: 0.8e-9,
+    },
+    CossPoint {
+        volts: 133.3,
+        farads: 0.21e-9,
+    },
+];
+
 /// An invented, different curve for the high side.
 const HIGH: [CossPoint<f64>; 3] = [
     CossPoint {
@@ -127,10 +148,12 @@ fn large_inductance_swings_in_charge_over_current() {
         (&[][..], &[][..], 470e-12),
         (&LOW[..], &HIGH[..], 0.0),
         (&LOW[..], &LOW[..], 220e-12),
+        (&ODD[..], &HIGH[..], 0.0),
+        (&HIGH[..], &ODD[..], 0.0),
     ] {
         let node = NodeCapacitance::new(low, high, ext).unwrap();
         let leg = Leg::new(10.0, node, 0.0, 1e-3).unwrap();
-        for (vbus, amps) in [(48.0, 3.0), (36.0, 0.8), (60.0, 10.0)] {
+        for (vbus, amps) in [(48.0, 3.0), (36.0, 0.8), (60.0, 10.0), (133.3, 2.2)] {
             for edge in [Edge::Falling, Edge::Rising] {
                 let current = if edge == Edge::Falling { amps } else { -amps };
                 let t = leg
@@ -296,6 +319,11 @@ fn bad_inputs_name_the_quantity() {
     bad(
         Leg::new(1e-6, node, 0.0, 0.0).map(|_| ()),
         Quantity::DiodeConduction,
+    );
+    // Far beyond critical damping (20*sqrt(L/C_max) is about 440 ohm here).
+    bad(
+        Leg::new(1e-6, node, 1000.0, 1e-7).map(|_| ()),
+        Quantity::TankResistance,
     );
     bad(
         LegPoint::new(48.0, 1.0, 60.0).map(|_| ()),
@@ -499,6 +527,60 @@ fn dead_time_commands_land_where_the_drivers_put_them() {
     assert_eq!(min.ticks().get(), 5);
     match LegTimer::new(step, 8, high, low, -1e-9) {
         Err(Error::Negative {
+            quantity: Quantity::MinimumDeadTime,
+            ..
+        }) => {}
+        other => panic!("{other:?}"),
+    }
+}
+
+#[test]
+fn an_overdamped_loop_settles_short_of_the_rail() {
+    // R = 7 ohm against 2*sqrt(L/C) = 6.3 ohm: no overshoot, the current
+    // never reverses, and the node settles at E (the inductor's pull).
+    let leg = Leg::new(
+        10e-9,
+        NodeCapacitance::new(&[], &[], 1e-9).unwrap(),
+        7.0,
+        1e-6,
+    )
+    .unwrap();
+    let t = leg
+        .edge(Edge::Falling, &LegPoint::new(48.0, 0.5, 24.0).unwrap())
+        .unwrap();
+    let EdgeTurnOn::Short(s) = t.turn_on else {
+        panic!("{t:?}")
+    };
+    // E = 24 V of swing from the bus, plus what the 0.5 A adds (at most
+    // 0.5 A * 7 ohm): about 24 V left.
+    assert!(s.remaining_v > 20.0 && s.remaining_v < 24.5, "{s:?}");
+}
+
+#[test]
+fn the_dead_time_floor_is_whole_steps_and_fits_the_counter() {
+    let d = DriverDelays {
+        on_s: 20e-9,
+        off_s: 20e-9,
+    };
+    let node = NodeCapacitance::new(&LOW, &HIGH, 0.0).unwrap();
+    let small = Leg::new(150e-9, node, 0.02, 60e-9).unwrap();
+    let t = small
+        .edge(Edge::Falling, &LegPoint::new(48.0, 0.05, 40.0).unwrap())
+        .unwrap();
+    // 17.5 ns at 2.5 ns a step: 7 steps, not 8 from the product's rounding.
+    let timer = LegTimer::new(2.5e-9, 8, d, d, 17.5e-9).unwrap();
+    let cmd = timer
+        .command(
+            Edge::Falling,
+            &t,
+            WindowPosition::new(0.5).unwrap(),
+            ShortSwing::Minimum,
+        )
+        .unwrap();
+    assert_eq!(cmd.ticks().get(), 7);
+    // A floor the counter cannot hold is refused, not clamped.
+    match LegTimer::new(2.5e-9, 4, d, d, 100e-9) {
+        Err(Error::OutOfRange {
             quantity: Quantity::MinimumDeadTime,
             ..
         }) => {}
