@@ -61,7 +61,7 @@
 use crate::coss::{CossPoint, Piece, SwitchCapacitance};
 use crate::error::{derived, non_negative, positive, Error, Quantity};
 use crate::ring::{clamp_time_s, MAX_STEPS};
-use crate::swing::{crossing, hermite, Capacitance, Loop, State};
+use crate::swing::{crossing, first_event, hermite, Capacitance, Loop, State};
 use crate::timer::{DelayCommand, Ticks, Timer, WindowPosition};
 use crate::transition::{TurnOn, Valley, ZvsWindow};
 use crate::Real;
@@ -100,16 +100,24 @@ fn curve_of<F: Real>(points: &[CossPoint<F>]) -> Result<Option<SwitchCapacitance
     }
 }
 
-/// The piece of a switch's curve (zero without one).
-fn piece_of<F: Real>(c: Option<&SwitchCapacitance<'_, F>>, v: F, rising: bool) -> Piece<F> {
-    c.map_or(
-        Piece {
-            v0: F::ZERO,
-            c0: F::ZERO,
-            slope: F::ZERO,
-        },
-        |c| c.piece(v, rising),
-    )
+/// `f` of both switches' curves and the added capacitor's `ext_part`
+/// (a switch without a curve adds nothing).
+fn summed<'a, F: Real>(
+    node: &NodeCapacitance<'a, F>,
+    ext_part: F,
+    low: impl Fn(&SwitchCapacitance<'a, F>) -> F,
+    high: impl Fn(&SwitchCapacitance<'a, F>) -> F,
+) -> F {
+    node.low.as_ref().map_or(F::ZERO, low) + node.high.as_ref().map_or(F::ZERO, high) + ext_part
+}
+
+/// No capacitance: the piece of a switch without a curve.
+fn no_piece<F: Real>() -> Piece<F> {
+    Piece {
+        v0: F::ZERO,
+        c0: F::ZERO,
+        slope: F::ZERO,
+    }
 }
 
 impl<'a, F: Real> NodeCapacitance<'a, F> {
@@ -143,16 +151,23 @@ impl<'a, F: Real> NodeCapacitance<'a, F> {
         let ext = non_negative(Quantity::NodeCapacitance, c_ext_f)?;
         let low = curve_of(low)?;
         let high = curve_of(high)?;
-        let least = |c: &Option<SwitchCapacitance<'a, F>>| c.map_or(F::ZERO, |c| c.min_f());
-        positive(Quantity::NodeCapacitance, ext + least(&low) + least(&high))?;
-        Ok(Self { low, high, ext })
+        let node = Self { low, high, ext };
+        positive(
+            Quantity::NodeCapacitance,
+            summed(
+                &node,
+                ext,
+                SwitchCapacitance::min_f,
+                SwitchCapacitance::min_f,
+            ),
+        )?;
+        Ok(node)
     }
 
     /// `C_node(v)` at node voltage `v` on a bus of `vbus` volt, farad.
     #[must_use]
     pub fn at(&self, v: F, vbus: F) -> F {
-        let at = |c: &Option<SwitchCapacitance<'a, F>>, v: F| c.map_or(F::ZERO, |c| c.at(v));
-        at(&self.low, v) + at(&self.high, vbus - v) + self.ext
+        summed(self, self.ext, |c| c.at(v), |c| c.at(vbus - v))
     }
 
     /// The charge the node's swing across the bus moves,
@@ -160,8 +175,8 @@ impl<'a, F: Real> NodeCapacitance<'a, F> {
     /// piecewise-linear curves).
     #[must_use]
     pub fn swing_charge(&self, vbus: F) -> F {
-        let q = |c: &Option<SwitchCapacitance<'a, F>>| c.map_or(F::ZERO, |c| c.charge(vbus));
-        q(&self.low) + q(&self.high) + self.ext * vbus
+        let q = |c: &SwitchCapacitance<'a, F>| c.charge(vbus);
+        summed(self, self.ext * vbus, q, q)
     }
 
     /// The capacitance added at the node, farad.
@@ -199,12 +214,12 @@ impl<F: Real> Along<'_, '_, F> {
 impl<F: Real> Capacitance<F> for Along<'_, '_, F> {
     fn piece(&self, u: F, rising: bool) -> Piece<F> {
         let (same, other) = self.sides();
-        let a = piece_of(same, u, rising);
+        let a = same.map_or(no_piece(), |c| c.piece(u, rising));
         // The other switch sits at w = Vbus - u. Its points are located in
         // u, as `Vbus - p` (the same expression `next_point` lands the
         // steps on), so a step ended on one of them takes the next piece:
         // mapping u back to w could round to the wrong side of the point.
-        let b = other.map_or(piece_of(None, F::ZERO, rising), |c| {
+        let b = other.map_or(no_piece(), |c| {
             let vbus = self.vbus;
             let k = if rising {
                 // w falls: the piece below the point u has reached.
@@ -518,8 +533,12 @@ impl<'a, F: Real> Leg<'a, F> {
         // largest capacitance: the node creeps like an RC circuit, there is
         // no swing to time, and the integrator's steps (set by L/R) would
         // run out long before the creep ends.
-        let top = |c: Option<SwitchCapacitance<'a, F>>| c.map_or(F::ZERO, |c| c.max_f());
-        let c_max = cap.ext + top(cap.low) + top(cap.high);
+        let c_max = summed(
+            &cap,
+            cap.ext,
+            SwitchCapacitance::max_f,
+            SwitchCapacitance::max_f,
+        );
         let r_max = F::from_u32(20) * (l / c_max).sqrt();
         if r > r_max {
             return Err(Error::OutOfRange {
@@ -568,7 +587,7 @@ impl<'a, F: Real> Leg<'a, F> {
             vbus,
             falling,
         };
-        let short = |at: F, u: F| {
+        let short = |at: F, u: F, steps: u32| {
             let remaining = vbus - u;
             EdgeTransition {
                 turn_on: EdgeTurnOn::Short(SwingShortfall {
@@ -580,7 +599,7 @@ impl<'a, F: Real> Leg<'a, F> {
                     },
                 }),
                 clamp_start_current_a: F::ZERO,
-                steps: 0,
+                steps,
             }
         };
         // A current of the wrong sign: the outgoing switch's body diode
@@ -589,7 +608,7 @@ impl<'a, F: Real> Leg<'a, F> {
         let mut t = F::ZERO;
         if j0 <= F::ZERO {
             if e <= F::ZERO {
-                return Ok(short(F::ZERO, F::ZERO));
+                return Ok(short(F::ZERO, F::ZERO, 0));
             }
             t = clamp_time_s(self.l, self.r, e, j0, F::ZERO);
         }
@@ -645,19 +664,11 @@ impl<'a, F: Real> Leg<'a, F> {
                 _ => (next.v >= vbus).then_some(F::ONE),
             };
             let rail = upto.map(|up| crossing(vbus - y.v, vbus - next.v, -k.v, -kn.v, h, up));
-            let done = match (rail, stop) {
-                (Some(a), Some(b)) if b < a => Some((false, b)),
-                (Some(a), _) => Some((true, a)),
-                (None, Some(b)) => Some((false, b)),
-                (None, None) => None,
-            };
+            let done = first_event(rail, stop);
             if let Some((zvs, s)) = done {
                 let at = derived(Quantity::Interval, t + s * h)?;
                 if !zvs {
-                    let u = hermite(y.v, next.v, k.v, kn.v, h, s);
-                    let mut out = short(at, u);
-                    out.steps = steps;
-                    return Ok(out);
+                    return Ok(short(at, hermite(y.v, next.v, k.v, kn.v, h, s), steps));
                 }
                 let jc = hermite(y.i, next.i, k.i, kn.i, h, s);
                 let jc = if jc > F::ZERO { jc } else { F::ZERO };
@@ -687,9 +698,7 @@ impl<'a, F: Real> Leg<'a, F> {
             // reversing: once it has decayed to a millionth of its start,
             // the node has stopped.
             if y.v < vbus && y.i < j_start * F::from_f64(1e-6) {
-                let mut out = short(t, y.v);
-                out.steps = steps;
-                return Ok(out);
+                return Ok(short(t, y.v, steps));
             }
             if !t.is_finite() {
                 break;
@@ -724,7 +733,27 @@ pub struct LegTimer<F> {
     falling: Timer<F>,
     /// The rising edge's: the low side turns off, the high side on.
     rising: Timer<F>,
-    min_dead_s: F,
+    /// The least count of each edge (falling, rising): the minimum dead
+    /// time, and no turn-on of the incoming switch before the outgoing one
+    /// is off, steps rounded up; within the counter (validated).
+    least: [Ticks; 2],
+}
+
+/// The least count of `timer`: `min_dead_s`, and no turn-on of the
+/// incoming switch before the outgoing one is off, steps rounded up (less a
+/// millionth for the rounding of the product: a floor that is a whole
+/// number of steps stays that number).
+fn least_steps<F: Real>(timer: &Timer<F>, min_dead_s: F) -> Ticks {
+    let clock = timer.clock_hz();
+    let up = |x: F| (x - x.abs() * F::from_f64(1e-6)).ceil();
+    let by_min = up(min_dead_s * clock);
+    let by_skew = up(-timer.lead_s() * clock);
+    let n = if by_min > by_skew { by_min } else { by_skew };
+    Ticks::new(if n > F::ZERO {
+        n.to_u32_saturating()
+    } else {
+        0
+    })
 }
 
 /// One switch's gate-driver delays, second.
@@ -776,24 +805,28 @@ impl<F: Real> LegTimer<F> {
     ) -> Result<Self, Error> {
         let step = positive(Quantity::TimerClock, step_s)?;
         let clock = derived(Quantity::TimerClock, F::ONE / step)?;
-        let out = Self {
-            falling: Timer::new(clock, counter_bits, low.on_s, high.off_s)?,
-            rising: Timer::new(clock, counter_bits, high.on_s, low.off_s)?,
-            min_dead_s: non_negative(Quantity::MinimumDeadTime, min_dead_s)?,
-        };
+        let falling = Timer::new(clock, counter_bits, low.on_s, high.off_s)?;
+        let rising = Timer::new(clock, counter_bits, high.on_s, low.off_s)?;
+        let min_dead = non_negative(Quantity::MinimumDeadTime, min_dead_s)?;
         // The floor must fit the counter (a clamped floor would undercut
         // the margin against shoot-through).
-        for t in [&out.falling, &out.rising] {
-            if out.least(t) > t.max_ticks() {
+        let floor = |t: &Timer<F>| {
+            let n = least_steps(t, min_dead);
+            if n > t.max_ticks() {
                 return Err(Error::OutOfRange {
                     quantity: Quantity::MinimumDeadTime,
-                    value: min_dead_s.to_f64(),
+                    value: min_dead.to_f64(),
                     min: 0.0,
                     max: (F::from_u32(t.max_ticks().get()) * step).to_f64(),
                 });
             }
-        }
-        Ok(out)
+            Ok(n)
+        };
+        Ok(Self {
+            least: [floor(&falling)?, floor(&rising)?],
+            falling,
+            rising,
+        })
     }
 
     /// The timer of `edge`: the step's reciprocal as its clock, the
@@ -805,23 +838,6 @@ impl<F: Real> LegTimer<F> {
             Edge::Falling => &self.falling,
             Edge::Rising => &self.rising,
         }
-    }
-
-    /// The least count: the minimum dead time, and no turn-on of the
-    /// incoming switch before the outgoing one is off, steps (rounded up).
-    fn least(&self, timer: &Timer<F>) -> Ticks {
-        let clock = timer.clock_hz();
-        // Rounded up, less a millionth for the rounding of the product (a
-        // floor that is a whole number of steps stays that number).
-        let up = |x: F| (x - x.abs() * F::from_f64(1e-6)).ceil();
-        let by_min = up(self.min_dead_s * clock);
-        let by_skew = up(-timer.lead_s() * clock);
-        let n = if by_min > by_skew { by_min } else { by_skew };
-        Ticks::new(if n > F::ZERO {
-            n.to_u32_saturating()
-        } else {
-            0
-        })
     }
 
     /// The dead time to command for `edge` after `transition`, steps:
@@ -841,7 +857,10 @@ impl<F: Real> LegTimer<F> {
         short: ShortSwing,
     ) -> Result<DelayCommand<F>, Error> {
         let timer = self.edge_timer(edge);
-        let least = self.least(timer);
+        let least = match edge {
+            Edge::Falling => self.least[0],
+            Edge::Rising => self.least[1],
+        };
         let (turn_on, window) = match transition.turn_on {
             EdgeTurnOn::Zvs(w) => (
                 TurnOn::Zvs(ZvsWindow {

@@ -37,7 +37,7 @@
 
 use crate::coss::SwitchCapacitance;
 use crate::error::{derived, non_negative, positive, Error, Quantity};
-use crate::swing::{crossing, hermite, Capacitance, Loop, State};
+use crate::swing::{crossing, first_event, hermite, Capacitance, Loop, State};
 use crate::transition::{TurnOn, Valley, ZvsWindow};
 use crate::{CellPoint, Real, Tank};
 
@@ -281,12 +281,7 @@ impl<'a, F: Real> RingCell<'a, F> {
                         _ => (next.v <= F::ZERO).then_some(F::ONE),
                     };
                     let zvs = upto.map(|u| crossing(y.v, next.v, k.v, kn.v, h, u));
-                    let done = match (zvs, valley) {
-                        (Some(a), Some(b)) if b < a => Some((false, b)),
-                        (Some(a), _) => Some((true, a)),
-                        (None, Some(b)) => Some((false, b)),
-                        (None, None) => None,
-                    };
+                    let done = first_event(zvs, valley);
                     if let Some((is_zvs, s)) = done {
                         let at = t + s * h;
                         let mut clamp_start = F::ZERO;

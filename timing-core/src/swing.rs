@@ -176,6 +176,19 @@ impl<F: Real> Loop<F> {
     }
 }
 
+/// Which of a step's two events comes first, as fractions of the step:
+/// `(true, a)` for the `wanted` one (the window opening) when it is not
+/// after the `other` (the swing's turning point), `(false, b)` for that
+/// one, `None` when neither falls inside the step.
+pub(crate) fn first_event<F: Real>(wanted: Option<F>, other: Option<F>) -> Option<(bool, F)> {
+    match (wanted, other) {
+        (Some(a), Some(b)) if b < a => Some((false, b)),
+        (Some(a), _) => Some((true, a)),
+        (None, Some(b)) => Some((false, b)),
+        (None, None) => None,
+    }
+}
+
 /// Cubic Hermite interpolation on one step at fraction `s` of it.
 pub(crate) fn hermite<F: Real>(y0: F, y1: F, d0: F, d1: F, h: F, s: F) -> F {
     let s2 = s * s;

@@ -346,8 +346,9 @@ impl<F: Real> Timer<F> {
     }
 
     /// `command` moved up to at least `least` ticks (a floor such as a
-    /// minimum dead time), where it lands then and whether that is still
-    /// inside `window` (`open_s`, `close_s`, second from gate turn-off).
+    /// minimum dead time, within the counter: the caller's validation),
+    /// where it lands then and whether that is still inside `window`
+    /// (`open_s`, `close_s`, second from gate turn-off).
     pub(crate) fn raised(
         &self,
         command: DelayCommand<F>,
@@ -357,11 +358,7 @@ impl<F: Real> Timer<F> {
         if command.ticks >= least {
             return command;
         }
-        let ticks = if least.0 > self.max_ticks {
-            Ticks(self.max_ticks)
-        } else {
-            least
-        };
+        let ticks = least;
         let turn_on_s = self.turn_on_s(ticks);
         DelayCommand {
             ticks,

@@ -43,6 +43,7 @@
 //! current at the band's first and last voltage codes (found by
 //! bisection).
 
+use timing_core::closed_form::pieces::band_offset;
 use timing_core::closed_form::{
     Band, F32Piece, FastF32, FastF32Parts, FixedPiece, FixedPoint, FixedPointParts, PieceLayout,
 };
@@ -515,7 +516,7 @@ pub fn fit_pieces(design: &Design, model: &ExactModel<'_>) -> Result<PieceSet, t
                         v: q.vin,
                         i,
                         y: f64::from(f32::from(q.vin) / f32::from(i)),
-                        dv: band_of(vv, shift, q.vin).1,
+                        dv: band_offset_of(vv, shift, q.vin),
                         lo,
                         hi,
                         own: (q.lo, q.hi),
@@ -730,14 +731,10 @@ fn f32_piece(s: StandIn) -> F32Piece {
     }
 }
 
-/// Band of voltage code `cv` and its distance from the band's centre,
-/// codes, as timing-core computes them.
-fn band_of(vv: CodeRange, shift: u8, cv: u16) -> (usize, f64) {
-    let from_lo = cv.clamp(vv.lo, vv.hi) - vv.lo;
-    let b = usize::from(from_lo >> shift);
-    let half = (1i32 << shift) >> 1;
-    let dv = i32::from(from_lo) - ((b as i32) << shift) - half;
-    (b, f64::from(dv))
+/// Distance of voltage code `cv` from its band's centre, codes, as
+/// timing-core measures it.
+fn band_offset_of(vv: CodeRange, shift: u8, cv: u16) -> f64 {
+    f64::from(band_offset(&vv, shift, cv.clamp(vv.lo, vv.hi)).1)
 }
 
 /// The bands of `shift` with their ZVS tests (`first` left 0): the line
@@ -778,7 +775,10 @@ fn boundary_bands(design: &Design, model: &ExactModel<'_>, shift: u8) -> Vec<Ban
         let first = vv.lo + ((b as u16) << shift);
         let last = first.saturating_add((1u16 << shift) - 1).min(vv.hi);
         let (i0, i1) = (boundary(first), boundary(last));
-        let (d0, d1) = (band_of(vv, shift, first).1, band_of(vv, shift, last).1);
+        let (d0, d1) = (
+            band_offset_of(vv, shift, first),
+            band_offset_of(vv, shift, last),
+        );
         let inside = |i: f64| i.abs() < FAR / 512.0;
         let slope = if last > first && inside(i0) && inside(i1) {
             (i1 - i0) / (d1 - d0)

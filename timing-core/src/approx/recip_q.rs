@@ -9,7 +9,7 @@
 //! every `n` in 1..2^24 by the `recip_q15_exhaustive` test (measured
 //! 9.3e-5). 128 bytes of table, two multiplications.
 
-use crate::table::log2::{floor_log2, floor_log2_16};
+use crate::table::log2::floor_log2;
 
 /// Largest relative error of [`recip_q15`] over 1 <= n < 2^24.
 pub const RECIP_Q15_MAX_ERROR: f64 = 1.0e-4;
@@ -52,15 +52,6 @@ pub const fn recip_q15_at(n: u32, e: u32) -> (u32, u32) {
     recip_q15_normalised(m, e)
 }
 
-/// [`recip_q15`] for `1 <= n < 2^16` (one halving step of the log2 and
-/// one shift fewer); other `n` give a meaningless but finite result.
-#[inline]
-#[must_use]
-pub const fn recip_q15_u16(n: u32) -> (u32, u32) {
-    let e = floor_log2_16(n);
-    recip_q15_normalised(n.wrapping_shl(15u32.wrapping_sub(e) & 31), e)
-}
-
 /// [`recip_q15`] of `m * 2^(e - 15)` for a caller who has normalised it:
 /// `m` in [2^15, 2^16) and `e` its exponent; `(y, 16 + e)`.
 #[inline]
@@ -95,8 +86,5 @@ mod tests {
             worst.0, worst.1
         );
         assert!(worst.0 <= RECIP_Q15_MAX_ERROR, "{worst:?}");
-        for n in 1..(1u32 << 16) {
-            assert_eq!(recip_q15_u16(n), recip_q15(n), "{n}");
-        }
     }
 }

@@ -300,7 +300,7 @@ impl<'a> FixedPoint<'a> {
         let q = Ratio::at(p, u32::from(s.v), u32::from(s.i));
         let x24 = q.x24;
         let mut theta = (x24 >> 8).wrapping_add(THREE_HALF_PI_Q16);
-        if q.w <= q.i_f {
+        if q.below_one {
             // sqrt(1 - x) in Q15.
             let r = sqrt_q24(q.one_less_q24()) as i32;
             // J = 2^24 / x24 in Q10 (2^18 <= x24 <= 2^24 here: J < 63,
@@ -374,8 +374,8 @@ struct Ratio {
     x24: u32,
     /// `i_f / i_f` in Q24 through the reciprocal (2^24 within 1e-4).
     one24: u32,
-    w: u32,
-    i_f: u32,
+    /// `x <= 1`, exactly: `w <= i_f`.
+    below_one: bool,
 }
 
 impl Ratio {
@@ -392,8 +392,7 @@ impl Ratio {
             x24: to_q24(mul_shr(w, y, 16), ke),
             // i_f * y / 2^16 * 2^(24 - ke) = m * y / 2^7 (below 2^31).
             one24: m.wrapping_mul(y) >> 7,
-            w,
-            i_f: i.wrapping_shl(p.k_shift as u32),
+            below_one: w <= i.wrapping_shl(p.k_shift as u32),
         }
     }
 

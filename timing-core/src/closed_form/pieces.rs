@@ -94,6 +94,19 @@ const fn index_error(value: usize, max: usize) -> Error {
     }
 }
 
+/// The band of voltage code `v` (already clamped to `vin`) in bands of
+/// `2^band_shift` codes from `vin.lo`, and its distance from the band's
+/// centre, codes: what [`PieceLayout`]'s pieces and ZVS lines are measured
+/// from (the host tool fits them with the same numbers).
+#[inline(always)]
+#[must_use]
+pub const fn band_offset(vin: &CodeRange, band_shift: u8, v: u16) -> (usize, i32) {
+    let from_lo = v.wrapping_sub(vin.lo);
+    let b = (from_lo >> band_shift) as usize;
+    let half = (1i32 << band_shift) >> 1;
+    (b, from_lo as i32 - ((b as i32) << band_shift) - half)
+}
+
 /// Largest magnitude of a band's line terms (so that the line's value
 /// stays inside 32 bits anywhere in the band).
 const LINE_MAX: i64 = 1 << 30;
@@ -186,10 +199,7 @@ impl PieceLayout<'_> {
     pub(crate) fn select(&self, vin: AdcCode, io: AdcCode) -> Selected {
         let v = self.vin.clamp(vin);
         let i = self.io.clamp(io).wrapping_sub(self.io_zero);
-        let from_lo = v.wrapping_sub(self.vin.lo);
-        let b = usize::from(from_lo >> self.band_shift);
-        let half = (1i32 << self.band_shift) >> 1;
-        let dv = i32::from(from_lo) - ((b as i32) << self.band_shift) - half;
+        let (b, dv) = band_offset(&self.vin, self.band_shift, v);
         let (first, end, zvs) = match self.bands.get(b) {
             Some(band) => {
                 let end = self
