@@ -287,6 +287,25 @@ impl fmt::Display for Error {
 
 impl core::error::Error for Error {}
 
+impl Error {
+    /// The quantity the error names, where it names one.
+    #[must_use]
+    pub const fn quantity(&self) -> Option<Quantity> {
+        match *self {
+            Error::NotFinite { quantity, .. }
+            | Error::NotPositive { quantity, .. }
+            | Error::Negative { quantity, .. }
+            | Error::Subnormal { quantity, .. }
+            | Error::OutOfRange { quantity, .. }
+            | Error::Overflow { quantity } => Some(quantity),
+            Error::TickOverflow { .. } => Some(Quantity::DelayTicks),
+            Error::DelayNegative { .. } => Some(Quantity::TurnOnDelay),
+            Error::ZvsLost { .. } => Some(Quantity::NormalizedLoad),
+            Error::FrequencyTooHigh { .. } => Some(Quantity::SwitchingFrequency),
+        }
+    }
+}
+
 /// Validate a strictly positive, normal input value.
 pub(crate) fn positive<F: crate::Real>(quantity: Quantity, value: F) -> Result<F, Error> {
     let v = value.to_f64();

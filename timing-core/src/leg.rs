@@ -840,6 +840,16 @@ impl<F: Real> LegTimer<F> {
         }
     }
 
+    /// The least count of `edge`, steps: the minimum dead time, and no
+    /// turn-on of the incoming switch before the outgoing one is off,
+    /// rounded up.
+    pub fn least(&self, edge: Edge) -> Ticks {
+        match edge {
+            Edge::Falling => self.least[0],
+            Edge::Rising => self.least[1],
+        }
+    }
+
     /// The dead time to command for `edge` after `transition`, steps:
     /// `position` in the ZVS window (moved inside it when rounding would
     /// leave it, as the resonant cell's timer does), or per `short` where
@@ -857,10 +867,7 @@ impl<F: Real> LegTimer<F> {
         short: ShortSwing,
     ) -> Result<DelayCommand<F>, Error> {
         let timer = self.edge_timer(edge);
-        let least = match edge {
-            Edge::Falling => self.least[0],
-            Edge::Rising => self.least[1],
-        };
+        let least = self.least(edge);
         let (turn_on, window) = match transition.turn_on {
             EdgeTurnOn::Zvs(w) => (
                 TurnOn::Zvs(ZvsWindow {

@@ -73,6 +73,7 @@ mod conversion;
 pub mod coss;
 mod error;
 pub mod leg;
+pub mod leg_table;
 pub mod normalized;
 mod real;
 pub mod ring;

@@ -32,12 +32,7 @@ pub fn c_header(design: &Design, g: &Generated, v: &VerifyReport) -> String {
         "static const uint16_t {n}_entries[{}] = {{",
         g.entries.len()
     );
-    for (k, e) in g.entries.iter().enumerate() {
-        if k % 12 == 0 {
-            s.push_str("\n   ");
-        }
-        let _ = write!(s, " {e}u,");
-    }
+    crate::emit::summary::push_entries(&mut s, &g.entries, "u");
     s.push_str("\n};\n\n");
     if let Layout::LogUniform(_) | Layout::LogVolt(_) = g.layout {
         let _ = write!(s, "/* round(2^15 * log2(1 + k/64)), k = 0..64 */\nstatic const uint16_t {n}_log2_table_[65] = {{");
@@ -66,15 +61,7 @@ pub fn c_header(design: &Design, g: &Generated, v: &VerifyReport) -> String {
             "    return (e << 15) + a + (((b - a) * r + 512u) >> 10);\n}}\n"
         );
     }
-    let _ = writeln!(s, "/* Clamp a code to the design range. */");
-    let _ = writeln!(
-        s,
-        "static inline uint32_t {n}_clamp_(uint16_t c, uint16_t lo, uint16_t hi) {{"
-    );
-    let _ = writeln!(
-        s,
-        "    return (uint32_t)(c < lo ? lo : (c > hi ? hi : c));\n}}\n"
-    );
+    c_clamp_fn(&mut s, n);
     let _ = writeln!(
         s,
         "/* 1 when the point can reach ZVS (J >= 1), else 0 (fallback region). */"
@@ -294,6 +281,20 @@ pub fn c_header(design: &Design, g: &Generated, v: &VerifyReport) -> String {
     }
     let _ = writeln!(s, "}}\n\n#endif /* {up}_DELAY_TABLE_H */");
     s
+}
+
+/// C for `<n>_clamp_(c, lo, hi)`: a code moved to the nearest end of a
+/// range.
+pub(super) fn c_clamp_fn(s: &mut String, n: &str) {
+    let _ = writeln!(s, "/* Clamp a code to the design range. */");
+    let _ = writeln!(
+        s,
+        "static inline uint32_t {n}_clamp_(uint16_t c, uint16_t lo, uint16_t hi) {{"
+    );
+    let _ = writeln!(
+        s,
+        "    return (uint32_t)(c < lo ? lo : (c > hi ? hi : c));\n}}\n"
+    );
 }
 
 /// C for the tail of the 2-D row layouts (log-volt and margin), from the

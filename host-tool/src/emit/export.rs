@@ -92,12 +92,7 @@ pub fn rust_source(design: &Design, g: &Generated, v: &VerifyReport) -> String {
     );
     let _ = writeln!(s, "/// Table entries ({} bytes).", g.table_bytes());
     let _ = write!(s, "pub static ENTRIES: [u16; {}] = [", g.entries.len());
-    for (k, e) in g.entries.iter().enumerate() {
-        if k % 12 == 0 {
-            s.push_str("\n   ");
-        }
-        let _ = write!(s, " {e},");
-    }
+    crate::emit::summary::push_entries(&mut s, &g.entries, "");
     s.push_str("\n];\n\n");
     let _ = writeln!(
         s,
@@ -130,6 +125,14 @@ pub fn rust_source(design: &Design, g: &Generated, v: &VerifyReport) -> String {
 /// # Errors
 /// postcard's serialisation error (not expected).
 pub fn blob(design: &Design, g: &Generated) -> Result<Vec<u8>, postcard::Error> {
+    blob_with_hash(design.hash, g)
+}
+
+/// [`blob`] for any table, with the design hash `hash` in its header.
+///
+/// # Errors
+/// postcard's serialisation error (not expected).
+pub fn blob_with_hash(hash: u32, g: &Generated) -> Result<Vec<u8>, postcard::Error> {
     let entry_bytes: Vec<u8> = g.entries.iter().flat_map(|e| e.to_le_bytes()).collect();
     let payload = postcard::to_allocvec(&Payload {
         sensing: g.sensing,
@@ -141,7 +144,7 @@ pub fn blob(design: &Design, g: &Generated) -> Result<Vec<u8>, postcard::Error> 
     let header = Header {
         magic: MAGIC,
         format_version: FORMAT_VERSION,
-        design_hash: design.hash,
+        design_hash: hash,
         payload_len: payload.len() as u32,
         payload_crc: CRC32.checksum(&payload),
     };

@@ -8,4 +8,5 @@ pub mod c_header;
 pub mod closed_form_source;
 pub mod export;
 pub mod fitted_design;
+pub mod leg_export;
 mod summary;

@@ -48,3 +48,14 @@ pub(crate) fn summary_lines(
     let _ = writeln!(s, "{comment} CAUTION: verify every delay at reduced voltage with a scope before full-voltage operation.");
     s
 }
+
+/// The entries of a generated table as source text: twelve a line, each
+/// followed by `suffix` (`"u"` in C) and a comma.
+pub(super) fn push_entries(s: &mut String, entries: &[u16], suffix: &str) {
+    for (k, e) in entries.iter().enumerate() {
+        if k % 12 == 0 {
+            s.push_str("\n   ");
+        }
+        let _ = write!(s, " {e}{suffix},");
+    }
+}

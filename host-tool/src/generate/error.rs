@@ -50,4 +50,32 @@ pub enum GenerateError {
         /// a lower bound).
         on: &'static str,
     },
+    /// The leg's model refused a point of its design range.
+    #[error("{edge} edge at Vbus = {vbus_v:.3} V, I = {current_a:.4} A: {message}")]
+    LegModel {
+        /// `falling` or `rising`.
+        edge: &'static str,
+        /// Where.
+        vbus_v: f64,
+        /// Where.
+        current_a: f64,
+        /// timing-core's message.
+        message: String,
+    },
+    /// No edge-table layout meets the leg's error budget.
+    #[error("{edge} edge: no table of up to {max_kib} KiB meets max_error_ticks = {budget}: the best ({shape}) reached {best:.3} steps with {misses} code pairs outside their window; widen max_error_ticks, narrow the bus or current range, or use a finer dead-time step")]
+    LegNoLayout {
+        /// `falling` or `rising`.
+        edge: &'static str,
+        /// Size limit, KiB.
+        max_kib: usize,
+        /// Budget, steps.
+        budget: f64,
+        /// Best error found, steps.
+        best: f64,
+        /// Pairs outside their window there.
+        misses: usize,
+        /// Its rows and columns.
+        shape: String,
+    },
 }

@@ -53,6 +53,39 @@ pub struct Requirement {
     pub windowed: bool,
 }
 
+impl Requirement {
+    /// What the pair (`vin`, `io`) asks with the aim `aim` (ticks), the
+    /// interval `required` the command must hit where a window a tick wide
+    /// sets one, and the error budget `budget` (ticks): the window's whole
+    /// ticks within the budget around the aim where the two overlap, the
+    /// window's alone where they do not, the budget's alone without a
+    /// window.
+    #[must_use]
+    pub fn of(vin: u16, io: u16, aim: f64, required: Option<(f64, f64)>, budget: f64) -> Self {
+        let band = rounds_into(aim - budget, aim + budget);
+        let (lo, hi, windowed) = match required {
+            Some((a, b)) => {
+                let w = rounds_into(a, b);
+                let both = (w.0.max(band.0), w.1.min(band.1));
+                if both.0 < both.1 {
+                    (both.0, both.1, true)
+                } else {
+                    (w.0, w.1, true)
+                }
+            }
+            None => (band.0, band.1, false),
+        };
+        Self {
+            vin,
+            io,
+            aim,
+            lo,
+            hi,
+            windowed,
+        }
+    }
+}
+
 /// The requirements of every code pair of a design.
 #[derive(Debug, Clone)]
 pub struct Requirements {
@@ -92,28 +125,13 @@ impl Requirements {
                 let Ok(p) = row.at_code(ci) else {
                     continue;
                 };
-                let aim = p.table_ticks;
-                let band = rounds_into(aim - budget, aim + budget);
-                let (lo, hi, windowed) = match p.required_ticks {
-                    Some((a, b)) => {
-                        let w = rounds_into(a, b);
-                        let both = (w.0.max(band.0), w.1.min(band.1));
-                        if both.0 < both.1 {
-                            (both.0, both.1, true)
-                        } else {
-                            (w.0, w.1, true)
-                        }
-                    }
-                    None => (band.0, band.1, false),
-                };
-                out.push(Requirement {
-                    vin: cv,
-                    io: ci,
-                    aim,
-                    lo,
-                    hi,
-                    windowed,
-                });
+                out.push(Requirement::of(
+                    cv,
+                    ci,
+                    p.table_ticks,
+                    p.required_ticks,
+                    budget,
+                ));
             }
             out
         });

@@ -7,6 +7,7 @@ pub mod fit;
 pub mod generated;
 mod layouts_1d;
 mod layouts_2d;
+pub mod leg_tables;
 mod nodes;
 pub mod pieces;
 

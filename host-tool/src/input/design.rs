@@ -158,17 +158,50 @@ pub enum DesignError {
     },
 }
 
+/// The text of the design file at `path`.
+///
+/// # Errors
+/// [`DesignError::Read`].
+pub fn read_design(path: &std::path::Path) -> Result<String, DesignError> {
+    std::fs::read_to_string(path).map_err(|e| DesignError::Read {
+        path: path.display().to_string(),
+        message: e.to_string(),
+    })
+}
+
+/// Design-file text parsed as `F` (the TOML parser's message, with line
+/// and column, where it does not parse) and validated by `validate` with
+/// the text and the folder files are named relative to; `origin` names the
+/// text in errors.
+///
+/// # Errors
+/// [`DesignError::Malformed`] or [`DesignError::Invalid`].
+pub fn parse_design<F: serde::de::DeserializeOwned, S>(
+    text: &str,
+    origin: &str,
+    validate: impl FnOnce(&F, &str, &std::path::Path) -> Result<S, Invalid>,
+) -> Result<S, DesignError> {
+    let file: F = toml::from_str(text).map_err(|e| DesignError::Malformed {
+        path: origin.to_owned(),
+        message: e.to_string().trim_end().replace('\n', "\n  "),
+    })?;
+    let base = std::path::Path::new(origin)
+        .parent()
+        .map(std::path::Path::to_path_buf)
+        .unwrap_or_default();
+    validate(&file, text, &base).map_err(|problem| DesignError::Invalid {
+        path: origin.to_owned(),
+        problem,
+    })
+}
+
 impl DesignSpec {
     /// Read and validate a design file.
     ///
     /// # Errors
     /// [`DesignError`].
     pub fn load(path: &std::path::Path) -> Result<Self, DesignError> {
-        let text = std::fs::read_to_string(path).map_err(|e| DesignError::Read {
-            path: path.display().to_string(),
-            message: e.to_string(),
-        })?;
-        Self::parse(&text, &path.display().to_string())
+        Self::parse(&read_design(path)?, &path.display().to_string())
     }
 
     /// Parse and validate design-file text; `origin` names it in errors.
@@ -176,19 +209,13 @@ impl DesignSpec {
     /// # Errors
     /// [`DesignError::Malformed`] or [`DesignError::Invalid`].
     pub fn parse(text: &str, origin: &str) -> Result<Self, DesignError> {
-        let file: DesignFile = toml::from_str(text).map_err(|e| DesignError::Malformed {
-            path: origin.to_owned(),
-            message: e.to_string().trim_end().replace('\n', "\n  "),
-        })?;
-        let base = std::path::Path::new(origin)
-            .parent()
-            .map(std::path::Path::to_path_buf)
-            .unwrap_or_default();
-        file.validate(text, &base)
-            .map_err(|problem| DesignError::Invalid {
+        if crate::input::design_file::is_leg(text) {
+            return Err(DesignError::Invalid {
                 path: origin.to_owned(),
-                problem,
-            })
+                problem: Invalid::LegNotServed,
+            });
+        }
+        parse_design(text, origin, DesignFile::validate)
     }
 
     /// Check an operating point given as `--vin` (volt) and `--io`
@@ -345,16 +372,7 @@ fn t_position(t: &TimerFile) -> f64 {
 
 impl DesignFile {
     fn validate(&self, text: &str, base: &std::path::Path) -> Result<DesignSpec, Invalid> {
-        let name_ok = self
-            .name
-            .chars()
-            .next()
-            .is_some_and(|c| c.is_ascii_alphabetic() || c == '_')
-            && self
-                .name
-                .chars()
-                .all(|c| c.is_ascii_alphanumeric() || c == '_');
-        if !name_ok {
+        if !crate::input::invalid::c_identifier(&self.name) {
             return Err(Invalid::Name(self.name.clone()));
         }
         let (mut coss, coss_text) = match &self.coss {
@@ -542,39 +560,8 @@ impl DesignFile {
             });
         }
         // Codes inside the design range: those that read within it.
-        let code_range = |lo: f64,
-                          hi: f64,
-                          scale: f64,
-                          zero: f64,
-                          key: &'static str,
-                          unit: &'static str|
-         -> Result<CodeRange, Invalid> {
-            let c_lo = (lo / scale + zero - 1e-9).ceil();
-            let c_hi = (hi / scale + zero + 1e-9).floor();
-            if c_hi > f64::from(max_code) {
-                return Err(Invalid::BeyondFullScale {
-                    key,
-                    hi,
-                    unit,
-                    code: c_hi,
-                    bits: a.bits,
-                    full_scale: (f64::from(max_code) - zero) * scale,
-                    max_code,
-                });
-            }
-            if c_lo > c_hi || c_lo < 1.0 {
-                return Err(Invalid::NoCodes {
-                    key,
-                    lo,
-                    hi,
-                    unit,
-                    scale,
-                });
-            }
-            Ok(CodeRange {
-                lo: c_lo as u16,
-                hi: c_hi as u16,
-            })
+        let code_range = |lo: f64, hi: f64, scale: f64, zero: f64, key, unit| {
+            crate::input::invalid::code_range(key, lo, hi, scale, zero, unit, a.bits)
         };
         let vin_codes = code_range(vlo, vhi, a.vin_volts_per_code, 0.0, "vin", "V")?;
         let io_codes = code_range(

@@ -216,6 +216,23 @@ fn default_max_error() -> f64 {
     1.0
 }
 
+/// The `topology` a half-bridge leg's design file names
+/// ([`crate::input::leg_design`]).
+pub const LEG_TOPOLOGY: &str = "half-bridge-leg";
+
+/// Whether design-file text declares a half-bridge leg (`topology =
+/// "half-bridge-leg"`); false for text that is no TOML table.
+#[must_use]
+pub fn is_leg(text: &str) -> bool {
+    text.parse::<toml::Table>()
+        .ok()
+        .and_then(|t| {
+            t.get("topology")
+                .and_then(|v| v.as_str().map(str::to_owned))
+        })
+        .is_some_and(|t| t == LEG_TOPOLOGY)
+}
+
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
 #[serde(rename_all = "kebab-case")]
 pub(crate) enum TopologyFile {

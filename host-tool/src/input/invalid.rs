@@ -166,6 +166,26 @@ pub enum Invalid {
     /// A fixed fallback without its delay.
     #[error("table.fallback = \"fixed\" needs table.fallback_ticks")]
     FallbackNeedsTicks,
+    /// A half-bridge leg's design file given where only the resonant cell
+    /// is served.
+    #[error("topology = \"half-bridge-leg\": this command serves the resonant cell; a half-bridge leg's design is served by `point`, `table` and `verify` so far")]
+    LegNotServed,
+    /// A value that must be above zero.
+    #[error("{key} = {value} must be above zero")]
+    NotPositive {
+        /// The key.
+        key: &'static str,
+        /// The value given.
+        value: f64,
+    },
+    /// A leg's far end off the bus.
+    #[error("far_end = {value}: {why}")]
+    FarEnd {
+        /// The value given (volt, or the fraction of the bus).
+        value: f64,
+        /// What is valid.
+        why: String,
+    },
     /// A tolerance half-width out of range.
     #[error("{key} = {value} must lie in [0, {max}] (a half-width)")]
     Tolerance {
@@ -176,6 +196,60 @@ pub enum Invalid {
         /// Largest allowed.
         max: f64,
     },
+}
+
+/// Whether `name` is a C identifier (letters, digits, `_`; not starting
+/// with a digit): names prefix the C symbols of the exports.
+#[must_use]
+pub fn c_identifier(name: &str) -> bool {
+    name.chars()
+        .next()
+        .is_some_and(|c| c.is_ascii_alphabetic() || c == '_')
+        && name.chars().all(|c| c.is_ascii_alphanumeric() || c == '_')
+}
+
+/// The ADC codes that read inside `[lo, hi]` (`unit`) at `scale` per code
+/// with `zero` the code of 0 on a `bits`-bit converter; refused naming
+/// `key` where the range reaches beyond full scale or holds no code above 0.
+///
+/// # Errors
+/// [`Invalid::BeyondFullScale`] or [`Invalid::NoCodes`].
+pub fn code_range(
+    key: &'static str,
+    lo: f64,
+    hi: f64,
+    scale: f64,
+    zero: f64,
+    unit: &'static str,
+    bits: u8,
+) -> Result<timing_core::CodeRange, Invalid> {
+    let max_code = (1u32 << bits) - 1;
+    let c_lo = (lo / scale + zero - 1e-9).ceil();
+    let c_hi = (hi / scale + zero + 1e-9).floor();
+    if c_hi > f64::from(max_code) {
+        return Err(Invalid::BeyondFullScale {
+            key,
+            hi,
+            unit,
+            code: c_hi,
+            bits,
+            full_scale: (f64::from(max_code) - zero) * scale,
+            max_code,
+        });
+    }
+    if c_lo > c_hi || c_lo < 1.0 {
+        return Err(Invalid::NoCodes {
+            key,
+            lo,
+            hi,
+            unit,
+            scale,
+        });
+    }
+    Ok(timing_core::CodeRange {
+        lo: c_lo as u16,
+        hi: c_hi as u16,
+    })
 }
 
 impl From<crate::tank::stand_in::StandInError> for Invalid {

@@ -10,3 +10,4 @@ pub mod coss_csv;
 pub mod design;
 pub mod design_file;
 pub mod invalid;
+pub mod leg_design;

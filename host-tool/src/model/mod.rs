@@ -9,4 +9,5 @@
 pub mod design;
 pub mod exact;
 pub mod exact_chunk;
+pub mod leg_model;
 pub mod robust_aim;

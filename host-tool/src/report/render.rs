@@ -347,3 +347,75 @@ pub fn montecarlo_text(r: &MonteCarloReport) -> String {
     );
     s
 }
+
+/// `point`'s text for a half-bridge leg's edge.
+#[must_use]
+pub fn leg_point_text(r: &crate::analysis::leg_point::LegPointReport) -> String {
+    let ns = |s: f64| s * 1e9;
+    let mut s = String::new();
+    let _ = writeln!(
+        s,
+        "{}: {} edge at Vbus = {} V, I = {} A out of the node, far end {:.3} V",
+        r.name, r.edge, r.vbus_v, r.current_a, r.far_v
+    );
+    match (r.window_s, r.short) {
+        (Some((o, c)), _) => {
+            let _ = writeln!(
+                s,
+                "  swing completes: window {:.2} .. {:.2} ns after the outgoing switch turns off (closes {}); {:.3} A into the incoming body diode",
+                ns(o),
+                ns(c),
+                if r.reverses == Some(true) {
+                    "as the current reverses"
+                } else {
+                    "at the accepted body-diode conduction"
+                },
+                r.clamp_current_a
+            );
+        }
+        (None, Some((at, left))) => {
+            let _ = writeln!(
+                s,
+                "  swing stops short: extremum at {:.2} ns with {:.2} V left across the incoming switch (no ZVS)",
+                ns(at),
+                left
+            );
+        }
+        (None, None) => {}
+    }
+    match r.robust_window_s {
+        Some((o, c)) => {
+            let _ = writeln!(
+                s,
+                "  robust window over the design's tolerances: {:.2} .. {:.2} ns",
+                ns(o),
+                ns(c)
+            );
+        }
+        None => {
+            let _ = writeln!(
+                s,
+                "  no robust window (no [tolerance], or some leg of the box stops short)"
+            );
+        }
+    }
+    let _ = writeln!(
+        s,
+        "  dead time: {} steps = {:.2} ns (aim {:.2} steps, least {}): turn-on at {:.2} ns, {}",
+        r.dead_time_steps,
+        ns(r.dead_time_s),
+        r.aim_steps,
+        r.least_steps,
+        ns(r.turn_on_s),
+        if r.in_window {
+            "inside the window"
+        } else {
+            "outside any window (hard switching)"
+        }
+    );
+    for w in &r.warnings {
+        let _ = writeln!(s, "  WARNING: {w}");
+    }
+    let _ = writeln!(s, "\n{}", r.caution);
+    s
+}

@@ -12,6 +12,7 @@
 pub mod aim_grid;
 pub mod cell_box;
 pub mod event_grid;
+pub mod leg_grid;
 pub mod load_grid;
 pub mod real_tank;
 pub mod robust_grid;

@@ -27,8 +27,8 @@ pub const DEFAULT_DERATING: f64 = 0.8;
 pub const HIGH_STRESS_RATIO: f64 = 4.0;
 
 /// Safety notice carried by every report.
-pub const CAUTION: &str = "CAUTION: resonant converters run at lethal voltages and store energy. \
-These figures come from a model of the cell: bring the board up at reduced voltage, check the switch \
+pub const CAUTION: &str = "CAUTION: soft-switched converters run at lethal voltages and store energy. \
+These figures come from a model of the circuit: bring the board up at reduced voltage, check the switch \
 node with a scope before relying on them, and follow local electrical codes and licensed practice.";
 
 /// Compute the report for `input`.

@@ -66,6 +66,12 @@ pub(crate) fn opt_num(
 
 /// Make sure `dir` is a folder the results can be written to, before any
 /// work: created when missing; an error naming the path otherwise.
+/// Whether `path` is a half-bridge leg's design file (false where it cannot
+/// be read: the cell's loader then says why).
+pub(crate) fn is_leg_file(path: &std::path::Path) -> anyhow::Result<bool> {
+    Ok(std::fs::read_to_string(path).is_ok_and(|t| host_tool::input::leg_design::is_leg(&t)))
+}
+
 pub(crate) fn writable_dir(dir: &std::path::Path) -> anyhow::Result<()> {
     writable_dir_for("--out", dir)
 }

@@ -8,9 +8,22 @@ use crate::args::{fraction, num, opt_num, topology, TopologyArg};
 /// Numbers take SI (2e-6) or engineering prefixes (2u, 10n, 170M), optionally with the unit (2uH).
 #[derive(Args)]
 pub(crate) struct PointArgs {
-    /// Resonant inductance Lr, henry.
+    /// A half-bridge leg's design file (`topology = "half-bridge-leg"`): the point is then
+    /// --vbus and --current on one edge, and the cell's options do not apply.
+    #[arg(long)]
+    design: Option<std::path::PathBuf>,
+    /// Leg: bus voltage, volt.
     #[arg(long, allow_hyphen_values = true)]
-    lr: String,
+    vbus: Option<String>,
+    /// Leg: current out of the switch node at the switching instant, ampere (signed).
+    #[arg(long, allow_hyphen_values = true)]
+    current: Option<String>,
+    /// Leg: the edge (default: falling for a positive current, rising otherwise).
+    #[arg(long, value_enum)]
+    edge: Option<EdgeArg>,
+    /// Resonant inductance Lr, henry (the cell; required without --design).
+    #[arg(long, allow_hyphen_values = true)]
+    lr: Option<String>,
     /// Resonant capacitance Cr across the switch, farad: the whole of it (external plus the
     /// MOSFET's, taken as constant), or with --coss the external part in parallel with the curve.
     #[arg(long, allow_hyphen_values = true)]
@@ -23,12 +36,12 @@ pub(crate) struct PointArgs {
     /// formerly --tank-resistance).
     #[arg(long, alias = "tank-resistance", allow_hyphen_values = true)]
     r_tank: Option<String>,
-    /// Input voltage, volt.
+    /// Input voltage, volt (the cell; required without --design).
     #[arg(long, allow_hyphen_values = true)]
-    vin: String,
-    /// Output current, ampere.
+    vin: Option<String>,
+    /// Output current, ampere (the cell; required without --design).
     #[arg(long, allow_hyphen_values = true)]
-    io: String,
+    io: Option<String>,
     /// Converter the switch sits in.
     #[arg(long, value_enum, default_value = "buck")]
     topology: TopologyArg,
@@ -116,7 +129,7 @@ impl PointArgs {
         };
         Ok(PointInput {
             topology: topology(self.topology),
-            lr_h: num("--lr", &self.lr, "H")?,
+            lr_h: num("--lr", required("--lr", self.lr.as_ref())?, "H")?,
             cr_f: match (&self.cr, &self.coss) {
                 (Some(c), _) => num("--cr", c, "F")?,
                 (None, Some(_)) => 0.0,
@@ -136,9 +149,9 @@ impl PointArgs {
                 None => Vec::new(),
             },
             r_tank_ohm: opt_num("--r-tank", self.r_tank.as_ref(), "ohm")?.unwrap_or(0.0),
-            vin_v: num("--vin", &self.vin, "V")?,
+            vin_v: num("--vin", required("--vin", self.vin.as_ref())?, "V")?,
             vout_v: opt_num("--vout", self.vout.as_ref(), "V")?,
-            io_a: num("--io", &self.io, "A")?,
+            io_a: num("--io", required("--io", self.io.as_ref())?, "A")?,
             timer,
             position: num("--position", &self.position, "")?,
             fs_hz: opt_num("--fs", self.fs.as_ref(), "Hz")?,
@@ -174,7 +187,79 @@ impl PointArgs {
     }
 }
 
+/// A leg's edge, as `--edge` names it.
+#[derive(Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub(crate) enum EdgeArg {
+    /// The high side turns off, the low side on.
+    Falling,
+    /// The low side turns off, the high side on.
+    Rising,
+}
+
+/// The value of a cell option that is required without `--design`.
+fn required<'a>(option: &'static str, v: Option<&'a String>) -> Result<&'a String, InputError> {
+    v.ok_or_else(|| {
+        InputError::new(
+            option,
+            "is needed for the resonant cell (or give a half-bridge leg's design with --design)",
+        )
+    })
+}
+
+/// `point` on a half-bridge leg's edge.
+fn run_leg_point(args: &PointArgs, design: &std::path::Path) -> anyhow::Result<()> {
+    use host_tool::input::leg_design::LegSpec;
+    use timing_core::leg::Edge;
+    if !crate::args::is_leg_file(design)? {
+        anyhow::bail!(
+            "--design {}: not a half-bridge leg's design (topology = \"half-bridge-leg\"); for the resonant cell give the tank with --lr, --cr, --vin and --io",
+            design.display()
+        );
+    }
+    let spec = LegSpec::load(design)?;
+    let vbus = num("--vbus", required_leg("--vbus", args.vbus.as_ref())?, "V")?;
+    let current = num(
+        "--current",
+        required_leg("--current", args.current.as_ref())?,
+        "A",
+    )?;
+    if !(vbus.is_finite() && vbus > 0.0) {
+        return Err(InputError::new(
+            "--vbus",
+            format!("must be a voltage above zero, got {vbus}"),
+        )
+        .into());
+    }
+    let edge = match args.edge {
+        Some(EdgeArg::Falling) => Edge::Falling,
+        Some(EdgeArg::Rising) => Edge::Rising,
+        None if current > 0.0 => Edge::Falling,
+        None => Edge::Rising,
+    };
+    let report = host_tool::analysis::leg_point::evaluate_leg(&spec, edge, vbus, current)
+        .map_err(|e| anyhow::anyhow!("--vbus {vbus} V, --current {current} A: {e}"))?;
+    if args.json {
+        outln!("{}", serde_json::to_string_pretty(&report)?);
+    } else {
+        out!("{}", host_tool::report::render::leg_point_text(&report));
+    }
+    Ok(())
+}
+
+/// The value of a leg option, required with `--design`.
+fn required_leg<'a>(option: &'static str, v: Option<&'a String>) -> Result<&'a String, InputError> {
+    v.ok_or_else(|| {
+        InputError::new(
+            option,
+            "is needed with --design (a half-bridge leg's point)",
+        )
+    })
+}
+
 pub(crate) fn run_point(args: &PointArgs) -> anyhow::Result<()> {
+    if let Some(design) = &args.design {
+        return run_leg_point(args, design);
+    }
     let report = point::evaluate(&args.to_input()?)?;
     if args.json {
         outln!("{}", serde_json::to_string_pretty(&report)?);

@@ -24,6 +24,9 @@ pub(crate) struct TableArgs {
 
 pub(crate) fn run_table(args: &TableArgs) -> anyhow::Result<()> {
     use host_tool::{emit::export, generate, model::design::Design};
+    if crate::args::is_leg_file(&args.design)? {
+        return run_leg_table(args);
+    }
     let design = Design::load(&args.design)?;
     crate::args::writable_dir(&args.out)?;
     crate::args::check_cost(
@@ -126,5 +129,92 @@ pub(crate) fn run_table(args: &TableArgs) -> anyhow::Result<()> {
         }
         outln!("\n{}", host_tool::analysis::point::CAUTION);
     }
+    Ok(())
+}
+
+/// `table` for a half-bridge leg: both edges' dead-time tables.
+fn run_leg_table(args: &TableArgs) -> anyhow::Result<()> {
+    use host_tool::generate::leg_tables::{edge_name, leg_tables};
+    use host_tool::input::leg_design::LegSpec;
+    let spec = LegSpec::load(&args.design)?;
+    crate::args::writable_dir(&args.out)?;
+    let out = leg_tables(&spec)?;
+    let written = host_tool::emit::leg_export::write_leg(&args.out, &spec, &out)
+        .map_err(|e| anyhow::anyhow!("--out {}: {e}", args.out.display()))?;
+    if args.json {
+        let edges: Vec<_> = out
+            .iter()
+            .map(|o| {
+                serde_json::json!({
+                    "edge": edge_name(o.edge),
+                    "table_bytes": o.table.table_bytes(),
+                    "frac_bits": o.table.frac_bits,
+                    "layout": format!("{:?}", o.table.layout),
+                    "figures": o.figures,
+                    "robust_grid": o.grid,
+                })
+            })
+            .collect();
+        let j = serde_json::json!({
+            "name": spec.name,
+            "topology": host_tool::input::leg_design::LEG_TOPOLOGY,
+            "design_hash": format!("{:#010x}", spec.hash),
+            "max_error_budget_steps": spec.max_error_ticks,
+            "edges": edges,
+            "files": written,
+            "caution": host_tool::analysis::point::CAUTION,
+        });
+        outln!("{}", serde_json::to_string_pretty(&j)?);
+        return Ok(());
+    }
+    outln!(
+        "{}: half-bridge leg, dead-time tables written to {}",
+        spec.name,
+        args.out.display()
+    );
+    for o in &out {
+        let f = &o.figures;
+        let shape = match o.table.layout {
+            timing_core::table::Layout::Margin(m) => format!(
+                "{} x {}{}",
+                m.rows,
+                m.cols,
+                if m.vin_mul == 0 {
+                    ""
+                } else {
+                    ", columns slanted along the swing's limit"
+                }
+            ),
+            _ => String::new(),
+        };
+        outln!(
+            "  {} edge: {} B ({shape}, {} fractional bits), checked at all {} code pairs:",
+            edge_name(o.edge),
+            o.table.table_bytes(),
+            o.table.frac_bits,
+            f.pairs
+        );
+        outln!(
+            "    {} with a window a step wide: {} commanded outside it; {} with a robust window: {} outside it",
+            f.windowed, f.outside_window, f.robust, f.outside_robust
+        );
+        outln!(
+            "    worst {:.3} steps from the aim where the budget of {} applies; {} pairs stop short of the rail; {} below the least dead time",
+            f.worst_budgeted_steps, spec.max_error_ticks, f.short, f.below_floor
+        );
+        if f.short > 0 {
+            outln!(
+                "    (worst {:.1} steps from the aim over all pairs: where the swing stops completing, the aim jumps from inside the window to the fallback)",
+                f.worst_steps
+            );
+        }
+        if f.floor_blocks > 0 {
+            outln!(
+                "    WARNING: at {} pairs the least dead time lies past the window's close: lower dead_time.min_dead or accept hard switching there",
+                f.floor_blocks
+            );
+        }
+    }
+    outln!("\n{}", host_tool::analysis::point::CAUTION);
     Ok(())
 }

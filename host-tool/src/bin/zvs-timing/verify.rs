@@ -10,9 +10,10 @@ use clap::{Args, ValueEnum};
 pub(crate) struct VerifyArgs {
     /// Design file (TOML).
     design: std::path::PathBuf,
-    /// Table blob written by `table` (<name>.bin); needed for `--method table`.
+    /// Table blob written by `table` (<name>.bin); needed for `--method table`. For a half-bridge
+    /// leg, an edge's blob (<name>_falling.bin, <name>_rising.bin): give --table once per edge.
     #[arg(long)]
-    table: Option<std::path::PathBuf>,
+    table: Vec<std::path::PathBuf>,
     /// The runtime method to check: the table lookup or one of timing-core's
     /// closed forms (evaluated exactly as the firmware does).
     #[arg(long, value_enum, default_value = "table")]
@@ -64,7 +65,6 @@ pub(crate) fn read_table(
     table: Option<&std::path::Path>,
     which: MethodArg,
 ) -> anyhow::Result<Option<TableFile>> {
-    use timing_core::table::Entries;
     let path = match (table, which) {
         (Some(path), MethodArg::Table) => path,
         (None, MethodArg::Table) => {
@@ -77,11 +77,18 @@ pub(crate) fn read_table(
         ),
         (None, _) => return Ok(None),
     };
+    read_blob(path, design.hash).map(Some)
+}
+
+/// The blob at `path`, opened with its integrity and the design hash `hash`
+/// checked, its entries decoded.
+pub(crate) fn read_blob(path: &std::path::Path, hash: u32) -> anyhow::Result<TableFile> {
+    use timing_core::table::Entries;
     let name = path.display();
     let blob = std::fs::read(path).map_err(|e| anyhow::anyhow!("cannot read {name}: {e}"))?;
-    let (_, t) = timing_core::blob::open(&blob, Some(design.hash))
+    let (_, t) = timing_core::blob::open(&blob, Some(hash))
         .map_err(|e| anyhow::anyhow!("{name}: integrity check failed: {e}"))?;
-    Ok(Some(TableFile {
+    Ok(TableFile {
         sensing: *t.sensing(),
         layout: *t.layout(),
         frac_bits: t.frac_bits(),
@@ -89,7 +96,7 @@ pub(crate) fn read_table(
         entries: (0..t.entries().count())
             .map(|k| t.entries().at(k))
             .collect(),
-    }))
+    })
 }
 
 /// The runtime method `which`: the table of `file` or one of the closed
@@ -131,9 +138,20 @@ pub(crate) fn method_pieces(
 
 pub(crate) fn run_verify(args: &VerifyArgs) -> anyhow::Result<ExitCode> {
     use host_tool::model::design::Design;
+    if crate::args::is_leg_file(&args.design)? {
+        return run_leg_verify(args);
+    }
     let design = Design::load(&args.design)?;
     let cf = design.closed_form()?;
-    let file = read_table(&design, args.table.as_deref(), args.method)?;
+    let table = match args.table.as_slice() {
+        [] => None,
+        [one] => Some(one.as_path()),
+        [_, second, ..] => anyhow::bail!(
+            "--table {}: a resonant cell has one table; give --table once",
+            second.display()
+        ),
+    };
+    let file = read_table(&design, table, args.method)?;
     crate::args::check_cost(
         &format!(
             "verifying {} at {} code pairs",
@@ -204,4 +222,82 @@ pub(crate) fn run_verify(args: &VerifyArgs) -> anyhow::Result<ExitCode> {
         );
         Ok(ExitCode::from(1))
     }
+}
+
+/// `verify` for a half-bridge leg: each edge blob given against the leg's
+/// exact model at every code pair of its edge.
+fn run_leg_verify(args: &VerifyArgs) -> anyhow::Result<ExitCode> {
+    use host_tool::generate::leg_tables::{edge_name, EdgePairs};
+    use host_tool::input::leg_design::{LegSpec, EDGES};
+    use host_tool::model::leg_model::LegModel;
+    let spec = LegSpec::load(&args.design)?;
+    if args.method != MethodArg::Table {
+        anyhow::bail!(
+            "--method {}: a half-bridge leg is served by its dead-time tables (--method table)",
+            args.method.name()
+        );
+    }
+    if args.table.is_empty() {
+        anyhow::bail!(
+            "--table {}_falling.bin and/or --table {}_rising.bin (written by `zvs-timing table`) are needed",
+            spec.name,
+            spec.name
+        );
+    }
+    let mut ok = true;
+    let mut reports = Vec::new();
+    for path in &args.table {
+        let file = path.file_name().and_then(|f| f.to_str()).unwrap_or("");
+        let Some(edge) = EDGES
+            .into_iter()
+            .find(|&e| file.ends_with(&format!("_{}.bin", edge_name(e))))
+        else {
+            anyhow::bail!(
+                "--table {}: the edge is read from the file name, which must end in _falling.bin or _rising.bin",
+                path.display()
+            );
+        };
+        let g = read_blob(path, spec.hash)?;
+        let model = LegModel::new(&spec, edge)?;
+        let pairs = EdgePairs::new(&spec, &model)?;
+        let f = pairs.figures(&spec, &g);
+        let pass = f.outside_window == 0
+            && f.below_floor == 0
+            && f.worst_budgeted_steps <= spec.max_error_ticks;
+        ok &= pass;
+        if !args.json {
+            outln!(
+                "{} edge ({}): {} code pairs; {} with a window a step wide, {} commanded outside it; {} with a robust window, {} outside it; {} below the least dead time; worst {:.3} steps from the aim where the budget of {} applies: {}",
+                edge_name(edge),
+                path.display(),
+                f.pairs,
+                f.windowed,
+                f.outside_window,
+                f.robust,
+                f.outside_robust,
+                f.below_floor,
+                f.worst_budgeted_steps,
+                spec.max_error_ticks,
+                if pass { "PASS" } else { "FAIL" }
+            );
+        }
+        reports.push(serde_json::json!({
+            "edge": edge_name(edge),
+            "table": path.display().to_string(),
+            "ok": pass,
+            "figures": f,
+        }));
+    }
+    if args.json {
+        outln!(
+            "{}",
+            serde_json::to_string_pretty(&serde_json::json!({ "ok": ok, "edges": reports }))?
+        );
+    }
+    Ok(if ok {
+        ExitCode::SUCCESS
+    } else {
+        eprintln!("zvs-timing: error: an edge table misses its windows or its budget (see above)");
+        ExitCode::from(1)
+    })
 }
