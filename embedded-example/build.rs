@@ -39,13 +39,32 @@ fn main() {
     let layout = host_tool::emit::export::firmware_layout(&target);
 
     let key = cache_key(&manifest, &[&design, &coss], &format!("{layout:?}"));
-    let cache = manifest.join("target/generated-cache").join(format!("{key:016x}"));
+    let cache = manifest
+        .join("target/generated-cache")
+        .join(format!("{key:016x}"));
     if !OUTPUTS.iter().all(|f| cache.join(f).is_file()) {
         generate(&design, layout, &cache);
     }
     for f in OUTPUTS {
         std::fs::copy(cache.join(f), out.join(f)).expect("copy generated file");
     }
+    // The half-bridge leg's reference model (cheap: no table is generated;
+    // the leg scenario runs the committed tables/lantern_leg.rs, which a
+    // host test keeps fresh).
+    let leg = manifest.join("../tables/lantern_leg.toml");
+    for p in [
+        &leg,
+        &manifest.join("../tables/lantern_leg_coss.csv"),
+        &manifest.join("../tables/lantern_leg.rs"),
+    ] {
+        println!("cargo:rerun-if-changed={}", p.display());
+    }
+    let spec = host_tool::input::leg_design::LegSpec::load(&leg).unwrap_or_else(|e| panic!("{e}"));
+    std::fs::write(
+        out.join("lantern_leg_model.rs"),
+        host_tool::emit::leg_export::leg_model_source(&spec),
+    )
+    .expect("write the leg model");
     std::fs::copy(manifest.join("memory.x"), out.join("memory.x")).expect("copy memory.x");
     println!("cargo:rustc-link-search={}", out.display());
     // cortex-m-rt's linker script always; defmt's only with logging (it
@@ -62,9 +81,10 @@ fn main() {
 /// Generate the four outputs into `dir` (written to a temporary directory
 /// first and renamed, so a build stopped half-way leaves no partial entry).
 fn generate(design: &Path, layout: host_tool::input::design::LayoutChoice, dir: &Path) {
-    let (source, blob) =
-        host_tool::emit::export::firmware_table(design, Some(layout)).unwrap_or_else(|e| panic!("{e}"));
-    let design_data = host_tool::model::design::Design::load(design).unwrap_or_else(|e| panic!("{e}"));
+    let (source, blob) = host_tool::emit::export::firmware_table(design, Some(layout))
+        .unwrap_or_else(|e| panic!("{e}"));
+    let design_data =
+        host_tool::model::design::Design::load(design).unwrap_or_else(|e| panic!("{e}"));
     let closed = host_tool::emit::closed_form_source::closed_form_source(&design_data)
         .unwrap_or_else(|e| panic!("{e}"));
     let model = host_tool::emit::export::model_source(&design_data);

@@ -71,7 +71,7 @@ if [ -n "${PANIC_NEVER:-}" ]; then
   # purpose). They share the target directory with the scenario build.
   elf="target/$triple/release/embedded-example"
   base=0
-  for m in none table table-any closed-form-f32 fixed-point libm-f32; do
+  for m in none table table-any closed-form-f32 fixed-point libm-f32 leg; do
     if ! build --no-default-features --features "proof-$m"; then
       echo "PANIC-NEVER target=$target_name method=$m linked=no (a panic path survives, see the undefined symbol above)" >&2
       exit 1
@@ -106,18 +106,22 @@ text=$(flash_of "$elf")
 ram=$(( $(sec "$elf" .data) + $(sec "$elf" .bss) + $(sec "$elf" .uninit) ))
 sym() { readelf -s -W "$elf" | awk -v n="$1" '$8 ~ n { s += $3 } END { print s + 0 }'; }
 blob_bytes=$(echo "$log" | sed -n 's/.*table blob accepted: \([0-9]*\) bytes.*/\1/p' | head -n 1)
-table=$(( $(sym 'ENTRIES') + ${blob_bytes:-0} ))
+# The cell's build-time entries (module `built`) and the leg's two edge
+# tables (module `leg::tables`), apart.
+table=$(( $(sym 'built[0-9]*ENTRIES') + ${blob_bytes:-0} ))
+leg_table=$(sym 'tables[0-9]*[A-Z]*_ENTRIES')
 
 echo
 echo "$log" | grep -o 'ZVS-SUMMARY .*' || true
 echo "$log" | grep -o 'ISR-COST .*' || true
 echo "$log" | grep -o 'METHOD-RUN .*' || true
-echo "MEMORY target=$target_name table_flash_bytes=$table text_bytes=$text ram_bytes=$ram"
+echo "MEMORY target=$target_name table_flash_bytes=$table leg_table_flash_bytes=$leg_table text_bytes=$text ram_bytes=$ram"
 
-summary=$(echo "$log" | grep -o 'ZVS-SUMMARY .*' || true)
-early=$(echo "$summary" | sed -n 's/.* early=\([0-9]*\).*/\1/p')
-late=$(echo "$summary" | sed -n 's/.* late=\([0-9]*\).*/\1/p')
-if [ -z "$summary" ] || [ "$qemu_rc" -ne 0 ] || [ "${early:-1}" != 0 ] || [ "${late:-1}" != 0 ]; then
-  echo "qemu.sh: FAILED (qemu exit $qemu_rc, table early=${early:-?}, late=${late:-?}; see METHOD-RUN lines for the others)" >&2
+# Every scenario's summary (the resonant cell's, each leg edge's) must
+# show no early and no late turn-on.
+summaries=$(echo "$log" | grep -o 'ZVS-SUMMARY .*' || true)
+missed=$(echo "$summaries" | grep -vc ' early=0 late=0' || true)
+if [ "$(echo "$summaries" | grep -c 'ZVS-SUMMARY')" -lt 3 ] || [ "$qemu_rc" -ne 0 ] || [ "$missed" != 0 ]; then
+  echo "qemu.sh: FAILED (qemu exit $qemu_rc; $missed summary lines with early or late turn-ons, see above and the METHOD-RUN lines)" >&2
   exit 1
 fi

@@ -60,3 +60,49 @@ pub fn post_conversions(vin: AdcCode, io: AdcCode) {
 pub fn commanded() -> Ticks {
     Ticks::new(COMPARE.load(Ordering::Relaxed))
 }
+
+// The half-bridge leg's side. On a real MCU the bus voltage and the
+// inductor current are injected conversions triggered at each switching
+// edge (the current sampled at the instant, or computed from the
+// commanded peak and valley in triangular mode), and the dead times go to
+// the PWM's dead-time generator registers, one per edge.
+
+static LEG_ADC: AtomicU32 = AtomicU32::new(0);
+static LEG_CURRENTS: AtomicU32 = AtomicU32::new(0);
+static DEAD_TIME: [AtomicU32; 2] = [const { AtomicU32::new(0) }; 2];
+
+/// Latest bus-voltage conversion and the current at edge `edge`'s
+/// switching instant (0: falling, 1: rising).
+#[inline(always)]
+pub fn read_leg_adc(edge: usize) -> (AdcCode, AdcCode) {
+    let bus = LEG_ADC.load(Ordering::Relaxed) as u16;
+    let w = LEG_CURRENTS.load(Ordering::Relaxed);
+    let current = if edge == 0 {
+        w as u16
+    } else {
+        (w >> 16) as u16
+    };
+    (AdcCode::new(bus), AdcCode::new(current))
+}
+
+/// Edge `edge`'s dead time into its generator register, steps.
+#[inline(always)]
+pub fn write_dead_time(edge: usize, t: Ticks) {
+    if let Some(r) = DEAD_TIME.get(edge) {
+        r.store(t.get(), Ordering::Relaxed);
+    }
+}
+
+/// Stand-in for the ADC: the leg plant posts the bus and both edges' currents.
+pub fn post_leg_conversions(bus: AdcCode, falling: AdcCode, rising: AdcCode) {
+    LEG_ADC.store(u32::from(bus.get()), Ordering::Relaxed);
+    LEG_CURRENTS.store(
+        u32::from(falling.get()) | (u32::from(rising.get()) << 16),
+        Ordering::Relaxed,
+    );
+}
+
+/// Stand-in for the PWM: edge `edge`'s last dead time, steps.
+pub fn dead_time(edge: usize) -> Ticks {
+    Ticks::new(DEAD_TIME.get(edge).map_or(0, |r| r.load(Ordering::Relaxed)))
+}

@@ -18,6 +18,7 @@
 #![cfg_attr(feature = "panic-never", allow(unused))]
 
 mod hw;
+mod leg;
 mod plant;
 
 use core::sync::atomic::{AtomicBool, AtomicU32, Ordering};
@@ -64,7 +65,8 @@ static BLOB: &[u8] = include_bytes!(concat!(env!("OUT_DIR"), "/winch_aux.bin"));
         feature = "proof-table-any",
         feature = "proof-closed-form-f32",
         feature = "proof-fixed-point",
-        feature = "proof-libm-f32"
+        feature = "proof-libm-f32",
+        feature = "proof-leg"
     ))
 ))]
 compile_error!("the panic-free proof build needs one `proof-<method>` feature (see qemu.sh)");
@@ -86,6 +88,10 @@ const CYCLES: u32 = 2400;
 const TICKS_PER_5_INSTR: u32 = 32;
 
 static FIRED: AtomicBool = AtomicBool::new(false);
+/// Which scenario the interrupt serves: the resonant cell, or the leg.
+static LEG_MODE: AtomicBool = AtomicBool::new(false);
+/// SysTick ticks of each leg edge's compute path in the last interrupt.
+static LEG_COST: [AtomicU32; 2] = [const { AtomicU32::new(0) }; 2];
 /// SysTick ticks of each method's compute path in the last interrupt.
 static COST: [AtomicU32; 4] = [const { AtomicU32::new(0) }; 4];
 
@@ -120,13 +126,29 @@ fn timed<const K: usize>() {
     }
 }
 
+/// Run and time the leg's edge `K` (as [`timed`]).
+#[inline(never)]
+fn timed_leg<const K: usize>() {
+    let start = SYST::get_current();
+    leg::compute(K);
+    let end = SYST::get_current();
+    if let Some(c) = LEG_COST.get(K) {
+        c.store(start.wrapping_sub(end) & 0x00ff_ffff, Ordering::Relaxed);
+    }
+}
+
 #[cfg(not(feature = "panic-never"))]
 #[exception]
 fn SysTick() {
-    timed::<0>();
-    timed::<1>();
-    timed::<2>();
-    timed::<3>();
+    if LEG_MODE.load(Ordering::Relaxed) {
+        timed_leg::<0>();
+        timed_leg::<1>();
+    } else {
+        timed::<0>();
+        timed::<1>();
+        timed::<2>();
+        timed::<3>();
+    }
     FIRED.store(true, Ordering::Release);
 }
 
@@ -223,6 +245,20 @@ fn proof_step() -> timing_core::Ticks {
         let (vin, io) = hw::read_adc();
         hw::write_compare(t.delay(vin, io).ticks);
         hw::commanded()
+    }
+    #[cfg(feature = "proof-leg")]
+    {
+        let (vin, io) = hw::read_adc();
+        hw::post_leg_conversions(vin, io, io);
+        let (f, r) = (
+            core::hint::black_box(leg::tables::FALLING),
+            core::hint::black_box(leg::tables::RISING),
+        );
+        let (bus, i) = hw::read_leg_adc(0);
+        hw::write_dead_time(0, f.dead_time(bus, i));
+        let (bus, i) = hw::read_leg_adc(1);
+        hw::write_dead_time(1, r.dead_time(bus, i));
+        timing_core::Ticks::new(hw::dead_time(0).get() ^ hw::dead_time(1).get())
     }
     #[cfg(feature = "proof-none")]
     {
@@ -445,7 +481,91 @@ fn main() -> ! {
         to_instr(known)
     );
     let missed = early.iter().chain(late.iter()).any(|&n| n > 0);
-    exit(!missed && mismatch == 0 && zvs > 0 && valley > 0)
+    let cell_ok = !missed && mismatch == 0 && zvs > 0 && valley > 0;
+    let leg_ok = run_leg(&mut core, target, empty);
+    exit(cell_ok && leg_ok)
+}
+
+/// The half-bridge leg scenario ([`leg`]): both dead times from the edge
+/// tables in the interrupt every cycle, judged in the main loop; a
+/// `ZVS-SUMMARY` and an `ISR-COST` line per edge. True when no turn-on was
+/// early or late where a window a step wide exists, and both edges swung.
+#[cfg(not(feature = "panic-never"))]
+fn run_leg(core: &mut cortex_m::Peripherals, target: &str, empty: u32) -> bool {
+    let Some(judge) = leg::Judge::new() else {
+        defmt::error!("the leg's model was refused");
+        return false;
+    };
+    LEG_MODE.store(true, Ordering::Release);
+    core.SYST.enable_interrupt();
+    let mut plant = leg::Plant::new();
+    let mut tally = [leg::Tally::default(); 2];
+    let mut cost_min = [u32::MAX; 2];
+    let mut cost_max = [0u32; 2];
+    for cycle in 0..leg::CYCLES {
+        let s = plant.sample(cycle, leg::CYCLES);
+        leg::post(&s);
+        FIRED.store(false, Ordering::Release);
+        while !FIRED.load(Ordering::Acquire) {
+            cortex_m::asm::wfi();
+        }
+        for e in 0..2 {
+            let cost = LEG_COST[e].load(Ordering::Relaxed).saturating_sub(empty);
+            cost_min[e] = cost_min[e].min(cost);
+            cost_max[e] = cost_max[e].max(cost);
+            let steps = hw::dead_time(e);
+            if let Some(ns) = judge.judge(e, &s, steps, &mut tally[e]) {
+                defmt::warn!(
+                    "leg cycle {=u32}: {=str} edge off its window by {=f32} ns (Vbus {=f32} V, I {=f32} A, {=u32} steps)",
+                    cycle,
+                    leg::EDGES[e],
+                    ns,
+                    s.vbus_v,
+                    s.current_a[e],
+                    steps.get()
+                );
+            }
+        }
+        if cycle % 200 == 0 {
+            defmt::info!(
+                "leg cycle {=u32}: Vbus {=f32} V, peak {=f32} A, valley {=f32} A, dead times {=u32} / {=u32} steps",
+                cycle,
+                s.vbus_v,
+                s.current_a[0],
+                s.current_a[1],
+                hw::dead_time(0).get(),
+                hw::dead_time(1).get()
+            );
+        }
+    }
+    core.SYST.disable_interrupt();
+    LEG_MODE.store(false, Ordering::Release);
+    let to_instr = |t: u32| (t * 5 + TICKS_PER_5_INSTR / 2) / TICKS_PER_5_INSTR;
+    let mut ok = true;
+    for e in 0..2 {
+        let t = tally[e];
+        defmt::info!(
+            "ZVS-SUMMARY target={=str} scenario=leg edge={=str} cycles={=u32} zvs={=u32} inside={=u32} early={=u32} late={=u32} narrow={=u32} fallback={=u32}",
+            target,
+            leg::EDGES[e],
+            leg::CYCLES,
+            t.zvs,
+            t.inside,
+            t.early,
+            t.late,
+            t.narrow,
+            t.fallback
+        );
+        defmt::info!(
+            "ISR-COST target={=str} method=leg-{=str}-table instructions_min={=u32} instructions_max={=u32}",
+            target,
+            leg::EDGES[e],
+            to_instr(cost_min[e]),
+            to_instr(cost_max[e])
+        );
+        ok &= t.early == 0 && t.late == 0 && t.zvs > 0;
+    }
+    ok
 }
 
 #[cfg(not(feature = "panic-never"))]

@@ -121,8 +121,9 @@ impl<E: Entries> EdgeTable<E> {
 
     /// The dead time to command, in the generator's steps, at bus code
     /// `bus` and current code `current` (each clamped to the table's
-    /// range). Integer-only, no division; cannot fail or panic.
-    #[inline]
+    /// range). Integer-only, no division; cannot fail or panic. Always
+    /// inlined, as [`DelayTable::delay`].
+    #[inline(always)]
     pub fn dead_time(&self, bus: AdcCode, current: AdcCode) -> Ticks {
         self.table.delay(bus, current).ticks
     }

@@ -870,8 +870,9 @@ impl<E: Entries> DelayTable<E> {
     /// the table. Integer-only; no division in the grid layout, one 32-bit
     /// division in the ratio layout; cannot panic (all arithmetic is proven
     /// in range by [`DelayTable::new`] and written with wrapping operations
-    /// that therefore never wrap).
-    #[inline]
+    /// that therefore never wrap). Always inlined: with a `const` table
+    /// every layout parameter folds into the caller's code.
+    #[inline(always)]
     pub fn delay(&self, vin: AdcCode, io: AdcCode) -> Lookup {
         self.lookup(vin, io)
     }
