@@ -184,3 +184,65 @@ fn the_cycle_says_valley_below_the_boundary_and_draws_the_gate_in_its_own_lane()
         );
     }
 }
+
+/// A half-bridge leg's pictures: each edge's dead-time map shows its colour
+/// cells (and the rising edge's the grey of the swings that stop short),
+/// and each window picture the shaded window and the table's turn-on.
+#[test]
+fn leg_pictures_show_their_data() {
+    use host_tool::input::leg_design::{edge_name, LegSpec, EDGES};
+    use timing_core::table::Entries;
+    let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("../tables");
+    let spec = LegSpec::load(&dir.join("lantern_leg.toml")).unwrap();
+    let mut entries = Vec::new();
+    let mut heads = Vec::new();
+    for edge in EDGES {
+        let bytes =
+            std::fs::read(dir.join(format!("lantern_leg_{}.bin", edge_name(edge)))).unwrap();
+        let (_, t) = timing_core::blob::open(&bytes, Some(spec.hash)).unwrap();
+        entries.push(
+            (0..t.entries().count())
+                .map(|k| t.entries().at(k))
+                .collect::<Vec<u16>>(),
+        );
+        heads.push((edge, *t.sensing(), *t.layout(), t.frac_bits(), t.fallback()));
+    }
+    let tables: Vec<_> = heads
+        .iter()
+        .zip(&entries)
+        .map(|(h, e)| {
+            (
+                h.0,
+                timing_core::table::DelayTable::new(h.1, h.2, h.3, h.4, e.as_slice()).unwrap(),
+            )
+        })
+        .collect();
+    let out = std::env::temp_dir().join(format!("zvs-timing-leg-plots-{}", std::process::id()));
+    let files = host_tool::report::leg_plot::write_leg_plots(&spec, &out, &tables, None).unwrap();
+    assert_eq!(files.len(), 4);
+    for f in &files {
+        let svg = std::fs::read_to_string(f).unwrap();
+        let pix = render(&svg);
+        let count = |c: RGBColor| pix.pixels().iter().filter(|p| near(**p, c, 3)).count();
+        let name = f.file_name().unwrap().to_str().unwrap();
+        if name.ends_with("_windows.svg") {
+            assert!(
+                count(WINDOW_COLOUR) > 20_000,
+                "{name}: the window's shading"
+            );
+            assert!(count(CURRENT_COLOUR) > 300, "{name}: the table's turn-on");
+            assert!(svg.contains("robust window"));
+        } else {
+            // Colour cells of the map, and grey where the swing stops short
+            // (the rising edge's small currents only).
+            let grey = count(VALLEY_COLOUR);
+            if name.contains("rising") {
+                assert!(grey > 2_000, "{name}: the short swings' grey ({grey})");
+            } else {
+                assert!(grey < 200, "{name}: every falling swing completes ({grey})");
+            }
+            assert!(svg.contains("steps"));
+        }
+    }
+    let _ = std::fs::remove_dir_all(&out);
+}

@@ -81,12 +81,12 @@ pub fn evaluate_leg(
     if !(lo..=hi).contains(&current_a) {
         warnings.push(format!(
             "current = {current_a} A lies outside the {} edge's range {lo} to {hi} A: no table was proven there",
-            crate::generate::leg_tables::edge_name(edge)
+            crate::input::leg_design::edge_name(edge)
         ));
     }
     Ok(LegPointReport {
         name: spec.name.clone(),
-        edge: crate::generate::leg_tables::edge_name(edge),
+        edge: crate::input::leg_design::edge_name(edge),
         vbus_v,
         current_a,
         far_v: spec.built.far_v(vbus_v, 1.0),

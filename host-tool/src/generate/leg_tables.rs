@@ -12,6 +12,7 @@ use timing_core::AdcCode;
 use crate::generate::fit::{fit_or_why, NoFit, Requirement, Requirements};
 use crate::generate::generated::Generated;
 use crate::generate::GenerateError;
+pub use crate::input::leg_design::edge_name;
 use crate::input::leg_design::{edge_index, LegSpec};
 use crate::model::leg_model::{LegModel, LegPair};
 
@@ -70,15 +71,6 @@ pub struct EdgeOutcome {
     pub tried: Vec<(u16, u16, &'static str)>,
     /// Rows and columns of the robust grid (with tolerances).
     pub grid: Option<(usize, usize)>,
-}
-
-/// Name of an edge in messages and files.
-#[must_use]
-pub fn edge_name(edge: Edge) -> &'static str {
-    match edge {
-        Edge::Falling => "falling",
-        Edge::Rising => "rising",
-    }
 }
 
 impl EdgePairs {

@@ -168,7 +168,7 @@ pub enum Invalid {
     FallbackNeedsTicks,
     /// A half-bridge leg's design file given where only the resonant cell
     /// is served.
-    #[error("topology = \"half-bridge-leg\": this command serves the resonant cell; a half-bridge leg's design is served by `point`, `table` and `verify` so far")]
+    #[error("topology = \"half-bridge-leg\": this command serves the resonant cell; a half-bridge leg's design is served by `point --design`, `table`, `verify`, `plot`, `netlist` and `montecarlo` (not by `size` or `fit`)")]
     LegNotServed,
     /// A value that must be above zero.
     #[error("{key} = {value} must be above zero")]

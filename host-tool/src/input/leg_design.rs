@@ -326,6 +326,15 @@ pub fn edge_index(edge: Edge) -> usize {
     }
 }
 
+/// Name of an edge in messages and files: `falling` or `rising`.
+#[must_use]
+pub fn edge_name(edge: Edge) -> &'static str {
+    match edge {
+        Edge::Falling => "falling",
+        Edge::Rising => "rising",
+    }
+}
+
 /// Both edges, falling first.
 pub const EDGES: [Edge; 2] = [Edge::Falling, Edge::Rising];
 

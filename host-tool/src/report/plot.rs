@@ -23,8 +23,9 @@ use crate::model::exact::ExactModel;
 /// Size of every picture, pixels.
 pub const SIZE: (u32, u32) = (900, 600);
 /// Map resolution (cells along Vin and Io).
-const NX: usize = 90;
-const NY: usize = 60;
+pub(crate) const NX: usize = 90;
+/// See [`NX`].
+pub(crate) const NY: usize = 60;
 
 /// Trace colours of the cycle picture (tests look for them).
 pub const VOLTAGE_COLOUR: RGBColor = RGBColor(31, 119, 180);
@@ -101,10 +102,39 @@ pub fn scale(f: f64) -> RGBColor {
 }
 
 /// Values of a map on its grid: `None` where the cell has none (valley).
-struct Grid {
-    vin: (f64, f64),
-    io: (f64, f64),
-    values: Vec<Option<f64>>,
+pub(crate) struct Grid {
+    /// The horizontal axis's range.
+    pub(crate) vin: (f64, f64),
+    /// The vertical axis's range.
+    pub(crate) io: (f64, f64),
+    /// Row-major from the bottom row, [`NX`] a row.
+    pub(crate) values: Vec<Option<f64>>,
+}
+
+/// What a map's axes and line say: the axis descriptions, and a line
+/// across the map (the ZVS boundary) with its legend.
+pub(crate) struct MapLabels<'a> {
+    /// Horizontal axis.
+    pub(crate) x: &'a str,
+    /// Vertical axis.
+    pub(crate) y: &'a str,
+    /// The line's points.
+    pub(crate) line: Vec<(f64, f64)>,
+    /// Its legend.
+    pub(crate) line_label: &'a str,
+    /// Where the legend sits (away from the line).
+    pub(crate) legend_at: SeriesLabelPosition,
+}
+
+/// The cell's labels over `design`'s range.
+fn cell_labels(design: &Design) -> Result<MapLabels<'static>, PlotError> {
+    Ok(MapLabels {
+        x: "input voltage Vin (V)",
+        y: "output current Io (A)",
+        line: boundary(design)?,
+        line_label: "ZVS boundary (J = 1); grey below: valley fallback",
+        legend_at: SeriesLabelPosition::UpperLeft,
+    })
 }
 
 impl Grid {
@@ -116,7 +146,7 @@ impl Grid {
         ((x, y), (x + dx, y + dy))
     }
 
-    fn centre(&self, ix: usize, iy: usize) -> (f64, f64) {
+    pub(crate) fn centre(&self, ix: usize, iy: usize) -> (f64, f64) {
         let ((x0, y0), (x1, y1)) = self.cell_bounds(ix, iy);
         ((x0 + x1) / 2.0, (y0 + y1) / 2.0)
     }
@@ -140,9 +170,9 @@ fn boundary(design: &Design) -> Result<Vec<(f64, f64)>, PlotError> {
 }
 
 /// Draw a map of `grid` with a colour bar titled `unit`.
-fn map(
+pub(crate) fn map(
     area: &DrawingArea<SVGBackend<'_>, Shift>,
-    design: &Design,
+    labels: &MapLabels<'_>,
     grid: &Grid,
     title: &str,
     unit: &str,
@@ -185,17 +215,17 @@ fn map(
         .configure_mesh()
         .bold_line_style(WHITE.mix(0.35))
         .light_line_style(TRANSPARENT)
-        .x_desc("input voltage Vin (V)")
-        .y_desc("output current Io (A)")
+        .x_desc(labels.x)
+        .y_desc(labels.y)
         .label_style(("sans-serif", 14))
         .draw()
         .map_err(draw)?;
     chart
-        .draw_series(LineSeries::new(boundary(design)?, BLACK.stroke_width(2)))
+        .draw_series(LineSeries::new(labels.line.clone(), BLACK.stroke_width(2)))
         .map_err(draw)?
-        .label("ZVS boundary (J = 1); grey below: valley fallback")
+        .label(labels.line_label)
         .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], BLACK.stroke_width(2)));
-    legend(&mut chart, SeriesLabelPosition::UpperLeft)?;
+    legend(&mut chart, labels.legend_at.clone())?;
     // Colour bar.
     let mut bar_chart = ChartBuilder::on(&bar)
         .margin_top(45)
@@ -271,7 +301,7 @@ pub fn delay_map(design: &Design) -> Result<String, PlotError> {
     svg(|a| {
         map(
             a,
-            design,
+            &cell_labels(design)?,
             &g,
             &format!("{}: commanded turn-on delay", design.name),
             "ticks",
@@ -292,7 +322,7 @@ pub fn window_map(design: &Design) -> Result<String, PlotError> {
     svg(|a| {
         map(
             a,
-            design,
+            &cell_labels(design)?,
             &g,
             &format!("{}: ZVS window width", design.name),
             "ticks",
@@ -358,7 +388,7 @@ pub fn error_map_of(design: &Design, generated: &Generated) -> Result<String, Pl
     svg(|a| {
         map(
             a,
-            design,
+            &cell_labels(design)?,
             &g,
             &format!(
                 "{}: table error against the exact model ({} layout, {} bytes)",

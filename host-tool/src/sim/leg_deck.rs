@@ -36,6 +36,8 @@ pub mod meas {
     pub const CURRENT_ZERO: &str = "t_izero";
     /// Node voltage at that instant, V.
     pub const VOLTAGE_AT_CURRENT_ZERO: &str = "v_izero";
+    /// Voltage across the incoming switch when it turns on, V.
+    pub const VOLTAGE_AT_TURN_ON: &str = "v_turn_on";
 }
 
 /// One edge of a leg in ngspice.
@@ -66,6 +68,11 @@ pub struct LegDeck {
     pub duration_s: f64,
     /// Largest time step, second.
     pub max_step_s: f64,
+    /// When the incoming switch turns on, second after the outgoing one
+    /// turned off (`None`: it stays off, and its body diode shows the
+    /// window's close). With it the deck also measures the node voltage
+    /// at that instant ([`meas::VOLTAGE_AT_TURN_ON`]).
+    pub turn_on_s: Option<f64>,
 }
 
 impl LegDeck {
@@ -102,10 +109,14 @@ impl LegDeck {
         // The outgoing switch's gate: on, off at t0; the incoming one off.
         let edge = 1e-12;
         let on_off = format!("PWL(0 1 {t0:e} 1 {:e} 0)", t0 + edge);
+        let incoming = match self.turn_on_s {
+            Some(t) => format!("PWL(0 0 {:e} 0 {:e} 1)", t0 + t, t0 + t + edge),
+            None => "DC 0".to_owned(),
+        };
         let (gh, gl) = if falling {
-            (on_off.as_str(), "DC 0")
+            (on_off.as_str(), incoming.as_str())
         } else {
-            ("DC 0", on_off.as_str())
+            (incoming.as_str(), on_off.as_str())
         };
         let _ = writeln!(d, "Vgh gh 0 {gh}");
         let _ = writeln!(d, "Vgl gl 0 {gl}");
@@ -173,16 +184,32 @@ impl LegDeck {
             ".meas tran {} WHEN v(sw)={rail} {cross}=1 {from}",
             meas::RAIL
         );
-        let _ = writeln!(
-            d,
-            ".meas tran {} WHEN i(vsense)=0 {cross}=1 {from}",
-            meas::CURRENT_ZERO
-        );
-        let _ = writeln!(
-            d,
-            ".meas tran {} FIND v(sw) WHEN i(vsense)=0 {cross}=1 {from}",
-            meas::VOLTAGE_AT_CURRENT_ZERO
-        );
+        // The current's zero: the window's close through the incoming
+        // body diode (not measured once the incoming switch turns on).
+        if self.turn_on_s.is_none() {
+            let _ = writeln!(
+                d,
+                ".meas tran {} WHEN i(vsense)=0 {cross}=1 {from}",
+                meas::CURRENT_ZERO
+            );
+            let _ = writeln!(
+                d,
+                ".meas tran {} FIND v(sw) WHEN i(vsense)=0 {cross}=1 {from}",
+                meas::VOLTAGE_AT_CURRENT_ZERO
+            );
+        }
+        if let Some(t) = self.turn_on_s {
+            // The incoming switch's voltage as a node of its own (FIND
+            // takes node voltages).
+            let across = if falling { "v(sw)" } else { "v(bus)-v(sw)" };
+            let _ = writeln!(d, "Bacross across 0 V={across}");
+            let _ = writeln!(
+                d,
+                ".meas tran {} FIND v(across) AT={:e}",
+                meas::VOLTAGE_AT_TURN_ON,
+                t0 + t
+            );
+        }
         let _ = writeln!(d, ".end");
         d
     }

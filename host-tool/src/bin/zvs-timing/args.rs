@@ -66,6 +66,17 @@ pub(crate) fn opt_num(
 
 /// Make sure `dir` is a folder the results can be written to, before any
 /// work: created when missing; an error naming the path otherwise.
+/// A JSON report with the safety note added (as `"caution"`).
+pub(crate) fn with_caution(mut v: serde_json::Value) -> serde_json::Value {
+    if let Some(o) = v.as_object_mut() {
+        o.insert(
+            "caution".to_owned(),
+            serde_json::Value::String(host_tool::analysis::point::CAUTION.to_owned()),
+        );
+    }
+    v
+}
+
 /// Whether `path` is a half-bridge leg's design file (false where it cannot
 /// be read: the cell's loader then says why).
 pub(crate) fn is_leg_file(path: &std::path::Path) -> anyhow::Result<bool> {

@@ -228,35 +228,14 @@ pub(crate) fn run_verify(args: &VerifyArgs) -> anyhow::Result<ExitCode> {
 /// exact model at every code pair of its edge.
 fn run_leg_verify(args: &VerifyArgs) -> anyhow::Result<ExitCode> {
     use host_tool::generate::leg_tables::{edge_name, EdgePairs};
-    use host_tool::input::leg_design::{LegSpec, EDGES};
+    use host_tool::input::leg_design::LegSpec;
     use host_tool::model::leg_model::LegModel;
     let spec = LegSpec::load(&args.design)?;
-    if args.method != MethodArg::Table {
-        anyhow::bail!(
-            "--method {}: a half-bridge leg is served by its dead-time tables (--method table)",
-            args.method.name()
-        );
-    }
-    if args.table.is_empty() {
-        anyhow::bail!(
-            "--table {}_falling.bin and/or --table {}_rising.bin (written by `zvs-timing table`) are needed",
-            spec.name,
-            spec.name
-        );
-    }
+    leg_tables_given(&spec, args.method, &args.table)?;
     let mut ok = true;
     let mut reports = Vec::new();
     for path in &args.table {
-        let file = path.file_name().and_then(|f| f.to_str()).unwrap_or("");
-        let Some(edge) = EDGES
-            .into_iter()
-            .find(|&e| file.ends_with(&format!("_{}.bin", edge_name(e))))
-        else {
-            anyhow::bail!(
-                "--table {}: the edge is read from the file name, which must end in _falling.bin or _rising.bin",
-                path.display()
-            );
-        };
+        let edge = leg_blob_edge(path)?;
         let g = read_blob(path, spec.hash)?;
         let model = LegModel::new(&spec, edge)?;
         let pairs = EdgePairs::new(&spec, &model)?;
@@ -300,4 +279,43 @@ fn run_leg_verify(args: &VerifyArgs) -> anyhow::Result<ExitCode> {
         eprintln!("zvs-timing: error: an edge table misses its windows or its budget (see above)");
         ExitCode::from(1)
     })
+}
+
+/// The edge of a leg's table blob, from its file name (`<name>_falling.bin`
+/// or `<name>_rising.bin`, as `table` writes them).
+pub(crate) fn leg_blob_edge(path: &std::path::Path) -> anyhow::Result<timing_core::leg::Edge> {
+    use host_tool::input::leg_design::{edge_name, EDGES};
+    let file = path.file_name().and_then(|f| f.to_str()).unwrap_or("");
+    EDGES
+        .into_iter()
+        .find(|&e| file.ends_with(&format!("_{}.bin", edge_name(e))))
+        .ok_or_else(|| {
+            anyhow::anyhow!(
+                "--table {}: the edge is read from the file name, which must end in _falling.bin or _rising.bin",
+                path.display()
+            )
+        })
+}
+
+/// A leg is checked through its tables: `--method table` and at least one
+/// `--table`.
+pub(crate) fn leg_tables_given(
+    spec: &host_tool::input::leg_design::LegSpec,
+    method: MethodArg,
+    tables: &[std::path::PathBuf],
+) -> anyhow::Result<()> {
+    if method != MethodArg::Table {
+        anyhow::bail!(
+            "--method {}: a half-bridge leg is served by its dead-time tables (--method table)",
+            method.name()
+        );
+    }
+    if tables.is_empty() {
+        anyhow::bail!(
+            "--table {}_falling.bin and/or --table {}_rising.bin (written by `zvs-timing table`) are needed",
+            spec.name,
+            spec.name
+        );
+    }
+    Ok(())
 }
