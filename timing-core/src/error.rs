@@ -78,6 +78,18 @@ pub enum Quantity {
     DiodeConduction,
     /// Least dead time a leg's generator commands, second.
     MinimumDeadTime,
+    /// Regions of an online trim's store.
+    TrimRegions,
+    /// An online trim's gain: each update moves the correction 2^-n of
+    /// the way to the residual.
+    TrimGain,
+    /// The largest correction an online trim applies either way, ticks.
+    TrimEnvelope,
+    /// Delay from the switch voltage's zero to its captured edge, ticks.
+    ComparatorDelay,
+    /// A residual or a fault count at which an online trim rejects a
+    /// capture or freezes.
+    TrimThreshold,
 }
 
 impl Quantity {
@@ -118,6 +130,11 @@ impl Quantity {
             Quantity::FarEndVoltage => "voltage at the inductor's far end (V)",
             Quantity::DiodeConduction => "accepted body-diode conduction (s)",
             Quantity::MinimumDeadTime => "minimum dead time (s)",
+            Quantity::TrimRegions => "trim regions",
+            Quantity::TrimGain => "trim gain (shift)",
+            Quantity::TrimEnvelope => "trim envelope (ticks)",
+            Quantity::ComparatorDelay => "comparator delay (ticks)",
+            Quantity::TrimThreshold => "trim fault threshold",
         }
     }
 }

@@ -20,7 +20,9 @@
 //! [`ring`] solves the real cell numerically (a Coss curve, a lossy
 //! loop), and [`leg`] the two switching edges of a half-bridge leg (both
 //! switches' curves, the transition inductance, the current at the
-//! switching instant), on the same integrator.
+//! switching instant), on the same integrator. [`trim`] learns a board's
+//! offset from the model online, from the captured instant the switch
+//! voltage reaches zero.
 //!
 //! ```
 //! # fn main() -> Result<(), timing_core::Error> {
@@ -85,6 +87,7 @@ pub mod table;
 mod tank;
 mod timer;
 mod transition;
+pub mod trim;
 pub mod waveform;
 
 pub use adc::{AdcCode, CodeRange};

@@ -1,0 +1,339 @@
+//! Online trim: the board's offset from the model, learned every cycle from
+//! the captured instant at which the switch voltage reaches zero (a
+//! comparator on the switch node and a timer input capture, common
+//! practice, no source), and added to the feed-forward command.
+//!
+//! The feed-forward command (a table or a closed form) comes from a model;
+//! a real board drifts from it with temperature and age. The capture is the
+//! window's opening as the board has it. Per region of the operating range
+//! (the firmware chooses the regions, e.g. bins of the code ratio) the trim
+//! keeps a correction `c`, in 1/256 tick, that follows the residual
+//! `r = capture - comparator delay - predicted opening` through a first-order
+//! low-pass (`c += (r - c) >> gain`): a bounded-gain integrator whose step
+//! response settles to within 1/e in `2^gain` updates of its region. The
+//! command is then `feed-forward + c`, kept inside a user-set envelope
+//! around the feed-forward and never before the corrected opening
+//! `predicted + c`.
+//!
+//! Faults freeze the trim (its command is then the feed-forward alone):
+//! - no capture (a comparator stuck high, captures lost);
+//! - a capture farther from the prediction than the plausible residual (a
+//!   comparator stuck low fires at once; a glitch);
+//! - noise: a residual that jumps from its region's recent mean by more
+//!   than the noise limit.
+//!
+//! Each cycle's fault flags go into a [`heapless::HistoryBuffer`] of the
+//! last `H` cycles with running counts, so a fault's weight over that
+//! window costs a constant time per cycle; the trim is frozen while any
+//! count is at or above its limit, and learns again once the window has
+//! cleared. Validated once ([`TrimConfig::new`]); the per-cycle
+//! [`Trim::update`] and [`Trim::apply`] cannot fail or panic.
+
+use heapless::HistoryBuffer;
+
+use crate::error::{Error, Quantity};
+use crate::Ticks;
+
+/// A capture went missing this cycle.
+const MISSING: u8 = 1;
+/// The capture lay beyond the plausible residual.
+const IMPLAUSIBLE: u8 = 2;
+/// The residual jumped from its region's recent mean.
+const NOISY: u8 = 4;
+/// Shift of the fast mean the noise test compares against.
+const MEAN_SHIFT: u32 = 2;
+
+/// Why the trim is frozen.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[cfg_attr(feature = "serde", derive(serde::Serialize))]
+pub enum Freeze {
+    /// Too many cycles without a capture in the window.
+    NoCapture,
+    /// Too many captures beyond the plausible residual.
+    Implausible,
+    /// Too many residuals jumping from their region's mean.
+    Noisy,
+}
+
+/// What the trim is doing.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[cfg_attr(feature = "serde", derive(serde::Serialize))]
+pub enum TrimStatus {
+    /// Learning and applying its corrections.
+    Learning,
+    /// Frozen: the command is the feed-forward alone.
+    Frozen(Freeze),
+}
+
+/// A validated trim configuration (all times in 1/256 tick).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[cfg_attr(feature = "serde", derive(serde::Serialize))]
+pub struct TrimConfig {
+    gain: u8,
+    envelope_q8: i32,
+    comparator_q8: i32,
+    plausible_q8: i32,
+    noise_q8: i32,
+    limits: [u16; 3],
+}
+
+/// Whole ticks to 1/256 tick, refusing what does not fit.
+fn q8(quantity: Quantity, ticks: f32, max: f32) -> Result<i32, Error> {
+    if !ticks.is_finite() {
+        return Err(Error::NotFinite {
+            quantity,
+            value: f64::from(ticks),
+        });
+    }
+    if !(0.0..=max).contains(&ticks) {
+        return Err(Error::OutOfRange {
+            quantity,
+            value: f64::from(ticks),
+            min: 0.0,
+            max: f64::from(max),
+        });
+    }
+    Ok((ticks * 256.0 + 0.5) as i32)
+}
+
+impl TrimConfig {
+    /// The trim's settings:
+    /// - `gain`: each update moves a region's correction `2^-gain` of the way
+    ///   to the residual (1 to 12; 4 settles within 1/e in 16 updates);
+    /// - `envelope_ticks`: the largest correction either way (0 to 4096);
+    /// - `comparator_ticks`: the comparator's and the capture's delay from the
+    ///   switch voltage's zero to the captured edge (0 to 4096);
+    /// - `plausible_ticks`: a residual beyond this is not a capture of the
+    ///   opening (0 to 65536);
+    /// - `noise_ticks`: a residual this far from its region's recent mean
+    ///   counts as noise (0 to 65536);
+    /// - `limits`: counts of cycles without a capture, of implausible
+    ///   captures and of noisy ones within the history window at which the
+    ///   trim freezes (each at least 1).
+    ///
+    /// ```
+    /// # fn main() -> Result<(), timing_core::Error> {
+    /// use timing_core::trim::{Trim, TrimConfig, TrimStatus};
+    /// use timing_core::Ticks;
+    /// let cfg = TrimConfig::new(3, 8.0, 2.0, 40.0, 6.0, [8, 8, 8])?;
+    /// let mut trim: Trim<4, 32> = Trim::new(cfg);
+    /// // The board opens 3 ticks later than the model predicts.
+    /// for _ in 0..64 {
+    ///     trim.update(1, Ticks::new(40), Some(Ticks::new(45)));
+    /// }
+    /// assert_eq!(trim.status(), TrimStatus::Learning);
+    /// assert_eq!(trim.apply(1, Ticks::new(50), Ticks::new(40)).get(), 53);
+    /// # Ok(()) }
+    /// ```
+    ///
+    /// # Errors
+    /// [`Error::OutOfRange`] or [`Error::NotFinite`] naming
+    /// [`Quantity::TrimGain`], [`Quantity::TrimEnvelope`],
+    /// [`Quantity::ComparatorDelay`] or [`Quantity::TrimThreshold`].
+    pub fn new(
+        gain: u8,
+        envelope_ticks: f32,
+        comparator_ticks: f32,
+        plausible_ticks: f32,
+        noise_ticks: f32,
+        limits: [u16; 3],
+    ) -> Result<Self, Error> {
+        if !(1..=12).contains(&gain) {
+            return Err(Error::OutOfRange {
+                quantity: Quantity::TrimGain,
+                value: f64::from(gain),
+                min: 1.0,
+                max: 12.0,
+            });
+        }
+        for n in limits {
+            if n == 0 {
+                return Err(Error::OutOfRange {
+                    quantity: Quantity::TrimThreshold,
+                    value: 0.0,
+                    min: 1.0,
+                    max: f64::from(u16::MAX),
+                });
+            }
+        }
+        Ok(Self {
+            gain,
+            envelope_q8: q8(Quantity::TrimEnvelope, envelope_ticks, 4096.0)?,
+            comparator_q8: q8(Quantity::ComparatorDelay, comparator_ticks, 4096.0)?,
+            plausible_q8: q8(Quantity::TrimThreshold, plausible_ticks, 65536.0)?,
+            noise_q8: q8(Quantity::TrimThreshold, noise_ticks, 65536.0)?,
+            limits,
+        })
+    }
+}
+
+/// An online trim over `R` regions with a fault history of `H` cycles.
+#[derive(Debug, Clone)]
+pub struct Trim<const R: usize, const H: usize> {
+    cfg: TrimConfig,
+    /// Correction per region, 1/256 tick.
+    correction: [i32; R],
+    /// Fast mean of the residual per region, 1/256 tick (the noise test).
+    mean: [i32; R],
+    /// Fault flags of the last `H` cycles.
+    history: HistoryBuffer<u8, H>,
+    /// Cycles among them with each flag (missing, implausible, noisy).
+    counts: [u16; 3],
+    status: TrimStatus,
+}
+
+/// Ticks as a signed count of 1/256 tick (saturating).
+#[inline(always)]
+fn ticks_q8(t: Ticks) -> i32 {
+    let v = t.get();
+    if v > (i32::MAX as u32) >> 8 {
+        i32::MAX
+    } else {
+        (v << 8) as i32
+    }
+}
+
+impl<const R: usize, const H: usize> Trim<R, H> {
+    /// A trim that has learnt nothing yet (every correction 0); `const`,
+    /// so it can live in a `static`.
+    #[must_use]
+    pub const fn new(cfg: TrimConfig) -> Self {
+        Self {
+            cfg,
+            correction: [0; R],
+            mean: [0; R],
+            history: HistoryBuffer::new(),
+            counts: [0; 3],
+            status: TrimStatus::Learning,
+        }
+    }
+
+    /// One cycle in `region` (an index past the last region is ignored):
+    /// the model's predicted opening, and the captured edge (`None` when
+    /// no capture came). Learns from a plausible, quiet capture while the
+    /// trim is not frozen; returns the status after the cycle.
+    pub fn update(
+        &mut self,
+        region: usize,
+        predicted: Ticks,
+        capture: Option<Ticks>,
+    ) -> TrimStatus {
+        let cfg = self.cfg;
+        let flags = match capture {
+            None => MISSING,
+            Some(c) => {
+                let r = ticks_q8(c)
+                    .saturating_sub(ticks_q8(predicted))
+                    .saturating_sub(cfg.comparator_q8);
+                if r.saturating_abs() > cfg.plausible_q8 {
+                    IMPLAUSIBLE
+                } else if let (Some(k), Some(m)) =
+                    (self.correction.get_mut(region), self.mean.get_mut(region))
+                {
+                    let noisy = r.saturating_sub(*m).saturating_abs() > cfg.noise_q8;
+                    *m = m.saturating_add(r.saturating_sub(*m) >> MEAN_SHIFT);
+                    if noisy {
+                        NOISY
+                    } else {
+                        if self.status == TrimStatus::Learning {
+                            let next = k.saturating_add(r.saturating_sub(*k) >> cfg.gain);
+                            *k = next.clamp(-cfg.envelope_q8, cfg.envelope_q8);
+                        }
+                        0
+                    }
+                } else {
+                    0
+                }
+            }
+        };
+        // The window's counts, in constant time: the flags about to drop
+        // out leave them, this cycle's join them.
+        if self.history.len() == H {
+            if let Some(&old) = self.history.oldest_ordered().next() {
+                for (b, n) in self.counts.iter_mut().enumerate() {
+                    *n = n.saturating_sub(u16::from((old >> b) & 1));
+                }
+            }
+        }
+        self.history.write(flags);
+        for (b, n) in self.counts.iter_mut().enumerate() {
+            *n = n.saturating_add(u16::from((flags >> b) & 1));
+        }
+        let [m, i, n] = self.counts;
+        let [lm, li, ln] = cfg.limits;
+        self.status = if m >= lm {
+            TrimStatus::Frozen(Freeze::NoCapture)
+        } else if i >= li {
+            TrimStatus::Frozen(Freeze::Implausible)
+        } else if n >= ln {
+            TrimStatus::Frozen(Freeze::Noisy)
+        } else {
+            TrimStatus::Learning
+        };
+        self.status
+    }
+
+    /// The command for `region`: `feed_forward` plus the region's
+    /// correction, no earlier than the corrected opening
+    /// `predicted + correction`, within the envelope around the
+    /// feed-forward, rounded half up to whole ticks; the feed-forward alone
+    /// while frozen or for an index past the last region.
+    pub fn apply(&self, region: usize, feed_forward: Ticks, predicted: Ticks) -> Ticks {
+        let Some(&c) = self.correction.get(region) else {
+            return feed_forward;
+        };
+        if self.status != TrimStatus::Learning {
+            return feed_forward;
+        }
+        let env = self.cfg.envelope_q8;
+        let ff = ticks_q8(feed_forward);
+        let opening = ticks_q8(predicted).saturating_add(c);
+        let cmd = ff
+            .saturating_add(c)
+            .max(opening)
+            .clamp(ff.saturating_sub(env), ff.saturating_add(env));
+        let ticks = cmd.saturating_add(128) >> 8;
+        Ticks::new(if ticks > 0 { ticks as u32 } else { 0 })
+    }
+
+    /// The status after the last update.
+    pub fn status(&self) -> TrimStatus {
+        self.status
+    }
+
+    /// Region `region`'s correction, ticks (0 past the last region).
+    #[must_use]
+    pub fn correction_ticks(&self, region: usize) -> f32 {
+        self.correction
+            .get(region)
+            .map_or(0.0, |&c| c as f32 / 256.0)
+    }
+
+    /// Cycles in the history window with no capture, an implausible one and
+    /// a noisy one.
+    #[must_use]
+    pub fn fault_counts(&self) -> [u16; 3] {
+        self.counts
+    }
+
+    /// The configuration.
+    #[must_use]
+    pub fn config(&self) -> &TrimConfig {
+        &self.cfg
+    }
+}
+
+#[cfg(feature = "defmt")]
+impl<const R: usize, const H: usize> defmt::Format for Trim<R, H> {
+    fn format(&self, f: defmt::Formatter<'_>) {
+        defmt::write!(
+            f,
+            "Trim {{ status: {}, faults: {} }}",
+            self.status,
+            self.counts
+        );
+    }
+}

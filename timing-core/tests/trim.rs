@@ -1,0 +1,166 @@
+//! The online trim: it learns a constant offset at the rate of a
+//! first-order low-pass (`e_k = e_0*(1 - 2^-g)^k`, the textbook step
+//! response of a one-pole IIR filter, from memory), keeps every command
+//! inside its envelope and never before the corrected opening, and freezes
+//! to the feed-forward on each kind of fault within its stated count.
+
+use proptest::prelude::*;
+use timing_core::trim::{Freeze, Trim, TrimConfig, TrimStatus};
+use timing_core::{Error, Quantity, Ticks};
+
+fn cfg() -> TrimConfig {
+    // Gain 2^-3, envelope 8 ticks, comparator 2 ticks, plausible 40,
+    // noise 6, freeze at 8 faults of a kind in the 32-cycle window.
+    TrimConfig::new(3, 8.0, 2.0, 40.0, 6.0, [8, 8, 8]).unwrap()
+}
+
+#[test]
+fn learns_a_constant_offset_at_the_low_pass_rate() {
+    let mut trim: Trim<4, 32> = Trim::new(cfg());
+    // The board opens 5 ticks after the prediction, plus the comparator's 2.
+    let offset = 5.0f32;
+    let mut k_within = None;
+    for k in 1..=200u32 {
+        trim.update(2, Ticks::new(100), Some(Ticks::new(107)));
+        let e = (trim.correction_ticks(2) - offset).abs();
+        if e < 0.05 * offset && k_within.is_none() {
+            k_within = Some(k);
+        }
+    }
+    // (1 - 1/8)^k < 0.05 from k = 23 on (ln 0.05 / ln 0.875 = 22.4); the
+    // integer shift truncates, so allow a few updates more.
+    let k = k_within.unwrap();
+    println!("within 5 % after {k} updates (a one-pole filter: 23)");
+    assert!((23..=27).contains(&k), "{k}");
+    assert!((trim.correction_ticks(2) - offset).abs() < 0.05);
+    // Other regions learnt nothing.
+    assert_eq!(trim.correction_ticks(0), 0.0);
+    assert_eq!(trim.apply(2, Ticks::new(110), Ticks::new(100)).get(), 115);
+    assert_eq!(trim.apply(0, Ticks::new(110), Ticks::new(100)).get(), 110);
+}
+
+#[test]
+fn a_correction_stops_at_the_envelope() {
+    let mut trim: Trim<2, 32> = Trim::new(cfg());
+    for _ in 0..300 {
+        trim.update(0, Ticks::new(100), Some(Ticks::new(100 + 2 + 20)));
+    }
+    assert!((trim.correction_ticks(0) - 8.0).abs() < 1e-6);
+    assert_eq!(trim.apply(0, Ticks::new(120), Ticks::new(100)).get(), 128);
+}
+
+#[test]
+fn never_before_the_corrected_opening() {
+    let mut trim: Trim<1, 32> = Trim::new(cfg());
+    for _ in 0..200 {
+        trim.update(0, Ticks::new(50), Some(Ticks::new(56)));
+    }
+    // Opening corrected to 54; a feed-forward of 48 (before the predicted
+    // opening) is raised to it, within the envelope (48 + 8 = 56).
+    assert_eq!(trim.apply(0, Ticks::new(48), Ticks::new(50)).get(), 54);
+}
+
+#[test]
+fn missing_captures_freeze_within_the_limit_and_clear() {
+    let mut trim: Trim<1, 32> = Trim::new(cfg());
+    for _ in 0..100 {
+        trim.update(0, Ticks::new(50), Some(Ticks::new(55)));
+    }
+    let learnt = trim.correction_ticks(0);
+    let mut frozen_at = None;
+    for k in 1..=20 {
+        if let TrimStatus::Frozen(Freeze::NoCapture) = trim.update(0, Ticks::new(50), None) {
+            frozen_at.get_or_insert(k);
+        }
+    }
+    assert_eq!(frozen_at, Some(8), "frozen at the 8th missing capture");
+    // Frozen: the feed-forward alone, and the correction held.
+    assert_eq!(trim.apply(0, Ticks::new(60), Ticks::new(50)).get(), 60);
+    assert_eq!(trim.correction_ticks(0), learnt);
+    // Captures return: learning again once fewer than 8 of the last 32
+    // cycles lack one.
+    let mut back = None;
+    for k in 1..=40 {
+        if trim.update(0, Ticks::new(50), Some(Ticks::new(55))) == TrimStatus::Learning {
+            back.get_or_insert(k);
+        }
+    }
+    assert_eq!(
+        back,
+        Some(32 - 20 + 13),
+        "the 20 misses leave the window one by one"
+    );
+}
+
+#[test]
+fn a_comparator_stuck_low_is_implausible() {
+    let mut trim: Trim<1, 32> = Trim::new(cfg());
+    // Stuck low: the capture fires at once, 50 ticks before the opening.
+    let mut status = TrimStatus::Learning;
+    for _ in 0..8 {
+        status = trim.update(0, Ticks::new(50), Some(Ticks::new(0)));
+    }
+    assert_eq!(status, TrimStatus::Frozen(Freeze::Implausible));
+    assert_eq!(trim.correction_ticks(0), 0.0, "nothing learnt from it");
+}
+
+#[test]
+fn a_burst_of_noise_freezes_without_moving_the_correction_much() {
+    let mut trim: Trim<1, 32> = Trim::new(cfg());
+    for _ in 0..100 {
+        trim.update(0, Ticks::new(50), Some(Ticks::new(54)));
+    }
+    let before = trim.correction_ticks(0);
+    let mut status = TrimStatus::Learning;
+    for k in 0..16u32 {
+        // +-15 ticks alternating: plausible, but far from the recent mean.
+        let c = if k % 2 == 0 { 69 } else { 39 };
+        status = trim.update(0, Ticks::new(50), Some(Ticks::new(c)));
+    }
+    assert_eq!(status, TrimStatus::Frozen(Freeze::Noisy));
+    assert!((trim.correction_ticks(0) - before).abs() < 1.0);
+}
+
+#[test]
+fn bad_settings_name_their_quantity() {
+    let q = |e: Error| e.quantity();
+    assert_eq!(
+        q(TrimConfig::new(0, 8.0, 2.0, 40.0, 6.0, [8; 3]).unwrap_err()),
+        Some(Quantity::TrimGain)
+    );
+    assert_eq!(
+        q(TrimConfig::new(3, -1.0, 2.0, 40.0, 6.0, [8; 3]).unwrap_err()),
+        Some(Quantity::TrimEnvelope)
+    );
+    assert_eq!(
+        q(TrimConfig::new(3, 8.0, f32::NAN, 40.0, 6.0, [8; 3]).unwrap_err()),
+        Some(Quantity::ComparatorDelay)
+    );
+    assert_eq!(
+        q(TrimConfig::new(3, 8.0, 2.0, 40.0, 6.0, [8, 0, 8]).unwrap_err()),
+        Some(Quantity::TrimThreshold)
+    );
+}
+
+proptest! {
+    /// Whatever the captures (missing, wild, huge), the command stays
+    /// within the envelope of the feed-forward, equals it while frozen, and
+    /// nothing panics.
+    #[test]
+    fn commands_stay_in_the_envelope(
+        events in prop::collection::vec((0usize..5, 0u32..400, prop::option::of(0u32..u32::MAX)), 1..300),
+        ff in 0u32..100_000,
+        predicted in 0u32..100_000,
+    ) {
+        let mut trim: Trim<4, 16> = Trim::new(cfg());
+        for (region, p, capture) in events {
+            let status = trim.update(region, Ticks::new(p), capture.map(Ticks::new));
+            let cmd = trim.apply(region, Ticks::new(ff), Ticks::new(predicted)).get();
+            if status == TrimStatus::Learning {
+                prop_assert!(cmd + 8 >= ff && cmd <= ff + 8, "{cmd} vs {ff}");
+            } else {
+                prop_assert_eq!(cmd, ff);
+            }
+        }
+    }
+}
