@@ -16,6 +16,7 @@ use timing_core::leg::{DriverDelays, Edge, EdgeTurnOn, Leg, LegPoint, LegTimer, 
 use timing_core::AdcCode;
 
 use crate::hw;
+use crate::plant::{to_code, Noise};
 
 /// The committed dead-time tables of the leg demo.
 #[allow(dead_code)]
@@ -63,38 +64,24 @@ pub struct Sample {
     pub current_code: [u16; 2],
 }
 
-/// The plant: deterministic, with a small linear-congruential noise source.
+/// The plant: deterministic, with the cell plant's noise source.
 pub struct Plant {
-    seed: u32,
+    noise: Noise,
 }
 
 /// Peak sensor noise, codes (the design's `noise_codes`).
 const NOISE_CODES: f32 = 2.0;
-const MAX_CODE: f32 = 4095.0;
 
 impl Plant {
     /// The scenario.
     pub const fn new() -> Self {
-        Self { seed: 0x1357_9bdf }
-    }
-
-    fn noise(&mut self) -> f32 {
-        self.seed = self
-            .seed
-            .wrapping_mul(1_664_525)
-            .wrapping_add(1_013_904_223);
-        ((self.seed >> 8) as f32 / 8_388_608.0) - 1.0
-    }
-
-    fn convert(x: f32, noise: f32) -> u16 {
-        let c = x + noise * NOISE_CODES + 0.5;
-        if c < 0.0 {
-            0
-        } else if c > MAX_CODE {
-            MAX_CODE as u16
-        } else {
-            c as u16
+        Self {
+            noise: Noise::new(0x1357_9bdf),
         }
+    }
+
+    fn convert(codes: f32, noise: f32) -> u16 {
+        to_code(codes + noise * NOISE_CODES)
     }
 
     /// The operating point of cycle `n` of `cycles`.
@@ -120,7 +107,7 @@ impl Plant {
         };
         // The triangle's peak: the average is the mean of peak and valley.
         let peak = 2.0 * i_avg - valley;
-        let (a, b, c) = (self.noise(), self.noise(), self.noise());
+        let (a, b, c) = (self.noise.next(), self.noise.next(), self.noise.next());
         let zero = f32::from(model::CURRENT_ZERO_CODE);
         Sample {
             vbus_v,

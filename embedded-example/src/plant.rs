@@ -20,9 +20,38 @@ pub struct Sample {
 
 /// The plant: deterministic, with a small linear-congruential noise source.
 pub struct Plant {
-    seed: u32,
+    noise: Noise,
     /// Cycles in the run.
     pub cycles: u32,
+}
+
+/// A small linear-congruential noise source (deterministic runs).
+pub struct Noise(u32);
+
+impl Noise {
+    /// A source started at `seed`.
+    pub const fn new(seed: u32) -> Self {
+        Self(seed)
+    }
+
+    /// The next draw, uniform in [-1, 1).
+    pub fn next(&mut self) -> f32 {
+        self.0 = self.0.wrapping_mul(1_664_525).wrapping_add(1_013_904_223);
+        ((self.0 >> 8) as f32 / 8_388_608.0) - 1.0
+    }
+}
+
+/// A conversion result: `c` (codes, noise included) rounded half up and
+/// kept within the 12-bit ADC.
+pub fn to_code(c: f32) -> u16 {
+    let c = c + 0.5;
+    if c < 0.0 {
+        0
+    } else if c > MAX_CODE {
+        MAX_CODE as u16
+    } else {
+        c as u16
+    }
 }
 
 /// ADC scales of the demo design (tables/winch_aux.toml).
@@ -37,29 +66,13 @@ impl Plant {
     /// The scenario over `cycles` switching cycles.
     pub const fn new(cycles: u32) -> Self {
         Self {
-            seed: 0x2545_f491,
+            noise: Noise::new(0x2545_f491),
             cycles,
         }
     }
 
-    fn noise(&mut self) -> f32 {
-        self.seed = self
-            .seed
-            .wrapping_mul(1_664_525)
-            .wrapping_add(1_013_904_223);
-        // Uniform in [-1, 1).
-        ((self.seed >> 8) as f32 / 8_388_608.0) - 1.0
-    }
-
     fn convert(x: f32, per_code: f32, noise: f32) -> u16 {
-        let c = x / per_code + noise * NOISE_CODES + 0.5;
-        if c < 0.0 {
-            0
-        } else if c > MAX_CODE {
-            MAX_CODE as u16
-        } else {
-            c as u16
-        }
+        to_code(x / per_code + noise * NOISE_CODES)
     }
 
     /// The operating point of cycle `n`.
@@ -73,7 +86,7 @@ impl Plant {
             let k = ((f - 0.4) * 200.0).min(8.0);
             8.0 - 6.5 * libm::expf(-k)
         };
-        let (a, b) = (self.noise(), self.noise());
+        let (a, b) = (self.noise.next(), self.noise.next());
         Sample {
             vin_v,
             io_a,

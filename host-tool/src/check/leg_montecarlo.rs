@@ -12,12 +12,13 @@
 //! leg (timing-core's `leg` with the drawn parts) says whether the turn-on
 //! falls inside its window.
 
-use rand::{Rng, SeedableRng};
+use rand::Rng;
 use serde::Serialize;
 use timing_core::leg::{Edge, EdgeTurnOn};
 use timing_core::table::DelayTable;
 use timing_core::AdcCode;
 
+use crate::check::montecarlo::{board_rng, sensed_code, spread};
 use crate::input::leg_design::{edge_index, LegSpec, LegTolerance};
 use crate::model::leg_model::LegModel;
 
@@ -105,17 +106,8 @@ pub fn run_edge(
     let step_hz = timer.clock_hz();
     let max_code = f64::from((1u32 << spec.adc_bits) - 1);
     let range = spec.current_a[edge_index(edge)];
-    let spread = |rng: &mut rand::rngs::StdRng, half: f64| {
-        if half > 0.0 {
-            rng.random_range(-half..=half)
-        } else {
-            0.0
-        }
-    };
     let per_board = crate::par::map_rows(boards as usize, |b| {
-        let mut rng = rand::rngs::StdRng::seed_from_u64(
-            seed ^ (b as u64 + 1).wrapping_mul(0x9E37_79B9_7F4A_7C15),
-        );
+        let mut rng = board_rng(seed, b);
         let mut o = [0u64; 9];
         let (dl, dc, df) = (
             spread(&mut rng, tol.l_rel),
@@ -143,13 +135,13 @@ pub fn run_edge(
                 spread(&mut rng, tol.noise_codes),
             );
             let jitter = spread(&mut rng, tol.jitter_s);
-            let code = |x: f64| x.round().clamp(0.0, max_code) as u16;
-            let bus_code = code(vbus * (1.0 + gv) / spec.vbus_volts_per_code + ov + nv);
-            let current_code = code(
-                current * (1.0 + gi) / spec.current_amps_per_code
-                    + f64::from(spec.current_zero_code)
-                    + oi
-                    + ni,
+            let bus_code = sensed_code(vbus, spec.vbus_volts_per_code, 0.0, [gv, ov, nv], max_code);
+            let current_code = sensed_code(
+                current,
+                spec.current_amps_per_code,
+                f64::from(spec.current_zero_code),
+                [gi, oi, ni],
+                max_code,
             );
             let steps = table
                 .delay(AdcCode::new(bus_code), AdcCode::new(current_code))

@@ -59,6 +59,32 @@ pub struct MonteCarloReport {
     pub model_errors: u64,
 }
 
+/// A value drawn uniformly within `half` either side of zero (0 for no
+/// spread): every board's and cycle's draw within a tolerance.
+pub(crate) fn spread(rng: &mut rand::rngs::StdRng, half: f64) -> f64 {
+    if half > 0.0 {
+        rng.random_range(-half..=half)
+    } else {
+        0.0
+    }
+}
+
+/// Board `b`'s own generator, seeded from the run's seed and its number,
+/// so the draws do not depend on the threads.
+pub(crate) fn board_rng(seed: u64, b: usize) -> rand::rngs::StdRng {
+    rand::rngs::StdRng::seed_from_u64(seed ^ (b as u64 + 1).wrapping_mul(0x9E37_79B9_7F4A_7C15))
+}
+
+/// The ADC code a channel converts `x` to on a board: `x*(1 + gain)/lsb +
+/// zero + offset + noise` (`err`: gain, offset and noise; offset and noise
+/// in codes), rounded and kept within `0..=max_code`.
+pub(crate) fn sensed_code(x: f64, lsb: f64, zero: f64, err: [f64; 3], max_code: f64) -> u16 {
+    let [gain, offset, noise] = err;
+    (x * (1.0 + gain) / lsb + zero + offset + noise)
+        .round()
+        .clamp(0.0, max_code) as u16
+}
+
 /// One board's counts.
 #[derive(Debug, Default)]
 struct Board {
@@ -131,22 +157,13 @@ pub fn run(
         valley_cycles: 0,
         model_errors: 0,
     };
-    let spread = |rng: &mut rand::rngs::StdRng, half: f64| {
-        if half > 0.0 {
-            rng.random_range(-half..=half)
-        } else {
-            0.0
-        }
-    };
     // Boards on all cores, each with its own generator seeded from the
     // run's seed and its number, so the draws do not depend on the
     // threads.
     let per_board = crate::par::map_rows_with_progress(
         boards as usize,
         |b| {
-            let mut rng = rand::rngs::StdRng::seed_from_u64(
-                seed ^ (b as u64 + 1).wrapping_mul(0x9E37_79B9_7F4A_7C15),
-            );
+            let mut rng = board_rng(seed, b);
             let mut o = Board::default();
             let (dl, dc) = (spread(&mut rng, tol.lr_rel), spread(&mut rng, tol.cr_rel));
             let (gv, gi) = (
@@ -170,13 +187,14 @@ pub fn run(
                     spread(&mut rng, tol.noise_codes),
                 );
                 let jitter = spread(&mut rng, tol.jitter_s);
-                let code = |x: f64| x.round().clamp(0.0, max_code) as u16;
-                let vin_code = code(vin * (1.0 + gv) / design.vin_volts_per_code + ov + nv);
-                let io_code = code(
-                    io * (1.0 + gi) / design.io_amps_per_code
-                        + f64::from(design.io_zero_code)
-                        + oi
-                        + ni,
+                let vin_code =
+                    sensed_code(vin, design.vin_volts_per_code, 0.0, [gv, ov, nv], max_code);
+                let io_code = sensed_code(
+                    io,
+                    design.io_amps_per_code,
+                    f64::from(design.io_zero_code),
+                    [gi, oi, ni],
+                    max_code,
                 );
                 let Ok(t) = design.cell(vin, io).and_then(|c| solver.transition(&c)) else {
                     o.model_errors += 1;

@@ -373,12 +373,11 @@ impl LegSpec {
     #[must_use]
     pub fn true_box(&self, vbus_v: f64, current_a: f64) -> ((f64, f64), (f64, f64)) {
         use crate::tank::leg_grid::true_range_signed;
-        let t = self.tolerance.unwrap_or_default();
+        let Some(t) = self.tolerance else {
+            return ((vbus_v, vbus_v), (current_a, current_a));
+        };
         let v_abs = (0.5 + t.vbus_offset_codes + t.noise_codes) * self.vbus_volts_per_code;
         let i_abs = (0.5 + t.current_offset_codes + t.noise_codes) * self.current_amps_per_code;
-        if self.tolerance.is_none() {
-            return ((vbus_v, vbus_v), (current_a, current_a));
-        }
         (
             true_range_signed(vbus_v, t.vbus_gain_rel, v_abs),
             true_range_signed(current_a, t.current_gain_rel, i_abs),
