@@ -35,6 +35,9 @@
 use crate::error::{Error, Quantity};
 use crate::Ticks;
 
+mod regions;
+pub use regions::Regions;
+
 // The fault counts are packed in one word, 10 bits each; a cycle's flags
 // are the increments it adds to them.
 /// A capture went missing this cycle.
@@ -91,22 +94,35 @@ pub struct TrimConfig {
 }
 
 /// Whole ticks to 1/256 tick, refusing what does not fit.
-fn q8(quantity: Quantity, ticks: f32, max: f32) -> Result<i32, Error> {
+const fn q8(quantity: Quantity, ticks: f32, max: f32) -> Result<i32, Error> {
     if !ticks.is_finite() {
         return Err(Error::NotFinite {
             quantity,
-            value: f64::from(ticks),
+            value: ticks as f64,
         });
     }
-    if !(0.0..=max).contains(&ticks) {
+    if ticks < 0.0 || ticks > max {
         return Err(Error::OutOfRange {
             quantity,
-            value: f64::from(ticks),
+            value: ticks as f64,
             min: 0.0,
-            max: f64::from(max),
+            max: max as f64,
         });
     }
     Ok((ticks * 256.0 + 0.5) as i32)
+}
+
+/// A fault limit's share of the bias: `(512 - limit)` in count field `k`.
+const fn limit_bias(limit: u16, k: u32) -> Result<u32, Error> {
+    if limit == 0 || limit as usize > MAX_WINDOW {
+        return Err(Error::OutOfRange {
+            quantity: Quantity::TrimThreshold,
+            value: limit as f64,
+            min: 1.0,
+            max: MAX_WINDOW as f64,
+        });
+    }
+    Ok((512 - limit as u32) << (10 * k))
 }
 
 impl TrimConfig {
@@ -114,8 +130,11 @@ impl TrimConfig {
     /// - `gain`: each update moves a region's correction `2^-gain` of the way
     ///   to the residual (1 to 12; 4 settles within 1/e in 16 updates);
     /// - `envelope_ticks`: the largest correction either way (0 to 4096);
-    /// - `comparator_ticks`: the comparator's and the capture's delay from the
-    ///   switch voltage's zero to the captured edge (0 to 4096);
+    /// - `comparator_ticks`: how much later the captured edge comes than the
+    ///   command that would turn the switch on at the zero: the comparator's
+    ///   and the capture's delay plus the timer's lead (the driver's
+    ///   turn-on delay), since commands count to the gate signal and
+    ///   captures to the edge (0 to 4096);
     /// - `plausible_ticks`: a residual beyond this is not a capture of the
     ///   opening (0 to 65536);
     /// - `noise_ticks`: a residual this far from its region's recent mean
@@ -143,7 +162,7 @@ impl TrimConfig {
     /// [`Error::OutOfRange`] or [`Error::NotFinite`] naming
     /// [`Quantity::TrimGain`], [`Quantity::TrimEnvelope`],
     /// [`Quantity::ComparatorDelay`] or [`Quantity::TrimThreshold`].
-    pub fn new(
+    pub const fn new(
         gain: u8,
         envelope_ticks: f32,
         comparator_ticks: f32,
@@ -151,35 +170,85 @@ impl TrimConfig {
         noise_ticks: f32,
         limits: [u16; 3],
     ) -> Result<Self, Error> {
-        if !(1..=12).contains(&gain) {
+        if gain < 1 || gain > 12 {
             return Err(Error::OutOfRange {
                 quantity: Quantity::TrimGain,
-                value: f64::from(gain),
+                value: gain as f64,
                 min: 1.0,
                 max: 12.0,
             });
         }
-        let mut bias = 0u32;
-        for (k, n) in limits.into_iter().enumerate() {
-            if n == 0 || usize::from(n) > MAX_WINDOW {
-                return Err(Error::OutOfRange {
-                    quantity: Quantity::TrimThreshold,
-                    value: f64::from(n),
-                    min: 1.0,
-                    max: MAX_WINDOW as f64,
-                });
-            }
-            bias |= (512 - u32::from(n)) << (10 * k);
-        }
+        let [missing, implausible, noisy] = limits;
+        let bias = match (
+            limit_bias(missing, 0),
+            limit_bias(implausible, 1),
+            limit_bias(noisy, 2),
+        ) {
+            (Ok(a), Ok(b), Ok(c)) => a | b | c,
+            (Err(e), _, _) | (_, Err(e), _) | (_, _, Err(e)) => return Err(e),
+        };
+        let envelope_q8 = match q8(Quantity::TrimEnvelope, envelope_ticks, 4096.0) {
+            Ok(v) => v,
+            Err(e) => return Err(e),
+        };
+        let comparator_q8 = match q8(Quantity::ComparatorDelay, comparator_ticks, 4096.0) {
+            Ok(v) => v,
+            Err(e) => return Err(e),
+        };
+        let plausible_q8 = match q8(Quantity::TrimThreshold, plausible_ticks, 65536.0) {
+            Ok(v) => v,
+            Err(e) => return Err(e),
+        };
+        let noise_q8 = match q8(Quantity::TrimThreshold, noise_ticks, 65536.0) {
+            Ok(v) => v,
+            Err(e) => return Err(e),
+        };
         Ok(Self {
             gain,
-            envelope_q8: q8(Quantity::TrimEnvelope, envelope_ticks, 4096.0)?,
-            comparator_q8: q8(Quantity::ComparatorDelay, comparator_ticks, 4096.0)?,
-            plausible_q8: q8(Quantity::TrimThreshold, plausible_ticks, 65536.0)?,
-            noise_q8: q8(Quantity::TrimThreshold, noise_ticks, 65536.0)?,
+            envelope_q8,
+            comparator_q8,
+            plausible_q8,
+            noise_q8,
             limits,
             bias,
         })
+    }
+
+    /// The gain shift: each update moves a correction `2^-gain` of the way.
+    #[must_use]
+    pub const fn gain(&self) -> u8 {
+        self.gain
+    }
+
+    /// The envelope, ticks (in steps of 1/256 tick).
+    #[must_use]
+    pub fn envelope_ticks(&self) -> f32 {
+        self.envelope_q8 as f32 / 256.0
+    }
+
+    /// The comparator's delay taken off each capture, ticks.
+    #[must_use]
+    pub fn comparator_ticks(&self) -> f32 {
+        self.comparator_q8 as f32 / 256.0
+    }
+
+    /// The plausible residual, ticks.
+    #[must_use]
+    pub fn plausible_ticks(&self) -> f32 {
+        self.plausible_q8 as f32 / 256.0
+    }
+
+    /// The noise limit, ticks.
+    #[must_use]
+    pub fn noise_ticks(&self) -> f32 {
+        self.noise_q8 as f32 / 256.0
+    }
+
+    /// The fault limits: cycles without a capture, with an implausible
+    /// capture and with a noisy one in the window at which the trim freezes.
+    #[must_use]
+    pub const fn limits(&self) -> [u16; 3] {
+        self.limits
     }
 }
 

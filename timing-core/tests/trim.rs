@@ -5,8 +5,8 @@
 //! to the feed-forward on each kind of fault within its stated count.
 
 use proptest::prelude::*;
-use timing_core::trim::{Freeze, Trim, TrimConfig, TrimStatus};
-use timing_core::{Error, Quantity, Ticks};
+use timing_core::trim::{Freeze, Regions, Trim, TrimConfig, TrimStatus};
+use timing_core::{AdcCode, Error, Quantity, Ticks};
 
 fn cfg() -> TrimConfig {
     // Gain 2^-3, envelope 8 ticks, comparator 2 ticks, plausible 40,
@@ -161,6 +161,74 @@ proptest! {
             } else {
                 prop_assert_eq!(cmd, ff);
             }
+        }
+    }
+}
+
+/// Built at compile time: a configuration and a trim in a `static`.
+const CONST_CFG: TrimConfig = match TrimConfig::new(4, 8.0, 3.5, 40.0, 6.0, [8, 8, 8]) {
+    Ok(c) => c,
+    Err(_) => panic!("bad trim settings"),
+};
+static CONST_TRIM: Trim<2, 64> = Trim::new(CONST_CFG);
+
+#[test]
+fn settings_are_built_in_const_context_and_read_back() {
+    assert_eq!(CONST_TRIM.status(), TrimStatus::Learning);
+    let c = CONST_TRIM.config();
+    assert_eq!(c.gain(), 4);
+    assert_eq!(c.envelope_ticks(), 8.0);
+    assert_eq!(c.comparator_ticks(), 3.5);
+    assert_eq!(c.plausible_ticks(), 40.0);
+    assert_eq!(c.noise_ticks(), 6.0);
+    assert_eq!(c.limits(), [8, 8, 8]);
+}
+
+#[test]
+fn every_code_falls_in_the_region_whose_codes_hold_it() {
+    for (vin, io, vb, ib) in [
+        ((2236u16, 3727u16), (205u16, 2049u16), 8u16, 16u16),
+        ((0, 4095), (0, 4095), 1, 1),
+        ((100, 100), (7, 4000), 3, 5),
+        ((0, 65535), (0, 65535), 256, 256),
+    ] {
+        let r = Regions::new(vin, io, vb, ib).unwrap();
+        assert!(
+            r.count() <= usize::from(vb) * usize::from(ib),
+            "{}",
+            r.count()
+        );
+        let mut seen = vec![false; r.count()];
+        for v in (vin.0..=vin.1).step_by(7).chain([vin.1]) {
+            for i in (io.0..=io.1).step_by(11).chain([io.1]) {
+                let k = r.index(AdcCode::new(v), AdcCode::new(i));
+                let ((v0, v1), (i0, i1)) = r.codes(k).unwrap();
+                assert!((v0..=v1).contains(&v) && (i0..=i1).contains(&i));
+                seen[k] = true;
+            }
+        }
+        assert!(seen.iter().all(|&s| s), "every region is reached");
+        // Outside the range: the nearest bin.
+        assert_eq!(r.index(AdcCode::new(0), AdcCode::new(0)), 0);
+        assert_eq!(
+            r.index(AdcCode::new(u16::MAX), AdcCode::new(u16::MAX)),
+            r.count() - 1
+        );
+        assert_eq!(r.codes(r.count()), None);
+    }
+}
+
+#[test]
+fn bad_regions_name_their_quantity() {
+    for (vin, io, vb, ib) in [
+        ((0u16, 10u16), (0u16, 10u16), 0u16, 4u16),
+        ((0, 10), (0, 10), 4, 257),
+        ((11, 10), (0, 10), 4, 4),
+        ((0, 10), (9, 3), 4, 4),
+    ] {
+        match Regions::new(vin, io, vb, ib) {
+            Err(Error::OutOfRange { quantity, .. }) => assert_eq!(quantity, Quantity::TrimRegions),
+            other => panic!("{other:?}"),
         }
     }
 }
