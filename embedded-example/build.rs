@@ -65,6 +65,15 @@ fn main() {
         host_tool::emit::leg_export::leg_model_source(&spec),
     )
     .expect("write the leg model");
+    // The online trim's settings, regions and margins (the model at a few
+    // pairs a region: quick).
+    let spec =
+        host_tool::input::design::DesignSpec::load(&design).unwrap_or_else(|e| panic!("{e}"));
+    std::fs::write(
+        out.join("winch_aux_trim.rs"),
+        host_tool::emit::trim_source::trim_source(&spec).unwrap_or_else(|e| panic!("{e}")),
+    )
+    .expect("write the trim's settings");
     std::fs::copy(manifest.join("memory.x"), out.join("memory.x")).expect("copy memory.x");
     println!("cargo:rustc-link-search={}", out.display());
     // cortex-m-rt's linker script always; defmt's only with logging (it

@@ -71,7 +71,7 @@ if [ -n "${PANIC_NEVER:-}" ]; then
   # purpose). They share the target directory with the scenario build.
   elf="target/$triple/release/embedded-example"
   base=0
-  for m in none table table-any closed-form-f32 fixed-point libm-f32 leg; do
+  for m in none table table-any closed-form-f32 fixed-point libm-f32 leg trim; do
     if ! build --no-default-features --features "proof-$m"; then
       echo "PANIC-NEVER target=$target_name method=$m linked=no (a panic path survives, see the undefined symbol above)" >&2
       exit 1
@@ -115,12 +115,20 @@ echo
 echo "$log" | grep -o 'ZVS-SUMMARY .*' || true
 echo "$log" | grep -o 'ISR-COST .*' || true
 echo "$log" | grep -o 'METHOD-RUN .*' || true
+echo "$log" | grep -o 'TRIM-SUMMARY .*' || true
 echo "MEMORY target=$target_name table_flash_bytes=$table leg_table_flash_bytes=$leg_table text_bytes=$text ram_bytes=$ram"
 
 # Every scenario's summary (the resonant cell's, each leg edge's) must
 # show no early and no late turn-on.
 summaries=$(echo "$log" | grep -o 'ZVS-SUMMARY .*' || true)
 missed=$(echo "$summaries" | grep -vc ' early=0 late=0' || true)
+# Every trim scenario ran and kept its commands inside the envelope (the
+# firmware's exit code covers the freezes within their stated cycles).
+trims=$(echo "$log" | grep -o 'TRIM-SUMMARY .*' || true)
+if [ "$(echo "$trims" | grep -c 'outside_envelope=0 frozen_not_ff=0')" -ne 6 ]; then
+  echo "qemu.sh: FAILED (the trim's scenarios: a command outside the envelope, or a frozen trim not commanding the feed-forward)" >&2
+  exit 1
+fi
 if [ "$(echo "$summaries" | grep -c 'ZVS-SUMMARY')" -lt 3 ] || [ "$qemu_rc" -ne 0 ] || [ "$missed" != 0 ]; then
   echo "qemu.sh: FAILED (qemu exit $qemu_rc; $missed summary lines with early or late turn-ons, see above and the METHOD-RUN lines)" >&2
   exit 1

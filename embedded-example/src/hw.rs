@@ -12,7 +12,7 @@
 //!   the next period and never mid-transition);
 //! - SysTick stands in for the PWM timer's turn-off (or period) interrupt.
 
-use core::sync::atomic::{AtomicU32, Ordering};
+use core::sync::atomic::{AtomicBool, AtomicU32, Ordering};
 
 use timing_core::{AdcCode, Ticks};
 
@@ -105,4 +105,54 @@ pub fn post_leg_conversions(bus: AdcCode, falling: AdcCode, rising: AdcCode) {
 /// Stand-in for the PWM: edge `edge`'s last dead time, steps.
 pub fn dead_time(edge: usize) -> Ticks {
     Ticks::new(DEAD_TIME.get(edge).map_or(0, |r| r.load(Ordering::Relaxed)))
+}
+
+// The online trim's side. On a real MCU a comparator watches the switch
+// node and a timer input-capture channel, armed at the turn-off event,
+// latches the counter when the switch voltage falls below its threshold
+// (a channel armed with its input already asserted, as a comparator stuck
+// low leaves it, reports at once); the interrupt reads the latched count
+// and whether the channel fired since the last read.
+
+/// The capture of the last switching event: the count, or `NO_CAPTURE`.
+static CAPTURE: AtomicU32 = AtomicU32::new(NO_CAPTURE);
+const NO_CAPTURE: u32 = u32::MAX;
+
+/// The last switching event's captured edge, ticks from the turn-off
+/// event (`None`: the channel did not fire).
+#[inline(always)]
+pub fn read_capture() -> Option<Ticks> {
+    let c = CAPTURE.load(Ordering::Relaxed);
+    if c == NO_CAPTURE {
+        None
+    } else {
+        Some(Ticks::new(c))
+    }
+}
+
+/// Set with each switching event's capture and conversions, cleared by
+/// the interrupt that serves them (the end-of-conversion flag).
+static EVENT: AtomicBool = AtomicBool::new(false);
+
+/// Stand-in for the capture channel: the plant posts what it latched, and
+/// the event is pending.
+pub fn post_capture(c: Option<Ticks>) {
+    CAPTURE.store(
+        c.map_or(NO_CAPTURE, |t| t.get().min(NO_CAPTURE - 1)),
+        Ordering::Relaxed,
+    );
+    EVENT.store(true, Ordering::Release);
+}
+
+/// Whether a new event is pending, clearing it: the trim serves each
+/// switching event once, however often the periodic interrupt comes (the
+/// plant's exact model is slow on a core without an FPU). A load and a
+/// store: ARMv6-M has no atomic swap, and only the interrupt clears it.
+#[inline(always)]
+pub fn take_event() -> bool {
+    let pending = EVENT.load(Ordering::Acquire);
+    if pending {
+        EVENT.store(false, Ordering::Relaxed);
+    }
+    pending
 }

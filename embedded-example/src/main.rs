@@ -20,6 +20,7 @@
 mod hw;
 mod leg;
 mod plant;
+mod trim_scenario;
 
 use core::sync::atomic::{AtomicBool, AtomicU32, Ordering};
 
@@ -66,7 +67,8 @@ static BLOB: &[u8] = include_bytes!(concat!(env!("OUT_DIR"), "/winch_aux.bin"));
         feature = "proof-closed-form-f32",
         feature = "proof-fixed-point",
         feature = "proof-libm-f32",
-        feature = "proof-leg"
+        feature = "proof-leg",
+        feature = "proof-trim"
     ))
 ))]
 compile_error!("the panic-free proof build needs one `proof-<method>` feature (see qemu.sh)");
@@ -88,8 +90,18 @@ const CYCLES: u32 = 2400;
 const TICKS_PER_5_INSTR: u32 = 32;
 
 static FIRED: AtomicBool = AtomicBool::new(false);
-/// Which scenario the interrupt serves: the resonant cell, or the leg.
-static LEG_MODE: AtomicBool = AtomicBool::new(false);
+/// Which scenario the interrupt serves: the resonant cell's methods
+/// ([`MODE_CELL`]), the leg ([`MODE_LEG`]) or the trimmed table
+/// ([`MODE_TRIM`]).
+static MODE: AtomicU32 = AtomicU32::new(MODE_CELL);
+const MODE_CELL: u32 = 0;
+const MODE_LEG: u32 = 1;
+const MODE_TRIM: u32 = 2;
+/// Set by the main loop: the interrupt starts the trim afresh.
+static TRIM_RESET: AtomicBool = AtomicBool::new(false);
+/// SysTick ticks of the trim's update and of the trimmed command in the
+/// last interrupt.
+static TRIM_COST: [AtomicU32; 2] = [const { AtomicU32::new(0) }; 2];
 /// SysTick ticks of each leg edge's compute path in the last interrupt.
 static LEG_COST: [AtomicU32; 2] = [const { AtomicU32::new(0) }; 2];
 /// SysTick ticks of each method's compute path in the last interrupt.
@@ -137,17 +149,58 @@ fn timed_leg<const K: usize>() {
     }
 }
 
+/// Run and time the trim's update (as [`timed`]).
+#[inline(never)]
+fn timed_trim_update(state: &mut trim_scenario::TrimState) {
+    let start = SYST::get_current();
+    trim_scenario::update(state);
+    let end = SYST::get_current();
+    TRIM_COST[0].store(start.wrapping_sub(end) & 0x00ff_ffff, Ordering::Relaxed);
+}
+
+/// Run and time the trimmed command: the table, the region, the trim's
+/// correction (as [`timed`]).
+#[inline(never)]
+fn timed_trim_command(state: &mut trim_scenario::TrimState) {
+    let start = SYST::get_current();
+    trim_scenario::command(state);
+    let end = SYST::get_current();
+    TRIM_COST[1].store(start.wrapping_sub(end) & 0x00ff_ffff, Ordering::Relaxed);
+}
+
 #[cfg(not(feature = "panic-never"))]
 #[exception]
 fn SysTick() {
-    if LEG_MODE.load(Ordering::Relaxed) {
-        timed_leg::<0>();
-        timed_leg::<1>();
-    } else {
-        timed::<0>();
-        timed::<1>();
-        timed::<2>();
-        timed::<3>();
+    // The trim's state: the interrupt's alone (cortex-m-rt hands the
+    // handler a `&mut` to it).
+    static mut TRIM: trim_scenario::TrimState = trim_scenario::TrimState::new();
+    match MODE.load(Ordering::Relaxed) {
+        MODE_LEG => {
+            timed_leg::<0>();
+            timed_leg::<1>();
+        }
+        MODE_TRIM => {
+            // Once per switching event (the main loop's model of the board
+            // can outlast a period on the Cortex-M0).
+            if !hw::take_event() {
+                return;
+            }
+            // (A load and a store: ARMv6-M has no atomic swap; only the
+            // main loop sets the flag, between cycles.)
+            if TRIM_RESET.load(Ordering::Acquire) {
+                TRIM_RESET.store(false, Ordering::Relaxed);
+                *TRIM = trim_scenario::TrimState::new();
+            }
+            timed_trim_update(TRIM);
+            timed_trim_command(TRIM);
+            trim_scenario::publish(TRIM);
+        }
+        _ => {
+            timed::<0>();
+            timed::<1>();
+            timed::<2>();
+            timed::<3>();
+        }
     }
     FIRED.store(true, Ordering::Release);
 }
@@ -259,6 +312,19 @@ fn proof_step() -> timing_core::Ticks {
         let (bus, i) = hw::read_leg_adc(1);
         hw::write_dead_time(1, r.dead_time(bus, i));
         timing_core::Ticks::new(hw::dead_time(0).get() ^ hw::dead_time(1).get())
+    }
+    #[cfg(feature = "proof-trim")]
+    {
+        // Any state (hidden from the optimiser), any capture.
+        let mut state = core::hint::black_box(trim_scenario::TrimState::new());
+        let (vin, io) = hw::read_adc();
+        hw::post_capture(core::hint::black_box(
+            (vin.get() & 1 == 0).then(|| timing_core::Ticks::new(u32::from(io.get()))),
+        ));
+        trim_scenario::update(&mut state);
+        trim_scenario::command(&mut state);
+        core::hint::black_box(&state);
+        hw::commanded()
     }
     #[cfg(feature = "proof-none")]
     {
@@ -483,7 +549,8 @@ fn main() -> ! {
     let missed = early.iter().chain(late.iter()).any(|&n| n > 0);
     let cell_ok = !missed && mismatch == 0 && zvs > 0 && valley > 0;
     let leg_ok = run_leg(&mut core, target, empty);
-    exit(cell_ok && leg_ok)
+    let trim_ok = run_trim(&mut core, target, empty);
+    exit(cell_ok && leg_ok && trim_ok)
 }
 
 /// The half-bridge leg scenario ([`leg`]): both dead times from the edge
@@ -496,7 +563,7 @@ fn run_leg(core: &mut cortex_m::Peripherals, target: &str, empty: u32) -> bool {
         defmt::error!("the leg's model was refused");
         return false;
     };
-    LEG_MODE.store(true, Ordering::Release);
+    MODE.store(MODE_LEG, Ordering::Release);
     core.SYST.enable_interrupt();
     let mut plant = leg::Plant::new();
     let mut tally = [leg::Tally::default(); 2];
@@ -539,7 +606,7 @@ fn run_leg(core: &mut cortex_m::Peripherals, target: &str, empty: u32) -> bool {
         }
     }
     core.SYST.disable_interrupt();
-    LEG_MODE.store(false, Ordering::Release);
+    MODE.store(MODE_CELL, Ordering::Release);
     let to_instr = |t: u32| (t * 5 + TICKS_PER_5_INSTR / 2) / TICKS_PER_5_INSTR;
     let mut ok = true;
     for e in 0..2 {
@@ -565,6 +632,83 @@ fn run_leg(core: &mut cortex_m::Peripherals, target: &str, empty: u32) -> bool {
         );
         ok &= t.early == 0 && t.late == 0 && t.zvs > 0;
     }
+    ok
+}
+
+/// The trim scenarios ([`trim_scenario`]): a `TRIM-SUMMARY` line each and
+/// the trimmed table's `ISR-COST`. True when every scenario kept its
+/// commands inside the envelope and the feed-forward while frozen, and
+/// every fault froze the trim within its stated cycles.
+#[cfg(not(feature = "panic-never"))]
+fn run_trim(core: &mut cortex_m::Peripherals, target: &str, empty: u32) -> bool {
+    let Some(board) = trim_scenario::Board::new() else {
+        defmt::error!("the drifted board's model was refused");
+        return false;
+    };
+    MODE.store(MODE_TRIM, Ordering::Release);
+    core.SYST.enable_interrupt();
+    let mut cost_min = [u32::MAX; 2];
+    let mut cost_max = [0u32; 2];
+    let mut ok = true;
+    for s in &trim_scenario::SCENARIOS {
+        TRIM_RESET.store(true, Ordering::Release);
+        let mut fire = || {
+            FIRED.store(false, Ordering::Release);
+            while !FIRED.load(Ordering::Acquire) {
+                cortex_m::asm::wfi();
+            }
+            for k in 0..2 {
+                let c = TRIM_COST[k].load(Ordering::Relaxed).saturating_sub(empty);
+                cost_min[k] = cost_min[k].min(c);
+                cost_max[k] = cost_max[k].max(c);
+            }
+        };
+        let t = trim_scenario::run(&board, s, &mut fire);
+        let pct = |a: u32, b: u32| {
+            if b == 0 {
+                0.0
+            } else {
+                100.0 * a as f32 / b as f32
+            }
+        };
+        defmt::info!(
+            "TRIM-SUMMARY target={=str} scenario={=str} cycles={=u32} zvs={=u32} inside_without={=u32} ({=f32} %) inside_with={=u32} ({=f32} %) converged_at={=u32} zvs_after={=u32} inside_after={=u32} ({=f32} %) frozen_after={=u32} stated={=u32} outside_envelope={=u32} frozen_not_ff={=u32}",
+            target,
+            s.name,
+            s.cycles,
+            t.zvs,
+            t.inside_without,
+            pct(t.inside_without, t.zvs),
+            t.inside_with,
+            pct(t.inside_with, t.zvs),
+            t.converged_at,
+            t.zvs_after,
+            t.inside_after,
+            pct(t.inside_after, t.zvs_after),
+            t.frozen_after,
+            t.stated,
+            t.outside_envelope,
+            t.frozen_not_ff
+        );
+        // Enforced: the envelope, the feed-forward while frozen, and each
+        // fault's freeze within its stated cycles. Not yet met, so reported
+        // only (issue 16 stays open): 99.9 % inside on the drifted board.
+        ok &= t.outside_envelope == 0 && t.frozen_not_ff == 0;
+        if s.fault.0 != trim_scenario::Fault::None {
+            ok &= t.frozen_after > 0 && t.frozen_after <= t.stated;
+        }
+    }
+    core.SYST.disable_interrupt();
+    MODE.store(MODE_CELL, Ordering::Release);
+    let to_instr = |t: u32| (t * 5 + TICKS_PER_5_INSTR / 2) / TICKS_PER_5_INSTR;
+    defmt::info!(
+        "ISR-COST target={=str} method=table+trim instructions_min={=u32} instructions_max={=u32} update_min={=u32} update_max={=u32}",
+        target,
+        to_instr(cost_min[0]) + to_instr(cost_min[1]),
+        to_instr(cost_max[0]) + to_instr(cost_max[1]),
+        to_instr(cost_min[0]),
+        to_instr(cost_max[0])
+    );
     ok
 }
 

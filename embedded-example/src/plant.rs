@@ -75,6 +75,16 @@ impl Plant {
         to_code(x / per_code + noise * NOISE_CODES)
     }
 
+    /// What the ADC reads of `vin_v` and `io_a` with the next two draws of
+    /// `noise`: (Vin code, Io code).
+    pub fn sense(noise: &mut Noise, vin_v: f32, io_a: f32) -> (u16, u16) {
+        let (a, b) = (noise.next(), noise.next());
+        (
+            Self::convert(vin_v, VIN_VOLTS_PER_CODE, a),
+            Self::convert(io_a, IO_AMPS_PER_CODE, b),
+        )
+    }
+
     /// The operating point of cycle `n`.
     pub fn sample(&mut self, n: u32) -> Sample {
         let f = n as f32 / self.cycles as f32;
@@ -86,12 +96,12 @@ impl Plant {
             let k = ((f - 0.4) * 200.0).min(8.0);
             8.0 - 6.5 * libm::expf(-k)
         };
-        let (a, b) = (self.noise.next(), self.noise.next());
+        let (vin_code, io_code) = Self::sense(&mut self.noise, vin_v, io_a);
         Sample {
             vin_v,
             io_a,
-            vin_code: Self::convert(vin_v, VIN_VOLTS_PER_CODE, a),
-            io_code: Self::convert(io_a, IO_AMPS_PER_CODE, b),
+            vin_code,
+            io_code,
         }
     }
 }

@@ -20,7 +20,9 @@
 //! - a capture farther from the prediction than the plausible residual (a
 //!   comparator stuck low fires at once; a glitch);
 //! - noise: a residual that jumps from its region's recent mean by more
-//!   than the noise limit.
+//!   than the noise limit (an implausible capture counts as noise too, so
+//!   a burst of wild captures freezes at the noise limit whichever side of
+//!   the plausible bound each falls).
 //!
 //! Each cycle's fault flags go into a ring of the last `H` cycles (a power
 //! of two) with running counts packed in one word, so a fault's weight
@@ -326,7 +328,10 @@ impl<const R: usize, const H: usize> Trim<R, H> {
                 if d.unsigned_abs() > (cfg.plausible_q8 as u32 >> 8) + 1
                     || r.unsigned_abs() > cfg.plausible_q8 as u32
                 {
-                    IMPLAUSIBLE
+                    // Also a jump from the mean: a burst whose captures
+                    // fall on both sides of the plausible bound freezes
+                    // at the noise limit all the same.
+                    IMPLAUSIBLE | NOISY
                 } else if let Some([k, m]) = self.region.get_mut(region) {
                     // |r|, |k|, |m| stay within 2^25: no overflow below.
                     let jump = r - *m;

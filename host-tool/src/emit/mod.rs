@@ -10,3 +10,4 @@ pub mod export;
 pub mod fitted_design;
 pub mod leg_export;
 mod summary;
+pub mod trim_source;

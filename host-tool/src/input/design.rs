@@ -126,6 +126,8 @@ pub struct DesignSpec {
     /// Board-to-board and cycle-to-cycle variation (`None`: the design
     /// file has no `[tolerance]`).
     pub tolerance: Option<Tolerance>,
+    /// The online trim's settings, in ticks, when the file has `[trim]`.
+    pub trim: Option<crate::input::trim_design::TrimSpec>,
 }
 
 /// A design that cannot be used.
@@ -631,6 +633,10 @@ impl DesignFile {
             vin_codes,
             io_codes,
             tolerance: self.tolerance.map(|t| t.validate()).transpose()?,
+            trim: self
+                .trim
+                .map(|t| t.validate(&timer, vin_codes, io_codes))
+                .transpose()?,
             // The Coss curve is part of the design: its text joins the hash.
             hash: match &coss_text {
                 None => timing_core::blob::CRC32.checksum(text.as_bytes()),

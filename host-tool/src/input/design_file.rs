@@ -285,6 +285,9 @@ pub struct DesignFile {
     /// Board-to-board and cycle-to-cycle variation (for `montecarlo`).
     #[serde(default)]
     pub tolerance: Option<ToleranceFile>,
+    /// The online trim's settings (optional).
+    #[serde(default)]
+    pub trim: Option<crate::input::trim_design::TrimFile>,
 }
 
 fn default_topology() -> TopologyFile {

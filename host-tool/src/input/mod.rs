@@ -11,3 +11,4 @@ pub mod design;
 pub mod design_file;
 pub mod invalid;
 pub mod leg_design;
+pub mod trim_design;

@@ -11,3 +11,4 @@ pub mod exact;
 pub mod exact_chunk;
 pub mod leg_model;
 pub mod robust_aim;
+pub mod trim_margin;
