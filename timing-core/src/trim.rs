@@ -341,7 +341,8 @@ impl<const R: usize, const H: usize> Trim<R, H> {
                     } else {
                         if learning {
                             *k = (*k + ((r - *k) >> cfg.gain))
-                                .clamp(-cfg.envelope_q8, cfg.envelope_q8);
+                                .max(-cfg.envelope_q8)
+                                .min(cfg.envelope_q8);
                         }
                         0
                     }
@@ -390,7 +391,10 @@ impl<const R: usize, const H: usize> Trim<R, H> {
         let cmd = ff
             .saturating_add(c)
             .max(opening)
-            .clamp(ff.saturating_sub(env), ff.saturating_add(env));
+            // max then min, not `clamp`: no assertion on the bounds'
+            // order, so nothing here can panic whatever the state.
+            .max(ff.saturating_sub(env))
+            .min(ff.saturating_add(env));
         let ticks = cmd.saturating_add(128) >> 8;
         Ticks::new(if ticks > 0 { ticks as u32 } else { 0 })
     }
