@@ -42,7 +42,7 @@ pub mod settings {
 
 /// The board's trim: a correction per region, a fault history of the
 /// design's window.
-pub type BoardTrim = Trim<{ settings::REGION_COUNT }, { settings::WINDOW }>;
+pub type BoardTrim = Trim<{ settings::REGION_SLOTS }, { settings::WINDOW }>;
 
 /// What the interrupt keeps from one cycle to the next.
 pub struct TrimState {
@@ -62,7 +62,7 @@ impl TrimState {
     /// Nothing learnt, nothing expected.
     pub const fn new() -> Self {
         Self {
-            trim: Trim::new(settings::CONFIG),
+            trim: Trim::new(),
             region: 0,
             predicted: Ticks::new(0),
             expect: false,
@@ -70,15 +70,21 @@ impl TrimState {
     }
 }
 
-/// The update: the last event's capture against the opening its command
-/// predicted (skipped where the table expected no ZVS: no opening).
+/// Whether the last command expected ZVS (the table's test): only then
+/// does the capture that follows teach the trim (elsewhere there is no
+/// opening to capture).
 #[inline(always)]
-pub fn update(state: &mut TrimState) {
-    if state.expect {
-        state
-            .trim
-            .update(state.region, state.predicted, hw::read_capture());
-    }
+pub fn expects_opening(state: &TrimState) -> bool {
+    state.expect
+}
+
+/// The trim's update: the last event's capture against the opening its
+/// command predicted.
+#[inline(always)]
+pub fn update(state: &mut TrimState, capture: Option<Ticks>) {
+    state
+        .trim
+        .update(&settings::CONFIG, state.region, state.predicted, capture);
 }
 
 /// The command: the table's feed-forward for the latest conversions, the
@@ -94,7 +100,9 @@ pub fn command(state: &mut TrimState) {
     let margin = settings::MARGIN_TICKS.get(region).copied().unwrap_or(0);
     let predicted = Ticks::new(ff.ticks.get().saturating_sub(u32::from(margin)));
     let cmd = if ff.zvs {
-        state.trim.apply(region, ff.ticks, predicted)
+        state
+            .trim
+            .apply(&settings::CONFIG, region, ff.ticks, predicted)
     } else {
         ff.ticks
     };
@@ -139,11 +147,12 @@ fn region_correction() -> (usize, f32) {
     )
 }
 
-/// The comparator trips this far above zero, volt.
-pub const THRESHOLD_V: f32 = 2.0;
+/// The comparator trips this far above zero, volt (the design's
+/// `comparator_threshold`).
+pub const THRESHOLD_V: f32 = settings::COMPARATOR_THRESHOLD_V;
 /// The comparator's and the capture's delay, second (the design's
 /// `comparator_delay`).
-pub const COMPARATOR_S: f32 = 30e-9;
+pub const COMPARATOR_S: f32 = settings::COMPARATOR_DELAY_S;
 /// Peak noise on the comparator's edge, second.
 pub const COMPARATOR_NOISE_S: f32 = 1.5e-9;
 /// The drifted board: Lr and the switch capacitance against the design.
@@ -153,7 +162,7 @@ pub const C_SCALE: f32 = 1.15;
 /// Cycles a fault lasts.
 const FAULT_CYCLES: u32 = 200;
 /// The largest number of cycles a scenario runs.
-const MAX_CYCLES: usize = 3000;
+const MAX_CYCLES: usize = 6000;
 
 /// A fault of the capture path.
 #[derive(Clone, Copy, PartialEq, Eq)]
@@ -192,10 +201,11 @@ fn tri(n: u32, p: u32) -> f32 {
     }
 }
 
-/// The operating point wanders over the ZVS part of the range: Vin and Io
-/// sweep triangles of incommensurate periods.
+/// The operating point wanders over the ZVS part of the range and into
+/// the drifted board's loss of ZVS: Vin and Io sweep triangles of
+/// incommensurate periods (754 and 466 cycles).
 fn wander(n: u32) -> (f32, f32) {
-    (38.0 + 20.0 * tri(n, 377), 4.5 + 5.5 * tri(n, 233))
+    (38.0 + 20.0 * tri(n, 754), 4.5 + 5.5 * tri(n, 466))
 }
 
 /// At 48 V, 9 A; at cycle 600 the load steps to 5.5 A, at 1200 back.
@@ -213,7 +223,7 @@ fn steady(_: u32) -> (f32, f32) {
 pub const SCENARIOS: [Scenario; 6] = [
     Scenario {
         name: "drifted",
-        cycles: 3000,
+        cycles: 6000,
         point: wander,
         fault: (Fault::None, 0),
     },
@@ -258,16 +268,20 @@ pub struct Board {
 /// What one scenario measured.
 #[derive(Default, Clone, Copy)]
 pub struct Tally {
-    /// Cycles whose board had a ZVS window.
+    /// Cycles whose board had a ZVS window a tick wide or more (what an
+    /// integer command can be asked to hit).
     pub zvs: u32,
+    /// Cycles whose board's window was narrower than a tick.
+    pub narrow: u32,
     /// Of them, the feed-forward alone inside the window.
     pub inside_without: u32,
     /// Of them, the trimmed command inside.
     pub inside_with: u32,
-    /// The first cycle from which every region's correction stays within a
-    /// tick of its final value.
+    /// The cycle by which every region the trim visited had converged (its
+    /// correction first within a tick of its final value).
     pub converged_at: u32,
-    /// ZVS cycles from then on, and the trimmed commands inside.
+    /// ZVS cycles whose region had converged, and the trimmed commands
+    /// among them inside.
     pub zvs_after: u32,
     /// See [`Tally::zvs_after`].
     pub inside_after: u32,
@@ -313,7 +327,15 @@ impl Board {
                 last = (t, v);
             })
             .ok()?;
-        Some((t.turn_on.window().map(|w| (w.open_s, w.close_s)), trip))
+        let window = t.turn_on.window().map(|w| (w.open_s, w.close_s));
+        // The trace stops at its last whole step before the opening: a
+        // crossing in the final part lies between it and the zero.
+        if let (None, Some((open, _))) = (trip, window) {
+            if last.1 >= THRESHOLD_V && last.1 != f32::MAX {
+                trip = Some(last.0 + (last.1 - THRESHOLD_V) / last.1 * (open - last.0));
+            }
+        }
+        Some((window, trip))
     }
 }
 
@@ -343,7 +365,9 @@ pub fn run(board: &Board, s: &Scenario, fire: &mut dyn FnMut()) -> Tally {
         let ff = hw::shadow(0);
         let on = board.timer.turn_on_s(applied);
         if n > 0 {
-            if let Some((open, close)) = window {
+            let narrow = window.is_some_and(|(open, close)| (close - open) * clock < 1.0);
+            tally.narrow += u32::from(narrow);
+            if let Some((open, close)) = window.filter(|_| !narrow) {
                 let inside = |t: Ticks| {
                     let on = board.timer.turn_on_s(t);
                     on >= open && on <= close
@@ -405,18 +429,30 @@ pub fn run(board: &Board, s: &Scenario, fire: &mut dyn FnMut()) -> Tally {
             tally.frozen_after = n - fault_at + 1;
         }
     }
-    // Convergence: after the last cycle whose correction lay more than a
-    // tick from its region's final value.
-    let mut converged = 0u32;
+    // Convergence: a region has converged from the first cycle its
+    // correction came within a tick of its final value; the trim, when
+    // every region it visited has. A cycle counts after convergence when
+    // its region had converged.
+    let mut first = [u32::MAX; settings::REGION_COUNT];
     for (n, &(r, c)) in trace.iter().enumerate().take(cycles) {
         let f = finals.get(usize::from(r)).copied().unwrap_or(f32::NAN);
-        if !c.is_nan() && libm::fabsf(c - f) > 1.0 {
-            converged = n as u32 + 1;
+        if let Some(slot) = first.get_mut(usize::from(r)) {
+            if *slot == u32::MAX && !c.is_nan() && libm::fabsf(c - f) <= 1.0 {
+                *slot = n as u32;
+            }
         }
     }
-    tally.converged_at = converged;
-    for n in converged as usize..cycles {
-        if zvs_at[n] {
+    tally.converged_at = first
+        .iter()
+        .filter(|&&f| f != u32::MAX)
+        .max()
+        .copied()
+        .unwrap_or(0);
+    // (The command judged at cycle n came from the interrupt of cycle n - 1.)
+    for n in 1..cycles {
+        let (r, c) = trace[n - 1];
+        let r = usize::from(r);
+        if zvs_at[n] && !c.is_nan() && first.get(r).is_some_and(|&f| n as u32 > f) {
             tally.zvs_after += 1;
             tally.inside_after += u32::from(inside_at[n]);
         }

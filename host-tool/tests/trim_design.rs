@@ -36,10 +36,11 @@ fn the_demo_trim_is_in_ticks_of_its_timer() {
         DesignSpec::load(&Path::new(env!("CARGO_MANIFEST_DIR")).join("../tables/winch_aux.toml"))
             .unwrap();
     let t = d.trim.unwrap();
-    // 50 ns at 170 MHz; the comparator's 30 ns plus the driver's 25 ns.
-    assert!((t.config.envelope_ticks() - 8.5).abs() < 1.0 / 256.0);
-    assert!((t.config.comparator_ticks() - 55e-9 * 170e6).abs() < 1.0 / 256.0);
-    assert_eq!(t.config.gain(), 4);
+    // 50 ns at 170 MHz (8.5 ticks) rounded down to a power of two; the
+    // comparator's 30 ns plus the driver's 25 ns, less half a tick.
+    assert_eq!(t.config.envelope_ticks(), 8.0);
+    assert!((t.config.comparator_ticks() - (55e-9 * 170e6 - 0.5)).abs() < 1.0 / 256.0);
+    assert_eq!(t.config.gain(), 2);
     assert_eq!(t.config.limits(), [8, 8, 8]);
     assert_eq!(t.window, 64);
     // Voltage codes 2237..=3726 in bins of 256, current codes 205..=2049
@@ -158,4 +159,22 @@ fn the_source_builds_the_trim_at_compile_time() {
     assert!(s.contains("pub const WINDOW: usize = 64;"), "{s}");
     let no = DesignSpec::parse(&demo_without_trim(), ORIGIN).unwrap();
     assert!(matches!(trim_source(&no), Err(TrimSourceError::NoTrim(_))));
+}
+
+#[test]
+fn table_prints_the_trim_in_ticks() {
+    let d =
+        DesignSpec::load(&Path::new(env!("CARGO_MANIFEST_DIR")).join("../tables/winch_aux.toml"))
+            .unwrap();
+    let t = d.trim.unwrap();
+    let text = host_tool::report::render::trim_text(&t, &TrimPlan::new(&d, &t).unwrap());
+    for part in [
+        "90 regions",
+        "1/4 of the way",
+        "+/-8 ticks",
+        "threshold 2 V",
+        "within 64 cycles",
+    ] {
+        assert!(text.contains(part), "{part}: {text}");
+    }
 }

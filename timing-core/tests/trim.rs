@@ -8,20 +8,21 @@ use proptest::prelude::*;
 use timing_core::trim::{Freeze, Regions, Trim, TrimConfig, TrimStatus};
 use timing_core::{AdcCode, Error, Quantity, Ticks};
 
-fn cfg() -> TrimConfig {
-    // Gain 2^-3, envelope 8 ticks, comparator 2 ticks, plausible 40,
-    // noise 6, freeze at 8 faults of a kind in the 32-cycle window.
-    TrimConfig::new(3, 8.0, 2.0, 40.0, 6.0, [8, 8, 8]).unwrap()
-}
+/// Gain 2^-3, envelope 8 ticks, comparator 2 ticks, plausible 40, noise
+/// 6, freeze at 8 faults of a kind in the 32-cycle window.
+const CFG: TrimConfig = match TrimConfig::new(3, 8.0, 2.0, 40.0, 6.0, [8, 8, 8]) {
+    Ok(c) => c,
+    Err(_) => panic!("bad trim settings"),
+};
 
 #[test]
 fn learns_a_constant_offset_at_the_low_pass_rate() {
-    let mut trim: Trim<4, 32> = Trim::new(cfg());
+    let mut trim: Trim<4, 32> = Trim::new();
     // The board opens 5 ticks after the prediction, plus the comparator's 2.
     let offset = 5.0f32;
     let mut k_within = None;
     for k in 1..=200u32 {
-        trim.update(2, Ticks::new(100), Some(Ticks::new(107)));
+        trim.update(&CFG, 2, Ticks::new(100), Some(Ticks::new(107)));
         let e = (trim.correction_ticks(2) - offset).abs();
         if e < 0.05 * offset && k_within.is_none() {
             k_within = Some(k);
@@ -35,53 +36,80 @@ fn learns_a_constant_offset_at_the_low_pass_rate() {
     assert!((trim.correction_ticks(2) - offset).abs() < 0.05);
     // Other regions learnt nothing.
     assert_eq!(trim.correction_ticks(0), 0.0);
-    assert_eq!(trim.apply(2, Ticks::new(110), Ticks::new(100)).get(), 115);
-    assert_eq!(trim.apply(0, Ticks::new(110), Ticks::new(100)).get(), 110);
+    assert_eq!(
+        trim.apply(&CFG, 2, Ticks::new(110), Ticks::new(100)).get(),
+        115
+    );
+    assert_eq!(
+        trim.apply(&CFG, 0, Ticks::new(110), Ticks::new(100)).get(),
+        110
+    );
 }
 
 #[test]
 fn a_correction_stops_at_the_envelope() {
-    let mut trim: Trim<2, 32> = Trim::new(cfg());
+    let mut trim: Trim<2, 32> = Trim::new();
     for _ in 0..300 {
-        trim.update(0, Ticks::new(100), Some(Ticks::new(100 + 2 + 20)));
+        trim.update(&CFG, 0, Ticks::new(100), Some(Ticks::new(100 + 2 + 20)));
     }
-    assert!((trim.correction_ticks(0) - 8.0).abs() < 1e-6);
-    assert_eq!(trim.apply(0, Ticks::new(120), Ticks::new(100)).get(), 128);
+    // The envelope saturates at 8 ticks less the last 1/256 upwards (a
+    // power of two's signed range), and at -8 downwards.
+    assert_eq!(trim.correction_ticks(0), 8.0 - 1.0 / 256.0);
+    assert_eq!(
+        trim.apply(&CFG, 0, Ticks::new(120), Ticks::new(100)).get(),
+        128
+    );
+    for _ in 0..300 {
+        trim.update(&CFG, 0, Ticks::new(100), Some(Ticks::new(100 + 2 - 20)));
+    }
+    assert_eq!(trim.correction_ticks(0), -8.0);
+    assert_eq!(
+        trim.apply(&CFG, 0, Ticks::new(120), Ticks::new(100)).get(),
+        112
+    );
 }
 
 #[test]
 fn never_before_the_corrected_opening() {
-    let mut trim: Trim<1, 32> = Trim::new(cfg());
+    let mut trim: Trim<1, 32> = Trim::new();
     for _ in 0..200 {
-        trim.update(0, Ticks::new(50), Some(Ticks::new(56)));
+        trim.update(&CFG, 0, Ticks::new(50), Some(Ticks::new(56)));
     }
     // Opening corrected to 54; a feed-forward of 48 (before the predicted
     // opening) is raised to it, within the envelope (48 + 8 = 56).
-    assert_eq!(trim.apply(0, Ticks::new(48), Ticks::new(50)).get(), 54);
+    assert_eq!(
+        trim.apply(&CFG, 0, Ticks::new(48), Ticks::new(50)).get(),
+        54
+    );
 }
 
 #[test]
 fn missing_captures_freeze_within_the_limit_and_clear() {
-    let mut trim: Trim<1, 32> = Trim::new(cfg());
+    let mut trim: Trim<1, 32> = Trim::new();
     for _ in 0..100 {
-        trim.update(0, Ticks::new(50), Some(Ticks::new(55)));
+        trim.update(&CFG, 0, Ticks::new(50), Some(Ticks::new(55)));
     }
     let learnt = trim.correction_ticks(0);
     let mut frozen_at = None;
     for k in 1..=20 {
-        if let TrimStatus::Frozen(Freeze::NoCapture) = trim.update(0, Ticks::new(50), None) {
+        trim.update(&CFG, 0, Ticks::new(50), None);
+        if let TrimStatus::Frozen(Freeze::NoCapture) = trim.status() {
             frozen_at.get_or_insert(k);
         }
     }
     assert_eq!(frozen_at, Some(8), "frozen at the 8th missing capture");
     // Frozen: the feed-forward alone, and the correction held.
-    assert_eq!(trim.apply(0, Ticks::new(60), Ticks::new(50)).get(), 60);
+    assert_eq!(
+        trim.apply(&CFG, 0, Ticks::new(60), Ticks::new(50)).get(),
+        60
+    );
     assert_eq!(trim.correction_ticks(0), learnt);
     // Captures return: learning again once fewer than 8 of the last 32
     // cycles lack one.
     let mut back = None;
     for k in 1..=40 {
-        if trim.update(0, Ticks::new(50), Some(Ticks::new(55))) == TrimStatus::Learning {
+        trim.update(&CFG, 0, Ticks::new(50), Some(Ticks::new(55)));
+        if trim.status() == TrimStatus::Learning {
             back.get_or_insert(k);
         }
     }
@@ -94,11 +122,12 @@ fn missing_captures_freeze_within_the_limit_and_clear() {
 
 #[test]
 fn a_comparator_stuck_low_is_implausible() {
-    let mut trim: Trim<1, 32> = Trim::new(cfg());
+    let mut trim: Trim<1, 32> = Trim::new();
     // Stuck low: the capture fires at once, 50 ticks before the opening.
     let mut status = TrimStatus::Learning;
     for _ in 0..8 {
-        status = trim.update(0, Ticks::new(50), Some(Ticks::new(0)));
+        trim.update(&CFG, 0, Ticks::new(50), Some(Ticks::new(0)));
+        status = trim.status();
     }
     assert_eq!(status, TrimStatus::Frozen(Freeze::Implausible));
     assert_eq!(trim.correction_ticks(0), 0.0, "nothing learnt from it");
@@ -106,16 +135,17 @@ fn a_comparator_stuck_low_is_implausible() {
 
 #[test]
 fn a_burst_of_noise_freezes_without_moving_the_correction_much() {
-    let mut trim: Trim<1, 32> = Trim::new(cfg());
+    let mut trim: Trim<1, 32> = Trim::new();
     for _ in 0..100 {
-        trim.update(0, Ticks::new(50), Some(Ticks::new(54)));
+        trim.update(&CFG, 0, Ticks::new(50), Some(Ticks::new(54)));
     }
     let before = trim.correction_ticks(0);
     let mut status = TrimStatus::Learning;
     for k in 0..16u32 {
         // +-15 ticks alternating: plausible, but far from the recent mean.
         let c = if k % 2 == 0 { 69 } else { 39 };
-        status = trim.update(0, Ticks::new(50), Some(Ticks::new(c)));
+        trim.update(&CFG, 0, Ticks::new(50), Some(Ticks::new(c)));
+        status = trim.status();
     }
     assert_eq!(status, TrimStatus::Frozen(Freeze::Noisy));
     assert!((trim.correction_ticks(0) - before).abs() < 1.0);
@@ -152,10 +182,11 @@ proptest! {
         ff in 0u32..100_000,
         predicted in 0u32..100_000,
     ) {
-        let mut trim: Trim<4, 16> = Trim::new(cfg());
+        let mut trim: Trim<4, 16> = Trim::new();
         for (region, p, capture) in events {
-            let status = trim.update(region, Ticks::new(p), capture.map(Ticks::new));
-            let cmd = trim.apply(region, Ticks::new(ff), Ticks::new(predicted)).get();
+            trim.update(&CFG, region, Ticks::new(p), capture.map(Ticks::new));
+            let status = trim.status();
+            let cmd = trim.apply(&CFG, region, Ticks::new(ff), Ticks::new(predicted)).get();
             if status == TrimStatus::Learning {
                 prop_assert!(cmd + 8 >= ff && cmd <= ff + 8, "{cmd} vs {ff}");
             } else {
@@ -170,12 +201,27 @@ const CONST_CFG: TrimConfig = match TrimConfig::new(4, 8.0, 3.5, 40.0, 6.0, [8, 
     Ok(c) => c,
     Err(_) => panic!("bad trim settings"),
 };
-static CONST_TRIM: Trim<2, 64> = Trim::new(CONST_CFG);
+static CONST_TRIM: Trim<2, 64> = Trim::new();
+
+#[test]
+fn the_envelope_is_a_power_of_two_ticks() {
+    for (given, used) in [
+        (8.5, 8.0),
+        (50.0, 32.0),
+        (1.0, 1.0),
+        (0.7, 0.5),
+        (0.0, 1.0 / 256.0),
+    ] {
+        let c = TrimConfig::new(3, given, 2.0, 40.0, 6.0, [8, 8, 8]).unwrap();
+        assert_eq!(c.envelope_ticks(), used, "{given}");
+    }
+}
 
 #[test]
 fn settings_are_built_in_const_context_and_read_back() {
     assert_eq!(CONST_TRIM.status(), TrimStatus::Learning);
-    let c = CONST_TRIM.config();
+    assert!(CONST_TRIM.is_learning());
+    let c = &CONST_CFG;
     assert_eq!(c.gain(), 4);
     assert_eq!(c.envelope_ticks(), 8.0);
     assert_eq!(c.comparator_ticks(), 3.5);

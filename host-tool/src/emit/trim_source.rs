@@ -21,8 +21,10 @@ pub enum TrimSourceError {
 }
 
 /// The source: `CONFIG` ([`timing_core::trim::TrimConfig`]), `REGIONS`
-/// ([`timing_core::trim::Regions`]), `REGION_COUNT`, `WINDOW` (cycles of
-/// fault history) and `MARGIN_TICKS` (per region, whole ticks).
+/// ([`timing_core::trim::Regions`]), `REGION_COUNT`, `REGION_SLOTS` (the
+/// count rounded up to a power of two, for `Trim`), `WINDOW` (cycles of
+/// fault history), `MARGIN_TICKS` (per region, whole ticks), and the
+/// comparator's threshold and delay as given.
 ///
 /// # Errors
 /// [`TrimSourceError`].
@@ -47,8 +49,12 @@ pub fn trim_source(design: &DesignSpec) -> Result<String, TrimSourceError> {
     let _ = writeln!(
         s,
         "// The online trim's settings in ticks of the design's timer; a capture's offset is the\n\
-         // comparator's delay ({:.1} ns) plus the timer's lead.",
-        trim.comparator_delay_s * 1e9
+         // comparator's delay plus the timer's lead, less half a tick (the latch).\n\
+         /// The comparator's threshold as the design gives it, volt.\n\
+         pub const COMPARATOR_THRESHOLD_V: f32 = {:?};\n\
+         /// The comparator's and the capture's delay as the design gives it, second.\n\
+         pub const COMPARATOR_DELAY_S: f32 = {:?};",
+        trim.comparator_threshold_v as f32, trim.comparator_delay_s as f32
     );
     let _ = writeln!(
         s,
@@ -73,8 +79,11 @@ pub fn trim_source(design: &DesignSpec) -> Result<String, TrimSourceError> {
     );
     let _ = writeln!(
         s,
-        "/// The number of regions.\npub const REGION_COUNT: usize = {};",
-        trim.regions.count()
+        "/// The number of regions.\npub const REGION_COUNT: usize = {};\n\
+         /// The trim's region slots: the count rounded up to a power of two.\n\
+         pub const REGION_SLOTS: usize = {};",
+        trim.regions.count(),
+        trim.regions.count().next_power_of_two()
     );
     let _ = writeln!(
         s,
@@ -84,8 +93,8 @@ pub fn trim_source(design: &DesignSpec) -> Result<String, TrimSourceError> {
     let margins = plan.margin_whole_ticks();
     let _ = writeln!(
         s,
-        "/// Per region, the model's mean margin from the window's opening to the aim, whole ticks\n\
-         /// (the predicted opening is the feed-forward less it; 0 where no pair has ZVS).\n\
+        "/// Per region, the model's mean margin from the threshold crossing to the aim, whole\n\
+         /// ticks (the predicted crossing is the feed-forward less it; 0 where no pair has ZVS).\n\
          pub static MARGIN_TICKS: [u16; {}] = {:?};",
         margins.len(),
         margins

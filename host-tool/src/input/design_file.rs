@@ -173,6 +173,67 @@ pub struct ToleranceFile {
     pub jitter: Second,
 }
 
+/// The `[trim]` table as written.
+#[derive(Debug, Clone, Copy, PartialEq, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct TrimFile {
+    /// Each update moves a region's correction `2^-gain` of the way to the
+    /// residual (1 to 12). Default 4 (within 1/e in 16 updates).
+    #[serde(default = "default_gain")]
+    pub gain: u8,
+    /// Largest correction either way, second. Default 4 ticks.
+    #[serde(default)]
+    pub envelope: Option<Second>,
+    /// From the switch voltage's crossing of the comparator's threshold to
+    /// the captured edge (comparator and capture), second. Required: it is
+    /// the board's.
+    pub comparator_delay: Second,
+    /// The switch voltage at which the comparator trips, volt (0 to 50):
+    /// the model predicts the crossing of it, which comes before the zero
+    /// (long before, next to the ZVS boundary, where the swing ends
+    /// slowly). Default 0.
+    #[serde(default)]
+    pub comparator_threshold: Option<Volt>,
+    /// A residual beyond this is no capture of the opening, second.
+    /// Default 4 envelopes.
+    #[serde(default)]
+    pub plausible: Option<Second>,
+    /// A residual this far from its region's recent mean is noise, second.
+    /// Default 3 ticks.
+    #[serde(default)]
+    pub noise: Option<Second>,
+    /// Cycles of fault history (a power of two up to 512). Default 64.
+    #[serde(default = "default_window")]
+    pub window: u16,
+    /// Cycles without a capture in the window that freeze the trim.
+    /// Default 8.
+    #[serde(default = "default_limit")]
+    pub missing_limit: u16,
+    /// Implausible captures in the window that freeze it. Default 8.
+    #[serde(default = "default_limit")]
+    pub implausible_limit: u16,
+    /// Noisy captures in the window that freeze it. Default 8.
+    #[serde(default = "default_limit")]
+    pub noisy_limit: u16,
+    /// At most this many bins of the input voltage by this many of the
+    /// output current, each a power of two codes wide. Default [8, 16].
+    #[serde(default = "default_regions")]
+    pub regions: [u16; 2],
+}
+
+fn default_gain() -> u8 {
+    4
+}
+fn default_window() -> u16 {
+    64
+}
+fn default_limit() -> u16 {
+    8
+}
+fn default_regions() -> [u16; 2] {
+    [8, 16]
+}
+
 /// The `[table]` table.
 #[derive(Debug, Clone, Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -287,7 +348,7 @@ pub struct DesignFile {
     pub tolerance: Option<ToleranceFile>,
     /// The online trim's settings (optional).
     #[serde(default)]
-    pub trim: Option<crate::input::trim_design::TrimFile>,
+    pub trim: Option<TrimFile>,
 }
 
 fn default_topology() -> TopologyFile {

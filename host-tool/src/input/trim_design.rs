@@ -1,17 +1,16 @@
-//! The `[trim]` table of a cell's design file: the online trim's settings
-//! (timing-core's [`timing_core::trim`]), as written and validated into
-//! timing-core's types in the design's timer ticks.
+//! The `[trim]` table of a cell's design file (as written:
+//! [`TrimFile`]) validated into timing-core's types
+//! ([`timing_core::trim`]) in the design's timer ticks.
 //!
 //! Every key but `comparator_delay` has a default chosen to be safe: a
 //! small envelope (the trim can move a command by at most 4 ticks), a slow
 //! gain, and fault limits that freeze the trim after 8 bad cycles in 64.
 //! The comparator's delay is the board's own and has no safe default.
 
-use serde::Deserialize;
 use timing_core::trim::{Regions, TrimConfig, MAX_WINDOW};
 use timing_core::{CodeRange, Timer};
 
-use crate::input::design_file::Second;
+use crate::input::design_file::TrimFile;
 use crate::input::invalid::Invalid;
 
 /// Default envelope, ticks: small, so a wrong capture moves a command
@@ -21,60 +20,6 @@ pub const DEFAULT_ENVELOPE_TICKS: f64 = 4.0;
 pub const DEFAULT_PLAUSIBLE_ENVELOPES: f64 = 4.0;
 /// Default noise limit, ticks.
 pub const DEFAULT_NOISE_TICKS: f64 = 3.0;
-
-/// The `[trim]` table as written.
-#[derive(Debug, Clone, Copy, PartialEq, Deserialize)]
-#[serde(deny_unknown_fields)]
-pub struct TrimFile {
-    /// Each update moves a region's correction `2^-gain` of the way to the
-    /// residual (1 to 12). Default 4 (within 1/e in 16 updates).
-    #[serde(default = "default_gain")]
-    pub gain: u8,
-    /// Largest correction either way, second. Default 4 ticks.
-    #[serde(default)]
-    pub envelope: Option<Second>,
-    /// From the switch voltage's zero to the captured edge (comparator and
-    /// capture), second. Required: it is the board's.
-    pub comparator_delay: Second,
-    /// A residual beyond this is no capture of the opening, second.
-    /// Default 4 envelopes.
-    #[serde(default)]
-    pub plausible: Option<Second>,
-    /// A residual this far from its region's recent mean is noise, second.
-    /// Default 3 ticks.
-    #[serde(default)]
-    pub noise: Option<Second>,
-    /// Cycles of fault history (a power of two up to 512). Default 64.
-    #[serde(default = "default_window")]
-    pub window: u16,
-    /// Cycles without a capture in the window that freeze the trim.
-    /// Default 8.
-    #[serde(default = "default_limit")]
-    pub missing_limit: u16,
-    /// Implausible captures in the window that freeze it. Default 8.
-    #[serde(default = "default_limit")]
-    pub implausible_limit: u16,
-    /// Noisy captures in the window that freeze it. Default 8.
-    #[serde(default = "default_limit")]
-    pub noisy_limit: u16,
-    /// At most this many bins of the input voltage by this many of the
-    /// output current, each a power of two codes wide. Default [8, 16].
-    #[serde(default = "default_regions")]
-    pub regions: [u16; 2],
-}
-
-fn default_gain() -> u8 {
-    4
-}
-fn default_window() -> u16 {
-    64
-}
-fn default_limit() -> u16 {
-    8
-}
-fn default_regions() -> [u16; 2] {
-    [8, 16]
-}
 
 /// The validated trim of a design.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -89,6 +34,8 @@ pub struct TrimSpec {
     pub window: u16,
     /// The comparator's delay as given, second.
     pub comparator_delay_s: f64,
+    /// The comparator's threshold, volt.
+    pub comparator_threshold_v: f64,
 }
 
 impl TrimFile {
@@ -125,10 +72,24 @@ impl TrimFile {
             Some(s) => ticks("trim.envelope", s.0)?,
             None => DEFAULT_ENVELOPE_TICKS as f32,
         };
+        // A capture latches the count the timer has reached: on average
+        // half a tick before the edge (common practice, no source).
         let comparator = ticks(
             "trim.comparator_delay",
-            self.comparator_delay.0 + timer.lead_s(),
+            self.comparator_delay.0 + timer.lead_s() - 0.5 / clock,
         )?;
+        let threshold = self.comparator_threshold.map_or(0.0, |v| v.0);
+        if !(0.0..=50.0).contains(&threshold) {
+            return Err(Invalid::Refused {
+                key: "trim.comparator_threshold",
+                source: timing_core::Error::OutOfRange {
+                    quantity: timing_core::Quantity::TrimThreshold,
+                    value: threshold,
+                    min: 0.0,
+                    max: 50.0,
+                },
+            });
+        }
         let plausible = match self.plausible {
             Some(s) => ticks("trim.plausible", s.0)?,
             None => envelope * DEFAULT_PLAUSIBLE_ENVELOPES as f32,
@@ -203,6 +164,7 @@ impl TrimFile {
             bins: self.regions,
             window: self.window,
             comparator_delay_s: self.comparator_delay.0,
+            comparator_threshold_v: threshold,
         })
     }
 }

@@ -1,10 +1,13 @@
 //! What the online trim needs from the model, per region of its design:
-//! the margin from the window's opening to the aim (the firmware predicts
-//! the opening as the feed-forward command less its region's margin), and
-//! the earliest opening of the design (a comparator stuck low must not
+//! the margin from the instant the switch voltage crosses the comparator's
+//! threshold to the aim (the firmware predicts that crossing, what the
+//! capture sees, as the feed-forward command less its region's margin),
+//! and the earliest crossing of the design (a comparator stuck low must not
 //! pass as a plausible capture).
 
+use timing_core::ring::{RingCell, RingTransition};
 use timing_core::trim::Regions;
+use timing_core::CellPoint;
 
 use crate::input::design::DesignSpec;
 use crate::input::trim_design::TrimSpec;
@@ -37,10 +40,10 @@ pub enum TrimPlanError {
 #[derive(Debug, Clone, PartialEq)]
 pub struct TrimPlan {
     /// Per region, the mean over its ZVS code pairs of the nominal aim less
-    /// the nominal opening, ticks (0 where no pair has ZVS).
+    /// the nominal threshold crossing, ticks (0 where no pair has ZVS).
     pub margin_ticks: Vec<f64>,
-    /// The earliest nominal opening over the sampled pairs, in command
-    /// ticks (`None`: no pair has ZVS).
+    /// The earliest nominal threshold crossing over the sampled pairs, in
+    /// command ticks (`None`: no pair has ZVS).
     pub earliest_opening_ticks: Option<f64>,
 }
 
@@ -52,9 +55,14 @@ impl TrimPlan {
     /// timing-core's error where the model refuses a pair of the range
     /// (validation makes that rare: the range's corners were checked).
     pub fn new(design: &DesignSpec, trim: &TrimSpec) -> Result<Self, TrimPlanError> {
-        let solver = design.real.solver()?;
+        let ring = RingCell::new(
+            design.real.lr_h,
+            design.real.capacitance()?,
+            design.real.r_tank_ohm,
+        )?;
         let (clock, lead) = (design.timer.clock_hz(), design.timer.lead_s());
         let p = design.position.get();
+        let threshold = trim.comparator_threshold_v;
         let regions: &Regions = &trim.regions;
         let mut margin_ticks = Vec::with_capacity(regions.count());
         let mut earliest: Option<f64> = None;
@@ -66,12 +74,13 @@ impl TrimPlan {
             for cv in spread(v0, v1) {
                 for ci in spread(i0, i1) {
                     let cell = design.cell(design.vin_of(cv), design.io_of(ci))?;
-                    let t = solver.transition(&cell)?;
+                    let (t, crossing) = crossing_s(&ring, &cell, threshold)?;
                     if let Some(w) = t.turn_on.window() {
-                        let open = (w.open_s - lead) * clock;
-                        sum += p * w.width_s() * clock;
+                        let aim = w.open_s + p * w.width_s();
+                        let seen = (crossing.unwrap_or(w.open_s) - lead) * clock;
+                        sum += (aim - lead) * clock - seen;
                         n += 1;
-                        earliest = Some(earliest.map_or(open, |e: f64| e.min(open)));
+                        earliest = Some(earliest.map_or(seen, |e: f64| e.min(seen)));
                     }
                 }
             }
@@ -103,6 +112,38 @@ impl TrimPlan {
             .map(|m| (m + 0.5).floor().clamp(0.0, f64::from(u16::MAX)) as u16)
             .collect()
     }
+}
+
+/// The ring's transition at `cell` and the instant the switch voltage
+/// first falls below `threshold` volt (straight between the ring's steps,
+/// 1/20 of a radian apart), second from gate turn-off (`None` where it
+/// does not before the opening or the valley).
+fn crossing_s(
+    ring: &RingCell<'_, f64>,
+    cell: &CellPoint<f64>,
+    threshold: f64,
+) -> Result<(RingTransition<f64>, Option<f64>), timing_core::Error> {
+    let mut last: Option<(f64, f64)> = None;
+    let mut crossing = None;
+    let t = ring.trace(cell, &mut |t, v, _| {
+        if crossing.is_none() {
+            if let Some((t0, v0)) = last {
+                if v0 > threshold && v <= threshold {
+                    crossing = Some(t0 + (v0 - threshold) / (v0 - v) * (t - t0));
+                }
+            }
+        }
+        last = Some((t, v));
+    })?;
+    // The trace stops at its last whole step before the opening: a
+    // crossing in the final part lies between it and the zero (with a
+    // threshold of 0, the opening itself).
+    if let (None, Some(w), Some((t0, v0))) = (crossing, t.turn_on.window(), last) {
+        if v0 >= threshold && v0 > 0.0 {
+            crossing = Some(t0 + (v0 - threshold) / v0 * (w.open_s - t0));
+        }
+    }
+    Ok((t, crossing))
 }
 
 /// Up to [`SAMPLES`] codes spread evenly over `lo..=hi`, ends included.

@@ -419,3 +419,51 @@ pub fn leg_point_text(r: &crate::analysis::leg_point::LegPointReport) -> String 
     let _ = writeln!(s, "\n{}", r.caution);
     s
 }
+
+/// The online trim's settings in the design's ticks and the model's
+/// margins over its regions, one paragraph (`table`'s text output).
+#[must_use]
+pub fn trim_text(
+    t: &crate::input::trim_design::TrimSpec,
+    plan: &crate::model::trim_margin::TrimPlan,
+) -> String {
+    let c = &t.config;
+    let [missing, implausible, noisy] = c.limits();
+    let (lo, hi) = plan
+        .margin_ticks
+        .iter()
+        .filter(|&&m| m > 0.0)
+        .fold((f64::INFINITY, 0.0f64), |(a, b), &m| (a.min(m), b.max(m)));
+    let mut s = String::new();
+    let _ = writeln!(
+        s,
+        "trim: {} regions; each update moves a correction 1/{} of the way to the residual; \
+         corrections within +/-{} ticks (a power of two); a capture's offset {:.2} ticks \
+         (comparator {} plus the timer's lead, less half a tick for the latch), \
+         threshold {} V",
+        t.regions.count(),
+        1u32 << c.gain(),
+        c.envelope_ticks(),
+        c.comparator_ticks(),
+        format_si(t.comparator_delay_s, "s"),
+        t.comparator_threshold_v
+    );
+    let _ = writeln!(
+        s,
+        "  faults: beyond {} ticks implausible, a jump of {} ticks noise; frozen at {missing} \
+         missing, {implausible} implausible or {noisy} noisy captures within {} cycles",
+        c.plausible_ticks(),
+        c.noise_ticks(),
+        t.window
+    );
+    if lo.is_finite() {
+        let _ = writeln!(
+            s,
+            "  margins from the threshold crossing to the aim: {lo:.1} to {hi:.1} ticks over the \
+             regions with ZVS; the earliest crossing {:.1} ticks (generate the firmware's \
+             settings with host_tool::emit::trim_source; see docs/trim.md)",
+            plan.earliest_opening_ticks.unwrap_or(f64::NAN)
+        );
+    }
+    s
+}

@@ -127,6 +127,10 @@ pub(crate) fn run_table(args: &TableArgs) -> anyhow::Result<()> {
                 }
             );
         }
+        if let Some(t) = &design.trim {
+            let plan = host_tool::model::trim_margin::TrimPlan::new(&design, t)?;
+            out!("{}", host_tool::report::render::trim_text(t, &plan));
+        }
         outln!("\n{}", host_tool::analysis::point::CAUTION);
     }
     Ok(())
