@@ -646,9 +646,10 @@ fn run_leg(core: &mut cortex_m::Peripherals, target: &str, empty: u32) -> bool {
 
 /// The trim scenarios ([`trim_scenario`]): a `TRIM-SUMMARY` line each and
 /// the trimmed table's `ISR-COST`. True when every scenario kept its
-/// commands inside the envelope and the feed-forward while frozen, every
-/// fault froze the trim within its stated cycles, and the update kept to
-/// its instruction budget.
+/// commands inside the envelope and the feed-forward while frozen, the
+/// drifted board's turn-ons were at least 99.9 % inside once the trim had
+/// converged, every fault froze the trim within its stated cycles, and the
+/// update kept to its instruction budget.
 #[cfg(not(feature = "panic-never"))]
 fn run_trim(core: &mut cortex_m::Peripherals, target: &str, empty: u32) -> bool {
     let Some(board) = trim_scenario::Board::new() else {
@@ -706,12 +707,16 @@ fn run_trim(core: &mut cortex_m::Peripherals, target: &str, empty: u32) -> bool 
             t.outside_envelope,
             t.frozen_not_ff
         );
-        // Enforced: the envelope, the feed-forward while frozen, and each
-        // fault's freeze within its stated cycles. Not yet met, so reported
-        // only (issue 16 stays open): 99.9 % inside on the drifted board.
+        // The envelope, the feed-forward while frozen; on the drifted
+        // board at least 99.9 % inside once converged; each fault frozen
+        // within its stated cycles.
         ok &= t.outside_envelope == 0 && t.frozen_not_ff == 0;
-        if s.fault.0 != trim_scenario::Fault::None {
-            ok &= t.frozen_after > 0 && t.frozen_after <= t.stated;
+        match s.fault.0 {
+            trim_scenario::Fault::None if s.name == "drifted" => {
+                ok &= t.zvs_after > 0 && t.inside_after * 1000 >= t.zvs_after * 999;
+            }
+            trim_scenario::Fault::None => {}
+            _ => ok &= t.frozen_after > 0 && t.frozen_after <= t.stated,
         }
     }
     core.SYST.disable_interrupt();

@@ -431,3 +431,24 @@ fn point_absolute_sensing_errors_widen_the_box() {
         "{err}"
     );
 }
+
+#[test]
+fn point_on_a_cell_design_takes_the_file_and_shows_its_trim() {
+    let design = concat!(env!("CARGO_MANIFEST_DIR"), "/../tables/winch_aux.toml");
+    let (code, out, err) = run(&["point", "--design", design, "--vin", "48", "--io", "6"]);
+    assert_eq!(code, 0, "{err}");
+    // The design's own robust window (its [tolerance]) and the trim at the
+    // point's region.
+    for part in [
+        "robust window",
+        "CAUTION",
+        "trim at this point: region",
+        "1/2 of the way",
+    ] {
+        assert!(out.contains(part), "{part}: {out}");
+    }
+    // The point comes from --vin and --io, which a cell's design needs.
+    let (code, _, err) = run(&["point", "--design", design, "--vin", "48"]);
+    assert_ne!(code, 0);
+    assert!(err.contains("--io"), "{err}");
+}

@@ -36,11 +36,11 @@ fn the_demo_trim_is_in_ticks_of_its_timer() {
         DesignSpec::load(&Path::new(env!("CARGO_MANIFEST_DIR")).join("../tables/winch_aux.toml"))
             .unwrap();
     let t = d.trim.unwrap();
-    // 50 ns at 170 MHz (8.5 ticks) rounded down to a power of two; the
-    // comparator's 30 ns plus the driver's 25 ns, less half a tick.
-    assert_eq!(t.config.envelope_ticks(), 8.0);
+    // The default envelope; the comparator's 30 ns plus the driver's 25 ns
+    // at 170 MHz, less half a tick.
+    assert_eq!(t.config.envelope_ticks(), 4.0);
     assert!((t.config.comparator_ticks() - (55e-9 * 170e6 - 0.5)).abs() < 1.0 / 256.0);
-    assert_eq!(t.config.gain(), 2);
+    assert_eq!(t.config.gain(), 1);
     assert_eq!(t.config.limits(), [8, 8, 8]);
     assert_eq!(t.window, 64);
     // Voltage codes 2237..=3726 in bins of 256, current codes 205..=2049
@@ -170,8 +170,8 @@ fn table_prints_the_trim_in_ticks() {
     let text = host_tool::report::render::trim_text(&t, &TrimPlan::new(&d, &t).unwrap());
     for part in [
         "90 regions",
-        "1/4 of the way",
-        "+/-8 ticks",
+        "1/2 of the way",
+        "+/-4 ticks",
         "threshold 2 V",
         "within 64 cycles",
     ] {

@@ -420,7 +420,7 @@ impl<const R: usize, const H: usize> Trim<R, H> {
     /// The command for `region`: `feed_forward` plus the region's
     /// correction, no earlier than the corrected opening
     /// `predicted + correction`, within the envelope around the
-    /// feed-forward, rounded half up to whole ticks; the feed-forward alone
+    /// feed-forward, rounded up to whole ticks; the feed-forward alone
     /// while frozen (`region` is taken modulo `R`). Always inlined, as
     /// [`Trim::update`].
     #[inline(always)]
@@ -447,7 +447,13 @@ impl<const R: usize, const H: usize> Trim<R, H> {
             // order, so nothing here can panic whatever the state.
             .max(ff.saturating_sub(env))
             .min(ff.saturating_add(env));
-        let ticks = cmd.saturating_add(128) >> 8;
+        // Rounded up: a turn-on a fraction of a tick before the opening
+        // switches hard, one a fraction later inside the window only lets
+        // the body diode conduct a little longer (common practice, no
+        // source); next to the ZVS boundary, where the window is a tick or
+        // two wide and its opening moves fast, this is what keeps the
+        // commands inside it.
+        let ticks = cmd.saturating_add(255) >> 8;
         Ticks::new(if ticks > 0 { ticks as u32 } else { 0 })
     }
 

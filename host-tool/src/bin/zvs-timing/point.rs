@@ -8,8 +8,10 @@ use crate::args::{fraction, num, opt_num, topology, TopologyArg};
 /// Numbers take SI (2e-6) or engineering prefixes (2u, 10n, 170M), optionally with the unit (2uH).
 #[derive(Args)]
 pub(crate) struct PointArgs {
-    /// A half-bridge leg's design file (`topology = "half-bridge-leg"`): the point is then
-    /// --vbus and --current on one edge, and the cell's options do not apply.
+    /// A design file. A half-bridge leg's (`topology = "half-bridge-leg"`): the point is then
+    /// --vbus and --current on one edge. A resonant cell's: the point is --vin and --io, the
+    /// tank, timer, aim and tolerances come from the file, and its `[trim]` is shown at the
+    /// point. The cell's other options do not apply.
     #[arg(long)]
     design: Option<std::path::PathBuf>,
     /// Leg: bus voltage, volt.
@@ -256,9 +258,83 @@ fn required_leg<'a>(option: &'static str, v: Option<&'a String>) -> Result<&'a S
     })
 }
 
+/// `point` on a resonant cell's design file: the point from --vin and --io,
+/// everything else from the file; with `[trim]`, what the firmware's trim
+/// predicts there.
+fn run_cell_design_point(args: &PointArgs, path: &std::path::Path) -> anyhow::Result<()> {
+    let d = host_tool::input::design::DesignSpec::load(path)?;
+    let vin = num("--vin", required("--vin", args.vin.as_ref())?, "V")?;
+    let io = num("--io", required("--io", args.io.as_ref())?, "A")?;
+    let warnings = d.check_point(vin, io)?;
+    let uncertainty = d.tolerance.map(|t| point::UncertaintyInput {
+        lr_rel: t.lr_rel,
+        cr_rel: t.cr_rel,
+        vin_rel: t.vin_gain_rel,
+        io_rel: t.io_gain_rel,
+        jitter_s: t.jitter_s,
+        vin_abs_v: (t.vin_offset_codes + t.noise_codes) * d.vin_volts_per_code,
+        io_abs_a: (t.io_offset_codes + t.noise_codes) * d.io_amps_per_code,
+    });
+    let input = PointInput {
+        topology: d.topology,
+        lr_h: d.real.lr_h,
+        cr_f: d.real.cr_fixed_f,
+        coss: d.real.coss.clone(),
+        r_tank_ohm: d.real.r_tank_ohm,
+        vin_v: vin,
+        vout_v: d.vout_v,
+        io_a: io,
+        timer: Some(TimerInput {
+            clock_hz: d.timer.clock_hz(),
+            counter_bits: d.timer.counter_bits(),
+            turn_on_delay_s: d.timer.turn_on_delay_s(),
+            turn_off_delay_s: d.timer.turn_off_delay_s(),
+        }),
+        position: d.position.get(),
+        fs_hz: None,
+        vds_rating_v: None,
+        derating: num("--derating", &args.derating, "")?,
+        uncertainty,
+    };
+    let report = point::evaluate(&input)?;
+    if args.json {
+        outln!("{}", serde_json::to_string_pretty(&report)?);
+        return Ok(());
+    }
+    for w in warnings {
+        outln!("WARNING: {w}");
+    }
+    out!("{}", host_tool::report::render::point_text(&report));
+    if let Some(t) = &d.trim {
+        let plan = host_tool::model::trim_margin::TrimPlan::new(&d, t)?;
+        // The codes the converter reads at this point (no sensing error).
+        let code = |x: f64| timing_core::AdcCode::new((x + 0.5).clamp(0.0, 65535.0) as u16);
+        let (cv, ci) = (
+            code(vin / d.vin_volts_per_code),
+            code(io / d.io_amps_per_code + f64::from(d.io_zero_code)),
+        );
+        let region = t.regions.index(cv, ci);
+        if let (Some(((v0, v1), (i0, i1))), Some(m)) =
+            (t.regions.codes(region), plan.margin_ticks.get(region))
+        {
+            outln!(
+                "\ntrim at this point: region {region} (voltage codes {v0}..={v1}, current codes \
+                 {i0}..={i1}); the firmware predicts the comparator's edge {} whole ticks before \
+                 the table's command (the region's mean margin {m:.2} ticks)",
+                (m + 0.5).floor()
+            );
+        }
+        out!("{}", host_tool::report::render::trim_text(t, &plan));
+    }
+    Ok(())
+}
+
 pub(crate) fn run_point(args: &PointArgs) -> anyhow::Result<()> {
     if let Some(design) = &args.design {
-        return run_leg_point(args, design);
+        if crate::args::is_leg_file(design)? {
+            return run_leg_point(args, design);
+        }
+        return run_cell_design_point(args, design);
     }
     let report = point::evaluate(&args.to_input()?)?;
     if args.json {
