@@ -60,13 +60,18 @@ pub fn open(
     if blob.get(..4) != Some(&MAGIC[..]) {
         return Err(TableError::BadMagic);
     }
+    // Every format version puts its number right after the magic (a
+    // postcard varint): read it alone first, so that a blob from a newer
+    // writer, whose header may differ, is refused as unsupported and named,
+    // not as malformed.
+    let (version, _): (u16, &[u8]) =
+        postcard::take_from_bytes(blob.get(MAGIC.len()..).unwrap_or(&[]))
+            .map_err(|_| TableError::Malformed)?;
+    if version != FORMAT_VERSION {
+        return Err(TableError::UnsupportedVersion { found: version });
+    }
     let (header, rest): (Header, &[u8]) =
         postcard::take_from_bytes(blob).map_err(|_| TableError::Malformed)?;
-    if header.format_version != FORMAT_VERSION {
-        return Err(TableError::UnsupportedVersion {
-            found: header.format_version,
-        });
-    }
     let len = usize::try_from(header.payload_len).map_err(|_| TableError::Truncated)?;
     let payload = rest.get(..len).ok_or(TableError::Truncated)?;
     let found = CRC32.checksum(payload);

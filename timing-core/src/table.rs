@@ -376,8 +376,13 @@ impl core::fmt::Display for TableError {
             TableError::BadMagic => f.write_str("not a zvs-timing delay table (bad magic)"),
             TableError::UnsupportedVersion { found } => write!(
                 f,
-                "table format version {found} is not supported (this build reads version {})",
-                FORMAT_VERSION
+                "table format version {found} is not supported (this build reads version {}): {}",
+                FORMAT_VERSION,
+                if found > FORMAT_VERSION {
+                    "the blob is newer than this reader; update the firmware's timing-core"
+                } else {
+                    "the blob is older than this reader; regenerate it with `zvs-timing table`"
+                }
             ),
             TableError::Truncated => f.write_str("table blob is truncated"),
             TableError::CrcMismatch { expected, found } => write!(
