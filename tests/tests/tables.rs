@@ -36,6 +36,7 @@ fn committed_demo_tables_are_fresh() {
         "winch_aux.bin",
         "winch_aux.csv",
         "winch_aux_closed_form.rs",
+        "winch_aux_closed_form.h",
     ] {
         let fresh = std::fs::read(dir.join(file)).unwrap();
         let committed = std::fs::read(repo().join("tables").join(file)).unwrap();

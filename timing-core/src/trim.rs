@@ -44,21 +44,22 @@ mod regions;
 pub use regions::Regions;
 
 // The fault counts are packed in one word, a byte each (the fourth byte
-// unused); a cycle's flags are the increments it adds to them.
+// unused); a cycle's flags are the increments it adds to them (public
+// for code generators, e.g. the C export).
 /// A capture went missing this cycle.
-const MISSING: u32 = 1;
+pub const MISSING: u32 = 1;
 /// The capture lay beyond the plausible residual.
-const IMPLAUSIBLE: u32 = 1 << 8;
+pub const IMPLAUSIBLE: u32 = 1 << 8;
 /// The residual jumped from its region's recent mean.
-const NOISY: u32 = 1 << 16;
+pub const NOISY: u32 = 1 << 16;
 /// Bit 7 of each byte: set in `count + (128 - limit)` exactly when the
 /// count has reached its limit (counts and limits at most 128, so no byte
 /// carries into the next). One immediate operand on the Cortex-M4.
-const OVER: u32 = 0x8080_8080;
+pub const OVER: u32 = 0x8080_8080;
 /// The largest history window and fault limit.
 pub const MAX_WINDOW: usize = 128;
 /// Shift of the fast mean the noise test compares against.
-const MEAN_SHIFT: u32 = 2;
+pub const MEAN_SHIFT: u32 = 2;
 
 /// Why the trim is frozen.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -275,6 +276,42 @@ impl TrimConfig {
     pub const fn limits(&self) -> [u16; 3] {
         self.limits
     }
+
+    /// The settings as the update and the command compute with them: what
+    /// a code generator writes out to run the trim elsewhere (the C
+    /// export).
+    #[must_use]
+    pub const fn integers(&self) -> TrimIntegers {
+        TrimIntegers {
+            gain: self.gain,
+            envelope_q8: self.envelope_q8,
+            comparator_whole: self.comparator_whole,
+            comparator_frac: self.comparator_frac,
+            plausible_whole: self.plausible_whole,
+            noise_q8: self.noise_q8,
+            bias: self.bias,
+        }
+    }
+}
+
+/// A [`TrimConfig`] as the trim's arithmetic uses it ([`TrimConfig::integers`]).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct TrimIntegers {
+    /// The gain shift.
+    pub gain: u8,
+    /// The envelope, 1/256 tick (a power of two).
+    pub envelope_q8: i32,
+    /// The comparator's delay rounded to whole ticks.
+    pub comparator_whole: i32,
+    /// What that rounding took off, 1/256 tick (-128 to 127).
+    pub comparator_frac: i32,
+    /// The plausible residual, whole ticks.
+    pub plausible_whole: i32,
+    /// The noise limit, 1/256 tick.
+    pub noise_q8: i32,
+    /// `(128 - limit) << 8*k` summed over the fault limits `k` (missing,
+    /// implausible, noisy; the fourth byte repeats the first).
+    pub bias: u32,
 }
 
 /// An online trim over `R` regions with a fault history of `H` cycles: the

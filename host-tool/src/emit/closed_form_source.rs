@@ -126,7 +126,7 @@ fn piece_items(
     s
 }
 
-fn proof_line(s: &mut String, v: &VerifyReport) {
+pub(crate) fn proof_line(s: &mut String, v: &VerifyReport) {
     let _ = writeln!(
         s,
         "// {}: approximation error at most {:.4} ticks before rounding; commanded error at most {:.3} ticks (RMS {:.3});",
@@ -140,6 +140,53 @@ fn proof_line(s: &mut String, v: &VerifyReport) {
         "//   {} of {} ZVS turn-ons outside the window ({} where it is a tick wide or more); {} of {} outside the robust window.",
         v.outside_window, v.zvs_points, v.outside_window_wide, v.outside_robust_window, v.robust_points
     );
+}
+
+/// A closed-form method's name and its proof, or why timing-core refuses
+/// it for the design.
+pub(crate) type MethodProof = (&'static str, Result<VerifyReport, timing_core::Error>);
+
+/// Each closed-form method's proof at every code pair of `design`
+/// (`closed-form-f32`, `fixed-point`, `libm-f32`, in that order), or why
+/// timing-core refuses it for this design: the reports in `done` where
+/// they are, the others verified here in one pass over the code pairs.
+///
+/// # Errors
+/// timing-core's refusal of the design's code scaling.
+pub(crate) fn method_proofs(
+    design: &Design,
+    pieces: &PieceSet,
+    done: Option<&[VerifyReport]>,
+) -> Result<Vec<MethodProof>, timing_core::Error> {
+    let cf = design.closed_form()?;
+    let fast = pieces.fast_f32();
+    let fixed = pieces.fixed_point();
+    let libm = cf.libm_f32();
+    let named: [(&'static str, Result<&dyn DelayMethod, &timing_core::Error>); 3] = [
+        (
+            "closed-form-f32",
+            fast.as_ref().map(|m| m as &dyn DelayMethod),
+        ),
+        ("fixed-point", fixed.as_ref().map(|m| m as &dyn DelayMethod)),
+        ("libm-f32", libm.as_ref().map(|m| m as &dyn DelayMethod)),
+    ];
+    let known = |name: &str| done.and_then(|d| d.iter().find(|r| r.method == name));
+    let missing: Vec<&dyn DelayMethod> = named
+        .iter()
+        .filter(|(name, _)| known(name).is_none())
+        .filter_map(|(_, m)| m.as_ref().ok().copied())
+        .collect();
+    let fresh = verify_all(design, &missing, None);
+    let report = |name: &str| known(name).or_else(|| fresh.iter().find(|r| r.method == name));
+    // A method timing-core accepts always has its report (verify_all gives
+    // one a method, named as the method).
+    Ok(named
+        .iter()
+        .filter_map(|(name, m)| match m {
+            Ok(_) => report(name).map(|r| (*name, Ok(r.clone()))),
+            Err(e) => Some((*name, Err(**e))),
+        })
+        .collect())
 }
 
 /// The closed-form methods of `design`, each verified at every code pair,
@@ -185,36 +232,9 @@ pub fn closed_form_source_with(
         design.io_codes.lo,
         design.io_codes.hi
     );
-    // One pass over the code pairs for all three methods.
-    let named: [(&str, Result<&dyn DelayMethod, &timing_core::Error>); 3] = [
-        (
-            "closed-form-f32",
-            fast.as_ref().map(|m| m as &dyn DelayMethod),
-        ),
-        ("fixed-point", fixed.as_ref().map(|m| m as &dyn DelayMethod)),
-        ("libm-f32", libm.as_ref().map(|m| m as &dyn DelayMethod)),
-    ];
-    let known = |name: &str| done.and_then(|d| d.iter().find(|r| r.method == name));
-    let missing: Vec<&dyn DelayMethod> = named
-        .iter()
-        .filter(|(name, _)| known(name).is_none())
-        .filter_map(|(_, m)| m.as_ref().ok().copied())
-        .collect();
-    let mut reports = if missing.is_empty() {
-        Vec::new()
-    } else {
-        verify_all(design, &missing, None)
-    }
-    .into_iter();
-    for (name, m) in &named {
-        match m {
-            Ok(_) => {
-                if let Some(r) = known(name) {
-                    proof_line(&mut s, r);
-                } else if let Some(r) = reports.next() {
-                    proof_line(&mut s, &r);
-                }
-            }
+    for (name, proof) in method_proofs(design, pieces, done)? {
+        match proof {
+            Ok(r) => proof_line(&mut s, &r),
             Err(e) => {
                 let _ = writeln!(s, "// {name}: not available for this design: {e}");
             }

@@ -276,9 +276,11 @@ pub struct Written {
     pub csv: std::path::PathBuf,
     /// Rust source of the closed-form methods' coefficients.
     pub closed_form_rs: std::path::PathBuf,
+    /// C99 header of the closed-form methods (and the trim).
+    pub closed_form_h: std::path::PathBuf,
 }
 
-/// Write `<dir>/<name>.{rs,h,bin,csv}` and `<dir>/<name>_closed_form.rs`,
+/// Write `<dir>/<name>.{rs,h,bin,csv}` and `<dir>/<name>_closed_form.{rs,h}`,
 /// creating `dir`.
 ///
 /// # Errors
@@ -324,6 +326,7 @@ fn write_with(
     let base = dir.join(&design.name);
     let w = Written {
         closed_form_rs: dir.join(format!("{}_closed_form.rs", design.name)),
+        closed_form_h: dir.join(format!("{}_closed_form.h", design.name)),
         rs: base.with_extension("rs"),
         h: base.with_extension("h"),
         bin: base.with_extension("bin"),
@@ -333,13 +336,36 @@ fn write_with(
     std::fs::write(&w.h, c_header(design, g, v))?;
     std::fs::write(&w.bin, blob(design, g).map_err(std::io::Error::other)?)?;
     std::fs::write(&w.csv, csv(design, g))?;
-    let closed = match pieces {
-        Some(p) => {
-            crate::emit::closed_form_source::closed_form_source_with(design, p, closed_forms)
+    let fitted;
+    let pieces = match pieces {
+        Some(p) => p,
+        None => {
+            fitted = crate::generate::pieces::fit_design_pieces(design)
+                .map_err(std::io::Error::other)?;
+            &fitted
         }
-        None => crate::emit::closed_form_source::closed_form_source(design),
     };
+    // Each method proven once, for both sources.
+    let proven: Vec<VerifyReport>;
+    let closed_forms = match closed_forms {
+        Some(c) => c,
+        None => {
+            proven = crate::emit::closed_form_source::method_proofs(design, pieces, None)
+                .map_err(std::io::Error::other)?
+                .into_iter()
+                .filter_map(|(_, r)| r.ok())
+                .collect();
+            &proven
+        }
+    };
+    let closed = crate::emit::closed_form_source::closed_form_source_with(
+        design,
+        pieces,
+        Some(closed_forms),
+    );
     std::fs::write(&w.closed_form_rs, closed.map_err(std::io::Error::other)?)?;
+    let header = crate::emit::closed_form_c::closed_form_c_with(design, pieces, Some(closed_forms));
+    std::fs::write(&w.closed_form_h, header.map_err(std::io::Error::other)?)?;
     Ok(w)
 }
 

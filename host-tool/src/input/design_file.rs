@@ -202,7 +202,7 @@ pub struct TrimFile {
     /// Default 3 ticks.
     #[serde(default)]
     pub noise: Option<Second>,
-    /// Cycles of fault history (a power of two up to 512). Default 64.
+    /// Cycles of fault history (a power of two up to 128). Default 64.
     #[serde(default = "default_window")]
     pub window: u16,
     /// Cycles without a capture in the window that freeze the trim.

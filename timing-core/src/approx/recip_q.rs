@@ -14,10 +14,10 @@ use crate::table::log2::floor_log2;
 /// Largest relative error of [`recip_q15`] over 1 <= n < 2^24.
 pub const RECIP_Q15_MAX_ERROR: f64 = 1.0e-4;
 
-/// The seeds: `2^32 / (2 m_lo + 512)` for the interval `[m_lo, m_lo + 512)`
+/// The seeds (public for code generators, e.g. the C export): `2^32 / (2 m_lo + 512)` for the interval `[m_lo, m_lo + 512)`
 /// of `m`, `m_lo = (64 + k) * 512`, all in (2^15, 2^16).
 #[allow(clippy::indexing_slicing)]
-const SEED: [u16; 64] = {
+pub const RECIP_Q15_SEED: [u16; 64] = {
     let mut t = [0u16; 64];
     let mut k = 0;
     while k < 64 {
@@ -60,7 +60,7 @@ pub const fn recip_q15_normalised(m: u32, e: u32) -> (u32, u32) {
     // The mask keeps the index in the table (and makes that visible to the
     // compiler); for m in [2^15, 2^16) it is m's interval.
     #[allow(clippy::indexing_slicing)]
-    let y = SEED[((m >> 9) & 63) as usize] as u32;
+    let y = RECIP_Q15_SEED[((m >> 9) & 63) as usize] as u32;
     // (2 - m*y) in Q15: m*y is 2^31 (1 - error) and below 2^32.
     let d = 0u32.wrapping_sub(m.wrapping_mul(y)) >> 16;
     (y.wrapping_mul(d) >> 15, e.wrapping_add(16))

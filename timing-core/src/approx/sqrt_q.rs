@@ -36,11 +36,11 @@ const fn isqrt(v: u64) -> u64 {
     r
 }
 
-/// The seeds, Q14: `2 / (sqrt(t_lo) + sqrt(t_hi))` for the interval
+/// The seeds, Q14 (public for code generators, e.g. the C export): `2 / (sqrt(t_lo) + sqrt(t_hi))` for the interval
 /// `[k, k + 1) * 2^-7` of `t = tn / 2^16`; entries below 32 (t under 1/4,
 /// which normalisation never gives but `t = 0` reaches) repeat entry 32.
 #[allow(clippy::indexing_slicing)]
-const SEED: [u16; 128] = {
+pub const SQRT_Q24_SEED: [u16; 128] = {
     let mut t = [0u16; 128];
     let mut k = 0;
     while k < 128 {
@@ -67,7 +67,7 @@ pub const fn sqrt_q24(t: u32) -> u32 {
     // 1/sqrt(tn/2^16) in Q14: the seed (the mask keeps the index in the
     // table) and one step.
     #[allow(clippy::indexing_slicing)]
-    let y = SEED[((tn >> 9) & 127) as usize] as u32;
+    let y = SQRT_Q24_SEED[((tn >> 9) & 127) as usize] as u32;
     let w = ((y.wrapping_mul(y) >> 14).wrapping_mul(tn)) >> 16;
     let y = y.wrapping_mul(49_152u32.wrapping_sub(w)) >> 15;
     tn.wrapping_mul(y).wrapping_shr(26u32.wrapping_sub(k))

@@ -145,6 +145,14 @@ impl<'a> FastF32<'a> {
         &self.parts
     }
 
+    /// The merged polynomial `G(x) = p*sqrt(1 + x) - x*P(x)` for the
+    /// parts' position, lowest order first (degree 6): what a code
+    /// generator writes out to evaluate the method elsewhere (the C export).
+    #[must_use]
+    pub const fn polynomial(&self) -> [f32; 7] {
+        self.g
+    }
+
     /// The delay before rounding, ticks, and whether ZVS is expected at
     /// the codes (clamped to the design range). Never panics; no NaN for
     /// any codes.

@@ -40,7 +40,7 @@ use crate::table::{Fallback, Lookup};
 use crate::{AdcCode, Ticks};
 
 /// 3*pi/2 in Q16.
-const THREE_HALF_PI_Q16: u32 = 308_831;
+pub const THREE_HALF_PI_Q16: u32 = 308_831;
 /// 1.0 in Q24.
 const ONE_Q24: u32 = 1 << 24;
 
@@ -284,6 +284,14 @@ impl<'a> FixedPoint<'a> {
     #[must_use]
     pub const fn parts(&self) -> &FixedPointParts<'a> {
         &self.parts
+    }
+
+    /// The merged polynomial `G(x)` in Q15, lowest order first (degree 5):
+    /// what a code generator writes out to evaluate the method elsewhere
+    /// (the C export).
+    #[must_use]
+    pub const fn polynomial(&self) -> [i32; 6] {
+        self.g
     }
 
     /// The delay before rounding, ticks in Q8 (`ticks * 256`), and whether

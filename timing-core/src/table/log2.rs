@@ -47,8 +47,9 @@ pub const fn log2_q15(c: u32) -> u32 {
 
 /// floor(log2(b)) for each byte value b (0 for 0). Built at compile time
 /// (an index out of range would be a compile error, not a run-time panic).
+/// Public for code generators (the C export).
 #[allow(clippy::indexing_slicing)]
-const LOG2_BYTE: [u8; 256] = {
+pub const LOG2_BYTE: [u8; 256] = {
     let mut t = [0u8; 256];
     let mut b = 2;
     while b < 256 {

@@ -112,6 +112,17 @@ impl Regions {
         })
     }
 
+    /// The voltage and the current bins as `(lowest code, shift, last bin)`:
+    /// a code's bin is `min((code - lowest) >> shift, last)` (0 below the
+    /// lowest code). For code generators (the C export).
+    #[must_use]
+    pub const fn bins(&self) -> [(u16, u8, u16); 2] {
+        [
+            (self.vin_lo, self.vin_shift, self.vin_last),
+            (self.io_lo, self.io_shift, self.io_last),
+        ]
+    }
+
     /// The number of regions (at most 65536).
     #[must_use]
     pub const fn count(&self) -> usize {
@@ -123,9 +134,13 @@ impl Regions {
     #[must_use]
     #[inline(always)]
     pub fn index(&self, vin: AdcCode, io: AdcCode) -> usize {
-        let v = (vin.get().saturating_sub(self.vin_lo) >> self.vin_shift).min(self.vin_last);
-        let i = (io.get().saturating_sub(self.io_lo) >> self.io_shift).min(self.io_last);
-        usize::from(v) * (usize::from(self.io_last) + 1) + usize::from(i)
+        // In 32 bits: a bin may be 2^16 codes wide.
+        let bin = |c: u16, lo: u16, shift: u8, last: u16| {
+            (u32::from(c.saturating_sub(lo)) >> shift).min(u32::from(last)) as usize
+        };
+        let v = bin(vin.get(), self.vin_lo, self.vin_shift, self.vin_last);
+        let i = bin(io.get(), self.io_lo, self.io_shift, self.io_last);
+        v * (usize::from(self.io_last) + 1) + i
     }
 
     /// The codes region `region` spans: `((vin_lo, vin_hi), (io_lo,
@@ -146,5 +161,21 @@ impl Regions {
             bin(region / per, self.vin_lo, self.vin_shift, self.vin_hi),
             bin(region % per, self.io_lo, self.io_shift, self.io_hi),
         ))
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_bin_as_wide_as_the_code_space_holds_every_code() {
+        // One bin over more than 2^15 codes takes a shift of 16, beyond a
+        // 16-bit code's width: the index is taken in 32 bits.
+        let r = Regions::new((0, 40_000), (0, 65_535), 1, 1).unwrap();
+        assert_eq!(r.bins(), [(0, 16, 0), (0, 16, 0)]);
+        for c in [0, 1, 32_768, 40_000, 65_535] {
+            assert_eq!(r.index(AdcCode::new(c), AdcCode::new(c)), 0);
+        }
     }
 }

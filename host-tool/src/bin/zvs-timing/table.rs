@@ -7,8 +7,8 @@ pub(crate) struct TableArgs {
     /// Design file (TOML).
     design: std::path::PathBuf,
     /// Output folder for <name>.rs (Rust table), <name>.h (C header), <name>.bin (flash blob),
-    /// <name>.csv (the nodes) and <name>_closed_form.rs (the closed-form methods' coefficients);
-    /// created when missing.
+    /// <name>.csv (the nodes), <name>_closed_form.rs (the closed-form methods' coefficients) and
+    /// <name>_closed_form.h (the closed-form methods and the trim in C99); created when missing.
     #[arg(long)]
     out: std::path::PathBuf,
     /// Print one JSON object instead of the summary.
