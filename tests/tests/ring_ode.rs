@@ -11,6 +11,10 @@
 //!   returns through zero;
 //! - clamp: Lr*iL' = V - R*iL until iL = 0.
 //!
+//! Also the instant the switch voltage falls below a comparator's 2 V
+//! threshold on its way down (`RingCell::threshold_crossing`, what the
+//! online trim's model predicts), against the solver's own crossing.
+//!
 //! Events by linear interpolation between dense points. Agreement: 1e-3
 //! relative + 5 ps. Measured: with a fixed capacitor beside the curve,
 //! within 7 ps (2.7e-5); the curve alone (capacitance changing fourfold
@@ -55,6 +59,9 @@ fn c_of(fixed: f64, v: f64) -> f64 {
     fixed + pts[pts.len() - 1].1
 }
 
+/// The comparator threshold of the crossing check, volt.
+const THRESHOLD_V: f64 = 2.0;
+
 #[derive(Clone, Copy)]
 struct Ring {
     lr: f64,
@@ -65,6 +72,8 @@ struct Ring {
     charge: bool,
     event: fn(&Ring, &State) -> f64,
     fired: bool,
+    /// A comparator's threshold on the switch voltage, volt.
+    threshold: f64,
 }
 
 impl System<f64, State> for Ring {
@@ -116,8 +125,17 @@ fn run_until(
     None
 }
 
-/// (window open, window close) or (valley, valley voltage).
-fn reference(lr: f64, fixed: f64, r: f64, v: f64, i: f64) -> (bool, f64, f64) {
+/// (window open, window close) or (valley, valley voltage), and where the
+/// switch voltage falls below `threshold` on its way down (if it does
+/// before the opening or the valley).
+fn reference(
+    lr: f64,
+    fixed: f64,
+    r: f64,
+    v: f64,
+    i: f64,
+    threshold: f64,
+) -> ((bool, f64, f64), Option<f64>) {
     let base = Ring {
         lr,
         fixed,
@@ -127,6 +145,7 @@ fn reference(lr: f64, fixed: f64, r: f64, v: f64, i: f64) -> (bool, f64, f64) {
         charge: true,
         event: |_, _| 0.0,
         fired: false,
+        threshold,
     };
     let period = 2.0 * std::f64::consts::PI * (lr * (fixed + CURVE[0].1)).sqrt();
     let dx = period / 40000.0;
@@ -151,6 +170,7 @@ fn reference(lr: f64, fixed: f64, r: f64, v: f64, i: f64) -> (bool, f64, f64) {
     )
     .unwrap();
     let to_zero = run_until(&base, false, |_, y| -y[0], tp, yp, period, dx);
+    let below = run_until(&base, false, |c, y| c.threshold - y[0], tp, yp, period, dx);
     let valley = run_until(
         &base,
         false,
@@ -167,12 +187,15 @@ fn reference(lr: f64, fixed: f64, r: f64, v: f64, i: f64) -> (bool, f64, f64) {
             lr * (-i0) / v
         }
     };
-    match (to_zero, valley) {
+    let events = match (to_zero, valley) {
         (Some((to, yo)), None) => (true, to, to + clamp(yo[1])),
         (Some((to, yo)), Some((tv, _))) if to < tv => (true, to, to + clamp(yo[1])),
         (_, Some((tv, yv))) => (false, tv, yv[0]),
         (None, None) => panic!("no event at {v} V {i} A"),
-    }
+    };
+    // The crossing counts only before the opening or the valley.
+    let crossing = below.map(|(t, _)| t).filter(|&t| t <= events.1 || events.0);
+    (events, crossing)
 }
 
 #[test]
@@ -183,7 +206,8 @@ fn the_ring_matches_an_adaptive_solver() {
         .collect();
     let lr = 1.5e-6;
     let mut worst = 0.0f64;
-    let mut seen = (0, 0);
+    let mut worst_trip = 0.0f64;
+    let mut seen = (0, 0, 0);
     for &(fixed, r) in &[(3.3e-9, 0.0), (3.3e-9, 0.25), (0.0, 0.1), (8.2e-9, 0.5)] {
         let cell = RingCell::new(lr, SwitchCapacitance::new(fixed, &points).unwrap(), r).unwrap();
         for &(v, i) in &[
@@ -195,8 +219,24 @@ fn the_ring_matches_an_adaptive_solver() {
             (30.0, 14.0),
         ] {
             let got = cell.transition(&CellPoint::new(v, i).unwrap()).unwrap();
-            let (zvs, a, b) = reference(lr, fixed, r, v, i);
+            let ((zvs, a, b), trip) = reference(lr, fixed, r, v, i, THRESHOLD_V);
             let close = |x: f64, y: f64| (x - y).abs() <= 1e-3 * y.abs() + 5e-12;
+            // What a comparator on the switch node sees.
+            let (_, crossing) = cell
+                .threshold_crossing(&CellPoint::new(v, i).unwrap(), THRESHOLD_V)
+                .unwrap();
+            match (crossing, trip) {
+                (Some(c), Some(t)) => {
+                    seen.2 += 1;
+                    worst_trip = worst_trip.max((c - t).abs());
+                    assert!(
+                        close(c, t),
+                        "{fixed} F {r} ohm {v} V {i} A: crossing {c:e} vs {t:e}"
+                    );
+                }
+                (None, None) => {}
+                other => panic!("crossing disagrees at {fixed} F {r} ohm {v} V {i} A: {other:?}"),
+            }
             match (got.turn_on.window(), got.turn_on.valley(), zvs) {
                 (Some(w), _, true) => {
                     seen.0 += 1;
@@ -238,8 +278,8 @@ fn the_ring_matches_an_adaptive_solver() {
         }
     }
     println!(
-        "ring vs Dormand-Prince: worst relative difference {worst:.2e}; {} ZVS, {} valley",
-        seen.0, seen.1
+        "ring vs Dormand-Prince: worst relative difference {worst:.2e}; {} ZVS, {} valley; {} crossings of {THRESHOLD_V} V, worst {:.1} ps off",
+        seen.0, seen.1, seen.2, worst_trip * 1e12
     );
-    assert!(seen.0 >= 8 && seen.1 >= 3, "{seen:?}");
+    assert!(seen.0 >= 8 && seen.1 >= 3 && seen.2 >= 8, "{seen:?}");
 }

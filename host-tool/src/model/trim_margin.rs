@@ -5,9 +5,8 @@
 //! and the earliest crossing of the design (a comparator stuck low must not
 //! pass as a plausible capture).
 
-use timing_core::ring::{RingCell, RingTransition};
+use timing_core::ring::RingCell;
 use timing_core::trim::Regions;
-use timing_core::CellPoint;
 
 use crate::input::design::DesignSpec;
 use crate::input::trim_design::TrimSpec;
@@ -74,7 +73,7 @@ impl TrimPlan {
             for cv in spread(v0, v1) {
                 for ci in spread(i0, i1) {
                     let cell = design.cell(design.vin_of(cv), design.io_of(ci))?;
-                    let (t, crossing) = crossing_s(&ring, &cell, threshold)?;
+                    let (t, crossing) = ring.threshold_crossing(&cell, threshold)?;
                     if let Some(w) = t.turn_on.window() {
                         let aim = w.open_s + p * w.width_s();
                         let seen = (crossing.unwrap_or(w.open_s) - lead) * clock;
@@ -112,38 +111,6 @@ impl TrimPlan {
             .map(|m| (m + 0.5).floor().clamp(0.0, f64::from(u16::MAX)) as u16)
             .collect()
     }
-}
-
-/// The ring's transition at `cell` and the instant the switch voltage
-/// first falls below `threshold` volt (straight between the ring's steps,
-/// 1/20 of a radian apart), second from gate turn-off (`None` where it
-/// does not before the opening or the valley).
-fn crossing_s(
-    ring: &RingCell<'_, f64>,
-    cell: &CellPoint<f64>,
-    threshold: f64,
-) -> Result<(RingTransition<f64>, Option<f64>), timing_core::Error> {
-    let mut last: Option<(f64, f64)> = None;
-    let mut crossing = None;
-    let t = ring.trace(cell, &mut |t, v, _| {
-        if crossing.is_none() {
-            if let Some((t0, v0)) = last {
-                if v0 > threshold && v <= threshold {
-                    crossing = Some(t0 + (v0 - threshold) / (v0 - v) * (t - t0));
-                }
-            }
-        }
-        last = Some((t, v));
-    })?;
-    // The trace stops at its last whole step before the opening: a
-    // crossing in the final part lies between it and the zero (with a
-    // threshold of 0, the opening itself).
-    if let (None, Some(w), Some((t0, v0))) = (crossing, t.turn_on.window(), last) {
-        if v0 >= threshold && v0 > 0.0 {
-            crossing = Some(t0 + (v0 - threshold) / v0 * (w.open_s - t0));
-        }
-    }
-    Ok((t, crossing))
 }
 
 /// Up to [`SAMPLES`] codes spread evenly over `lo..=hi`, ends included.
