@@ -20,7 +20,7 @@ static ADC_RESULT: AtomicU32 = AtomicU32::new(0);
 static COMPARE: AtomicU32 = AtomicU32::new(0);
 /// Where the methods that do not drive the PWM put their results (index =
 /// method; 0 is unused, the table drives `COMPARE`).
-static SHADOW: [AtomicU32; 4] = [const { AtomicU32::new(0) }; 4];
+static SHADOW: [AtomicU32; 5] = [const { AtomicU32::new(0) }; 5];
 
 /// Latest Vin and Io conversions (the interrupt's input).
 #[inline(always)]

@@ -1,7 +1,8 @@
 //! zvs-timing firmware example: the next turn-on delay computed in a
 //! periodic interrupt from the latest Vin and Io conversions with each of
 //! timing-core's runtime methods (the flash table, the closed form in fast
-//! f32, in fixed point, and in libm f32), each one's compute path measured
+//! f32, in fixed point, in libm f32 and in micromath f32), each one's
+//! compute path measured
 //! in instructions and each one's commanded turn-on judged cycle by cycle
 //! against the exact window of the true operating point. The table's
 //! delay drives the compare register; the others go to shadow registers.
@@ -53,7 +54,21 @@ mod closed {
 }
 
 /// The runtime methods, in the order the interrupt runs them.
-const METHODS: [&str; 4] = ["table", "closed-form-f32", "fixed-point", "libm-f32"];
+const METHODS: [&str; 5] = [
+    "table",
+    "closed-form-f32",
+    "fixed-point",
+    "libm-f32",
+    "micromath-f32",
+];
+
+/// The libm baseline's formula and coefficients with `micromath`'s `asin`
+/// and `sqrt` (validated at compile time).
+const MICROMATH_F32: timing_core::closed_form::MicromathF32 =
+    match timing_core::closed_form::MicromathF32::from_parts(closed::F32_PARTS) {
+        Ok(m) => m,
+        Err(_) => panic!("the generated coefficients fail timing-core's validation"),
+    };
 
 /// The same table as a `.bin` blob placed in flash, checked at start-up.
 static BLOB: &[u8] = include_bytes!(concat!(env!("OUT_DIR"), "/winch_aux.bin"));
@@ -67,6 +82,7 @@ static BLOB: &[u8] = include_bytes!(concat!(env!("OUT_DIR"), "/winch_aux.bin"));
         feature = "proof-closed-form-f32",
         feature = "proof-fixed-point",
         feature = "proof-libm-f32",
+        feature = "proof-micromath-f32",
         feature = "proof-leg",
         feature = "proof-trim"
     ))
@@ -105,7 +121,7 @@ static TRIM_COST: [AtomicU32; 2] = [const { AtomicU32::new(0) }; 2];
 /// SysTick ticks of each leg edge's compute path in the last interrupt.
 static LEG_COST: [AtomicU32; 2] = [const { AtomicU32::new(0) }; 2];
 /// SysTick ticks of each method's compute path in the last interrupt.
-static COST: [AtomicU32; 4] = [const { AtomicU32::new(0) }; 4];
+static COST: [AtomicU32; 5] = [const { AtomicU32::new(0) }; 5];
 
 /// One method's compute path: read the conversions, compute, write the
 /// result (`out`: the compare register for the table, a shadow register
@@ -119,7 +135,8 @@ fn compute(method: usize) {
         0 => hw::write_compare(built::TABLE.delay(vin, io).ticks),
         1 => hw::write_shadow(1, closed::FAST_F32.delay(vin, io).ticks),
         2 => hw::write_shadow(2, closed::FIXED_POINT.delay(vin, io).ticks),
-        _ => hw::write_shadow(3, closed::LIBM_F32.delay(vin, io).ticks),
+        3 => hw::write_shadow(3, closed::LIBM_F32.delay(vin, io).ticks),
+        _ => hw::write_shadow(4, MICROMATH_F32.delay(vin, io).ticks),
     }
 }
 
@@ -207,6 +224,7 @@ fn SysTick() {
             timed::<1>();
             timed::<2>();
             timed::<3>();
+            timed::<4>();
         }
     }
     FIRED.store(true, Ordering::Release);
@@ -298,6 +316,11 @@ fn proof_step() -> timing_core::Ticks {
     {
         compute(3);
         hw::shadow(3)
+    }
+    #[cfg(feature = "proof-micromath-f32")]
+    {
+        compute(4);
+        hw::shadow(4)
     }
     #[cfg(feature = "proof-table-any")]
     {
@@ -421,11 +444,11 @@ fn main() -> ! {
     };
     let mut plant = plant::Plant::new(CYCLES);
     let (mut zvs, mut valley, mut mismatch) = (0u32, 0u32, 0u32);
-    let mut early = [0u32; 4];
-    let mut late = [0u32; 4];
-    let mut worst = [0.0f32; 4];
-    let mut cost_min = [u32::MAX; 4];
-    let mut cost_max = [0u32; 4];
+    let mut early = [0u32; 5];
+    let mut late = [0u32; 5];
+    let mut worst = [0.0f32; 5];
+    let mut cost_min = [u32::MAX; 5];
+    let mut cost_max = [0u32; 5];
     for cycle in 0..CYCLES {
         let s = plant.sample(cycle);
         hw::post_conversions(
@@ -436,7 +459,13 @@ fn main() -> ! {
         while !FIRED.load(Ordering::Acquire) {
             cortex_m::asm::wfi();
         }
-        let commanded = [hw::commanded(), hw::shadow(1), hw::shadow(2), hw::shadow(3)];
+        let commanded = [
+            hw::commanded(),
+            hw::shadow(1),
+            hw::shadow(2),
+            hw::shadow(3),
+            hw::shadow(4),
+        ];
         for k in 0..METHODS.len() {
             let cost = COST[k].load(Ordering::Relaxed).saturating_sub(empty);
             cost_min[k] = cost_min[k].min(cost);

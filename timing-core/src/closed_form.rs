@@ -1,5 +1,5 @@
 //! The closed-form turn-on delay evaluated from the ADC codes on the
-//! interrupt path, without a table, three ways:
+//! interrupt path, without a table, four ways:
 //!
 //! - [`FastF32`]: f32 with this crate's own approximations
 //!   ([`approx`](crate::approx)): adds, multiplies and two divides, for cores
@@ -8,7 +8,10 @@
 //!   leading-zero count, for cores without an FPU or a divider (ARMv6-M);
 //! - [`LibmF32`]: the straightforward f32 formula with `libm`'s `asinf` and
 //!   `sqrtf` on one stand-in, the baseline the other two are measured
-//!   against.
+//!   against;
+//! - `MicromathF32` (feature `micromath`): the same formula with
+//!   `micromath`'s bit-trick `asin` and `sqrt`, smaller and faster than
+//!   libm's and less accurate ([`micromath_f32`] states the bounds).
 //!
 //! With `x = 1/J = kx * vin_code / (io_code - io_zero)`, where
 //! `kx = (V per code) / ((A per code) * Z0)` (J = Io*Z0/Vin for every cell),
@@ -39,11 +42,15 @@
 pub mod fast_f32;
 pub mod fixed_point;
 pub mod libm_f32;
+#[cfg(feature = "micromath")]
+pub mod micromath_f32;
 pub mod pieces;
 
 pub use fast_f32::{F32Piece, FastF32, FastF32Parts};
 pub use fixed_point::{FixedPiece, FixedPoint, FixedPointParts};
 pub use libm_f32::LibmF32;
+#[cfg(feature = "micromath")]
+pub use micromath_f32::MicromathF32;
 pub use pieces::{Band, PieceLayout};
 
 use crate::error::{positive, Error, Quantity};
@@ -336,6 +343,16 @@ impl ClosedForm {
     /// As [`LibmF32::from_parts`].
     pub fn libm_f32(&self) -> Result<LibmF32, Error> {
         LibmF32::from_parts(self.f32_parts())
+    }
+
+    /// The `libm-f32` formula with `micromath`'s approximations (feature
+    /// `micromath`), on the same coefficients.
+    ///
+    /// # Errors
+    /// As [`MicromathF32::from_parts`].
+    #[cfg(feature = "micromath")]
+    pub fn micromath_f32(&self) -> Result<MicromathF32, Error> {
+        MicromathF32::from_parts(self.f32_parts())
     }
 
     /// The integer method on the ideal cell (one piece a band).

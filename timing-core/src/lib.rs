@@ -48,6 +48,8 @@
 //!   types, through their validating constructors.
 //! - `blob`: [`blob::open`] checks and opens `.bin` table blobs (postcard,
 //!   CRC-32) without allocating.
+//! - `micromath`: the `micromath-f32` closed form
+//!   (`closed_form::MicromathF32`, on `micromath`'s approximations).
 
 #![cfg_attr(not(test), no_std)]
 #![cfg_attr(

@@ -21,11 +21,12 @@ use std::path::Path;
 use std::process::{Command, ExitCode};
 
 const TARGETS: [&str; 2] = ["thumbv6m-none-eabi", "thumbv7em-none-eabihf"];
-const FEATURE_SETS: [&[&str]; 5] = [
+const FEATURE_SETS: [&[&str]; 6] = [
     &[],
     &["--features", "defmt"],
     &["--features", "serde"],
     &["--features", "blob"],
+    &["--features", "micromath"],
     &["--all-features"],
 ];
 

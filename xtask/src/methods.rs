@@ -23,7 +23,13 @@ use host_tool::model::design::Design;
 
 const BEGIN: &str = "<!-- methods-table:begin (cargo xtask methods) -->";
 const END: &str = "<!-- methods-table:end -->";
-const METHODS: [&str; 4] = ["table", "closed-form-f32", "fixed-point", "libm-f32"];
+const METHODS: [&str; 5] = [
+    "table",
+    "closed-form-f32",
+    "fixed-point",
+    "libm-f32",
+    "micromath-f32",
+];
 const CORES: [(&str, &str); 2] = [
     ("cortex-m4f", "thumbv7em-none-eabihf"),
     ("cortex-m0", "thumbv6m-none-eabi"),
@@ -99,8 +105,13 @@ fn proofs(design_path: &Path) -> Result<BTreeMap<(String, String), VerifyReport>
         None,
     );
     let libm = verify(&design, &cf.libm_f32().map_err(|e| e.to_string())?, None);
+    let micromath = verify(
+        &design,
+        &cf.micromath_f32().map_err(|e| e.to_string())?,
+        None,
+    );
     for (core, _) in CORES {
-        for r in [&fast, &fixed, &libm] {
+        for r in [&fast, &fixed, &libm, &micromath] {
             out.insert((core.to_owned(), r.method.to_owned()), r.clone());
         }
     }
@@ -179,7 +190,8 @@ fn table_text(root: &Path) -> Result<String, String> {
          with its own `kx`, ticks per radian, offset and voltage slope, over runs of the code \
          ratio (the same pieces in f32 and in integers); `libm-f32` is the ideal cell with \
          one constant-capacitance stand-in, the baseline, which does not follow the curve \
-         (about 4 ticks near the boundary). Instructions are counted by QEMU over the \
+         (about 4 ticks near the boundary), and `micromath-f32` the same formula with \
+         `micromath`'s `asin` and `sqrt`. Instructions are counted by QEMU over the \
          scenario's 2400 interrupts (`-icount`), flash is text and read-only data added by \
          the method (its own proof build less an empty one). Regenerate with \
          `cargo xtask methods`.\n"

@@ -3,10 +3,65 @@
 //! square root and its arcsine works through software routines, so this
 //! costs several hundred instructions (see the firmware example's
 //! ISR-COST lines).
+//!
+//! The formula itself (`eval_with`) is written once, generic over the
+//! two functions it needs (`AsinSqrt`); `MicromathF32` (feature
+//! `micromath`) runs the same formula with `micromath`'s approximations.
 
 use super::{check_f32_parts, f32_delay, F32Parts};
 use crate::table::Lookup;
 use crate::{AdcCode, Error};
+
+/// The two f32 functions the straightforward closed form needs.
+pub(crate) trait AsinSqrt {
+    /// `asin(x)`, radians, for `0 < x <= 1`.
+    fn asin(x: f32) -> f32;
+    /// `sqrt(x)` for `0 <= x <= 1`.
+    fn sqrt(x: f32) -> f32;
+}
+
+/// `libm`'s `asinf` and `sqrtf`.
+pub(crate) enum Libm {}
+
+impl AsinSqrt for Libm {
+    #[inline]
+    fn asin(x: f32) -> f32 {
+        libm::asinf(x)
+    }
+    #[inline]
+    fn sqrt(x: f32) -> f32 {
+        libm::sqrtf(x)
+    }
+}
+
+/// The ideal cell's closed form at the codes with one constant-capacitance
+/// stand-in (`p`): the target delay before rounding and, where ZVS is
+/// possible (`x = 1/J <= 1`), the window's opening and closing delays,
+/// ticks. With `x = kx * vin / (io - io_zero)` the turn-on angle is
+/// `x + pi + asin(x) + position * sqrt(1 - x^2) / x` in the ZVS branch and
+/// `x + 3pi/2` (the valley) beyond it.
+#[inline]
+pub(crate) fn eval_with<M: AsinSqrt>(
+    p: &F32Parts,
+    vin: AdcCode,
+    io: AdcCode,
+) -> (f32, Option<(f32, f32)>) {
+    use core::f32::consts::PI;
+    let v = f32::from(p.vin.clamp(vin));
+    let i = f32::from(p.io.clamp(io).wrapping_sub(p.io_zero));
+    let x = p.kx * v / i;
+    let ticks = |angle: f32| angle * p.ticks_per_rad - p.lead_ticks;
+    if x <= 1.0 {
+        let open = x + PI + M::asin(x);
+        let width = M::sqrt((1.0 - x) * (1.0 + x)) / x;
+        (
+            ticks(open + p.position * width),
+            Some((ticks(open), ticks(open + width))),
+        )
+    } else {
+        (ticks(x + 1.5 * PI), None)
+    }
+}
 
 /// The f32 closed form with libm (validated coefficients).
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -33,34 +88,12 @@ impl LibmF32 {
         &self.parts
     }
 
-    /// The target delay before rounding and, where ZVS is possible, the
-    /// window's opening and closing delays, ticks.
-    #[inline]
-    fn eval(&self, vin: AdcCode, io: AdcCode) -> (f32, Option<(f32, f32)>) {
-        use core::f32::consts::PI;
-        let p = &self.parts;
-        let v = f32::from(p.vin.clamp(vin));
-        let i = f32::from(p.io.clamp(io).wrapping_sub(p.io_zero));
-        let x = p.kx * v / i;
-        let ticks = |angle: f32| angle * p.ticks_per_rad - p.lead_ticks;
-        if x <= 1.0 {
-            let open = x + PI + libm::asinf(x);
-            let width = libm::sqrtf((1.0 - x) * (1.0 + x)) / x;
-            (
-                ticks(open + p.position * width),
-                Some((ticks(open), ticks(open + width))),
-            )
-        } else {
-            (ticks(x + 1.5 * PI), None)
-        }
-    }
-
     /// The delay before rounding, ticks, and whether the point is
     /// ZVS-capable (x <= 1).
     #[inline]
     #[must_use]
     pub fn raw_ticks(&self, vin: AdcCode, io: AdcCode) -> (f32, bool) {
-        let (t, w) = self.eval(vin, io);
+        let (t, w) = eval_with::<Libm>(&self.parts, vin, io);
         (t, w.is_some())
     }
 
@@ -69,7 +102,7 @@ impl LibmF32 {
     /// below the ZVS boundary.
     #[inline]
     pub fn delay(&self, vin: AdcCode, io: AdcCode) -> Lookup {
-        let (target, window) = self.eval(vin, io);
+        let (target, window) = eval_with::<Libm>(&self.parts, vin, io);
         f32_delay(&self.parts, target, window)
     }
 }

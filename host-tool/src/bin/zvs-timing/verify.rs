@@ -36,6 +36,8 @@ pub(crate) enum MethodArg {
     FixedPoint,
     /// Closed form in f32 with libm (baseline).
     LibmF32,
+    /// The libm-f32 formula with micromath's fast, small f32 approximations.
+    MicromathF32,
 }
 
 impl MethodArg {
@@ -46,6 +48,7 @@ impl MethodArg {
             Self::ClosedFormF32 => "closed-form-f32",
             Self::FixedPoint => "fixed-point",
             Self::LibmF32 => "libm-f32",
+            Self::MicromathF32 => "micromath-f32",
         }
     }
 }
@@ -119,6 +122,7 @@ pub(crate) fn open_method<'a>(
             None => anyhow::bail!("--method fixed-point needs the design's fitted pieces"),
         },
         (MethodArg::LibmF32, _) => Box::new(cf.libm_f32()?),
+        (MethodArg::MicromathF32, _) => Box::new(cf.micromath_f32()?),
     })
 }
 

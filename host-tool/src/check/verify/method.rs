@@ -1,7 +1,7 @@
 //! The runtime methods a verification checks, behind one trait: the table
 //! lookup and the closed forms, evaluated as the firmware evaluates them.
 
-use timing_core::closed_form::{FastF32, FixedPoint, LibmF32};
+use timing_core::closed_form::{FastF32, FixedPoint, LibmF32, MicromathF32};
 use timing_core::table::{DelayTable, Entries};
 use timing_core::{AdcCode, Ticks};
 
@@ -100,6 +100,17 @@ impl DelayMethod for FixedPoint<'_> {
 impl DelayMethod for LibmF32 {
     fn name(&self) -> &'static str {
         "libm-f32"
+    }
+    fn eval(&self, vin: u16, io: u16) -> (u32, Option<f64>) {
+        let (v, i) = (AdcCode::new(vin), AdcCode::new(io));
+        let (raw, _) = self.raw_ticks(v, i);
+        (self.delay(v, i).ticks.get(), Some(f64::from(raw)))
+    }
+}
+
+impl DelayMethod for MicromathF32 {
+    fn name(&self) -> &'static str {
+        "micromath-f32"
     }
     fn eval(&self, vin: u16, io: u16) -> (u32, Option<f64>) {
         let (v, i) = (AdcCode::new(vin), AdcCode::new(io));

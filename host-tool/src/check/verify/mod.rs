@@ -34,7 +34,8 @@ use crate::model::exact::ExactModel;
 /// What verification found.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct VerifyReport {
-    /// The method checked (`table`, `closed-form-f32`, `fixed-point`, `libm-f32`).
+    /// The method checked (`table`, `closed-form-f32`, `fixed-point`, `libm-f32`,
+    /// `micromath-f32`).
     pub method: &'static str,
     /// Worst |commanded - exact| over all pairs, ticks (includes the
     /// rounding to whole ticks).

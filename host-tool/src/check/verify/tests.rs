@@ -55,14 +55,15 @@ fn every_pair_of_the_range_is_checked() {
 fn a_run_of_a_method_is_the_method_at_each_pair() {
     let d = small();
     let cf = d.closed_form().unwrap();
-    let (fast, fixed, libm) = (
+    let (fast, fixed, libm, micromath) = (
         cf.fast_f32().unwrap(),
         cf.fixed_point().unwrap(),
         cf.libm_f32().unwrap(),
+        cf.micromath_f32().unwrap(),
     );
     let gen = crate::generate::generate(&d).unwrap();
     let table = gen.table.table().unwrap();
-    let methods: [&dyn DelayMethod; 4] = [&table, &fast, &fixed, &libm];
+    let methods: [&dyn DelayMethod; 5] = [&table, &fast, &fixed, &libm, &micromath];
     for m in methods {
         for cv in [d.vin_codes.lo, d.vin_codes.hi, 0, u16::MAX] {
             for (first, step) in [
