@@ -71,7 +71,7 @@ if [ -n "${PANIC_NEVER:-}" ]; then
   # purpose). They share the target directory with the scenario build.
   elf="target/$triple/release/embedded-example"
   base=0
-  for m in none table table-any closed-form-f32 fixed-point libm-f32 micromath-f32 leg trim; do
+  for m in none table table-any closed-form-f32 fixed-point libm-f32 micromath-f32 leg trim blob; do
     if ! build --no-default-features --features "proof-$m"; then
       echo "PANIC-NEVER target=$target_name method=$m linked=no (a panic path survives, see the undefined symbol above)" >&2
       exit 1

@@ -21,6 +21,8 @@
 mod hw;
 mod leg;
 mod plant;
+#[cfg(not(feature = "panic-never"))]
+mod telemetry;
 mod trim_scenario;
 
 use core::sync::atomic::{AtomicBool, AtomicU32, Ordering};
@@ -84,7 +86,8 @@ static BLOB: &[u8] = include_bytes!(concat!(env!("OUT_DIR"), "/winch_aux.bin"));
         feature = "proof-libm-f32",
         feature = "proof-micromath-f32",
         feature = "proof-leg",
-        feature = "proof-trim"
+        feature = "proof-trim",
+        feature = "proof-blob"
     ))
 ))]
 compile_error!("the panic-free proof build needs one `proof-<method>` feature (see qemu.sh)");
@@ -105,7 +108,6 @@ const CYCLES: u32 = 2400;
 /// 32 ticks per 5 instructions.
 const TICKS_PER_5_INSTR: u32 = 32;
 
-static FIRED: AtomicBool = AtomicBool::new(false);
 /// Which scenario the interrupt serves: the resonant cell's methods
 /// ([`MODE_CELL`]), the leg ([`MODE_LEG`]) or the trimmed table
 /// ([`MODE_TRIM`]).
@@ -115,13 +117,6 @@ const MODE_LEG: u32 = 1;
 const MODE_TRIM: u32 = 2;
 /// Set by the main loop: the interrupt starts the trim afresh.
 static TRIM_RESET: AtomicBool = AtomicBool::new(false);
-/// SysTick ticks of the trim's update and of the trimmed command in the
-/// last interrupt.
-static TRIM_COST: [AtomicU32; 2] = [const { AtomicU32::new(0) }; 2];
-/// SysTick ticks of each leg edge's compute path in the last interrupt.
-static LEG_COST: [AtomicU32; 2] = [const { AtomicU32::new(0) }; 2];
-/// SysTick ticks of each method's compute path in the last interrupt.
-static COST: [AtomicU32; 5] = [const { AtomicU32::new(0) }; 5];
 
 /// One method's compute path: read the conversions, compute, write the
 /// result (`out`: the compare register for the table, a shadow register
@@ -145,51 +140,48 @@ fn compute(method: usize) {
 /// compiler cannot schedule one method's instructions into another's
 /// measured region; the call and the prologue lie outside the two counter
 /// reads.
+/// Its SysTick ticks are returned for the interrupt's telemetry record.
 #[inline(never)]
-fn timed<const K: usize>() {
+fn timed<const K: usize>() -> u32 {
     let start = SYST::get_current();
     compute(K);
     let end = SYST::get_current();
-    if let Some(c) = COST.get(K) {
-        c.store(start.wrapping_sub(end) & 0x00ff_ffff, Ordering::Relaxed);
-    }
+    start.wrapping_sub(end) & 0x00ff_ffff
 }
 
 /// Run and time the leg's edge `K` (as [`timed`]).
 #[inline(never)]
-fn timed_leg<const K: usize>() {
+fn timed_leg<const K: usize>() -> u32 {
     let start = SYST::get_current();
     leg::compute(K);
     let end = SYST::get_current();
-    if let Some(c) = LEG_COST.get(K) {
-        c.store(start.wrapping_sub(end) & 0x00ff_ffff, Ordering::Relaxed);
-    }
+    start.wrapping_sub(end) & 0x00ff_ffff
 }
 
-/// Run and time the trim's update (as [`timed`]).
+/// Run and time the trim's update (as [`timed`]); `None` where the last
+/// command expected no opening, so no update ran.
 #[inline(never)]
-fn timed_trim_update(state: &mut trim_scenario::TrimState) {
+fn timed_trim_update(state: &mut trim_scenario::TrimState) -> Option<u32> {
     // The firmware's side, untimed: the capture register's read and
     // whether the last command expected an opening at all.
     let capture = hw::read_capture();
     if !trim_scenario::expects_opening(state) {
-        TRIM_COST[0].store(u32::MAX, Ordering::Relaxed);
-        return;
+        return None;
     }
     let start = SYST::get_current();
     trim_scenario::update(state, capture);
     let end = SYST::get_current();
-    TRIM_COST[0].store(start.wrapping_sub(end) & 0x00ff_ffff, Ordering::Relaxed);
+    Some(start.wrapping_sub(end) & 0x00ff_ffff)
 }
 
 /// Run and time the trimmed command: the table, the region, the trim's
 /// correction (as [`timed`]).
 #[inline(never)]
-fn timed_trim_command(state: &mut trim_scenario::TrimState) {
+fn timed_trim_command(state: &mut trim_scenario::TrimState) -> u32 {
     let start = SYST::get_current();
     trim_scenario::command(state);
     let end = SYST::get_current();
-    TRIM_COST[1].store(start.wrapping_sub(end) & 0x00ff_ffff, Ordering::Relaxed);
+    start.wrapping_sub(end) & 0x00ff_ffff
 }
 
 #[cfg(not(feature = "panic-never"))]
@@ -198,11 +190,12 @@ fn SysTick() {
     // The trim's state: the interrupt's alone (cortex-m-rt hands the
     // handler a `&mut` to it).
     static mut TRIM: trim_scenario::TrimState = trim_scenario::TrimState::new();
-    match MODE.load(Ordering::Relaxed) {
-        MODE_LEG => {
-            timed_leg::<0>();
-            timed_leg::<1>();
-        }
+    // The telemetry queue's producer end, the interrupt's alone too.
+    static mut SENDER: telemetry::Sender = telemetry::Sender::new();
+    let path = match MODE.load(Ordering::Relaxed) {
+        MODE_LEG => telemetry::Path::Leg {
+            ticks: [timed_leg::<0>(), timed_leg::<1>()],
+        },
         MODE_TRIM => {
             // Once per switching event (the main loop's model of the board
             // can outlast a period on the Cortex-M0).
@@ -215,19 +208,28 @@ fn SysTick() {
                 TRIM_RESET.store(false, Ordering::Relaxed);
                 *TRIM = trim_scenario::TrimState::new();
             }
-            timed_trim_update(TRIM);
-            timed_trim_command(TRIM);
-            trim_scenario::publish(TRIM);
+            let update_ticks = timed_trim_update(TRIM);
+            let command_ticks = timed_trim_command(TRIM);
+            let seen = trim_scenario::seen(TRIM);
+            telemetry::Path::Trim {
+                update_ticks,
+                command_ticks,
+                status: seen.status,
+                region: seen.region,
+                correction_ticks: seen.correction_ticks,
+            }
         }
-        _ => {
-            timed::<0>();
-            timed::<1>();
-            timed::<2>();
-            timed::<3>();
-            timed::<4>();
-        }
-    }
-    FIRED.store(true, Ordering::Release);
+        _ => telemetry::Path::Cell {
+            ticks: [
+                timed::<0>(),
+                timed::<1>(),
+                timed::<2>(),
+                timed::<3>(),
+                timed::<4>(),
+            ],
+        },
+    };
+    SENDER.send(path);
 }
 
 /// SysTick ticks around 32 `nop`s (the known sequence that checks the
@@ -274,8 +276,10 @@ fn exit(ok: bool) -> ! {
 /// reachable could panic, the link fails. `proof-table-any` hides the
 /// table too, so the proof covers the lookup of any validated table, not
 /// only this one; `proof-none` runs the sweep alone, the baseline for the
-/// methods' flash bytes. (The blob reader's postcard decoding is outside
-/// the proof: it runs once at start-up, before the interrupt.)
+/// methods' flash bytes. `proof-blob` opens the table blob (postcard
+/// decoding, CRC-32, the table's validation) from bytes and a design hash
+/// hidden from the optimiser, so the proof covers any bytes whatever, and
+/// looks the codes up in the table it gives.
 #[cfg(feature = "panic-never")]
 #[entry]
 fn main() -> ! {
@@ -358,6 +362,17 @@ fn proof_step() -> timing_core::Ticks {
         core::hint::black_box(&state);
         hw::commanded()
     }
+    #[cfg(feature = "proof-blob")]
+    {
+        // Any bytes of any length, any expected design.
+        let bytes: &[u8] = core::hint::black_box(BLOB);
+        let (vin, io) = hw::read_adc();
+        match timing_core::blob::open(bytes, core::hint::black_box(Some(built::DESIGN_HASH))) {
+            Ok((_, t)) => hw::write_compare(t.delay(vin, io).ticks),
+            Err(_) => hw::write_compare(timing_core::Ticks::new(0)),
+        }
+        hw::commanded()
+    }
     #[cfg(feature = "proof-none")]
     {
         let (vin, io) = hw::read_adc();
@@ -430,6 +445,11 @@ fn main() -> ! {
         exit(false)
     };
 
+    // The interrupt's records (its first send takes the other end).
+    let Some(mut rx) = telemetry::Receiver::new() else {
+        exit(false)
+    };
+
     core.SYST.set_clock_source(SystClkSource::Core);
     core.SYST.set_reload(PERIOD_TICKS - 1);
     core.SYST.clear_current();
@@ -451,14 +471,17 @@ fn main() -> ! {
     let mut cost_max = [0u32; 5];
     for cycle in 0..CYCLES {
         let s = plant.sample(cycle);
-        hw::post_conversions(
-            timing_core::AdcCode::new(s.vin_code),
-            timing_core::AdcCode::new(s.io_code),
-        );
-        FIRED.store(false, Ordering::Release);
-        while !FIRED.load(Ordering::Acquire) {
-            cortex_m::asm::wfi();
-        }
+        rx.post(|| {
+            hw::post_conversions(
+                timing_core::AdcCode::new(s.vin_code),
+                timing_core::AdcCode::new(s.io_code),
+            );
+        });
+        let record = rx.wait();
+        let telemetry::Path::Cell { ticks } = record.path else {
+            rx.wrong_path += 1;
+            continue;
+        };
         let commanded = [
             hw::commanded(),
             hw::shadow(1),
@@ -466,8 +489,8 @@ fn main() -> ! {
             hw::shadow(3),
             hw::shadow(4),
         ];
-        for k in 0..METHODS.len() {
-            let cost = COST[k].load(Ordering::Relaxed).saturating_sub(empty);
+        for (k, t) in ticks.iter().enumerate() {
+            let cost = t.saturating_sub(empty);
             cost_min[k] = cost_min[k].min(cost);
             cost_max[k] = cost_max[k].max(cost);
         }
@@ -538,6 +561,7 @@ fn main() -> ! {
                 commanded[0].get(),
                 t.turn_on.is_zvs()
             );
+            defmt::info!("cycle {=u32}: telemetry {}", cycle, record);
         }
     }
     core.SYST.disable_interrupt();
@@ -586,9 +610,23 @@ fn main() -> ! {
     );
     let missed = early.iter().chain(late.iter()).any(|&n| n > 0);
     let cell_ok = !missed && mismatch == 0 && zvs > 0 && valley > 0;
-    let leg_ok = run_leg(&mut core, target, empty);
-    let trim_ok = run_trim(&mut core, target, empty);
-    exit(cell_ok && leg_ok && trim_ok)
+    let leg_ok = run_leg(&mut core, &mut rx, target, empty);
+    let trim_ok = run_trim(&mut core, &mut rx, target, empty);
+    // Every interrupt's record reached the main loop, of the path its
+    // scenario runs.
+    let (lost, dropped) = (rx.lost, rx.dropped);
+    defmt::info!(
+        "TELEMETRY target={=str} records={=u32} stale={=u32} lost={=u32} dropped={=u32} deepest={=usize} wrong_path={=u32}",
+        target,
+        rx.received,
+        rx.stale,
+        lost,
+        dropped,
+        rx.deepest,
+        rx.wrong_path
+    );
+    let telemetry_ok = lost == 0 && dropped == 0 && rx.wrong_path == 0;
+    exit(cell_ok && leg_ok && trim_ok && telemetry_ok)
 }
 
 /// The half-bridge leg scenario ([`leg`]): both dead times from the edge
@@ -596,7 +634,12 @@ fn main() -> ! {
 /// `ZVS-SUMMARY` and an `ISR-COST` line per edge. True when no turn-on was
 /// early or late where a window a step wide exists, and both edges swung.
 #[cfg(not(feature = "panic-never"))]
-fn run_leg(core: &mut cortex_m::Peripherals, target: &str, empty: u32) -> bool {
+fn run_leg(
+    core: &mut cortex_m::Peripherals,
+    rx: &mut telemetry::Receiver,
+    target: &str,
+    empty: u32,
+) -> bool {
     let Some(judge) = leg::Judge::new() else {
         defmt::error!("the leg's model was refused");
         return false;
@@ -609,13 +652,14 @@ fn run_leg(core: &mut cortex_m::Peripherals, target: &str, empty: u32) -> bool {
     let mut cost_max = [0u32; 2];
     for cycle in 0..leg::CYCLES {
         let s = plant.sample(cycle, leg::CYCLES);
-        leg::post(&s);
-        FIRED.store(false, Ordering::Release);
-        while !FIRED.load(Ordering::Acquire) {
-            cortex_m::asm::wfi();
-        }
-        for e in 0..2 {
-            let cost = LEG_COST[e].load(Ordering::Relaxed).saturating_sub(empty);
+        rx.post(|| leg::post(&s));
+        let record = rx.wait();
+        let telemetry::Path::Leg { ticks } = record.path else {
+            rx.wrong_path += 1;
+            continue;
+        };
+        for (e, t) in ticks.iter().enumerate() {
+            let cost = t.saturating_sub(empty);
             cost_min[e] = cost_min[e].min(cost);
             cost_max[e] = cost_max[e].max(cost);
             let steps = hw::dead_time(e);
@@ -680,7 +724,12 @@ fn run_leg(core: &mut cortex_m::Peripherals, target: &str, empty: u32) -> bool {
 /// converged, every fault froze the trim within its stated cycles, and the
 /// update kept to its instruction budget.
 #[cfg(not(feature = "panic-never"))]
-fn run_trim(core: &mut cortex_m::Peripherals, target: &str, empty: u32) -> bool {
+fn run_trim(
+    core: &mut cortex_m::Peripherals,
+    rx: &mut telemetry::Receiver,
+    target: &str,
+    empty: u32,
+) -> bool {
     let Some(board) = trim_scenario::Board::new() else {
         defmt::error!("the drifted board's model was refused");
         return false;
@@ -692,21 +741,31 @@ fn run_trim(core: &mut cortex_m::Peripherals, target: &str, empty: u32) -> bool 
     let mut ok = true;
     for s in &trim_scenario::SCENARIOS {
         TRIM_RESET.store(true, Ordering::Release);
-        let mut fire = || {
-            FIRED.store(false, Ordering::Release);
-            while !FIRED.load(Ordering::Acquire) {
-                cortex_m::asm::wfi();
-            }
-            // (The update's slot holds u32::MAX where no update ran.)
-            for k in 0..2 {
-                let c = TRIM_COST[k].load(Ordering::Relaxed);
-                if c == u32::MAX {
-                    continue;
-                }
+        let mut fire = |post: &mut dyn FnMut()| {
+            rx.post(post);
+            let record = rx.wait();
+            let telemetry::Path::Trim {
+                update_ticks,
+                command_ticks,
+                status,
+                region,
+                correction_ticks,
+            } = record.path
+            else {
+                rx.wrong_path += 1;
+                return None;
+            };
+            for (k, c) in [update_ticks, Some(command_ticks)].into_iter().enumerate() {
+                let Some(c) = c else { continue };
                 let c = c.saturating_sub(empty);
                 cost_min[k] = cost_min[k].min(c);
                 cost_max[k] = cost_max[k].max(c);
             }
+            Some(trim_scenario::Seen {
+                status,
+                region,
+                correction_ticks,
+            })
         };
         let t = trim_scenario::run(&board, s, &mut fire);
         let pct = |a: u32, b: u32| {

@@ -23,11 +23,9 @@
 //! stuck low, captures lost, a burst of noise), each of which must freeze
 //! the trim within its stated number of cycles.
 
-use core::sync::atomic::{AtomicU32, Ordering};
-
 use timing_core::coss::{CossPoint, SwitchCapacitance};
 use timing_core::ring::RingCell;
-use timing_core::trim::{Freeze, Trim, TrimStatus};
+use timing_core::trim::{Trim, TrimStatus};
 use timing_core::{CellPoint, Ticks, Timer, Topology};
 
 use crate::hw;
@@ -113,38 +111,33 @@ pub fn command(state: &mut TrimState) {
     state.expect = ff.zvs;
 }
 
-/// The trim's status and the last command's region and correction, as the
-/// interrupt publishes them for the main loop.
-static PUBLISHED: [AtomicU32; 3] = [const { AtomicU32::new(0) }; 3];
-
-/// Publish the state after a cycle (outside the timed path).
-pub fn publish(state: &TrimState) {
-    let status = match state.trim.status() {
-        TrimStatus::Learning => 0,
-        TrimStatus::Frozen(Freeze::NoCapture) => 1,
-        TrimStatus::Frozen(Freeze::Implausible) => 2,
-        TrimStatus::Frozen(_) => 3,
-    };
-    PUBLISHED[0].store(status, Ordering::Relaxed);
-    PUBLISHED[1].store(state.region as u32, Ordering::Relaxed);
-    PUBLISHED[2].store(
-        state.trim.correction_ticks(state.region).to_bits(),
-        Ordering::Relaxed,
-    );
+/// What the main loop learns of the trim after an interrupt (through the
+/// telemetry queue): its status, the command's region and that region's
+/// correction.
+#[derive(Debug, Clone, Copy)]
+pub struct Seen {
+    /// The trim's status after the update.
+    pub status: TrimStatus,
+    /// The command's region.
+    pub region: u16,
+    /// The region's correction, ticks.
+    pub correction_ticks: f32,
 }
 
-/// The published status (0: learning, 1-3: frozen for no capture, an
-/// implausible capture, noise).
-fn status() -> u32 {
-    PUBLISHED[0].load(Ordering::Relaxed)
+impl Seen {
+    fn learning(&self) -> bool {
+        self.status == TrimStatus::Learning
+    }
 }
 
-/// The last command's region and its correction, ticks.
-fn region_correction() -> (usize, f32) {
-    (
-        PUBLISHED[1].load(Ordering::Relaxed) as usize,
-        f32::from_bits(PUBLISHED[2].load(Ordering::Relaxed)),
-    )
+/// The state after a cycle, for the interrupt's telemetry record (outside
+/// the timed path).
+pub fn seen(state: &TrimState) -> Seen {
+    Seen {
+        status: state.trim.status(),
+        region: state.region as u16,
+        correction_ticks: state.trim.correction_ticks(state.region),
+    }
 }
 
 /// The comparator trips this far above zero, volt (the design's
@@ -308,40 +301,27 @@ impl Board {
 
     /// The board's window at (`vin_v`, `io_a`) and the instant its switch
     /// voltage falls below the comparator's threshold (if it does before
-    /// the opening or the valley), second from gate turn-off.
+    /// the opening or the valley), second from gate turn-off
+    /// (`RingCell::threshold_crossing`, as the host's margins).
     fn at(&self, vin_v: f32, io_a: f32) -> Option<(Option<(f32, f32)>, Option<f32>)> {
         let cap = SwitchCapacitance::new(crate::model::CR_FIXED_F * C_SCALE, &self.coss).ok()?;
         let ring =
             RingCell::new(crate::model::LR_H * LR_SCALE, cap, crate::model::R_TANK_OHM).ok()?;
         let cell = CellPoint::from_converter(Topology::Buck, vin_v, 12.0, io_a).ok()?;
-        let mut last = (0.0f32, f32::MAX);
-        let mut trip = None;
-        let t = ring
-            .trace(&cell, &mut |t, v, _| {
-                if trip.is_none() && v < THRESHOLD_V && last.1 >= THRESHOLD_V && last.1 != f32::MAX
-                {
-                    // Linear between the steps (1/20 of a radian apart).
-                    let f = (last.1 - THRESHOLD_V) / (last.1 - v);
-                    trip = Some(last.0 + f * (t - last.0));
-                }
-                last = (t, v);
-            })
-            .ok()?;
+        let (t, trip) = ring.threshold_crossing(&cell, THRESHOLD_V).ok()?;
         let window = t.turn_on.window().map(|w| (w.open_s, w.close_s));
-        // The trace stops at its last whole step before the opening: a
-        // crossing in the final part lies between it and the zero.
-        if let (None, Some((open, _))) = (trip, window) {
-            if last.1 >= THRESHOLD_V && last.1 != f32::MAX {
-                trip = Some(last.0 + (last.1 - THRESHOLD_V) / last.1 * (open - last.0));
-            }
-        }
         Some((window, trip))
     }
 }
 
 /// Run `s` on a trim that has learnt nothing, calling `fire` for each
-/// cycle's interrupt (after posting the conversions and the capture).
-pub fn run(board: &Board, s: &Scenario, fire: &mut dyn FnMut()) -> Tally {
+/// cycle's interrupt with what posts the cycle's conversions and capture:
+/// it posts them and returns what the interrupt reported.
+pub fn run(
+    board: &Board,
+    s: &Scenario,
+    fire: &mut dyn FnMut(&mut dyn FnMut()) -> Option<Seen>,
+) -> Tally {
     let clock = board.timer.clock_hz();
     let envelope = settings::CONFIG.envelope_ticks();
     let limits = settings::CONFIG.limits();
@@ -355,6 +335,12 @@ pub fn run(board: &Board, s: &Scenario, fire: &mut dyn FnMut()) -> Tally {
     let mut zvs_at = [false; MAX_CYCLES];
     let mut inside_at = [false; MAX_CYCLES];
     let (fault, fault_at) = s.fault;
+    // What the last interrupt reported.
+    let mut seen = Seen {
+        status: TrimStatus::Learning,
+        region: 0,
+        correction_ticks: 0.0,
+    };
     for n in 0..cycles as u32 {
         let (vin_v, io_a) = (s.point)(n);
         let Some((window, trip)) = board.at(vin_v, io_a) else {
@@ -382,7 +368,7 @@ pub fn run(board: &Board, s: &Scenario, fire: &mut dyn FnMut()) -> Tally {
             if libm::fabsf(d) > envelope + 0.5 {
                 tally.outside_envelope += 1;
             }
-            if status() != 0 && applied != ff {
+            if !seen.learning() && applied != ff {
                 tally.frozen_not_ff += 1;
             }
         }
@@ -412,20 +398,26 @@ pub fn run(board: &Board, s: &Scenario, fire: &mut dyn FnMut()) -> Tally {
             }
         };
         let (vin_code, io_code) = Plant::sense(&mut noise, vin_v, io_a);
-        hw::post_conversions(
-            timing_core::AdcCode::new(vin_code),
-            timing_core::AdcCode::new(io_code),
-        );
-        hw::post_capture(capture);
-        fire();
-        let (region, c) = region_correction();
-        if status() == 0 {
+        // (A record of another path is counted by the caller; the cycle is
+        // skipped.)
+        let Some(now) = fire(&mut || {
+            hw::post_conversions(
+                timing_core::AdcCode::new(vin_code),
+                timing_core::AdcCode::new(io_code),
+            );
+            hw::post_capture(capture);
+        }) else {
+            continue;
+        };
+        seen = now;
+        let (region, c) = (usize::from(seen.region), seen.correction_ticks);
+        if seen.learning() {
             trace[n as usize] = (region as u16, c);
             if let Some(f) = finals.get_mut(region) {
                 *f = c;
             }
         }
-        if in_fault && tally.frozen_after == 0 && status() != 0 {
+        if in_fault && tally.frozen_after == 0 && !seen.learning() {
             tally.frozen_after = n - fault_at + 1;
         }
     }

@@ -399,3 +399,53 @@ fn a_blob_of_another_format_version_is_refused_by_name() {
         assert!(found > timing_core::blob::FORMAT_VERSION, "{found}");
     }
 }
+
+#[test]
+fn the_version_policy_holds_for_a_blob_of_every_layout() {
+    // The held-out boost forced to each table layout (a loose budget: the
+    // check is of the format, not the accuracy); each blob opens with
+    // today's version and is refused by name with an older or a newer one.
+    let v = u8::try_from(timing_core::blob::FORMAT_VERSION).unwrap();
+    let mut seen = Vec::new();
+    for layout in [
+        "ratio",
+        "log-ratio",
+        "log-uniform",
+        "grid",
+        "recip-ratio",
+        "log-volt",
+        "margin",
+        "ratio-volt",
+    ] {
+        let text = HELD_OUT
+            .replace(
+                "name = \"held_out_boost\"",
+                &format!("name = \"held_out_{}\"", layout.replace('-', "_")),
+            )
+            .replace(
+                "max_error_ticks = 1.0",
+                &format!("max_error_ticks = 200.0\nlayout = \"{layout}\""),
+            );
+        let d = Design::parse(&text, "layout.toml").unwrap();
+        let out = generate::generate(&d).unwrap();
+        let mut blob = export::blob(&d, &out.table).unwrap();
+        let (_, t) = timing_core::blob::open(&blob, Some(d.hash)).unwrap();
+        assert!(t.entry_bytes() > 0);
+        assert_eq!(blob[4], v, "{layout}: the version follows the magic");
+        for other in [v - 1, v + 1] {
+            blob[4] = other;
+            assert_eq!(
+                timing_core::blob::open(&blob, Some(d.hash)).unwrap_err(),
+                TableError::UnsupportedVersion {
+                    found: u16::from(other)
+                },
+                "{layout}"
+            );
+        }
+        seen.push(out.table.layout_name());
+    }
+    println!("version policy checked on blobs of the layouts {seen:?}");
+    seen.sort_unstable();
+    seen.dedup();
+    assert_eq!(seen.len(), 8, "{seen:?}");
+}
