@@ -13,8 +13,12 @@
 //!   error) and rewrite the table of them in `docs/methods.md`, or check it.
 //! - `demo-captures`: simulate the demo's bring-up captures in
 //!   `tables/bringup/` (needs ngspice).
+//! - `fuzz [--seconds N] [target...]`: run the fuzz targets of `fuzz/`
+//!   under libFuzzer, N seconds each (default 15, the four in 60 s); fails
+//!   on any crash (docs/fuzzing.md).
 
 mod captures;
+mod fuzz;
 mod methods;
 
 use std::path::Path;
@@ -115,8 +119,13 @@ fn main() -> ExitCode {
         "demo-captures" => {
             captures::demo_captures(&Path::new(env!("CARGO_MANIFEST_DIR")).join(".."))
         }
+        "fuzz" => fuzz::fuzz(
+            &Path::new(env!("CARGO_MANIFEST_DIR")).join(".."),
+            &std::env::args().skip(2).collect::<Vec<_>>(),
+        ),
         _ => Err(format!(
-            "unknown chore `{chore}`; chores: thumb, methods [--check], demo-captures"
+            "unknown chore `{chore}`; chores: thumb, methods [--check], demo-captures, \
+             fuzz [--seconds N] [target...]"
         )),
     };
     match result {
