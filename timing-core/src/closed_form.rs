@@ -48,9 +48,9 @@ pub mod pieces;
 
 pub use fast_f32::{F32Piece, FastF32, FastF32Parts};
 pub use fixed_point::{FixedPiece, FixedPoint, FixedPointParts};
-pub use libm_f32::LibmF32;
+pub use libm_f32::{AsinSqrt, Libm, LibmF32, StandInF32};
 #[cfg(feature = "micromath")]
-pub use micromath_f32::MicromathF32;
+pub use micromath_f32::{Micromath, MicromathF32};
 pub use pieces::{Band, PieceLayout};
 
 use crate::error::{positive, Error, Quantity};

@@ -4,24 +4,35 @@
 //! costs several hundred instructions (see the firmware example's
 //! ISR-COST lines).
 //!
-//! The formula itself (`eval_with`) is written once, generic over the
-//! two functions it needs (`AsinSqrt`); `MicromathF32` (feature
-//! `micromath`) runs the same formula with `micromath`'s approximations.
+//! The formula is written once ([`StandInF32`]), generic over the two
+//! functions it needs ([`AsinSqrt`]); `MicromathF32` (feature `micromath`)
+//! runs the same formula with `micromath`'s approximations.
+
+use core::marker::PhantomData;
 
 use super::{check_f32_parts, f32_delay, F32Parts};
 use crate::table::Lookup;
 use crate::{AdcCode, Error};
 
-/// The two f32 functions the straightforward closed form needs.
-pub(crate) trait AsinSqrt {
+/// The two f32 functions the straightforward closed form needs: the math
+/// library a [`StandInF32`] runs on ([`Libm`], or `micromath`'s with the
+/// feature `micromath`). Sealed.
+pub trait AsinSqrt: sealed::Sealed {
     /// `asin(x)`, radians, for `0 < x <= 1`.
     fn asin(x: f32) -> f32;
     /// `sqrt(x)` for `0 <= x <= 1`.
     fn sqrt(x: f32) -> f32;
 }
 
-/// `libm`'s `asinf` and `sqrtf`.
-pub(crate) enum Libm {}
+pub(crate) mod sealed {
+    pub trait Sealed {}
+}
+
+/// `libm`'s `asinf` (within 1 ulp) and `sqrtf` (correctly rounded).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Libm {}
+
+impl sealed::Sealed for Libm {}
 
 impl AsinSqrt for Libm {
     #[inline]
@@ -63,21 +74,36 @@ pub(crate) fn eval_with<M: AsinSqrt>(
     }
 }
 
-/// The f32 closed form with libm (validated coefficients).
+/// The straightforward f32 closed form on one stand-in with the math
+/// library `M` (validated coefficients): [`LibmF32`], and `MicromathF32`
+/// with the feature `micromath`.
 #[derive(Debug, Clone, Copy, PartialEq)]
-#[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub struct LibmF32 {
+pub struct StandInF32<M> {
     parts: F32Parts,
+    math: PhantomData<M>,
 }
 
-impl LibmF32 {
+/// The f32 closed form with libm: the baseline.
+pub type LibmF32 = StandInF32<Libm>;
+
+#[cfg(feature = "defmt")]
+impl<M> defmt::Format for StandInF32<M> {
+    fn format(&self, f: defmt::Formatter<'_>) {
+        defmt::write!(f, "StandInF32 {{ parts: {} }}", self.parts);
+    }
+}
+
+impl<M: AsinSqrt> StandInF32<M> {
     /// Validate the coefficients (usable in `const` items).
     ///
     /// # Errors
     /// As [`FastF32::from_parts`](super::FastF32::from_parts).
     pub const fn from_parts(parts: F32Parts) -> Result<Self, Error> {
         match check_f32_parts(&parts) {
-            Ok(()) => Ok(Self { parts }),
+            Ok(()) => Ok(Self {
+                parts,
+                math: PhantomData,
+            }),
             Err(e) => Err(e),
         }
     }
@@ -93,7 +119,7 @@ impl LibmF32 {
     #[inline]
     #[must_use]
     pub fn raw_ticks(&self, vin: AdcCode, io: AdcCode) -> (f32, bool) {
-        let (t, w) = eval_with::<Libm>(&self.parts, vin, io);
+        let (t, w) = eval_with::<M>(&self.parts, vin, io);
         (t, w.is_some())
     }
 
@@ -102,7 +128,7 @@ impl LibmF32 {
     /// below the ZVS boundary.
     #[inline]
     pub fn delay(&self, vin: AdcCode, io: AdcCode) -> Lookup {
-        let (target, window) = eval_with::<Libm>(&self.parts, vin, io);
+        let (target, window) = eval_with::<M>(&self.parts, vin, io);
         f32_delay(&self.parts, target, window)
     }
 }

@@ -41,10 +41,7 @@
 //! # Ok(()) }
 //! ```
 
-use super::libm_f32::{eval_with, AsinSqrt};
-use super::{check_f32_parts, f32_delay, F32Parts};
-use crate::table::Lookup;
-use crate::{AdcCode, Error};
+use super::libm_f32::{sealed::Sealed, AsinSqrt, StandInF32};
 
 /// Largest error of `micromath`'s `asin` on (0, 1], radians (measured
 /// 0.01798 at x = 0.594 by `asin_and_sqrt_within_their_bounds`).
@@ -59,7 +56,10 @@ pub const SQRT_MAX_RELATIVE_ERROR: f64 = 0.0607;
 /// is linked (the host's proofs) its inherent `f32::sqrt` would otherwise
 /// shadow `micromath`'s and the host would check other arithmetic than the
 /// firmware runs.
-enum Micromath {}
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Micromath {}
+
+impl Sealed for Micromath {}
 
 impl AsinSqrt for Micromath {
     #[inline]
@@ -73,54 +73,14 @@ impl AsinSqrt for Micromath {
 }
 
 /// The f32 closed form with `micromath` (validated coefficients).
-#[derive(Debug, Clone, Copy, PartialEq)]
-#[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub struct MicromathF32 {
-    parts: F32Parts,
-}
-
-impl MicromathF32 {
-    /// Validate the coefficients (usable in `const` items).
-    ///
-    /// # Errors
-    /// As [`FastF32::from_parts`](super::FastF32::from_parts).
-    pub const fn from_parts(parts: F32Parts) -> Result<Self, Error> {
-        match check_f32_parts(&parts) {
-            Ok(()) => Ok(Self { parts }),
-            Err(e) => Err(e),
-        }
-    }
-
-    /// The coefficients.
-    #[must_use]
-    pub const fn parts(&self) -> &F32Parts {
-        &self.parts
-    }
-
-    /// The delay before rounding, ticks, and whether the point is
-    /// ZVS-capable (x <= 1).
-    #[inline]
-    #[must_use]
-    pub fn raw_ticks(&self, vin: AdcCode, io: AdcCode) -> (f32, bool) {
-        let (t, w) = eval_with::<Micromath>(&self.parts, vin, io);
-        (t, w.is_some())
-    }
-
-    /// The delay to command: the nearest tick inside the window (or, where
-    /// none is, the nearest), clamped to the counter, with the fallback
-    /// below the ZVS boundary.
-    #[inline]
-    pub fn delay(&self, vin: AdcCode, io: AdcCode) -> Lookup {
-        let (target, window) = eval_with::<Micromath>(&self.parts, vin, io);
-        f32_delay(&self.parts, target, window)
-    }
-}
+pub type MicromathF32 = StandInF32<Micromath>;
 
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::closed_form::LibmF32;
+    use crate::closed_form::{F32Parts, LibmF32};
     use crate::table::Fallback;
+    use crate::AdcCode;
     use crate::CodeRange;
 
     /// Coefficients that make the delay the turn-on angle itself (one tick
