@@ -135,18 +135,23 @@ fn compute(method: usize) {
     }
 }
 
+/// SysTick ticks from `start` to `end` (the 24-bit counter counts down).
+#[inline(always)]
+fn ticks_between(start: u32, end: u32) -> u32 {
+    start.wrapping_sub(end) & 0x00ff_ffff
+}
+
 /// Run and time method `k` (SysTick counts down). Each method gets its own
 /// copy of this function (never inlined into the interrupt), so the
 /// compiler cannot schedule one method's instructions into another's
 /// measured region; the call and the prologue lie outside the two counter
-/// reads.
-/// Its SysTick ticks are returned for the interrupt's telemetry record.
+/// reads. Returns the SysTick ticks, for the interrupt's telemetry record.
 #[inline(never)]
 fn timed<const K: usize>() -> u32 {
     let start = SYST::get_current();
     compute(K);
     let end = SYST::get_current();
-    start.wrapping_sub(end) & 0x00ff_ffff
+    ticks_between(start, end)
 }
 
 /// Run and time the leg's edge `K` (as [`timed`]).
@@ -155,7 +160,7 @@ fn timed_leg<const K: usize>() -> u32 {
     let start = SYST::get_current();
     leg::compute(K);
     let end = SYST::get_current();
-    start.wrapping_sub(end) & 0x00ff_ffff
+    ticks_between(start, end)
 }
 
 /// Run and time the trim's update (as [`timed`]); `None` where the last
@@ -171,7 +176,7 @@ fn timed_trim_update(state: &mut trim_scenario::TrimState) -> Option<u32> {
     let start = SYST::get_current();
     trim_scenario::update(state, capture);
     let end = SYST::get_current();
-    Some(start.wrapping_sub(end) & 0x00ff_ffff)
+    Some(ticks_between(start, end))
 }
 
 /// Run and time the trimmed command: the table, the region, the trim's
@@ -181,7 +186,7 @@ fn timed_trim_command(state: &mut trim_scenario::TrimState) -> u32 {
     let start = SYST::get_current();
     trim_scenario::command(state);
     let end = SYST::get_current();
-    start.wrapping_sub(end) & 0x00ff_ffff
+    ticks_between(start, end)
 }
 
 #[cfg(not(feature = "panic-never"))]
@@ -248,7 +253,7 @@ fn known_measurement() -> u32 {
         cortex_m::asm::nop();
     }
     let end = SYST::get_current();
-    start.wrapping_sub(end) & 0x00ff_ffff
+    ticks_between(start, end)
 }
 
 /// SysTick ticks of an empty measurement (two reads back to back).
@@ -256,7 +261,7 @@ fn known_measurement() -> u32 {
 fn empty_measurement() -> u32 {
     let start = SYST::get_current();
     let end = SYST::get_current();
-    start.wrapping_sub(end) & 0x00ff_ffff
+    ticks_between(start, end)
 }
 
 fn exit(ok: bool) -> ! {

@@ -99,21 +99,14 @@ fn pairs(d: &Design, pad: u16) -> (std::ops::RangeInclusive<u16>, std::ops::Rang
 /// (bits) and command, the integer method's raw Q8 delay and command (the
 /// ZVS flag in bit 31), and with a trim the region and the predicted
 /// crossing for a feed-forward of 200 ticks.
-fn code_harness(n: &str, d: &Design, fast: bool, fixed: bool, trim: bool) -> String {
+fn code_harness(n: &str, d: &Design, trim: bool) -> String {
     let (v, i) = pairs(d, 8);
-    let mut body = String::new();
-    if fast {
-        body.push_str(&format!(
-            "      {{ int z; float raw = {n}_cf_f32_raw_ticks(v, i, &z); {n}_cf_lookup_t l = {n}_cf_f32_delay(v, i);\n        \
-             memcpy(&rec[0], &raw, 4); rec[1] = l.ticks | ((uint32_t)l.zvs << 31) | ((uint32_t)z << 30); }}\n"
-        ));
-    }
-    if fixed {
-        body.push_str(&format!(
-            "      {{ int z; int32_t raw = {n}_cf_fixed_raw_q8(v, i, &z); {n}_cf_lookup_t l = {n}_cf_fixed_delay(v, i);\n        \
-             rec[2] = (uint32_t)raw; rec[3] = l.ticks | ((uint32_t)l.zvs << 31) | ((uint32_t)z << 30); }}\n"
-        ));
-    }
+    let mut body = format!(
+        "      {{ int z; float raw = {n}_cf_f32_raw_ticks(v, i, &z); {n}_cf_lookup_t l = {n}_cf_f32_delay(v, i);\n        \
+         memcpy(&rec[0], &raw, 4); rec[1] = l.ticks | ((uint32_t)l.zvs << 31) | ((uint32_t)z << 30); }}\n\
+         \x20     {{ int z; int32_t raw = {n}_cf_fixed_raw_q8(v, i, &z); {n}_cf_lookup_t l = {n}_cf_fixed_delay(v, i);\n        \
+         rec[2] = (uint32_t)raw; rec[3] = l.ticks | ((uint32_t)l.zvs << 31) | ((uint32_t)z << 30); }}\n"
+    );
     if trim {
         body.push_str(&format!(
             "      rec[4] = {n}_trim_region(v, i); rec[5] = {n}_trim_predicted(rec[4], 200u);\n"
@@ -419,11 +412,7 @@ fn c_closed_forms_and_trim_match_rust_bit_for_bit() {
             .as_ref()
             .zip(margins.as_deref())
             .map(|((t, _), m)| (&t.regions, m));
-        std::fs::write(
-            dir.join("main.c"),
-            code_harness(&d.name, d, true, true, trim.is_some()),
-        )
-        .unwrap();
+        std::fs::write(dir.join("main.c"), code_harness(&d.name, d, trim.is_some())).unwrap();
         let cc = compile(&dir, &STRICT, "codes");
         assert!(
             cc.status.success(),
@@ -480,11 +469,7 @@ fn compiler_flags_that_break_the_f32_method_are_measured() {
     let pieces = fit_design_pieces(&d).unwrap();
     let header = closed_form_c_with(&d, &pieces, None).unwrap();
     std::fs::write(dir.join("cf.h"), &header).unwrap();
-    std::fs::write(
-        dir.join("main.c"),
-        code_harness(&d.name, &d, true, true, false),
-    )
-    .unwrap();
+    std::fs::write(dir.join("main.c"), code_harness(&d.name, &d, false)).unwrap();
     // -ffast-math is refused by the header itself.
     let fast_math = compile(&dir, &["-std=c99", "-O2", "-ffast-math"], "fast_math");
     assert!(!fast_math.status.success());

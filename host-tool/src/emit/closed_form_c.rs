@@ -28,7 +28,7 @@ use timing_core::table::Fallback;
 use timing_core::trim::{IMPLAUSIBLE, MEAN_SHIFT, MISSING, NOISY, OVER};
 
 use crate::check::verify::VerifyReport;
-use crate::emit::closed_form_source::{method_proofs, proof_line};
+use crate::emit::closed_form_source::proof_lines;
 use crate::generate::pieces::{fit_design_pieces, PieceSet};
 use crate::model::design::Design;
 use crate::model::trim_margin::{TrimPlan, TrimPlanError};
@@ -121,17 +121,8 @@ pub fn closed_form_c_with(
         design.io_codes.lo,
         design.io_codes.hi
     );
-    for (name, proof) in method_proofs(design, pieces, done)? {
-        if name == "libm-f32" {
-            continue;
-        }
-        match proof {
-            Ok(r) => proof_line(&mut s, &r),
-            Err(e) => {
-                let _ = writeln!(s, "// {name}: not available for this design: {e}");
-            }
-        }
-    }
+    // The header carries the two fitted methods, not the libm baseline.
+    proof_lines(&mut s, design, pieces, done, &["libm-f32"])?;
     let _ = writeln!(
         s,
         "// CAUTION: verify every delay at reduced voltage with a scope before full-voltage operation.\n\

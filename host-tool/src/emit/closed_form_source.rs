@@ -126,7 +126,33 @@ fn piece_items(
     s
 }
 
-pub(crate) fn proof_line(s: &mut String, v: &VerifyReport) {
+/// Each method's proof line (or why it is not available), those named in
+/// `skip` left out.
+///
+/// # Errors
+/// As [`method_proofs`].
+pub(crate) fn proof_lines(
+    s: &mut String,
+    design: &Design,
+    pieces: &PieceSet,
+    done: Option<&[VerifyReport]>,
+    skip: &[&str],
+) -> Result<(), timing_core::Error> {
+    for (name, proof) in method_proofs(design, pieces, done)? {
+        if skip.contains(&name) {
+            continue;
+        }
+        match proof {
+            Ok(r) => proof_line(s, &r),
+            Err(e) => {
+                let _ = writeln!(s, "// {name}: not available for this design: {e}");
+            }
+        }
+    }
+    Ok(())
+}
+
+fn proof_line(s: &mut String, v: &VerifyReport) {
     let _ = writeln!(
         s,
         "// {}: approximation error at most {:.4} ticks before rounding; commanded error at most {:.3} ticks (RMS {:.3});",
@@ -232,14 +258,7 @@ pub fn closed_form_source_with(
         design.io_codes.lo,
         design.io_codes.hi
     );
-    for (name, proof) in method_proofs(design, pieces, done)? {
-        match proof {
-            Ok(r) => proof_line(&mut s, &r),
-            Err(e) => {
-                let _ = writeln!(s, "// {name}: not available for this design: {e}");
-            }
-        }
-    }
+    proof_lines(&mut s, design, pieces, done, &[])?;
     let _ = writeln!(
         s,
         "// CAUTION: verify every delay at reduced voltage with a scope before full-voltage operation."
